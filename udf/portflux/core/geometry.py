@@ -1,0 +1,91 @@
+"""Vector helpers: directions from angles, unit vectors, dot products over the last axis.
+
+Axes are right-handed: x and y span the plane in which in-plane angles are measured (from +x
+toward +y), z is out of that plane (elevation angles are measured from the x-y plane toward +z).
+By default gravity points along -z (see :data:`STANDARD_GRAVITY`).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+#: Standard acceleration of gravity g_n [m/s^2] (exact by definition; NIST SP 330, 3rd CGPM 1901).
+STANDARD_GRAVITY = 9.80665
+
+
+def direction(angle, elevation=0.0):
+    """Unit vector from an in-plane angle and an elevation angle.
+
+    .. math:: \\hat e = (\\cos a \\cos e,\\; \\sin a \\cos e,\\; \\sin e)
+
+    Parameters
+    ----------
+    angle : array_like
+        In-plane angle a [rad], from +x toward +y.
+    elevation : array_like
+        Elevation angle e [rad], from the x-y plane toward +z.
+
+    Returns
+    -------
+    ndarray, shape (..., 3)
+        Unit vectors [-].
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> np.round(direction(np.pi / 2), 12) + 0.0
+    array([0., 1., 0.])
+
+    Reference: elementary vector geometry (spherical to Cartesian components).
+    """
+    a = np.asarray(angle, dtype=float)
+    e = np.asarray(elevation, dtype=float)
+    a, e = np.broadcast_arrays(a, e)
+    ce = np.cos(e)
+    return np.stack([np.cos(a) * ce, np.sin(a) * ce, np.sin(e)], axis=-1)
+
+
+def polar_velocity(speed, angle, elevation=0.0):
+    """Velocity components from a speed and its direction angles.
+
+    .. math:: \\vec V = s\\,(\\cos a \\cos e,\\; \\sin a \\cos e,\\; \\sin e)
+
+    Parameters
+    ----------
+    speed : array_like
+        Speed s [m/s]; a negative speed points opposite to the angles.
+    angle, elevation : array_like
+        Direction angles [rad], see :func:`direction`.
+
+    Returns
+    -------
+    ndarray, shape (..., 3)
+        Velocity [m/s].
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> polar_velocity(10.0, np.pi / 3).round(6).tolist()
+    [5.0, 8.660254, 0.0]
+    """
+    return np.asarray(speed, dtype=float)[..., None] * direction(angle, elevation)
+
+
+def dot(a, b):
+    """Dot product over the last axis, broadcasting the others.
+
+    >>> dot([1.0, 2.0, 3.0], [4.0, 5.0, 6.0])
+    32.0
+    """
+    r = np.einsum("...i,...i->...", np.asarray(a, dtype=float), np.asarray(b, dtype=float))
+    return float(r) if np.ndim(r) == 0 else r
+
+
+def norm(a):
+    """Euclidean length over the last axis [same unit as ``a``].
+
+    >>> norm([3.0, 4.0, 0.0])
+    5.0
+    """
+    r = np.sqrt(np.einsum("...i,...i->...", np.asarray(a, float), np.asarray(a, float)))
+    return float(r) if np.ndim(r) == 0 else r

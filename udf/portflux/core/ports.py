@@ -1,0 +1,255 @@
+"""The port set: every opening through which fluid crosses the control-volume surface, in SI.
+
+A :class:`Ports` object is built once per calculation, validated once, and then evaluated for one
+or many control-volume velocities by :func:`portflux.core.balance.balance`. Missing optional
+values are ``NaN`` in the float arrays; the constructor turns them into their defaults or checks
+that the port can do without them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .errors import InputError
+
+IN, OUT, UNKNOWN = -1, 1, 0
+
+_ROLE_WORDS = {"in": IN, "inlet": IN, "out": OUT, "outlet": OUT, "": UNKNOWN}
+
+
+def role_code(word) -> int:
+    """Map a role word to its code: ``"in"`` -> -1, ``"out"`` -> +1, blank -> 0.
+
+    >>> role_code("Inlet"), role_code("out"), role_code(None)
+    (-1, 1, 0)
+    """
+    if word is None:
+        return UNKNOWN
+    if isinstance(word, (int, np.integer)) and word in (IN, OUT, UNKNOWN):
+        return int(word)
+    key = str(word).strip().lower()
+    if key not in _ROLE_WORDS:
+        raise InputError(f"must be 'in' or 'out' (got {word!r})", field="role")
+    return _ROLE_WORDS[key]
+
+
+def _column(values, n, default=np.nan):
+    if values is None:
+        return np.full(n, default, dtype=float)
+    a = np.asarray(values, dtype=float)
+    if a.ndim == 0:
+        a = np.full(n, float(a))
+    if a.shape != (n,):
+        raise InputError(f"expected {n} values, got shape {a.shape}")
+    return a.copy()
+
+
+def _vectors(values, n):
+    if values is None:
+        return np.full((n, 3), np.nan)
+    a = np.asarray(values, dtype=float)
+    if a.shape == (3,):
+        a = np.broadcast_to(a, (n, 3))
+    if a.shape != (n, 3):
+        raise InputError(f"expected {n} rows of 3 components, got shape {a.shape}")
+    return a.copy()
+
+
+@dataclass(frozen=True, eq=False)
+class Ports:
+    """Validated port data in SI units; one entry per port.
+
+    Attributes
+    ----------
+    names : tuple of str
+        Port labels (used in messages and outputs).
+    area : ndarray (n,)
+        Flow area A [m^2]; NaN where the mass flow is given and no pressure acts.
+    density : ndarray (n,)
+        Density rho [kg/m^3]; NaN where the mass flow is given.
+    velocity : ndarray (n, 3)
+        Velocity as given [m/s], absolute or relative according to ``relative``.
+    relative : ndarray (n,) of bool
+        True where ``velocity`` is the relative velocity w, False where it is the absolute V.
+    normal : ndarray (n, 3)
+        Outward unit normal n [-] (resolved from the role where not given).
+    role : ndarray (n,) of int
+        -1 inlet, +1 outlet, 0 not declared.
+    beta : ndarray (n,)
+        Momentum-flux factor beta [-] (1 for uniform flow).
+    p_gauge : ndarray (n,)
+        Gauge pressure at the port [Pa].
+    mass_flow : ndarray (n,)
+        Given mass flow [kg/s], signed positive out of the CV; NaN where computed from rho (w.n) A.
+    height : ndarray (n,)
+        Height of the port above the datum, measured against gravity [m] (used by closures).
+    """
+
+    names: tuple
+    area: np.ndarray
+    density: np.ndarray
+    velocity: np.ndarray
+    relative: np.ndarray
+    normal: np.ndarray
+    role: np.ndarray
+    beta: np.ndarray
+    p_gauge: np.ndarray
+    mass_flow: np.ndarray
+    height: np.ndarray
+
+    @property
+    def n(self) -> int:
+        """Number of ports."""
+        return len(self.names)
+
+    @property
+    def given_flow(self) -> np.ndarray:
+        """True where the mass flow is given rather than computed."""
+        return ~np.isnan(self.mass_flow)
+
+    @classmethod
+    def build(cls, *, area=None, density=None, velocity=None, relative=False, normal=None,
+              role=None, beta=None, p_gauge=None, mass_flow=None, height=None, names=None):
+        """Validate port data (SI) and resolve defaults and role-based normals.
+
+        Parameters
+        ----------
+        area : array_like (n,)
+            Flow area [m^2], > 0. May be NaN where ``mass_flow`` is given and p_gauge is 0.
+        density : array_like (n,)
+            Density [kg/m^3], > 0. May be NaN where ``mass_flow`` is given.
+        velocity : array_like (n, 3)
+            Velocity components [m/s] in the frame named by ``relative``.
+        relative : bool or array_like (n,)
+            True: ``velocity`` is relative to the CV (w); False: absolute (V).
+        normal : array_like (n, 3), optional
+            Outward normal [-], any non-zero length; NaN rows are resolved from the role:
+            n = role * (velocity as given)/|velocity| (an outlet's normal along its flow, an
+            inlet's against it).
+        role : sequence of {'in', 'out', None, -1, 1, 0}, optional
+            Declared role of each port.
+        beta : array_like (n,), optional
+            Momentum-flux factor [-], >= 1; default 1.
+        p_gauge : array_like (n,), optional
+            Gauge pressure [Pa]; default 0.
+        mass_flow : array_like (n,), optional
+            Given mass flow [kg/s]: a magnitude >= 0 where a role is declared (the role gives the
+            sign), a signed value (positive out) where none is; NaN where computed.
+        height : array_like (n,), optional
+            Port height against gravity [m]; default 0.
+        names : sequence of str, optional
+            Port labels; default "1", "2", ...
+
+        Examples
+        --------
+        >>> p = Ports.build(area=[0.01, 0.01], density=1000.0,
+        ...                 velocity=[[20.0, 0, 0], [0, 20.0, 0]], role=["in", "out"])
+        >>> (p.normal + 0.0).tolist()
+        [[-1.0, 0.0, 0.0], [0.0, 1.0, 0.0]]
+        """
+        vel = np.asarray(velocity, dtype=float)
+        if vel.ndim != 2 or vel.shape[1] != 3 or vel.shape[0] == 0:
+            raise InputError(f"expected at least one port with 3 velocity components, got shape "
+                             f"{vel.shape}", field="velocity")
+        n = vel.shape[0]
+        vel = vel.copy()
+        names = tuple(str(x) for x in names) if names is not None else tuple(
+            str(i + 1) for i in range(n))
+        if len(names) != n:
+            raise InputError(f"expected {n} names, got {len(names)}", field="name")
+        area = _column(area, n)
+        density = _column(density, n)
+        beta = _column(beta, n, 1.0)
+        p_gauge = _column(p_gauge, n, 0.0)
+        mass_flow = _column(mass_flow, n)
+        height = _column(height, n, 0.0)
+        normal = _vectors(normal, n)
+        rel = np.broadcast_to(np.asarray(relative, dtype=bool), (n,)).copy()
+        if role is None:
+            role = [UNKNOWN] * n
+        if isinstance(role, (str, int)):
+            role = [role] * n
+        if len(role) != n:
+            raise InputError(f"expected {n} roles, got {len(role)}", field="role")
+        roles = np.empty(n, dtype=np.int8)
+        for i, r in enumerate(role):
+            try:
+                roles[i] = role_code(r)
+            except InputError as e:
+                raise InputError(e.message, port=i, field="role") from None
+
+        # NaN in an optional column means "default".
+        beta[np.isnan(beta)] = 1.0
+        p_gauge[np.isnan(p_gauge)] = 0.0
+        height[np.isnan(height)] = 0.0
+
+        for i in range(n):
+            _check_port(i, area[i], density[i], vel[i], normal[i], roles[i], beta[i],
+                        p_gauge[i], mass_flow[i], height[i])
+
+        # Resolve normals: explicit ones normalised, role-based ones along the given velocity.
+        given_n = ~np.isnan(normal).any(axis=1)
+        length = np.linalg.norm(normal, axis=1)
+        normal[given_n] /= length[given_n, None]
+        speed = np.linalg.norm(vel, axis=1)
+        by_role = ~given_n & (speed > 0)
+        normal[by_role] = roles[by_role, None] * vel[by_role] / speed[by_role, None]
+        normal[~given_n & ~(speed > 0)] = 0.0  # only allowed for given-flow ports without pressure
+        normal += 0.0  # no negative zeros in outputs
+
+        # Given mass flows: signed positive out.
+        has_m = ~np.isnan(mass_flow)
+        declared = has_m & (roles != UNKNOWN)
+        mass_flow[declared] = roles[declared] * np.abs(mass_flow[declared])
+        return cls(names, area, density, vel, rel, normal, roles, beta, p_gauge, mass_flow, height)
+
+    def subset(self, index) -> "Ports":
+        """The ports at ``index`` (an index array or boolean mask), in that order."""
+        idx = np.arange(self.n)[index]
+        return Ports(tuple(self.names[i] for i in idx), *(getattr(self, f)[idx] for f in (
+            "area", "density", "velocity", "relative", "normal", "role", "beta", "p_gauge",
+            "mass_flow", "height")))
+
+
+def _check_port(i, area, density, vel, normal, role, beta, p, mdot, height):
+    def bad(field, msg):
+        raise InputError(msg, port=i, field=field)
+
+    if not np.all(np.isfinite(vel)):
+        bad("velocity", f"must be finite numbers (got {vel.tolist()})")
+    has_m = not np.isnan(mdot)
+    if has_m:
+        if not np.isfinite(mdot):
+            bad("mass_flow", f"must be finite (got {mdot})")
+        if role != UNKNOWN and mdot < 0:
+            bad("mass_flow", f"give the magnitude (>= 0) when the role is declared; the role "
+                             f"sets the sign (got {mdot})")
+    for field, value, needed in (("area", area, not has_m or p != 0.0),
+                                 ("density", density, not has_m)):
+        if np.isnan(value):
+            if needed:
+                why = " (a gauge pressure acts on it)" if field == "area" and has_m else ""
+                bad(field, f"is required{why}")
+        elif not np.isfinite(value) or value <= 0:
+            bad(field, f"must be > 0 (got {value})")
+    if not np.isfinite(beta) or beta < 1.0:
+        bad("beta", f"must be >= 1: a momentum-flux factor of a real profile is never below 1 "
+                    f"(got {beta})")
+    if not np.isfinite(p):
+        bad("p_gauge", f"must be finite (got {p})")
+    if not np.isfinite(height):
+        bad("height", f"must be finite (got {height})")
+    if np.isnan(normal).any():
+        if not np.isnan(normal).all():
+            bad("normal", "give all three components or none")
+        if role == UNKNOWN:
+            bad("role", "is required when no normal is given ('in' or 'out')")
+        if not np.any(vel != 0.0) and not (has_m and p == 0.0):
+            bad("normal", "cannot follow a zero velocity; give the normal components")
+    else:
+        if not np.all(np.isfinite(normal)):
+            bad("normal", f"must be finite numbers (got {normal.tolist()})")
+        if np.linalg.norm(normal) < 1e-12:
+            bad("normal", "has zero length; give the outward direction of the port")

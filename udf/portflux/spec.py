@@ -1,0 +1,303 @@
+"""The port-table schema: column names, their quantity kinds, and rows -> :class:`core.Ports`.
+
+This layer sits between :mod:`portflux.units` and its users (the Python API and the worksheet
+functions). It knows column names and units, nothing about spreadsheets or engines. A table is a
+mapping ``column key -> list of row values`` (float, int, str or None for blank) plus a mapping
+``column key -> unit string``; :func:`build` converts each column to SI once and validates every
+port, raising :class:`InputError` that names the port (0-based row index) and the column.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import units as U
+from .core import InputError, Ports, polar_velocity
+
+EXCEL_ERRORS = ("#N/A", "#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#NULL!",
+                "#GETTING_DATA", "#SPILL!", "#CALC!", "#FIELD!", "#BLOCKED!", "#UNKNOWN!",
+                "#CONNECT!", "#BUSY!", "#PYTHON!")
+
+
+@dataclass(frozen=True)
+class Column:
+    """One port-table column: key, quantity kind (None for text), and its help text."""
+
+    key: str
+    kind: str | None
+    help: str
+    aliases: tuple = ()
+
+
+COLUMNS = {c.key: c for c in (
+    Column("port", None, "label of the port (text); default: its row number", ("name", "label")),
+    Column("role", None, "'in' or 'out'; sets the sign of a given mass flow and, with no normal "
+                         "given, the normal (along the velocity as given, against it for an inlet)"),
+    Column("frame", None, "'abs' (velocity seen by a fixed observer, default) or 'rel' (seen "
+                          "from the moving control volume)"),
+    Column("area", "area", "flow area of the port, > 0"),
+    Column("density", "density", "fluid density at the port, > 0", ("rho",)),
+    Column("vx", "velocity", "velocity x component (in the row's frame)"),
+    Column("vy", "velocity", "velocity y component"),
+    Column("vz", "velocity", "velocity z component"),
+    Column("speed", "velocity", "speed, with angle and tilt instead of components"),
+    Column("angle", "angle", "in-plane direction of the velocity, from +x toward +y "
+                             "(default 0)"),
+    Column("tilt", "angle", "elevation of the velocity from the x-y plane toward +z "
+                            "(default 0)"),
+    Column("nx", "ratio", "outward normal x component (any length > 0)"),
+    Column("ny", "ratio", "outward normal y component"),
+    Column("nz", "ratio", "outward normal z component"),
+    Column("beta", "ratio", "momentum-flux factor, >= 1 (default 1, uniform flow)"),
+    Column("p_gauge", "pressure", "gauge pressure at the port (default 0)",
+           ("gauge_pressure", "pgauge")),
+    Column("mass_flow", "mass_flow", "given mass flow (magnitude when role is given) instead "
+                                     "of density x velocity x area", ("mdot",)),
+    Column("volume_flow", "volume_flow", "given volume flow (with density) instead of "
+                                         "velocity x area", ("q",)),
+    Column("height", "length", "height of the port against gravity (default 0), used by the "
+                               "Bernoulli closure"),
+    Column("closure", None, "outlet speed rule: given (default), free, loss, bernoulli; "
+                            "'solve' marks an unknown outlet flow"),
+    Column("loss", "ratio", "fraction of relative speed lost across the body, 0 <= loss < 1 "
+                            "(closure 'loss')"),
+    Column("source", None, "label of the inlet a closure starts from (default: the only inlet)",
+           ("from",)),
+    Column("share", "ratio", "outlet's fraction of the total inflow (0..1)"),
+)}
+
+TEXT_COLUMNS = tuple(k for k, c in COLUMNS.items() if c.kind is None)
+
+_LOOKUP = {}
+for _c in COLUMNS.values():
+    for _name in (_c.key,) + _c.aliases:
+        _LOOKUP[_name.replace("_", "").lower()] = _c.key
+
+
+def resolve_header(text) -> str:
+    """Column key for a header cell: case-insensitive, spaces and underscores ignored.
+
+    >>> resolve_header("Mass Flow"), resolve_header("P_GAUGE"), resolve_header("rho")
+    ('mass_flow', 'p_gauge', 'density')
+    """
+    key = str(text).strip().lower().replace(" ", "").replace("_", "").replace("-", "")
+    if key not in _LOOKUP:
+        raise InputError(f"unknown column {str(text)!r}; known columns: "
+                         f"{', '.join(COLUMNS)}")
+    return _LOOKUP[key]
+
+
+def is_blank(v) -> bool:
+    """None, empty text or only spaces."""
+    return v is None or (isinstance(v, str) and v.strip() == "")
+
+
+def number(v, port: int, col: str) -> float:
+    """A numeric cell as float (NaN for blank); bad types name the port and column."""
+    if is_blank(v):
+        return math.nan
+    if isinstance(v, bool):
+        raise InputError(f"expected a number, got the boolean {v}", port=port, field=col)
+    if isinstance(v, (int, float, np.integer, np.floating)):
+        f = float(v)
+        if math.isnan(f):
+            raise InputError("is NaN; give a number", port=port, field=col)
+        if math.isinf(f):
+            raise InputError(f"must be finite (got {f})", port=port, field=col)
+        return f
+    if isinstance(v, str):
+        s = v.strip()
+        if s.upper() in EXCEL_ERRORS:
+            raise InputError(f"holds the spreadsheet error {s}; fix the cell it comes from",
+                             port=port, field=col)
+        raise InputError(f"expected a number, got text {v!r}", port=port, field=col)
+    raise InputError(f"expected a number, got {type(v).__name__} {v!r}", port=port, field=col)
+
+
+def text(v, port: int, col: str) -> str:
+    """A text cell stripped ("" for blank); numbers are refused where a word is expected."""
+    if is_blank(v):
+        return ""
+    if isinstance(v, str):
+        s = v.strip()
+        if s.upper() in EXCEL_ERRORS:
+            raise InputError(f"holds the spreadsheet error {s}", port=port, field=col)
+        return s
+    if col == "port" and isinstance(v, (int, float)) and not isinstance(v, bool):
+        return f"{v:g}"
+    raise InputError(f"expected text, got {v!r}", port=port, field=col)
+
+
+@dataclass
+class PortTable:
+    """A port table converted to SI: the core :class:`Ports` and the closure columns."""
+
+    ports: Ports
+    closure: tuple = ()          #: per port: "given", "free", "loss", "bernoulli", "solve"
+    loss: np.ndarray = None      #: per port loss fraction [-] (NaN blank)
+    source: tuple = ()           #: per port label of the closure's inlet ("" blank)
+    share: np.ndarray = None     #: per port share of the inflow [-] (NaN blank)
+    units: dict = field(default_factory=dict)  #: column key -> unit string as given
+
+    @property
+    def n(self) -> int:
+        return self.ports.n
+
+
+_FRAMES = {"": False, "abs": False, "absolute": False, "fixed": False,
+           "rel": True, "relative": True, "moving": True}
+_CLOSURES = {"": "given", "given": "given", "free": "free", "frictionless": "free",
+             "loss": "loss", "bernoulli": "bernoulli", "solve": "solve"}
+
+
+def build(table: dict, units: dict | None = None) -> PortTable:
+    """Validate and convert a port table to SI.
+
+    Parameters
+    ----------
+    table : dict
+        Column key (see :data:`COLUMNS`) -> list of row values (float, str, None for blank).
+        All lists have the same length (one entry per port).
+    units : dict, optional
+        Column key -> unit string; missing or blank means the column's default unit (SI;
+        angles in degrees).
+
+    Returns
+    -------
+    PortTable
+
+    Examples
+    --------
+    >>> t = build({"role": ["in", "out"], "area": [0.5, 0.5], "density": [1.94, 1.94],
+    ...            "speed": [60.0, 60.0], "angle": [0.0, 90.0]},
+    ...           {"area": "ft^2", "density": "slug/ft^3", "speed": "ft/s"})
+    >>> t.ports.velocity.round(4).tolist()
+    [[18.288, 0.0, 0.0], [0.0, 18.288, 0.0]]
+    """
+    units = dict(units or {})
+    table = {resolve_header(k): list(v) for k, v in table.items()}
+    lengths = {len(v) for v in table.values()}
+    if not table or lengths == {0}:
+        raise InputError("no port rows; give at least one port")
+    if len(lengths) != 1:
+        raise InputError("every column needs one value per port")
+    n = lengths.pop()
+    units = {resolve_header(k): v for k, v in units.items()}
+    factors = {}
+    for key, unit in list(units.items()) + [(k, None) for k in table if k not in units]:
+        kind = COLUMNS[key].kind
+        if kind is None:
+            if not is_blank(unit):
+                raise InputError(f"is a text column and takes no unit (got {unit!r})", field=key)
+            continue
+        try:
+            factors[key] = U.factor(unit, kind)
+        except InputError as e:
+            raise InputError(e.message, field=f"{key} unit") from None
+
+    def num(key):
+        vals = table.get(key)
+        if vals is None:
+            return np.full(n, np.nan)
+        return np.array([number(v, i, key) for i, v in enumerate(vals)]) * factors[key]
+
+    def words(key):
+        vals = table.get(key)
+        return [""] * n if vals is None else [text(v, i, key) for i, v in enumerate(vals)]
+
+    names = [s or str(i + 1) for i, s in enumerate(words("port"))]
+    seen = {}
+    for i, s in enumerate(names):
+        if s in seen:
+            raise InputError(f"label {s!r} is used by port {seen[s] + 1} already; labels must "
+                             f"be unique", port=i, field="port")
+        seen[s] = i
+    roles = words("role")
+    frames = []
+    for i, f in enumerate(words("frame")):
+        if f.lower() not in _FRAMES:
+            raise InputError(f"must be 'abs' or 'rel' (got {f!r})", port=i, field="frame")
+        frames.append(_FRAMES[f.lower()])
+    closures = []
+    for i, c in enumerate(words("closure")):
+        if c.lower() not in _CLOSURES:
+            raise InputError(f"must be one of given, free, loss, bernoulli, solve (got {c!r})",
+                             port=i, field="closure")
+        closures.append(_CLOSURES[c.lower()])
+
+    comps = np.stack([num("vx"), num("vy"), num("vz")], axis=1)
+    speed, angle, tilt = num("speed"), num("angle"), num("tilt")
+    has_c = ~np.isnan(comps).all(axis=1)
+    has_s = ~np.isnan(speed)
+    for i in range(n):
+        if not has_s[i] and (not np.isnan(angle[i]) or not np.isnan(tilt[i])):
+            if not has_c[i]:
+                raise InputError("angle or tilt is given without a speed", port=i, field="speed")
+    polar = polar_velocity(np.where(has_s, speed, 0.0), np.nan_to_num(angle),
+                           np.nan_to_num(tilt))
+    comps = np.where(np.isnan(comps) & has_c[:, None], 0.0, comps)
+    velocity = np.where(has_c[:, None], comps, polar)
+    both = has_c & has_s
+    for i in np.flatnonzero(both):
+        scale = max(np.linalg.norm(comps[i]), np.linalg.norm(polar[i]), 1e-300)
+        if np.linalg.norm(comps[i] - polar[i]) > 1e-6 * scale:
+            raise InputError(f"components vx, vy, vz and speed + angle disagree "
+                             f"({comps[i].round(6).tolist()} vs {polar[i].round(6).tolist()} "
+                             f"m/s); give one form", port=i, field="speed")
+
+    mass_flow = num("mass_flow")
+    qv = num("volume_flow")
+    density = num("density")
+    for i in np.flatnonzero(~np.isnan(qv)):
+        if not np.isnan(mass_flow[i]):
+            raise InputError("give mass_flow or volume_flow, not both", port=i,
+                             field="volume_flow")
+        if np.isnan(density[i]):
+            raise InputError("a volume flow needs the density", port=i, field="density")
+        if qv[i] < 0 and roles[i]:
+            raise InputError(f"give the magnitude (>= 0) when the role is declared (got "
+                             f"{table['volume_flow'][i]})", port=i, field="volume_flow")
+        mass_flow[i] = qv[i] * density[i]
+    need_v = np.isnan(mass_flow) & ~has_c & ~has_s
+    for i in np.flatnonzero(need_v):
+        raise InputError("velocity is required: give vx, vy, vz or speed (+ angle, tilt)",
+                         port=i, field="velocity")
+
+    nvec = np.stack([num("nx"), num("ny"), num("nz")], axis=1)
+    has_n = ~np.isnan(nvec).all(axis=1)
+    nvec = np.where(np.isnan(nvec) & has_n[:, None], 0.0, nvec)
+
+    loss, share = num("loss"), num("share")
+    for i in np.flatnonzero(~np.isnan(loss)):
+        if not 0.0 <= loss[i] < 1.0:
+            raise InputError(f"must be in [0, 1) (got {loss[i]:g})", port=i, field="loss")
+    for i in np.flatnonzero(~np.isnan(share)):
+        if not 0.0 <= share[i] <= 1.0:
+            raise InputError(f"must be in [0, 1] (got {share[i]:g})", port=i, field="share")
+
+    try:
+        ports = Ports.build(area=num("area"), density=density, velocity=velocity,
+                            relative=frames, normal=nvec, role=roles, beta=num("beta"),
+                            p_gauge=num("p_gauge"), mass_flow=mass_flow, height=num("height"),
+                            names=names)
+    except InputError as e:
+        raise _in_user_units(e, table, units) from None
+    return PortTable(ports=ports, closure=tuple(closures), loss=loss, source=tuple(words("source")),
+                     share=share, units={k: units.get(k) for k in table})
+
+
+def _in_user_units(e: InputError, table: dict, units: dict) -> InputError:
+    """Rewrite "(got <SI value>)" in a core message as the value and unit the user typed."""
+    if e.port is None or e.field not in table or "(got " not in e.message:
+        return e
+    raw = table[e.field][e.port]
+    unit = units.get(e.field)
+    kind = COLUMNS[e.field].kind
+    shown = f"{raw:g}" if isinstance(raw, (int, float)) and not isinstance(raw, bool) else repr(raw)
+    if kind not in (None, "ratio"):
+        shown += f" {U.display(unit, kind)}"
+    msg = e.message[:e.message.index("(got ")] + f"(got {shown})"
+    return InputError(msg, argument=e.argument, port=e.port, field=e.field)
