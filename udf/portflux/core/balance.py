@@ -262,8 +262,9 @@ def balance(ports: Ports, v_cv, *, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_
         mdot = mdot * scale[..., None]
 
     inflow = -np.sum(np.minimum(mdot, 0.0), axis=-1)
-    has_inlet = bool(np.any(role == IN))
-    no_contact = (inflow == 0.0) & has_inlet
+    # No contact: the body outruns every jet (some declared inlet's relative flow leaves and
+    # nothing enters). A CV at rest with zero flows is statics, not "no contact".
+    no_contact = (inflow == 0.0) & np.any(inlet_outflow, axis=-1)
     mdot = np.where(no_contact[..., None], 0.0, mdot)
     outflow = np.sum(np.maximum(mdot, 0.0), axis=-1)
     imbalance = np.sum(mdot, axis=-1)

@@ -1,0 +1,1 @@
+"""Built-in demo scenarios (invented for illustration; not measured data)."""
