@@ -115,7 +115,7 @@ def _factor(unit: str, kind: str) -> float:
     try:
         u = reg.parse_units(unit)
     except Exception:
-        raise InputError(f"unknown unit {unit!r}; expected a {kind.replace('_', ' ')} unit "
+        raise InputError(f"unknown unit {unit!r}; expected {_a(kind)} unit "
                          f"such as {q.examples}") from None
     if q.dimension == "angle":
         names = set(u._units.keys()) if hasattr(u, "_units") else set()
@@ -125,18 +125,24 @@ def _factor(unit: str, kind: str) -> float:
     want = reg.get_dimensionality(q.dimension) if q.dimension else reg.get_dimensionality("")
     if u.dimensionality != want:
         got = _describe_dimension(u.dimensionality)
-        raise InputError(f"unit {unit!r} is {got}, expected a {kind.replace('_', ' ')} unit "
+        raise InputError(f"unit {unit!r} is {got}, expected {_a(kind)} unit "
                          f"such as {q.examples}")
     if reg.Quantity(0.0, u).to(q.si or "dimensionless").magnitude != 0.0:
         raise InputError(f"unit {unit!r} has an offset (like degC); use an absolute unit")
     return float(reg.Quantity(1.0, u).to(q.si or "dimensionless").magnitude)
 
 
+def _a(kind: str) -> str:
+    """ "a velocity", "an area": the kind with its article, for messages."""
+    word = kind.replace("_", " ")
+    return ("an " if word[0] in "aeiou" else "a ") + word
+
+
 def _describe_dimension(dim) -> str:
     reg = registry()
     for q in QUANTITIES.values():
         if q.dimension not in ("", "angle") and reg.get_dimensionality(q.dimension) == dim:
-            return f"a {q.name.replace('_', ' ')} unit"
+            return f"{_a(q.name)} unit"
     return f"of dimension {dim}" if str(dim) != "dimensionless" else "dimensionless"
 
 

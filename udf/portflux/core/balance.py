@@ -155,7 +155,7 @@ class Balance:
 
 def balance(ports: Ports, v_cv, *, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_GRAVITY),
             tol=DEFAULT_IMBALANCE_TOL, intercept=SINGLE, cv_acceleration=None,
-            mass_flow=None) -> Balance:
+            mass_flow=None, w_override=None) -> Balance:
     """Mass and momentum balance of a CV moving at constant velocity.
 
     .. math::
@@ -187,6 +187,11 @@ def balance(ports: Ports, v_cv, *, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_
     mass_flow : array_like (..., n), optional
         Signed mass flows [kg/s] that override those computed (used by the outlet closures);
         NaN entries keep the port's own value.
+    w_override : array_like (..., n, 3), optional
+        Relative velocities w [m/s] that replace those of the ports (used by the outlet
+        closures, which set an outlet's relative speed at every CV velocity); a row holding a
+        NaN keeps the port's own. The absolute velocity of a replaced row is w + V_cv. Mass
+        flows that are computed follow the replaced w.
 
     Returns
     -------
@@ -207,6 +212,13 @@ def balance(ports: Ports, v_cv, *, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_
     1197.6
     >>> round(float(b.power), 3)
     11976.0
+
+    The same vane with the outlet's relative velocity replaced (turned through 90 degrees only;
+    NaN keeps the inlet's own), rho A (V-U)^2 (1 - cos 90):
+
+    >>> wo = [[np.nan] * 3, [0.0, 20.0, 0.0]]
+    >>> round(float(balance(p, [10.0, 0, 0], w_override=wo).force_on_body[0]), 6)
+    798.4
 
     Reference: moving-vane result F_x = rho A (V-U)^2 (1 - cos theta), White, *Fluid Mechanics*,
     sec. 3.4 (from memory); Fox & McDonald, *Introduction to Fluid Mechanics*, ch. 4 (from memory).
@@ -232,6 +244,16 @@ def balance(ports: Ports, v_cv, *, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_
     rel = ports.relative[:, None]
     w = np.where(rel, given_v, given_v - vc)               # (..., n, 3)
     v_abs = np.where(rel, given_v + vc, given_v)
+    if w_override is not None:
+        wo = np.asarray(w_override, dtype=float)
+        try:
+            wo = np.broadcast_to(wo, np.broadcast_shapes(wo.shape, w.shape))
+        except ValueError:
+            raise InputError(f"must broadcast to shape {w.shape} (got {wo.shape})",
+                             argument="w_override") from None
+        keep = np.isnan(wo).any(axis=-1, keepdims=True)
+        w = np.where(keep, w, wo)
+        v_abs = np.where(keep, v_abs, wo + vc)
     n_hat = ports.normal
     wn = np.einsum("...ij,ij->...i", w, n_hat)              # (..., n)
     vn = np.einsum("...ij,ij->...i", v_abs, n_hat)

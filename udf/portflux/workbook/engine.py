@@ -21,10 +21,20 @@ for our workbooks:
   value (``<v>``) of formula cells and of the cells an array formula covers.
   Formulas, styles, names, charts and everything else stay byte for byte;
   ``openpyxl.load_workbook(..., data_only=True)`` and other readers of cached
-  values see the computed numbers.  (LibreOffice 7.4 shows ``#NAME?`` in
-  cells calling functions it does not know, cached value or not.)  The output is written to a temporary file in the
-  target folder and moved into place with :func:`os.replace`; the input is
-  only ever opened for reading and writing over it is refused.
+  values see the computed numbers.  The output is written to a temporary
+  file in the target folder and moved into place with :func:`os.replace`;
+  the input is only ever opened for reading and writing over it is refused.
+* **LibreOffice.**  Calc 7.4 (default "Recalculation on File Load: Never
+  recalculate" for Excel 2007 and newer) shows the cached number or text of
+  every ordinary formula cell, calls of our own functions included; it
+  ignores ``fullCalcOnLoad``.  It discards the cached values of array
+  formulas (``<f t="array">``, one-cell arrays too) and of boolean and error
+  results (``t="b"``, ``t="e"``) and recalculates those cells, so where they
+  call a function it does not know they show ``#NAME?``.  This is its xlsx
+  importer (``sc/source/filter/oox/sheetdatacontext.cxx``: array formula
+  results are "not set as cell value"), not this file; no change to the
+  file that keeps the array formulas changes it
+  (``tests/test_engine_libreoffice.py``).
 * **Safe XML.**  Every XML part this module reads is parsed with
   :mod:`defusedxml`, and openpyxl (which the engine uses to read cells) is
   required to run with its defusedxml guard switched on.
@@ -837,9 +847,10 @@ def _patch_sheet_xml(xml: bytes, values: Mapping[str, Scalar],
 def _keep_cached_values_on_load(xml: bytes) -> bytes:
     """Switch off ``fullCalcOnLoad`` in the workbook's ``<calcPr>``.
 
-    openpyxl sets it on every workbook it saves; it makes Excel and
-    LibreOffice recalculate on opening, which without the add-in turns the
-    written values back into ``#NAME?``.
+    openpyxl sets it on every workbook it saves; it makes Excel recalculate
+    on opening, which without the add-in turns the written values back into
+    ``#NAME?``.  (LibreOffice 7.4 ignores the flag and follows its own
+    "Recalculation on File Load" setting.)
 
     >>> _keep_cached_values_on_load(b'<calcPr calcId="1" fullCalcOnLoad="1"/>')
     b'<calcPr calcId="1" fullCalcOnLoad="0"/>'
@@ -918,7 +929,10 @@ def recalc_file(in_path: str | os.PathLike, out_path: str | os.PathLike,
     an array formula covers gets its computed value as cached value, so
     readers of cached values (openpyxl ``data_only=True``, Excel before it
     recalculates) show numbers.  The workbook's "recalculate fully on load"
-    flag is cleared so that opening the file does not discard them.  All other parts of the package are copied unchanged.
+    flag is cleared so that opening the file does not discard them.  All
+    other parts of the package are copied unchanged.  LibreOffice shows the
+    cached values of ordinary formula cells but recalculates array formulas
+    (see the module notes).
 
     Parameters
     ----------

@@ -1,0 +1,397 @@
+"""Worksheet functions of portflux: point xlwings' "UDF Modules" at ``portflux.cells``.
+
+Every function takes its arguments exactly as a spreadsheet bridge hands them over (a scalar, or a
+range as rows of cells with None for blanks, float for numbers, str for text and the display
+strings of Excel errors such as "#N/A") and returns a scalar or a list of row lists. Bad input
+never raises: the function returns one short message naming the argument, the row and the column
+("ports row 4, area: must be > 0 (got -0.02 ft^2)"); Excel shows it in the first cell.
+
+Conventions (steady flow, control volume moving at constant velocity V_cv; e.g. F. M. White,
+*Fluid Mechanics*, sec. 3.4, from memory)::
+
+    w_i    = V_i - V_cv                      relative velocity at port i
+    mdot_i = rho_i (w_i . n_i) A_i            positive out of the CV (n_i outward)
+    R      = sum beta_i mdot_i w_i + sum p_i A_i n_i - m g      support force (solid on fluid)
+    F_body = -R,   P = F_body . V_cv          force on and power to the moving body
+
+Importing this module loads numpy, xlwings and portflux's own modules only; the pint registry is
+built on the first call that converts a unit.
+
+>>> ports = (("port", "role", "area", "density", "vx"),
+...          (None, None, "ft^2", "slug/ft^3", "ft/s"),
+...          ("jet", "in", 0.05, 1.94, 80.0))
+>>> round(PFX_MASSFLOWS(ports, 0.0, "US")[0][0], 9)   # -rho A V: 1.94 * 0.05 * 80 slug/s in
+-7.76
+"""
+
+from __future__ import annotations
+
+import xlwings as xw
+
+from . import _functions as F
+from ._grid import CellError
+from ._inputs import clear_caches
+from ..core import PortfluxError
+
+CATEGORY = "portflux"
+
+#: Help text of every argument (the Excel function dialog shows it; README lists it).
+ARG_DOCS = {
+    "ports": "Port table: row 1 column names, row 2 units (blank = default unit), one port per "
+             "row below. Blank rows/columns after the table are ignored.",
+    "cv_velocity": "Control-volume velocity: 3 components (1x3 or 3x1), a speed along +x, or "
+                   "speed and angle [deg]; an optional last text cell gives the unit (default m/s).",
+    "port": "Port label (text) or its 1-based number in the table.",
+    "units": "Output units: SI (default), US, or unit overrides such as 'US; force=kN' or "
+             "'SI; power=kW'.",
+    "labels": "TRUE adds a header row with units and a port-label column (default FALSE).",
+    "tolerance": "Relative mass-imbalance tolerance [-] for the status word (default 0.001, or "
+                 "the tolerance in settings).",
+    "axis": "x, y or z for one component; blank returns all three (1x3).",
+    "settings": "Optional rows name | value | unit: fluid_mass, gx, gy, gz, tolerance, "
+                "intercept (single or train).",
+    "kind": "jet (power / kinetic-energy flux of the incoming jet, default) or propulsive.",
+}
+
+#: Read options passed to xlwings for every argument. ``err_to_str`` makes xlwings hand over a
+#: cell error as its display string ("#N/A") instead of None, so an error in an optional column
+#: is reported instead of being read as a blank (= the column's default). It is a read option of
+#: xlwings' default conversion (since 0.28), not a converter; the functions do not depend on it.
+XW_ARG_OPTIONS = {"err_to_str": True}
+
+
+def _documented(*names):
+    """Apply ``@xw.arg(name, doc=ARG_DOCS[name])`` for each argument name (inner decorators)."""
+    def apply(f):
+        for name in reversed(names):
+            f = xw.arg(name, doc=ARG_DOCS[name], **XW_ARG_OPTIONS)(f)
+        return f
+    return apply
+
+
+def _excel_help(f):
+    """Outermost decorator: give Excel's function dialog the docstring's first paragraph only.
+
+    xlwings sends ``__xlfunc__["ret"]["doc"]`` (the whole docstring, cut at 255 characters) to
+    ``Application.MacroOptions``; the record exists only where xlwings records UDFs (Windows).
+    """
+    record = getattr(f, "__xlfunc__", None)
+    if isinstance(record, dict) and isinstance(record.get("ret"), dict) and f.__doc__:
+        record["ret"]["doc"] = " ".join(f.__doc__.split("\n\n")[0].split())[:255]
+    return f
+
+
+def _guarded(name, body, *args):
+    """Run a function body; turn every failure into a cell message (never raise)."""
+    try:
+        return body(*args)
+    except (CellError, PortfluxError) as e:
+        return str(e)
+    except Exception as e:  # noqa: BLE001 - a worksheet function must not raise
+        msg = " ".join(str(e).split())[:160]
+        return f"portflux: internal error in {name}: {type(e).__name__}: {msg}"
+
+
+# --------------------------------------------------------------------------------------------
+# reference functions (no inputs)
+# --------------------------------------------------------------------------------------------
+@_excel_help
+@xw.func(category=CATEGORY)
+def PFX_ABOUT():
+    """portflux version, sign conventions and cautions (a 2-column block).
+
+    >>> PFX_ABOUT()[1][0]
+    'portflux'
+    """
+    return _guarded("PFX_ABOUT", F.about)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("units")
+def PFX_COLUMNS(units=None):
+    """Port-table columns: name, aliases, default unit (or the unit of a units system), meaning.
+
+    Parameters
+    ----------
+    units : str, optional
+        "SI" (default) or "US" etc.: the unit column shows that system's unit of each column.
+
+    >>> [r[2] for r in PFX_COLUMNS("US") if r[0] in ("area", "vx")]
+    ['ft^2', 'ft/s']
+    """
+    return _guarded("PFX_COLUMNS", F.columns, units)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+def PFX_SETTINGS():
+    """Names accepted in a settings range (name | value | unit), their unit kind and default.
+
+    >>> [r[0] for r in PFX_SETTINGS()[1:]]
+    ['fluid_mass', 'gx', 'gy', 'gz', 'tolerance', 'intercept']
+    """
+    return _guarded("PFX_SETTINGS", F.settings_names)
+
+
+# --------------------------------------------------------------------------------------------
+# velocities and flows
+# --------------------------------------------------------------------------------------------
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "port", "units")
+def PFX_RELVEL(ports, cv_velocity, port, units=None):
+    """Relative velocity w = V - V_cv of one port, seen from the moving CV (1 x 3: wx, wy, wz).
+
+    A row given in the relative frame (frame 'rel') is returned as given.
+
+    Parameters
+    ----------
+    ports : range
+        Port table (see PFX_COLUMNS).
+    cv_velocity : range or number
+        CV velocity [m/s unless a unit cell follows].
+    port : str or number
+        Port label or 1-based port number.
+    units : str, optional
+        Output units; velocity in m/s (SI), ft/s (US).
+
+    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    ...      ("a", 0.01, 1000.0, 30.0, "in"))
+    >>> PFX_RELVEL(t, (12.0, 0.0, 0.0), "a")    # 30 - 12 m/s (Galilean addition)
+    [[18.0, 0.0, 0.0]]
+
+    Reference: Galilean velocity addition; White, *Fluid Mechanics*, sec. 3.4 (from memory).
+    """
+    return _guarded("PFX_RELVEL", F.relvel, ports, cv_velocity, port, units)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "units", "labels")
+def PFX_RELVELS(ports, cv_velocity, units=None, labels=False):
+    """Relative velocity w = V - V_cv of every port (n x 3: wx, wy, wz), one row per port.
+
+    Parameters
+    ----------
+    ports, cv_velocity : range
+        Port table and CV velocity (see PFX_RELVEL).
+    units : str, optional
+        Output units [velocity].
+    labels : bool, optional
+        TRUE adds a header row ("wx [ft/s]", ...) and a port-label column.
+
+    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
+    >>> PFX_RELVELS(t, 12.0, "SI", True)[0]
+    ['port', 'wx [m/s]', 'wy [m/s]', 'wz [m/s]']
+    """
+    return _guarded("PFX_RELVELS", F.relvels, ports, cv_velocity, units, labels)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "units", "labels")
+def PFX_ABSVEL(ports, cv_velocity, units=None, labels=False):
+    """Absolute velocity V of every port (n x 3), V = w + V_cv for rows given in frame 'rel'.
+
+    Parameters as PFX_RELVELS; the header reads "Vx [unit]".
+
+    >>> t = (("port", "frame", "area", "density", "vx", "role"), (None,) * 6,
+    ...      ("out", "rel", 0.01, 1000.0, 18.0, "out"))
+    >>> PFX_ABSVEL(t, 12.0)                    # 18 + 12 m/s
+    [[30.0, 0.0, 0.0]]
+    """
+    return _guarded("PFX_ABSVEL", F.absvels, ports, cv_velocity, units, labels)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "units", "labels", "settings")
+def PFX_MASSFLOWS(ports, cv_velocity, units=None, labels=False, settings=None):
+    """Signed mass flow of every port, mdot = rho (w . n) A, positive out of the CV (n x 1).
+
+    Parameters
+    ----------
+    ports, cv_velocity : range
+        Port table and CV velocity.
+    units : str, optional
+        Output units [mass flow]: kg/s (SI), slug/s (US).
+    labels : bool, optional
+        TRUE adds a header row and a port-label column.
+    settings : range, optional
+        intercept 'train' scales the flows to the nozzle's full flow (bucket wheel).
+
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "cm^2", None, None, None),
+    ...      ("a", 100.0, 1000.0, 30.0, "in"))
+    >>> PFX_MASSFLOWS(t, 12.0)                 # -1000 * 0.01 * (30 - 12) kg/s
+    [[-180.0]]
+    """
+    return _guarded("PFX_MASSFLOWS", F.massflows, ports, cv_velocity, units, labels, settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "tolerance", "units", "settings")
+def PFX_IMBALANCE(ports, cv_velocity, tolerance=None, units=None, settings=None):
+    """Mass balance check (1 x 3): sum of mass flows, that sum / inflow, status word.
+
+    The status is "ok" (|relative| <= tolerance), "imbalance", or "no contact" (the body outruns
+    every jet: no flow, no force).
+
+    Parameters
+    ----------
+    tolerance : number, optional
+        Relative tolerance [-]; default 0.001 or the settings value.
+    units : str, optional
+        Output units [mass flow] of the first cell.
+
+    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 31.0, "out"))
+    >>> PFX_IMBALANCE(t, 0.0)
+    [[10.0, 0.03333333333333333, 'imbalance']]
+    """
+    return _guarded("PFX_IMBALANCE", F.imbalance, ports, cv_velocity, tolerance, units, settings)
+
+
+# --------------------------------------------------------------------------------------------
+# forces, power, efficiency
+# --------------------------------------------------------------------------------------------
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "axis", "units", "settings")
+def PFX_SUPPORT(ports, cv_velocity, axis=None, units=None, settings=None):
+    """Support force R of the solid on the fluid (1 x 3, or one component with axis).
+
+    R = sum beta mdot w + sum p_gauge A n - m g; the force on the body is -R (PFX_BODYFORCE).
+
+    Parameters
+    ----------
+    axis : str, optional
+        "x", "y" or "z" for one component.
+    units : str, optional
+        Output units [force]: N (SI), lbf (US).
+    settings : range, optional
+        fluid_mass, gravity, intercept.
+
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
+    ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
+    >>> round(PFX_SUPPORT(t, 10.0, "x"), 6)       # -rho A (V-U)^2 for a 90 degree turn
+    -798.4
+
+    Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
+    """
+    return _guarded("PFX_SUPPORT", F.support, ports, cv_velocity, axis, units, settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "axis", "units", "settings")
+def PFX_BODYFORCE(ports, cv_velocity, axis=None, units=None, settings=None):
+    """Force of the fluid on the moving body, -R (1 x 3, or one component with axis).
+
+    A vane turning a jet through theta while running away from it at U takes
+    F_x = rho A (V - U)^2 (1 - cos theta).
+
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
+    ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
+    >>> [round(x, 6) for x in PFX_BODYFORCE(t, 10.0)[0]]
+    [798.4, -798.4, 0.0]
+
+    Reference: White, *Fluid Mechanics*, sec. 3.4, moving vane (from memory).
+    """
+    return _guarded("PFX_BODYFORCE", F.bodyforce, ports, cv_velocity, axis, units, settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "units", "settings")
+def PFX_POWER(ports, cv_velocity, units=None, settings=None):
+    """Power delivered to the moving body, P = F_body . V_cv [W (SI), hp (US)].
+
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
+    ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
+    >>> round(PFX_POWER(t, 10.0, "SI; power=kW"), 6)     # 798.4 N * 10 m/s
+    7.984
+    """
+    return _guarded("PFX_POWER", F.power, ports, cv_velocity, units, settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "kind", "settings", "units")
+def PFX_EFFICIENCY(ports, cv_velocity, kind=None, settings=None, units=None):
+    """Efficiency [-]: "jet" P / (kinetic-energy flux of the incoming jets, absolute frame) or
+    "propulsive" P / (P + net kinetic-energy outflow, absolute frame).
+
+    Parameters
+    ----------
+    kind : str, optional
+        "jet" (default) or "propulsive".
+    units : str, optional
+        "SI; ratio=%" returns percent.
+
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
+    ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
+    >>> round(PFX_EFFICIENCY(t, 10.0), 6)   # 7984 W / (0.5 * 998 * 0.002 * 30^3 W)
+    0.296296
+    """
+    return _guarded("PFX_EFFICIENCY", F.efficiency, ports, cv_velocity, kind, settings, units)
+
+
+# --------------------------------------------------------------------------------------------
+# checks and reports
+# --------------------------------------------------------------------------------------------
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "units", "settings")
+def PFX_FRAMECHECK(ports, cv_velocity, units=None, settings=None):
+    """Frame cross-check (5 x 4): sum mdot V, sum mdot w, their difference and V_cv x imbalance.
+
+    The difference equals V_cv times the mass imbalance; it vanishes when mass balances.
+
+    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
+    >>> [r[0] for r in PFX_FRAMECHECK(t, 10.0)]
+    ['quantity [N]', 'sum mdot V (absolute frame)', 'sum mdot w (relative frame)', \
+'difference (absolute - relative)', 'V_cv x mass imbalance']
+    """
+    return _guarded("PFX_FRAMECHECK", F.framecheck, ports, cv_velocity, units, settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "settings")
+def PFX_WARNINGS(ports, cv_velocity, settings=None):
+    """Every warning of the balance, one per row ("none" when there is none).
+
+    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
+    >>> PFX_WARNINGS(t, 10.0)
+    'none'
+    """
+    return _guarded("PFX_WARNINGS", F.warnings, ports, cv_velocity, settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "units", "settings")
+def PFX_SUMMARY(ports, cv_velocity, units=None, settings=None):
+    """All results in two columns, "quantity [unit]" and value: CV velocity, flows, imbalance,
+    status, support force and force on body (x, y, z), power, efficiencies, warnings.
+
+    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
+    >>> dict(PFX_SUMMARY(t, 10.0)[1:])["status"]
+    'ok'
+    """
+    return _guarded("PFX_SUMMARY", F.summary, ports, cv_velocity, units, settings)
+
+
+PUBLIC = tuple(sorted(n for n in dir() if n.startswith("PFX_")))
+
+__all__ = ["ARG_DOCS", "CATEGORY", "PUBLIC", "clear_caches", *PUBLIC]

@@ -1,0 +1,236 @@
+"""What each worksheet function computes, from parsed inputs to plain cell values.
+
+These are the bodies of the ``PFX_`` functions of :mod:`portflux.cells` (which adds the xlwings
+decorators and the error guard). They return Python floats, str and lists of row lists only;
+a value that has no number (an efficiency without a jet) becomes a short "n/a: ..." text.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .. import __version__
+from .. import spec
+from ._grid import CellError, describe, error_value, flag, is_number, one_cell, scalar_text
+from ._inputs import SETTINGS, evaluate, port_table, tolerance, unit_system
+
+AXES = {"x": 0, "y": 1, "z": 2, "1": 0, "2": 1, "3": 2}
+
+
+def _value(x, na="n/a"):
+    x = float(x)
+    if math.isnan(x):
+        return na
+    if math.isinf(x):
+        return f"{na} (infinite)"
+    return x + 0.0
+
+
+def _matrix(a) -> list:
+    return [[_value(x) for x in row] for row in np.atleast_2d(a)]
+
+
+def _labelled(body: list, columns: list, names, show: bool) -> list:
+    if not show:
+        return body
+    return [["port"] + columns] + [[name] + r for name, r in zip(names, body)]
+
+
+def _axis(raw):
+    a = scalar_text(raw, "axis")
+    if a == "":
+        return None
+    if a not in AXES:
+        raise CellError(f"axis: must be x, y or z, or blank for all three (got {a!r})")
+    return AXES[a]
+
+
+def _vector(vec, raw_axis):
+    k = _axis(raw_axis)
+    return _matrix(vec) if k is None else _value(vec[k])
+
+
+def _port_index(table, raw) -> int:
+    names = table.names
+    raw = one_cell(raw, "port")
+    err = error_value(raw)
+    if err:
+        raise CellError(f"port: holds the spreadsheet error {err}")
+    if is_number(raw):
+        k = float(raw)
+        if k != int(k) or not 1 <= k <= len(names):
+            raise CellError(f"port: number {k:g} is not a port; give 1 to {len(names)} or a label "
+                            f"({', '.join(names)})")
+        return int(k) - 1
+    if not isinstance(raw, str) or not raw.strip():
+        raise CellError(f"port: expected a port label or number, got {describe(raw)}")
+    s = raw.strip()
+    if s in names:
+        return names.index(s)
+    folded = [i for i, n in enumerate(names) if n.lower() == s.lower()]
+    if len(folded) == 1:
+        return folded[0]
+    raise CellError(f"port: no port labelled {s!r}; labels: {', '.join(names)}")
+
+
+# --------------------------------------------------------------------------------------------
+def about():
+    conventions = [
+        ["portflux", __version__],
+        ["module", "portflux.cells (xlwings UDF module)"],
+        ["model", "steady flow, control volume moving at constant velocity (inertial frame)"],
+        ["relative velocity", "w = V - V_cv at each port"],
+        ["mass flow", "rho (w . n) A, positive out of the CV, n = outward normal"],
+        ["support force", "force of the solid on the fluid, R"],
+        ["force on body", "-R, force of the fluid on the moving body"],
+        ["power", "force on body . V_cv, delivered to the body"],
+        ["pressures", "gauge (the atmosphere acts everywhere else)"],
+        ["units", "SI unless the units argument says otherwise (US, 'US; force=kN')"],
+        ["caution", "Idealized steady results: apply the safety factors and load cases of the "
+                    "governing code, have restraint designs checked under licensed engineering "
+                    "practice, treat high-pressure jets as hazardous."],
+    ]
+    return [["item", "value"]] + conventions
+
+
+def columns(units=None):
+    us = unit_system(units)
+    out = [["column", "aliases", "default unit", "meaning"]]
+    for c in spec.COLUMNS.values():
+        unit = "(text)" if c.kind is None else us.label(c.kind)
+        out.append([c.key, ", ".join(c.aliases), unit, c.help])
+    return out
+
+
+def settings_names():
+    return [["setting", "unit kind", "meaning"]] + [
+        [name, kind or "(text)", help_] for name, kind, help_ in SETTINGS.values()]
+
+
+def relvel(ports, cv_velocity, port, units=None):
+    t, b = evaluate(ports, cv_velocity)
+    k = _port_index(t, port)
+    return _matrix(unit_system(units).out(b.w[k], "velocity"))
+
+
+def _velocities(ports, cv_velocity, units, labels, attr, symbol):
+    show = flag(labels, "labels")
+    us = unit_system(units)
+    t, b = evaluate(ports, cv_velocity)
+    u = us.label("velocity")
+    body = _matrix(us.out(getattr(b, attr), "velocity"))
+    return _labelled(body, [f"{symbol}{c} [{u}]" for c in "xyz"], t.names, show)
+
+
+def relvels(ports, cv_velocity, units=None, labels=False):
+    return _velocities(ports, cv_velocity, units, labels, "w", "w")
+
+
+def absvels(ports, cv_velocity, units=None, labels=False):
+    return _velocities(ports, cv_velocity, units, labels, "v_abs", "V")
+
+
+def massflows(ports, cv_velocity, units=None, labels=False, settings=None):
+    show = flag(labels, "labels")
+    us = unit_system(units)
+    t, b = evaluate(ports, cv_velocity, settings)
+    body = [[_value(x)] for x in us.out(b.mass_flow, "mass_flow")]
+    return _labelled(body, [f"mass flow [{us.label('mass_flow')}] (+ out)"], t.names, show)
+
+
+def imbalance(ports, cv_velocity, tol=None, units=None, settings=None):
+    us = unit_system(units)
+    _, b = evaluate(ports, cv_velocity, settings, tolerance(tol))
+    return [[_value(us.out(b.imbalance, "mass_flow")),
+             _value(b.imbalance_rel, na="n/a: no inflow"), str(b.status)]]
+
+
+def support(ports, cv_velocity, axis=None, units=None, settings=None):
+    us = unit_system(units)
+    _, b = evaluate(ports, cv_velocity, settings)
+    return _vector(us.out(b.support_force, "force"), axis)
+
+
+def bodyforce(ports, cv_velocity, axis=None, units=None, settings=None):
+    us = unit_system(units)
+    _, b = evaluate(ports, cv_velocity, settings)
+    return _vector(us.out(b.force_on_body, "force"), axis)
+
+
+def power(ports, cv_velocity, units=None, settings=None):
+    us = unit_system(units)
+    _, b = evaluate(ports, cv_velocity, settings)
+    return _value(us.out(b.power, "power"))
+
+
+_EFFICIENCY = {
+    "jet": ("jet_efficiency", "n/a: no jet enters the CV"),
+    "propulsive": ("propulsive_efficiency", "n/a: the body receives no power"),
+}
+
+
+def efficiency(ports, cv_velocity, kind=None, settings=None, units=None):
+    k = scalar_text(kind, "kind") or "jet"
+    if k not in _EFFICIENCY:
+        raise CellError(f"kind: must be 'jet' or 'propulsive' (got {k!r})")
+    us = unit_system(units)
+    _, b = evaluate(ports, cv_velocity, settings)
+    attr, na = _EFFICIENCY[k]
+    return _value(us.out(getattr(b, attr), "ratio"), na=na)
+
+
+def framecheck(ports, cv_velocity, units=None, settings=None):
+    us = unit_system(units)
+    _, b = evaluate(ports, cv_velocity, settings)
+    f = us.label("force")
+    rows_ = (("sum mdot V (absolute frame)", b.flux_absolute),
+             ("sum mdot w (relative frame)", b.flux_relative),
+             ("difference (absolute - relative)", b.frame_difference),
+             ("V_cv x mass imbalance", b.frame_expected))
+    return [[f"quantity [{f}]", "x", "y", "z"]] + [
+        [label] + _matrix(us.out(v, "force"))[0] for label, v in rows_]
+
+
+def warnings(ports, cv_velocity, settings=None):
+    _, b = evaluate(ports, cv_velocity, settings)
+    w = b.warnings()
+    return [[m] for m in w] if w else "none"
+
+
+def summary(ports, cv_velocity, units=None, settings=None):
+    us = unit_system(units)
+    t, b = evaluate(ports, cv_velocity, settings)
+    lab = us.label
+    vel = us.out(b.v_cv, "velocity")
+    sup = us.out(b.support_force, "force")
+    body = us.out(b.force_on_body, "force")
+    m = lab("mass_flow")
+    f = lab("force")
+    w = b.warnings()
+    out = [["quantity [unit]", "value"]]
+    out += [[f"CV velocity {c} [{lab('velocity')}]", _value(x)] for c, x in zip("xyz", vel)]
+    out += [
+        ["ports", t.data.n],
+        ["intercept", b.intercept],
+        [f"mass inflow [{m}]", _value(us.out(b.inflow, "mass_flow"))],
+        [f"mass outflow [{m}]", _value(us.out(b.outflow, "mass_flow"))],
+        [f"mass imbalance, out - in [{m}]", _value(us.out(b.imbalance, "mass_flow"))],
+        [f"relative imbalance [{lab('ratio')}]",
+         _value(us.out(b.imbalance_rel, "ratio"), na="n/a: no inflow")],
+        [f"imbalance tolerance [{lab('ratio')}]", _value(us.out(b.tolerance, "ratio"))],
+        ["status", str(b.status)],
+    ]
+    out += [[f"support force on fluid {c} [{f}]", _value(x)] for c, x in zip("xyz", sup)]
+    out += [[f"force on body {c} [{f}]", _value(x)] for c, x in zip("xyz", body)]
+    out += [
+        [f"power to body [{lab('power')}]", _value(us.out(b.power, "power"))],
+        [f"jet efficiency [{lab('ratio')}]",
+         _value(us.out(b.jet_efficiency, "ratio"), na=_EFFICIENCY["jet"][1])],
+        [f"propulsive efficiency [{lab('ratio')}]",
+         _value(us.out(b.propulsive_efficiency, "ratio"), na=_EFFICIENCY["propulsive"][1])],
+        ["warnings", len(w)],
+        ["first warning", w[0] if w else "none"],
+    ]
+    return out

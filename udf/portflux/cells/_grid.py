@@ -1,0 +1,167 @@
+"""Raw cell values as a spreadsheet bridge hands them over, made hashable and rectangular.
+
+A bridge passes a worksheet argument as a scalar (float, str, bool, None for a blank cell) or a
+range as rows of cells: a tuple (or list) of row tuples; a one-row or one-column range may come
+flat, a single cell as a scalar. :func:`freeze` turns any of these into a hashable key (so parsed
+tables can be cached), :func:`rows` into a rectangular tuple of row tuples, and :func:`trim`
+drops the blank rows and columns after the data (users select a fixed range larger than their
+table). Excel error values arrive as their display strings ("#N/A", "#DIV/0!", ...).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..spec import EXCEL_ERRORS, is_blank
+
+_SEQUENCES = (list, tuple, np.ndarray)
+
+
+class CellError(ValueError):
+    """Bad worksheet input; the message names the argument, row and column and is shown as is."""
+
+
+def _cell(v):
+    if isinstance(v, np.generic):
+        return v.item()
+    if isinstance(v, float) and v == 0.0:
+        return 0.0  # -0.0 and 0.0 give one cache key
+    try:
+        hash(v)
+    except TypeError:
+        return repr(v)
+    return v
+
+
+def freeze(value):
+    """Hashable form of an argument: a scalar stays a scalar, a range becomes rows of cells.
+
+    >>> freeze([[1.0, None], [2.0, "m/s"]])
+    ((1.0, None), (2.0, 'm/s'))
+    >>> freeze([5.0, 0.0, "ft/s"])        # a one-row range handed over flat
+    ((5.0, 0.0, 'ft/s'),)
+    >>> freeze(3.0)
+    3.0
+    """
+    if isinstance(value, np.ndarray):
+        value = value.tolist()
+    if not isinstance(value, _SEQUENCES):
+        return _cell(value)
+    if not any(isinstance(r, _SEQUENCES) for r in value):
+        return (tuple(_cell(c) for c in value),)
+    out = []
+    for r in value:
+        if isinstance(r, np.ndarray):
+            r = r.tolist()
+        out.append(tuple(_cell(c) for c in r) if isinstance(r, _SEQUENCES) else (_cell(r),))
+    return tuple(out)
+
+
+def rows(frozen) -> tuple:
+    """Rectangular rows of cells from a frozen argument (short rows padded with None)."""
+    if not isinstance(frozen, tuple):
+        return ((frozen,),)
+    width = max((len(r) for r in frozen), default=0)
+    return tuple(r + (None,) * (width - len(r)) for r in frozen)
+
+
+def blank_row(row) -> bool:
+    return all(is_blank(c) for c in row)
+
+
+def trim(grid: tuple) -> tuple:
+    """Drop trailing blank rows and trailing blank columns.
+
+    >>> trim(((1.0, None, None), (None, 2.0, None), (None, None, None)))
+    ((1.0, None), (None, 2.0))
+    """
+    n = len(grid)
+    while n and blank_row(grid[n - 1]):
+        n -= 1
+    grid = grid[:n]
+    width = max((len(r) for r in grid), default=0)
+    while width and all(is_blank(r[width - 1]) for r in grid):
+        width -= 1
+    return tuple(r[:width] for r in grid)
+
+
+def error_value(v):
+    """The spreadsheet error a cell holds ("#N/A", ...) or None."""
+    if isinstance(v, str) and v.strip().upper() in EXCEL_ERRORS:
+        return v.strip().upper()
+    return None
+
+
+def is_number(v) -> bool:
+    return isinstance(v, (int, float)) and not isinstance(v, bool)
+
+
+def describe(v) -> str:
+    """A cell value as a message shows it: numbers plainly, text quoted."""
+    if is_number(v):
+        return f"the number {v:g}"
+    if isinstance(v, bool):
+        return f"the boolean {str(v).upper()}"
+    if isinstance(v, str):
+        return f"text {v!r}"
+    return f"{type(v).__name__} {v!r}"
+
+
+def number(v, where: str, *, allow_blank=False) -> float:
+    """A numeric cell as float; ``where`` ("settings row 3, gz") starts the message."""
+    if is_blank(v):
+        if allow_blank:
+            return math.nan
+        raise CellError(f"{where}: is blank; give a number")
+    err = error_value(v)
+    if err:
+        raise CellError(f"{where}: holds the spreadsheet error {err}; fix the cell it comes from")
+    if not is_number(v):
+        raise CellError(f"{where}: expected a number, got {describe(v)}")
+    f = float(v)
+    if not math.isfinite(f):
+        raise CellError(f"{where}: must be a finite number (got {f})")
+    return f
+
+
+def flag(v, where: str, default=False) -> bool:
+    """A TRUE/FALSE argument: booleans, 1/0, or the words true/false/yes/no; blank = default."""
+    v = one_cell(v, where)
+    if is_blank(v):
+        return default
+    if isinstance(v, bool):
+        return v
+    if is_number(v) and v in (0, 1):
+        return bool(v)
+    if isinstance(v, str) and v.strip().lower() in ("true", "yes", "false", "no"):
+        return v.strip().lower() in ("true", "yes")
+    raise CellError(f"{where}: must be TRUE or FALSE (got {describe(v)})")
+
+
+def one_cell(v, where: str):
+    """The value of a one-cell argument, however the bridge wrapped it (blank cells around it
+    are ignored); more than one filled cell is an error."""
+    v = freeze(v)
+    if not isinstance(v, tuple):
+        return v
+    cells = [c for r in rows(v) for c in r if not is_blank(c)]
+    if len(cells) > 1:
+        raise CellError(f"{where}: expected one cell, got {len(cells)} filled cells")
+    return cells[0] if cells else None
+
+
+def scalar_text(v, where: str) -> str:
+    """A one-cell text argument, stripped and lower-cased ("" for blank)."""
+    v = one_cell(v, where)
+    if is_blank(v):
+        return ""
+    err = error_value(v)
+    if err:
+        raise CellError(f"{where}: holds the spreadsheet error {err}")
+    if is_number(v):
+        return f"{v:g}"
+    if not isinstance(v, str):
+        raise CellError(f"{where}: expected text, got {describe(v)}")
+    return v.strip().lower()

@@ -1,0 +1,404 @@
+"""Worksheet arguments -> SI inputs of the engine, parsed once per distinct range and cached.
+
+Layout of the port table (rows counted from the top of the selected range):
+
+* row 1: column names (keys or aliases of :data:`portflux.spec.COLUMNS`, any order, any case);
+* row 2: the unit of each column as a pint string (blank = the column's default unit; text
+  columns take none);
+* rows 3...: one port per row.
+
+Blank rows and columns after the table are ignored. A blank row *inside* the table is an error
+naming the row: per-port results spill one row per port next to the table, and a skipped row
+would shift every row below it against its port.
+
+Every parse result (or its error message) is cached on the frozen raw argument, so a sheet with
+many functions on one table converts units and validates it once. pint is reached only through
+:func:`portflux.units.factor`, itself cached, once per column and never per cell.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from functools import lru_cache
+
+import numpy as np
+
+from .. import spec
+from .. import units as U
+from ..core import STANDARD_GRAVITY, Balance, InputError, OutsideScopeError, balance, polar_velocity
+from ..core.balance import DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN
+from ._grid import (CellError, blank_row, describe, error_value, freeze, is_blank, number,
+                    one_cell, rows, trim)
+
+_TABLE_LAYOUT = "row 1 names the columns, row 2 gives their units, ports start at row 3"
+FIRST_PORT_ROW = 3
+
+
+def _cached(maxsize):
+    """lru_cache that also remembers failures (as their message, re-raised as a new CellError)."""
+    def wrap(parse):
+        @lru_cache(maxsize=maxsize)
+        def remember(key):
+            try:
+                return True, parse(key)
+            except CellError as e:
+                return False, str(e)
+
+        def get(key):
+            ok, value = remember(key)
+            if not ok:
+                raise CellError(value)
+            return value
+
+        get.cache_clear = remember.cache_clear
+        get.cache_info = remember.cache_info
+        return get
+    return wrap
+
+
+# --------------------------------------------------------------------------------------------
+# port table
+# --------------------------------------------------------------------------------------------
+@dataclass(frozen=True, eq=False)
+class Table:
+    """A parsed port table: SI data plus what messages need to point back at the sheet."""
+
+    data: spec.PortTable
+    headers: dict   #: column key -> header text as the user typed it
+
+    @property
+    def names(self) -> tuple:
+        return self.data.ports.names
+
+
+def _text_cell(v, where, expected):
+    err = error_value(v)
+    if err:
+        raise CellError(f"{where}: holds the spreadsheet error {err}; {_TABLE_LAYOUT}")
+    if not isinstance(v, str):
+        raise CellError(f"{where}: expected {expected}, got {describe(v)}; {_TABLE_LAYOUT}")
+
+
+def _header(grid) -> tuple[dict, dict]:
+    cols, typed = {}, {}
+    for j, h in enumerate(grid[0]):
+        where = f"ports row 1, column {j + 1}"
+        if is_blank(h):
+            for i in range(1, len(grid)):
+                if not is_blank(grid[i][j]):
+                    raise CellError(f"ports row {i + 1}, column {j + 1}: holds {describe(grid[i][j])} "
+                                    f"under a blank column name; name the column in row 1 or "
+                                    f"clear it")
+            continue
+        _text_cell(h, where, "a column name (text)")
+        try:
+            key = spec.resolve_header(h)
+        except InputError as e:
+            raise CellError(f"{where}: {e.message}") from None
+        if key in cols:
+            raise CellError(f"ports row 1: columns {cols[key] + 1} ({typed[key]!r}) and {j + 1} "
+                            f"({h.strip()!r}) both give {key}; keep one")
+        cols[key], typed[key] = j, h.strip()
+    return cols, typed
+
+
+def _unit_row(grid, cols, typed) -> dict:
+    units = {}
+    for key, j in cols.items():
+        u = grid[1][j]
+        where = f"ports row 2, {typed[key]}"
+        if is_blank(u):
+            continue
+        _text_cell(u, where, "a unit (text) or a blank cell")
+        if spec.COLUMNS[key].kind is None:
+            raise CellError(f"{where}: a text column takes no unit (got {u.strip()!r}); leave the "
+                            f"cell blank")
+        units[key] = u.strip()
+    return units
+
+
+def _place(e: InputError, typed: dict) -> str:
+    """Rewrite a spec/core InputError as "ports row R, <header as typed>: message"."""
+    field, row = e.field, None
+    if field and field.endswith(" unit"):
+        field, row = field[:-len(" unit")], 2
+    elif e.port is not None:
+        row = e.port + FIRST_PORT_ROW
+    head = "ports" if row is None else f"ports row {row}"
+    msg = e.message
+    if field in typed:
+        return f"{head}, {typed[field]}: {msg}"
+    if field in spec.COLUMNS:
+        return f"{head}, {field}: {msg} (the table has no {field} column)"
+    return f"{head}, {field}: {msg}" if field else f"{head}: {msg}"
+
+
+# Closure columns are read by spec but not yet evaluated by the engine the cells call; refuse
+# them rather than silently ignoring them.
+_CLOSURE_ONLY = ("loss", "source", "share")
+
+
+def _refuse_closures(pt: spec.PortTable, cols: dict, typed: dict):
+    for i, c in enumerate(pt.closure):
+        if c != "given":
+            raise CellError(f"ports row {i + FIRST_PORT_ROW}, {typed['closure']}: closure {c!r} is "
+                            f"not evaluated by the worksheet functions yet; give the outlet "
+                            f"velocity and leave closure blank (or 'given')")
+    for key in _CLOSURE_ONLY:
+        if key not in cols:
+            continue
+        vals = getattr(pt, key)
+        filled = [i for i, v in enumerate(vals)
+                  if (v != "" if isinstance(v, str) else not math.isnan(v))]
+        if filled:
+            raise CellError(f"ports row {filled[0] + FIRST_PORT_ROW}, {typed[key]}: is used only by "
+                            f"outlet closures, which the worksheet functions do not evaluate yet; "
+                            f"clear it")
+
+
+@_cached(256)
+def _table(key) -> Table:
+    grid = trim(rows(key))
+    if not grid:
+        raise CellError(f"ports: the range is blank; {_TABLE_LAYOUT}")
+    if len(grid) == 1:
+        raise CellError(f"ports: only a header row; {_TABLE_LAYOUT} (row 2 may be blank)")
+    cols, typed = _header(grid)
+    if len(grid) == 2:
+        raise CellError(f"ports: no port rows; {_TABLE_LAYOUT}")
+    units = _unit_row(grid, cols, typed)
+    body = grid[2:]
+    for i, r in enumerate(body):
+        if blank_row(r):
+            nxt = next(k for k in range(i + 1, len(body)) if not blank_row(body[k]))
+            raise CellError(f"ports row {i + FIRST_PORT_ROW}: blank row inside the table (ports "
+                            f"continue at row {nxt + FIRST_PORT_ROW}); delete the row: blank rows "
+                            f"are ignored only after the last port")
+    table = {k: [r[j] for r in body] for k, j in cols.items()}
+    try:
+        pt = spec.build(table, units)
+    except InputError as e:
+        raise CellError(_place(e, typed)) from None
+    _refuse_closures(pt, cols, typed)
+    return Table(pt, typed)
+
+
+def port_table(raw) -> Table:
+    """The parsed port table of a ``ports`` argument (cached)."""
+    return _table(freeze(raw))
+
+
+# --------------------------------------------------------------------------------------------
+# CV velocity
+# --------------------------------------------------------------------------------------------
+_CV_FORMS = ("3 components (1x3 or 3x1), a speed along +x, or a speed and an angle [deg], "
+             "optionally followed by a unit cell such as 'ft/s'")
+
+
+@_cached(1024)
+def _cv(key) -> np.ndarray:
+    grid = trim(rows(key))
+    if not grid:
+        raise CellError(f"cv_velocity: is blank; give {_CV_FORMS} (0 for a CV at rest)")
+    if len(grid) > 1 and len(grid[0]) > 1:
+        raise CellError(f"cv_velocity: expected one row or one column, got a {len(grid)} x "
+                        f"{len(grid[0])} range; give {_CV_FORMS}")
+    cells = [c for r in grid for c in r]
+    unit = None
+    if isinstance(cells[-1], str) and not error_value(cells[-1]) and not is_blank(cells[-1]):
+        unit = cells.pop().strip()
+    if not cells:
+        raise CellError(f"cv_velocity: holds only the unit {unit!r}; put the velocity before it")
+    nums = [number(c, f"cv_velocity cell {k}") for k, c in enumerate(cells, 1)]
+    if len(nums) > 3:
+        raise CellError(f"cv_velocity: expected 1, 2 or 3 numbers, got {len(nums)}; give {_CV_FORMS}")
+    try:
+        f = U.factor(unit, "velocity")
+    except InputError as e:
+        raise CellError(f"cv_velocity, unit cell {len(cells) + 1}: {e.message}") from None
+    if len(nums) == 1:
+        v = np.array([nums[0], 0.0, 0.0])
+    elif len(nums) == 2:
+        v = polar_velocity(nums[0], math.radians(nums[1]))
+    else:
+        v = np.array(nums)
+    v = v * f + 0.0
+    v.setflags(write=False)
+    return v
+
+
+def cv_velocity(raw) -> np.ndarray:
+    """CV velocity [m/s], shape (3,), of a ``cv_velocity`` argument (cached)."""
+    return _cv(freeze(raw))
+
+
+# --------------------------------------------------------------------------------------------
+# settings
+# --------------------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Settings:
+    fluid_mass: float = 0.0                                 #: [kg]
+    gravity: tuple = (0.0, 0.0, -STANDARD_GRAVITY)          #: [m/s^2]
+    tolerance: float = DEFAULT_IMBALANCE_TOL                #: [-]
+    intercept: str = SINGLE
+
+
+SETTINGS = {  # normalised name -> (name shown, quantity kind or None for text, help)
+    "fluidmass": ("fluid_mass", "mass", "mass of fluid inside the CV (its weight is carried), "
+                                        "default 0"),
+    "gx": ("gx", "acceleration", "gravity x component, default 0"),
+    "gy": ("gy", "acceleration", "gravity y component, default 0"),
+    "gz": ("gz", "acceleration", f"gravity z component, default -{STANDARD_GRAVITY:g} m/s^2"),
+    "tolerance": ("tolerance", "ratio", "relative mass-imbalance tolerance, default "
+                                        f"{DEFAULT_IMBALANCE_TOL:g} (unit blank or %)"),
+    "intercept": ("intercept", None, "'single' vane (default) or vane 'train' (bucket wheel)"),
+}
+_SETTINGS_HEADER = ("setting", "name", "parameter", "quantity")
+
+
+def _setting_key(name) -> str:
+    return str(name).strip().lower().replace(" ", "").replace("_", "").replace("-", "")
+
+
+def _setting_value(name, kind, value, unit, where):
+    if kind is None:
+        if not is_blank(unit):
+            raise CellError(f"{where}: takes no unit (got {describe(unit)})")
+        if not isinstance(value, str) or value.strip().lower() not in (SINGLE, TRAIN):
+            raise CellError(f"{where}: must be 'single' or 'train' (got {describe(value)})")
+        return value.strip().lower()
+    x = number(value, where)
+    if not is_blank(unit) and not isinstance(unit, str):
+        raise CellError(f"{where}: the unit (column 3) must be text, got {describe(unit)}")
+    try:
+        si = x * U.factor(unit, kind)
+    except InputError as e:
+        raise CellError(f"{where} unit: {e.message}") from None
+    if name in ("fluid_mass", "tolerance") and si < 0:
+        shown = f" {unit.strip()}" if isinstance(unit, str) and unit.strip() else ""
+        raise CellError(f"{where}: must be >= 0 (got {x:g}{shown})")
+    return si
+
+
+@_cached(256)
+def _settings(key) -> Settings:
+    if key is None:
+        return Settings()
+    grid = rows(key)
+    found, seen = {}, {}
+    first = True
+    for i, r in enumerate(grid, 1):
+        if blank_row(r):
+            continue
+        name = r[0]
+        if first and isinstance(name, str) and name.strip().lower() in _SETTINGS_HEADER:
+            first = False
+            continue  # a header row "setting | value | unit"
+        first = False
+        if len(r) > 3 and not blank_row(r[3:]):
+            raise CellError(f"settings row {i}: expected name | value | unit, found cells after "
+                            f"column 3")
+        if not isinstance(name, str) or is_blank(name) or error_value(name):
+            raise CellError(f"settings row {i}, column 1: expected a setting name, got "
+                            f"{describe(name)}; known: {', '.join(s[0] for s in SETTINGS.values())}")
+        k = _setting_key(name)
+        if k not in SETTINGS:
+            raise CellError(f"settings row {i}: unknown setting {name.strip()!r}; known: "
+                            f"{', '.join(s[0] for s in SETTINGS.values())}")
+        shown, kind, _ = SETTINGS[k]
+        if k in seen:
+            raise CellError(f"settings rows {seen[k]} and {i} both set {shown}; keep one")
+        seen[k] = i
+        value = r[1] if len(r) > 1 else None
+        unit = r[2] if len(r) > 2 else None
+        found[shown] = _setting_value(shown, kind, value, unit, f"settings row {i}, {name.strip()}")
+    g = list(Settings.gravity)
+    for axis, name in enumerate(("gx", "gy", "gz")):
+        if name in found:
+            g[axis] = found.pop(name)
+    return Settings(gravity=tuple(g), **found)
+
+
+def settings(raw) -> Settings:
+    """Parsed ``settings`` argument (cached); blank means all defaults."""
+    key = freeze(raw)
+    if not isinstance(key, tuple) and is_blank(key):
+        key = None
+    elif not isinstance(key, tuple):
+        raise CellError(f"settings: expected a range of rows name | value | unit, got "
+                        f"{describe(key)}")
+    return _settings(key)
+
+
+# --------------------------------------------------------------------------------------------
+# output units
+# --------------------------------------------------------------------------------------------
+@_cached(128)
+def _unit_system(spec_text: str) -> U.UnitSystem:
+    try:
+        return U.UnitSystem(spec_text or None)
+    except InputError as e:
+        raise CellError(e.describe()) from None
+
+
+def unit_system(raw) -> U.UnitSystem:
+    """Output units of a ``units`` argument: blank = SI; cells of a range are joined with ';'."""
+    key = freeze(raw)
+    cells = [c for r in rows(key) for c in r if not is_blank(c)]
+    for c in cells:
+        err = error_value(c)
+        if err or not isinstance(c, str):
+            got = f"the spreadsheet error {err}" if err else describe(c)
+            raise CellError(f"units: expected text such as SI, US or 'US; force=kN', got {got}")
+    return _unit_system("; ".join(c.strip() for c in cells))
+
+
+# --------------------------------------------------------------------------------------------
+# the balance
+# --------------------------------------------------------------------------------------------
+def tolerance(raw):
+    """A ``tolerance`` argument [-] or None when blank."""
+    x = number(one_cell(raw, "tolerance"), "tolerance", allow_blank=True)
+    if math.isnan(x):
+        return None
+    if x < 0:
+        raise CellError(f"tolerance: must be >= 0 (got {x:g})")
+    return x
+
+
+@lru_cache(maxsize=512)
+def _evaluate(pkey, ckey, skey, tol):
+    try:
+        t = _table(pkey)
+        v = _cv(ckey)
+        s = _settings(skey)
+        try:
+            b = balance(t.data.ports, v, fluid_mass=s.fluid_mass, gravity=s.gravity,
+                        tol=s.tolerance if tol is None else tol, intercept=s.intercept)
+        except InputError as e:
+            where = "settings, " if e.argument in ("intercept", "fluid_mass", "tolerance") else ""
+            raise CellError(where + e.describe(lambda i: f"row {i + FIRST_PORT_ROW}")) from None
+        except OutsideScopeError as e:
+            raise CellError(str(e)) from None
+        return True, (t, b)
+    except CellError as e:
+        return False, str(e)
+
+
+def evaluate(ports, cv, settings_raw=None, tol=None) -> tuple[Table, Balance]:
+    """Parse (cached) and balance (cached) one control volume."""
+    skey = freeze(settings_raw)
+    if not isinstance(skey, tuple):
+        settings(skey)  # blank -> defaults; a scalar -> its message
+        skey = None
+    ok, value = _evaluate(freeze(ports), freeze(cv), skey, tol)
+    if not ok:
+        raise CellError(value)
+    return value
+
+
+def clear_caches():
+    """Forget every parsed table and balance (tests; a long-running sheet never needs it)."""
+    for f in (_table, _cv, _settings, _unit_system, _evaluate):
+        f.cache_clear()
