@@ -45,7 +45,8 @@ registered function that raises stops the recalculation with a
 :class:`RecalcError` naming the sheet and cell.
 
 This module takes its worksheet functions as a mapping and imports nothing
-from the rest of portflux (dependency direction: cells <- workbook).
+from the rest of portflux but :mod:`portflux.workbook.safety` (dependency
+direction: cells <- workbook).
 """
 from __future__ import annotations
 
@@ -84,6 +85,8 @@ except ImportError as exc:  # pragma: no cover - depends on the install
 from pycel import ExcelCompiler
 from pycel.excelutil import in_array_formula_context
 from pycel.lib.function_info import func_status_msg
+
+from .safety import WorkbookFileError, check_formula_functions, check_workbook_file
 
 __all__ = [
     "ERROR_VALUES",
@@ -198,19 +201,21 @@ def _from_function_result(name: str, result: Any) -> Any:
 
 
 def _bridge_wrapper(name: str, func: Callable,
-                    on_loose_array: Callable[[str], None]) -> Callable:
+                    on_result: Callable[[str, bool], None]) -> Callable:
     """Wrap a registered function so the engine calls it in bridge style.
 
-    ``on_loose_array(name)`` is told when the function returns more than one
-    value outside an array formula (the engine then keeps the top-left one).
+    ``on_result(name, loose)`` is told after every call; ``loose`` is True
+    when the function returned more than one value outside an array formula
+    (a plain cell then keeps only the top-left one, unless an enclosing
+    function such as INDEX takes the whole result).
     """
     def call(*args):
         converted = tuple(_to_bridge_arg(a) for a in args)
         try:
             result = _from_function_result(name, func(*converted))
-            if (isinstance(result, tuple) and len(result) * len(result[0]) > 1
-                    and not in_array_formula_context):
-                on_loose_array(name)
+            on_result(name, bool(
+                isinstance(result, tuple) and len(result) * len(result[0]) > 1
+                and not in_array_formula_context))
             return result
         except _FunctionCallError:
             raise
@@ -414,6 +419,10 @@ class Recalculator:
             raise RecalcError(f"{path}: no such workbook file")
         if os.path.splitext(path)[1].lower() not in _SUFFIXES:
             raise RecalcError(f"{path}: expected an .xlsx or .xlsm workbook")
+        try:  # zip bomb, XML entity bomb, not a workbook: refused before anything opens it
+            check_workbook_file(path)
+        except WorkbookFileError as exc:
+            raise RecalcError(str(exc)) from exc
         if not openpyxl.DEFUSEDXML:
             raise RecalcError(
                 "openpyxl is running without its defusedxml guard (is "
@@ -424,15 +433,24 @@ class Recalculator:
         self._upper_names = {n.upper(): n for n in self._functions}
         self._book_part, layouts = _read_layout(path)
         self._layout = {s.title: s for s in layouts}
+        # pycel runs formulas as Python with the built-ins in reach: only Excel's own functions
+        # and the registered ones may be named, or the workbook is refused before evaluation.
+        try:
+            check_formula_functions(
+                path, {(s.title, c): t for s in layouts for c, t in s.texts.items()},
+                self._upper_names, lambda n: bool(func_status_msg(n)[0]))
+        except WorkbookFileError as exc:
+            raise RecalcError(str(exc)) from exc
 
         # pycel finds extra functions in importable modules; give this
         # instance its own short-lived module so instances never share names.
         module = types.ModuleType(
             f"_portflux_engine_functions_{next(_MODULE_COUNTER)}")
-        self._loose_arrays: set[str] = set()
+        # (name, loose) of every call since the last plain-cell evaluation
+        self._calls: list[tuple[str, bool]] = []
         for name, func in self._functions.items():
             setattr(module, name.lower(), _bridge_wrapper(
-                name, func, self._loose_arrays.add))
+                name, func, lambda n, loose: self._calls.append((n, loose))))
         sys.modules[module.__name__] = module
         try:
             self._xl = ExcelCompiler(filename=path, plugins=[module.__name__])
@@ -528,10 +546,15 @@ class Recalculator:
                 for i in range(height)]
 
     def _single_value(self, sheet: str, coord: str) -> Scalar:
+        self._calls.clear()
         raw = self._engine_evaluate(sheet, coord)
         name = self._direct_calls.get((sheet, coord))
-        if name is not None and self._upper_names[name] in \
-                self._loose_arrays:
+        # the cell's own call completes last among the calls of its function
+        # (arguments are evaluated first); a cached cell makes no call.
+        own = [loose for n, loose in self._calls
+               if name is not None and n == self._upper_names[name]]
+        self._calls.clear()
+        if own and own[-1]:
             raise RecalcError(
                 f"sheet {sheet!r}, cell {coord}: {self._upper_names[name]} "
                 f"returns several values but the formula sits in one cell; "

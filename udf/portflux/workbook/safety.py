@@ -1,0 +1,346 @@
+"""Checks a workbook file must pass before any reader (openpyxl, the formula engine) opens it.
+
+An ``.xlsx`` / ``.xlsm`` workbook is an Office Open XML package: a zip archive of XML parts
+(ECMA-376 Part 2, Open Packaging Conventions). A hostile or broken file can hurt the reader in
+three ways, each bounded here *before* the package is parsed:
+
+* **not a workbook**: not a zip archive, a truncated or corrupted one, an encrypted entry, or a
+  package without ``[Content_Types].xml`` and ``xl/workbook.xml``;
+* **zip bomb**: a small file that inflates to gigabytes, through many entries, a huge declared
+  size, or an extreme compression ratio. The central directory is sized from the end record
+  before :mod:`zipfile` reads it; every entry is then inflated in chunks with a byte cap, never
+  whole, and its CRC-32 checked;
+* **XML entity bomb** ("billion laughs") and external entities: any XML part that declares a
+  DTD is refused. Each part is fed to :mod:`defusedxml`'s parser (``forbid_dtd=True``) in chunks
+  only until its root element opens: a DTD can only stand before the root element (XML 1.0,
+  production ``prolog``), so nothing after that needs reading.
+
+Work and memory are bounded by the limits below, whatever the file holds. The limits are far
+above any portflux workbook (templates are tens of kilobytes); raise them through the keyword
+arguments of :func:`check_workbook_file` if a legitimate workbook is refused.
+
+>>> import io, os, tempfile, zipfile
+>>> path = os.path.join(tempfile.mkdtemp(), "note.xlsx")
+>>> with open(path, "w") as f:
+...     _ = f.write("hello")
+>>> try:
+...     check_workbook_file(path)
+... except WorkbookFileError as e:
+...     print(str(e).split(": ", 1)[1])
+not an .xlsx workbook (not a zip archive)
+"""
+
+from __future__ import annotations
+
+import os
+import struct
+import zipfile
+import zlib
+
+from defusedxml import DefusedXmlException
+from defusedxml.ElementTree import DefusedXMLParser
+from xml.etree.ElementTree import ParseError
+
+from ..core.errors import PortfluxError
+
+__all__ = ["LIMITS", "WorkbookFileError", "check_formula_functions", "check_workbook_file"]
+
+#: Default limits (bytes unless stated). A workbook beyond one is refused with a message naming it.
+LIMITS = {
+    "max_file_bytes": 256 * 2**20,          # size of the file on disk
+    "max_entries": 10_000,                  # parts in the package
+    "max_directory_bytes": 16 * 2**20,      # size of the zip central directory
+    "max_part_bytes": 512 * 2**20,          # inflated size of one part
+    "max_total_bytes": 1024 * 2**20,        # inflated size of all parts together
+    "max_ratio": 100.0,                     # inflated / compressed size of a part ...
+    "ratio_applies_above": 2**20,           # ... counted only for parts larger than this
+    "max_prolog_bytes": 2**20,              # bytes read from an XML part to reach its root element
+}
+
+REQUIRED_PARTS = ("[Content_Types].xml", "xl/workbook.xml")
+
+_CHUNK = 64 * 1024
+_EOCD = b"PK\x05\x06"
+_EOCD64_LOCATOR = b"PK\x06\x07"
+_EOCD64 = b"PK\x06\x06"
+
+
+class WorkbookFileError(PortfluxError):
+    """A workbook file that is unsafe or unreadable; the message names the file and the fault."""
+
+    def __init__(self, path, problem: str):
+        self.path = os.fspath(path)
+        self.problem = problem
+        super().__init__(f"{self.path}: {problem}")
+
+
+class _RootReached(Exception):
+    """Raised from the parser target when the root element opens: the prolog is over."""
+
+
+class _StopAtRoot:
+    def start(self, tag, attrib):
+        raise _RootReached
+
+    def end(self, tag):
+        pass
+
+    def data(self, text):
+        pass
+
+    def close(self):
+        return None
+
+
+def _mib(n: float) -> str:
+    """A byte count as people read it: "512 MiB", "10 GiB", "70 KiB"."""
+    for unit, scale in (("GiB", 2**30), ("MiB", 2**20), ("KiB", 2**10)):
+        if n >= scale:
+            return f"{n / scale:.3g} {unit}"
+    return f"{n:.0f} bytes"
+
+
+def _directory_size(f, file_size: int) -> tuple[int, int] | None:
+    """(entries, central directory bytes) from the end record(s), or None if there is none."""
+    tail_len = min(file_size, 22 + 65535)
+    f.seek(file_size - tail_len)
+    tail = f.read(tail_len)
+    k = tail.rfind(_EOCD)
+    if k < 0 or len(tail) - k < 22:
+        return None
+    (_, _, _, _, entries, cd_size, _, _) = struct.unpack("<4s4H2LH", tail[k:k + 22])
+    if entries == 0xFFFF or cd_size == 0xFFFFFFFF:      # zip64: read the zip64 end record
+        loc = k - 20
+        if loc < 0 or tail[loc:loc + 4] != _EOCD64_LOCATOR:
+            return entries, cd_size
+        offset = struct.unpack("<Q", tail[loc + 8:loc + 16])[0]
+        if offset + 56 > file_size:
+            return None
+        f.seek(offset)
+        rec = f.read(56)
+        if rec[:4] != _EOCD64:
+            return None
+        entries, cd_size = struct.unpack("<QQ", rec[32:48])
+    return entries, cd_size
+
+
+def _scan_part(zf: zipfile.ZipFile, info: zipfile.ZipInfo, path: str, limits: dict) -> int:
+    """Inflate one part in chunks (capped), check its CRC and, if it is XML, its prolog.
+
+    Returns the number of bytes inflated.
+    """
+    name = info.filename
+    cap = min(info.file_size, limits["max_part_bytes"])
+    parser = None
+    prolog = 0
+    total = 0
+    first = True
+    try:
+        with zf.open(info) as member:
+            while True:
+                chunk = member.read(_CHUNK)
+                if not chunk:
+                    break
+                total += len(chunk)
+                if total > cap:   # zipfile stops at the declared size; this is a second guard
+                    raise WorkbookFileError(path, f"part {name!r} inflates beyond "
+                                                  f"{_mib(cap)}; refusing it (zip bomb?)")
+                if first:
+                    first = False
+                    head = chunk.lstrip(b"\xef\xbb\xbf \t\r\n")
+                    if head.startswith(b"<"):
+                        parser = DefusedXMLParser(target=_StopAtRoot(), forbid_dtd=True,
+                                                  forbid_entities=True, forbid_external=True)
+                if parser is not None:
+                    prolog += len(chunk)
+                    try:
+                        parser.feed(chunk)
+                    except _RootReached:
+                        parser = None
+                    except DefusedXmlException as e:
+                        raise WorkbookFileError(
+                            path, f"part {name!r} is not safe XML: it declares a DTD or entities "
+                                  f"({type(e).__name__}), which a workbook never needs; refusing "
+                                  f"it (XML entity bomb?)") from None
+                    except ParseError as e:
+                        raise WorkbookFileError(
+                            path, f"part {name!r} is not well-formed XML ({e})") from None
+                    if parser is not None and prolog > limits["max_prolog_bytes"]:
+                        raise WorkbookFileError(
+                            path, f"part {name!r}: no root element within the first "
+                                  f"{_mib(limits['max_prolog_bytes'])}; refusing it")
+    except WorkbookFileError:
+        raise
+    except (zipfile.BadZipFile, zlib.error, EOFError) as e:
+        raise WorkbookFileError(path, f"part {name!r} is corrupted ({e}); the file is damaged or "
+                                      f"truncated") from None
+    except NotImplementedError as e:
+        raise WorkbookFileError(path, f"part {name!r} cannot be read ({e})") from None
+    except RuntimeError as e:     # zipfile: "File ... is encrypted, password required"
+        raise WorkbookFileError(path, f"part {name!r} is encrypted ({e}); save the workbook "
+                                      f"without a password") from None
+    return total
+
+
+def check_workbook_file(path, **limits) -> None:
+    """Refuse a workbook file that is not a safe, readable OOXML package; return None if it is.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The workbook (``.xlsx`` / ``.xlsm``); only read.
+    **limits
+        Overrides of :data:`LIMITS` (same names).
+
+    Raises
+    ------
+    WorkbookFileError
+        Naming the file and the fault: not a zip archive, truncated or corrupted, too many parts,
+        too large when inflated, compressed beyond the ratio limit, a required part missing, an
+        encrypted part, or an XML part declaring a DTD.
+
+    Examples
+    --------
+    >>> import os, tempfile, openpyxl
+    >>> p = os.path.join(tempfile.mkdtemp(), "ok.xlsx")
+    >>> openpyxl.Workbook().save(p)
+    >>> check_workbook_file(p) is None
+    True
+
+    References: ECMA-376 Part 2 (Open Packaging Conventions); PKWARE APPNOTE.TXT (zip end of
+    central directory record, sec. 4.3.16; zip64 sec. 4.3.14-4.3.15); XML 1.0, sec. 2.8 (the DTD
+    belongs to the prolog). The ratio limit 100 follows Apache POI's default minimum inflate ratio
+    0.01 (from memory).
+    """
+    unknown = set(limits) - set(LIMITS)
+    if unknown:
+        raise TypeError(f"unknown limit(s): {', '.join(sorted(unknown))}")
+    lim = {**LIMITS, **limits}
+    path = os.fspath(path)
+    try:
+        size = os.path.getsize(path)
+        if not os.path.isfile(path):
+            raise WorkbookFileError(path, "not a regular file")
+    except OSError as e:
+        raise WorkbookFileError(path, f"cannot be read ({e.strerror or e})") from None
+    if size > lim["max_file_bytes"]:
+        raise WorkbookFileError(path, f"the file is {_mib(size)}, above the limit "
+                                      f"{_mib(lim['max_file_bytes'])}")
+    try:
+        with open(path, "rb") as f:
+            head = f.read(4)
+            found = _directory_size(f, size) if size >= 22 else None
+    except OSError as e:
+        raise WorkbookFileError(path, f"cannot be read ({e.strerror or e})") from None
+    if found is None:
+        if head.startswith(b"PK\x03\x04"):
+            raise WorkbookFileError(path, "not an .xlsx workbook (not a zip archive: the end of "
+                                          "the archive is missing; the file is truncated)")
+        if head.startswith(b"\xd0\xcf\x11\xe0"):
+            raise WorkbookFileError(path, "not an .xlsx workbook (not a zip archive: this is an "
+                                          "old binary .xls file or an encrypted workbook; save "
+                                          "it as .xlsx)")
+        raise WorkbookFileError(path, "not an .xlsx workbook (not a zip archive)")
+    entries, cd_size = found
+    if entries > lim["max_entries"]:
+        raise WorkbookFileError(path, f"the package declares {entries} parts, above the limit "
+                                      f"{lim['max_entries']}")
+    if cd_size > lim["max_directory_bytes"]:
+        raise WorkbookFileError(path, f"the zip directory is {_mib(cd_size)}, above the limit "
+                                      f"{_mib(lim['max_directory_bytes'])}")
+    try:
+        zf = zipfile.ZipFile(path)
+    except (zipfile.BadZipFile, OSError, EOFError, ValueError, struct.error) as e:
+        raise WorkbookFileError(path, f"not an .xlsx workbook (not a zip archive: {e})") from None
+    with zf:
+        infos = zf.infolist()
+        if len(infos) > lim["max_entries"]:
+            raise WorkbookFileError(path, f"the package holds {len(infos)} parts, above the "
+                                          f"limit {lim['max_entries']}")
+        total = 0
+        for info in infos:
+            if info.file_size > lim["max_part_bytes"]:
+                raise WorkbookFileError(path, f"part {info.filename!r} declares "
+                                              f"{_mib(info.file_size)} inflated, above the limit "
+                                              f"{_mib(lim['max_part_bytes'])} (zip bomb?)")
+            total += info.file_size
+            if total > lim["max_total_bytes"]:
+                raise WorkbookFileError(path, f"the parts declare more than "
+                                              f"{_mib(lim['max_total_bytes'])} inflated in all "
+                                              f"(zip bomb?)")
+            if info.file_size > lim["ratio_applies_above"]:
+                ratio = info.file_size / max(info.compress_size, 1)
+                if ratio > lim["max_ratio"]:
+                    raise WorkbookFileError(path, f"part {info.filename!r} is compressed "
+                                                  f"{ratio:.0f}:1, above the limit "
+                                                  f"{lim['max_ratio']:g}:1 (zip bomb?)")
+        names = {i.filename for i in infos}
+        missing = [p for p in REQUIRED_PARTS if p not in names]
+        if missing:
+            raise WorkbookFileError(path, f"not an .xlsx workbook: the package has no "
+                                          f"{' and no '.join(missing)}")
+        for info in infos:
+            if not info.is_dir():
+                _scan_part(zf, info, path, lim)
+
+
+def check_formula_functions(path, formulas, allowed, is_excel_function) -> None:
+    """Refuse formulas that call a function that is neither Excel's own nor a registered one.
+
+    The formula engine (pycel) translates a formula into Python and runs it in a namespace that
+    still holds Python's built-ins, so a workbook formula such as ``=EVAL("...")`` or
+    ``=OPEN("x", "w")`` would reach Python's ``eval`` or ``open``. Every function a formula
+    names must therefore be an Excel worksheet function or one of ``allowed``; a formula the
+    tokenizer cannot read (a DDE link such as ``=cmd|' /C calc'!A0``) is refused too.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The workbook, for the message.
+    formulas : mapping
+        ``{(sheet, cell): formula text}`` (the text with or without its leading "=").
+    allowed : iterable of str
+        Names of the registered worksheet functions (any case).
+    is_excel_function : callable
+        ``name -> bool``: True for Excel's own worksheet functions (the engine passes
+        ``lambda n: pycel.lib.function_info.func_status_msg(n)[0]``).
+
+    Raises
+    ------
+    WorkbookFileError
+        Naming the sheet, the cell and the function.
+
+    >>> check_formula_functions("b.xlsx", {("S", "A1"): "=SUM(B1:B3)+PFX_POWER(C1:D4, 2)"},
+    ...                         {"PFX_POWER"}, lambda n: n == "SUM")
+    >>> try:
+    ...     check_formula_functions("b.xlsx", {("S", "A2"): '=EVAL("1")'}, {"PFX_POWER"},
+    ...                             lambda n: n == "SUM")
+    ... except WorkbookFileError as e:
+    ...     print(e)
+    b.xlsx: sheet 'S', cell A2: the formula calls EVAL, which is neither an Excel function nor \
+a registered worksheet function; refusing to evaluate the workbook
+    """
+    from openpyxl.formula.tokenizer import Token, Tokenizer
+
+    allowed = {a.upper() for a in allowed}
+    for (sheet, cell), text in formulas.items():
+        text = text if text.startswith("=") else "=" + text
+        try:
+            items = Tokenizer(text).items
+        except Exception as e:  # noqa: BLE001 - openpyxl raises TokenizerError and others
+            raise WorkbookFileError(path, f"sheet {sheet!r}, cell {cell}: the formula cannot be "
+                                          f"read ({type(e).__name__}); refusing to evaluate the "
+                                          f"workbook") from None
+        for tok in items:
+            if tok.type != Token.FUNC or tok.subtype != Token.OPEN:
+                continue
+            name = tok.value[:-1].upper()
+            for prefix in ("_XLFN._XLWS.", "_XLFN.", "_XLWS."):
+                if name.startswith(prefix):
+                    name = name[len(prefix):]
+            if name in allowed or is_excel_function(name):
+                continue
+            raise WorkbookFileError(path, f"sheet {sheet!r}, cell {cell}: the formula calls "
+                                          f"{name}, which is neither an Excel function nor a "
+                                          f"registered worksheet function; refusing to evaluate "
+                                          f"the workbook")
