@@ -61,12 +61,15 @@ COLUMNS = {c.key: c for c in (
     Column("height", "length", "height of the port against gravity (default 0), used by the "
                                "Bernoulli closure"),
     Column("closure", None, "outlet speed rule: given (default), free, loss, bernoulli; "
-                            "'solve' marks an unknown outlet flow"),
+                            "'solve' marks an unknown outlet flow. A closed outlet's angle (or "
+                            "vx, vy, vz, or normal) gives only the direction of its relative "
+                            "velocity; leave speed blank"),
     Column("loss", "ratio", "fraction of relative speed lost across the body, 0 <= loss < 1 "
                             "(closure 'loss')"),
     Column("source", None, "label of the inlet a closure starts from (default: the only inlet)",
            ("from",)),
-    Column("share", "ratio", "outlet's fraction of the total inflow (0..1)"),
+    Column("share", "ratio", "outlet's fraction of the total inflow (0..1); a 'solve' or share "
+                             "outlet needs no area (the stream area is reported)"),
 )}
 
 TEXT_COLUMNS = tuple(k for k, c in COLUMNS.items() if c.kind is None)
@@ -126,7 +129,7 @@ def text(v, port: int, col: str) -> str:
         if s.upper() in EXCEL_ERRORS:
             raise InputError(f"holds the spreadsheet error {s}", port=port, field=col)
         return s
-    if col == "port" and isinstance(v, (int, float)) and not isinstance(v, bool):
+    if col in ("port", "source") and isinstance(v, (int, float)) and not isinstance(v, bool):
         return f"{v:g}"
     raise InputError(f"expected text, got {v!r}", port=port, field=col)
 
@@ -153,8 +156,18 @@ _CLOSURES = {"": "given", "given": "given", "free": "free", "frictionless": "fre
              "loss": "loss", "bernoulli": "bernoulli", "solve": "solve"}
 
 
-def build(table: dict, units: dict | None = None) -> PortTable:
+def build(table: dict, units: dict | None = None, *, closures: bool = False) -> PortTable:
     """Validate and convert a port table to SI.
+
+    With ``closures=True`` the caller evaluates the closure columns (closure, loss, source,
+    share; :class:`portflux.core.Closures`), and the rows they govern are read accordingly:
+
+    * a closed outlet (closure free, loss, bernoulli or solve) takes the *direction* of its
+      relative velocity from angle (and tilt), from vx, vy, vz (their length is not used) or,
+      with no velocity, from its normal; a speed is refused (the closure sets it), and so is
+      frame 'abs' (the direction is read in the moving frame);
+    * an outlet whose flow is solved ('solve') or set by a share needs no area (unless a gauge
+      pressure acts on it): the closure reports the stream area its flow implies.
 
     Parameters
     ----------
@@ -164,6 +177,9 @@ def build(table: dict, units: dict | None = None) -> PortTable:
     units : dict, optional
         Column key -> unit string; missing or blank means the column's default unit (SI;
         angles in degrees).
+    closures : bool
+        True when the caller applies the closure columns (see above); default False (every
+        port needs its own velocity and area, as for a plain balance).
 
     Returns
     -------
@@ -176,6 +192,16 @@ def build(table: dict, units: dict | None = None) -> PortTable:
     ...           {"area": "ft^2", "density": "slug/ft^3", "speed": "ft/s"})
     >>> t.ports.velocity.round(4).tolist()
     [[18.288, 0.0, 0.0], [0.0, 18.288, 0.0]]
+
+    Two outlets of a jet splitting on a plate, flows solved by the caller's closures: each gives
+    only its direction, no speed and no area:
+
+    >>> t = build({"role": ["in", "out", "out"], "area": [3e-4, None, None],
+    ...            "density": [998.0] * 3, "speed": [25.0, None, None],
+    ...            "angle": [0.0, 40.0, 220.0], "closure": ["", "solve", "solve"]},
+    ...           closures=True)
+    >>> t.closure, t.ports.velocity[1].round(4).tolist()
+    (('given', 'solve', 'solve'), [0.766, 0.6428, 0.0])
     """
     units = dict(units or {})
     table = {resolve_header(k): list(v) for k, v in table.items()}
@@ -202,7 +228,10 @@ def build(table: dict, units: dict | None = None) -> PortTable:
         vals = table.get(key)
         if vals is None:
             return np.full(n, np.nan)
-        return np.array([number(v, i, key) for i, v in enumerate(vals)]) * factors[key]
+        try:
+            return np.array([number(v, i, key) for i, v in enumerate(vals)]) * factors[key]
+        except InputError as e:
+            raise _in_user_units(e, table, units) from None
 
     def words(key):
         vals = table.get(key)
@@ -216,28 +245,46 @@ def build(table: dict, units: dict | None = None) -> PortTable:
                              f"be unique", port=i, field="port")
         seen[s] = i
     roles = words("role")
+    frame_words = words("frame")
     frames = []
-    for i, f in enumerate(words("frame")):
+    for i, f in enumerate(frame_words):
         if f.lower() not in _FRAMES:
             raise InputError(f"must be 'abs' or 'rel' (got {f!r})", port=i, field="frame")
         frames.append(_FRAMES[f.lower()])
-    closures = []
+    kinds = []
     for i, c in enumerate(words("closure")):
         if c.lower() not in _CLOSURES:
             raise InputError(f"must be one of given, free, loss, bernoulli, solve (got {c!r})",
                              port=i, field="closure")
-        closures.append(_CLOSURES[c.lower()])
+        kinds.append(_CLOSURES[c.lower()])
+    # closed outlets read their direction only (an inlet with a closure is refused later)
+    closed = np.array([closures and c != "given" and r.lower() in ("out", "outlet")
+                       for c, r in zip(kinds, roles)], dtype=bool)
 
     comps = np.stack([num("vx"), num("vy"), num("vz")], axis=1)
     speed, angle, tilt = num("speed"), num("angle"), num("tilt")
     has_c = ~np.isnan(comps).all(axis=1)
     has_s = ~np.isnan(speed)
+    has_a = ~np.isnan(angle) | ~np.isnan(tilt)
+    for i in np.flatnonzero(closed):
+        if has_s[i]:
+            raise InputError(f"closure {kinds[i]!r} sets this outlet's speed from its source "
+                             f"inlet; leave speed blank (angle and tilt give the direction)",
+                             port=i, field="speed")
+        if frame_words[i] and not frames[i]:
+            raise InputError(f"closure {kinds[i]!r} sets the outlet's relative velocity: its "
+                             f"direction is read in the moving frame; give frame 'rel' or leave "
+                             f"it blank (got {frame_words[i]!r})", port=i, field="frame")
     for i in range(n):
-        if not has_s[i] and (not np.isnan(angle[i]) or not np.isnan(tilt[i])):
-            if not has_c[i]:
-                raise InputError("angle or tilt is given without a speed", port=i, field="speed")
-    polar = polar_velocity(np.where(has_s, speed, 0.0), np.nan_to_num(angle),
-                           np.nan_to_num(tilt))
+        if not has_s[i] and has_a[i] and not has_c[i] and not closed[i]:
+            raise InputError("angle or tilt is given without a speed", port=i, field="speed")
+        if not has_s[i] and has_a[i] and has_c[i]:
+            raise InputError("angle or tilt is given with components vx, vy, vz but no speed; "
+                             "give one form: components, or speed with angle and tilt",
+                             port=i, field="angle")
+    unit_dir = closed & has_a & ~has_c        # a closed outlet's direction from its angle
+    polar = polar_velocity(np.where(has_s, speed, np.where(unit_dir, 1.0, 0.0)),
+                           np.nan_to_num(angle), np.nan_to_num(tilt))
     comps = np.where(np.isnan(comps) & has_c[:, None], 0.0, comps)
     velocity = np.where(has_c[:, None], comps, polar)
     both = has_c & has_s
@@ -261,14 +308,18 @@ def build(table: dict, units: dict | None = None) -> PortTable:
             raise InputError(f"give the magnitude (>= 0) when the role is declared (got "
                              f"{table['volume_flow'][i]})", port=i, field="volume_flow")
         mass_flow[i] = qv[i] * density[i]
-    need_v = np.isnan(mass_flow) & ~has_c & ~has_s
-    for i in np.flatnonzero(need_v):
-        raise InputError("velocity is required: give vx, vy, vz or speed (+ angle, tilt)",
-                         port=i, field="velocity")
-
     nvec = np.stack([num("nx"), num("ny"), num("nz")], axis=1)
     has_n = ~np.isnan(nvec).all(axis=1)
     nvec = np.where(np.isnan(nvec) & has_n[:, None], 0.0, nvec)
+
+    need_v = np.isnan(mass_flow) & ~has_c & ~has_s & ~(closed & (has_a | has_n))
+    for i in np.flatnonzero(need_v):
+        if closed[i]:
+            raise InputError(f"closure {kinds[i]!r} needs the outlet's direction: give angle "
+                             f"(and tilt), vx, vy, vz, or the normal nx, ny, nz", port=i,
+                             field="angle")
+        raise InputError("velocity is required: give vx, vy, vz or speed (+ angle, tilt)",
+                         port=i, field="velocity")
 
     loss, share = num("loss"), num("share")
     for i in np.flatnonzero(~np.isnan(loss)):
@@ -278,14 +329,18 @@ def build(table: dict, units: dict | None = None) -> PortTable:
         if not 0.0 <= share[i] <= 1.0:
             raise InputError(f"must be in [0, 1] (got {share[i]:g})", port=i, field="share")
 
+    area = num("area")
+    # a closed outlet without area or mass flow gets its flow from continuity (solved)
+    flow_set = (np.array([c == "solve" for c in kinds], dtype=bool) | ~np.isnan(share)
+                | (closed & np.isnan(area) & np.isnan(mass_flow)) if closures else None)
     try:
-        ports = Ports.build(area=num("area"), density=density, velocity=velocity,
+        ports = Ports.build(area=area, density=density, velocity=velocity,
                             relative=frames, normal=nvec, role=roles, beta=num("beta"),
                             p_gauge=num("p_gauge"), mass_flow=mass_flow, height=num("height"),
-                            names=names)
+                            names=names, flow_by_closure=flow_set)
     except InputError as e:
         raise _in_user_units(e, table, units) from None
-    return PortTable(ports=ports, closure=tuple(closures), loss=loss, source=tuple(words("source")),
+    return PortTable(ports=ports, closure=tuple(kinds), loss=loss, source=tuple(words("source")),
                      share=share, units={k: units.get(k) for k in table})
 
 

@@ -284,10 +284,16 @@ def balance(ports: Ports, v_cv, *, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_
         mdot = mdot * scale[..., None]
 
     inflow = -np.sum(np.minimum(mdot, 0.0), axis=-1)
-    # No contact: the body outruns every jet (some declared inlet's relative flow leaves and
-    # nothing enters). A CV at rest with zero flows is statics, not "no contact".
-    no_contact = (inflow == 0.0) & np.any(inlet_outflow, axis=-1)
+    # No contact: the body outruns every jet. Either every declared inlet is outrun and no port
+    # without a declared role brings fluid in (an outlet typed in the absolute frame may then
+    # show a spurious inflow: it has no fluid to carry), or some inlet is outrun and nothing
+    # enters at all. A CV at rest with zero flows is statics, not "no contact".
+    declared_in = role == IN
+    all_outrun = np.all(~declared_in | inlet_outflow, axis=-1) & bool(np.any(declared_in))
+    unroled_in = np.any((role == 0) & (mdot < 0), axis=-1)
+    no_contact = (all_outrun & ~unroled_in) | ((inflow == 0.0) & np.any(inlet_outflow, axis=-1))
     mdot = np.where(no_contact[..., None], 0.0, mdot)
+    inflow = np.where(no_contact, 0.0, inflow)
     outflow = np.sum(np.maximum(mdot, 0.0), axis=-1)
     imbalance = np.sum(mdot, axis=-1)
     with np.errstate(divide="ignore", invalid="ignore"):

@@ -111,13 +111,15 @@ class Ports:
 
     @classmethod
     def build(cls, *, area=None, density=None, velocity=None, relative=False, normal=None,
-              role=None, beta=None, p_gauge=None, mass_flow=None, height=None, names=None):
+              role=None, beta=None, p_gauge=None, mass_flow=None, height=None, names=None,
+              flow_by_closure=None):
         """Validate port data (SI) and resolve defaults and role-based normals.
 
         Parameters
         ----------
         area : array_like (n,)
-            Flow area [m^2], > 0. May be NaN where ``mass_flow`` is given and p_gauge is 0.
+            Flow area [m^2], > 0. May be NaN where p_gauge is 0 and the flow does not need it:
+            ``mass_flow`` is given, or ``flow_by_closure`` marks the port.
         density : array_like (n,)
             Density [kg/m^3], > 0. May be NaN where ``mass_flow`` is given.
         velocity : array_like (n, 3)
@@ -141,6 +143,12 @@ class Ports:
             Port height against gravity [m]; default 0.
         names : sequence of str, optional
             Port labels; default "1", "2", ...
+        flow_by_closure : array_like (n,) of bool, optional
+            True where the port's mass flow will be set by a closure condition (an outlet whose
+            flow is solved for, or that takes a share of the inflow; see
+            :class:`portflux.core.closures.Closures`), so its area may be omitted (NaN) unless
+            a gauge pressure acts on it; the closure reports the stream area the flow implies.
+            Such a port carries NaN flow in a plain :func:`~portflux.core.balance.balance`.
 
         Examples
         --------
@@ -148,6 +156,13 @@ class Ports:
         ...                 velocity=[[20.0, 0, 0], [0, 20.0, 0]], role=["in", "out"])
         >>> (p.normal + 0.0).tolist()
         [[-1.0, 0.0, 0.0], [0.0, 1.0, 0.0]]
+
+        An outlet whose flow a closure solves for needs no area:
+
+        >>> q = Ports.build(area=[0.01, np.nan], density=1000.0, role=["in", "out"],
+        ...                 velocity=[[20.0, 0, 0], [0, 1.0, 0]], flow_by_closure=[False, True])
+        >>> np.isnan(q.area).tolist()
+        [False, True]
         """
         vel = np.asarray(velocity, dtype=float)
         if vel.ndim != 2 or vel.shape[1] != 3 or vel.shape[0] == 0:
@@ -165,6 +180,8 @@ class Ports:
         p_gauge = _column(p_gauge, n, 0.0)
         mass_flow = _column(mass_flow, n)
         height = _column(height, n, 0.0)
+        by_closure = np.zeros(n, dtype=bool) if flow_by_closure is None else np.broadcast_to(
+            np.asarray(flow_by_closure, dtype=bool), (n,))
         normal = _vectors(normal, n)
         rel = np.broadcast_to(np.asarray(relative, dtype=bool), (n,)).copy()
         if role is None:
@@ -187,7 +204,7 @@ class Ports:
 
         for i in range(n):
             _check_port(i, area[i], density[i], vel[i], normal[i], roles[i], beta[i],
-                        p_gauge[i], mass_flow[i], height[i])
+                        p_gauge[i], mass_flow[i], height[i], bool(by_closure[i]))
 
         # Resolve normals: explicit ones normalised, role-based ones along the given velocity.
         given_n = ~np.isnan(normal).any(axis=1)
@@ -213,7 +230,7 @@ class Ports:
             "mass_flow", "height")))
 
 
-def _check_port(i, area, density, vel, normal, role, beta, p, mdot, height):
+def _check_port(i, area, density, vel, normal, role, beta, p, mdot, height, by_closure=False):
     def bad(field, msg):
         raise InputError(msg, port=i, field=field)
 
@@ -226,11 +243,12 @@ def _check_port(i, area, density, vel, normal, role, beta, p, mdot, height):
         if role != UNKNOWN and mdot < 0:
             bad("mass_flow", f"give the magnitude (>= 0) when the role is declared; the role "
                              f"sets the sign (got {mdot})")
-    for field, value, needed in (("area", area, not has_m or p != 0.0),
+    for field, value, needed in (("area", area, not (has_m or by_closure) or p != 0.0),
                                  ("density", density, not has_m)):
         if np.isnan(value):
             if needed:
-                why = " (a gauge pressure acts on it)" if field == "area" and has_m else ""
+                why = (" (a gauge pressure acts on it)"
+                       if field == "area" and (has_m or by_closure) else "")
                 bad(field, f"is required{why}")
         elif not np.isfinite(value) or value <= 0:
             bad(field, f"must be > 0 (got {value})")

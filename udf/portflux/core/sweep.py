@@ -14,14 +14,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .balance import DEFAULT_IMBALANCE_TOL, SINGLE, balance
-from .closures import FLAG, Closures, balance_closed, in_contact
+from .balance import DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN, balance
+from .closures import _SINGULAR, FLAG, Closures, balance_closed, in_contact
 from .errors import InputError
 from .geometry import STANDARD_GRAVITY
-from .ports import Ports
+from .ports import IN, OUT, Ports
 
 #: Speeds evaluated per chunk of a speed table (bounds the size of the (m, n, 3) intermediates).
-CHUNK = 2 ** 14
+CHUNK = 2 ** 16
 
 #: Jet efficiency below which a power is round-off, not a delivered power [-].
 _NEGLIGIBLE = 1e-12
@@ -139,6 +139,29 @@ def speed_table(ports: Ports, speeds, direction, *, closures: Closures | None = 
     chunk = int(chunk)
     if chunk < 1:
         raise InputError(f"must be >= 1 (got {chunk})", argument="chunk")
+    opts = dict(fluid_mass=fluid_mass, gravity=gravity, tol=tol, intercept=intercept)
+    if u.size >= _FAST_MIN:
+        return _table_fast(ports, u, d, closures, opts, chunk)
+    return _table_general(ports, u, d, closures, opts, chunk)
+
+
+#: Tables of at least this many speeds take the specialised sweep (:class:`_Sweep`); shorter
+#: ones (the refinement steps of the optimum finders) the general balance directly.
+_FAST_MIN = 64
+
+
+def _table(u, d, support, power, eff, inflow, contact, balanced, valid):
+    support += 0.0                           # in place: no negative zeros in outputs
+    power += 0.0
+    body = np.negative(support)
+    body += 0.0
+    return SpeedTable(speed=u.copy(), direction=d, support_force=support, force_on_body=body,
+                      power=power, jet_efficiency=eff, inflow=inflow, contact=contact,
+                      balanced=balanced, valid=valid)
+
+
+def _table_general(ports, u, d, closures, opts, chunk):
+    """Speed table through the general balance (:func:`balance` / :func:`balance_closed`)."""
     m = u.size
     support = np.empty((m, 3))
     power = np.empty(m)
@@ -147,7 +170,6 @@ def speed_table(ports: Ports, speeds, direction, *, closures: Closures | None = 
     contact = np.empty(m, dtype=bool)
     balanced = np.empty(m, dtype=bool)
     valid = np.ones(m, dtype=bool)
-    opts = dict(fluid_mass=fluid_mass, gravity=gravity, tol=tol, intercept=intercept)
     for start in range(0, m, chunk):         # chunks of many speeds, bounded memory
         sl = slice(start, min(start + chunk, m))
         v = u[sl, None] * d
@@ -163,13 +185,395 @@ def speed_table(ports: Ports, speeds, direction, *, closures: Closures | None = 
         inflow[sl] = b.inflow
         contact[sl] = in_contact(b)
         balanced[sl] = b.balanced
-    support += 0.0                           # in place: no negative zeros in outputs
-    power += 0.0
-    body = np.negative(support)
-    body += 0.0
-    return SpeedTable(speed=u.copy(), direction=d, support_force=support, force_on_body=body,
-                      power=power, jet_efficiency=eff, inflow=inflow, contact=contact,
-                      balanced=balanced, valid=valid)
+    return _table(u, d, support, power, eff, inflow, contact, balanced, valid)
+
+
+def _table_fast(ports, u, d, closures, opts, chunk):
+    """Speed table through :class:`_Sweep`; same results as :func:`_table_general`.
+
+    The first speed goes through the general path first, so bad options raise its messages;
+    a chunk whose split is singular is handed to the general path, which names the speed.
+    """
+    m = u.size
+    _table_general(ports, u[:1], d, closures, opts, 1)
+    sweep = _Sweep(ports, closures, d, **opts)
+    cols = np.empty((3, m))                  # support force, one contiguous row per axis
+    body = np.empty((3, m))
+    out = dict(support=cols, body=body, power=np.empty(m), eff=np.empty(m), inflow=np.empty(m),
+               contact=np.empty(m, dtype=bool), balanced=np.empty(m, dtype=bool),
+               valid=np.ones(m, dtype=bool))
+    for start in range(0, m, chunk):
+        sl = slice(start, min(start + chunk, m))
+        if not sweep.chunk(u[sl], out, sl):
+            t = _table_general(ports, u[sl], d, closures, opts, chunk)
+            cols[:, sl] = t.support_force.T
+            body[:, sl] = t.force_on_body.T
+            for key, name in (("power", "power"), ("eff", "jet_efficiency"),
+                              ("inflow", "inflow"), ("contact", "contact"),
+                              ("balanced", "balanced"), ("valid", "valid")):
+                out[key][sl] = getattr(t, name)
+    return SpeedTable(speed=u.copy(), direction=d, support_force=cols.T, force_on_body=body.T,
+                      power=out["power"], jet_efficiency=out["eff"], inflow=out["inflow"],
+                      contact=out["contact"], balanced=out["balanced"], valid=out["valid"])
+
+# --------------------------------------------------------------------------------------------
+# the speed sweep, evaluated along its fixed direction
+# --------------------------------------------------------------------------------------------
+class _Sweep:
+    """The balance of :func:`portflux.core.closures.balance_closed` specialised to V_cv = s d.
+
+    Along a fixed direction every port's relative velocity is a fixed vector plus at most a
+    multiple of s (absolute ports: w = V - s d; relative ports: w = W) or a fixed direction
+    times the closure speed q(s) = sqrt(a |w_src(s)|^2 + c) (closed outlets); mass flows follow
+    from w . n row by row. Per-port coefficient vectors are built once here; :meth:`chunk`
+    then evaluates only the (n, m) and (m,) arrays each output needs, in place, without the
+    (m, n, 3) intermediates of the general balance. The operations are those of the general
+    path (same formulas, same clipping and flags) in a different order, so results agree to
+    round-off (tests/test_sweep_fastpath.py).
+    """
+
+    def __init__(self, ports: Ports, closures, d, intercept, fluid_mass, gravity, tol):
+        n = ports.n
+        g = np.asarray(gravity, dtype=float)
+        self.n, self.d, self.tol, self.train = n, d, float(tol), intercept == TRAIN
+        self.active = [c for c in range(3) if d[c] != 0.0]
+        closed = np.zeros(n, bool) if closures is None else closures.closed
+        rel = ports.relative & ~closed
+        absol = ~ports.relative & ~closed
+        nrm = ports.normal
+        vel = ports.velocity
+        self.closed, self.rel, self.absol = closed, rel, absol
+        self.given = ports.given_flow
+        self.is_in = ports.role == IN
+        self.is_out = ports.role == OUT
+        with np.errstate(invalid="ignore"):
+            rho_a = ports.density * ports.area
+        self.rho_a = rho_a
+        self.beta = ports.beta
+        # Mass flow of a row: rho A (w . n), or the given flow (rho_a0 = 0 there).
+        self.rho_a0 = np.where(self.given, 0.0, rho_a)
+        self.m_given = np.where(self.given, ports.mass_flow, 0.0)
+        # Constant parts of w . n and v . n; the s-dependent part of absolute rows is
+        # sum over active axes of (V_c - s d_c) n_c.
+        self.abs_rows = np.flatnonzero(absol)
+        self.const_wn = np.zeros(n)
+        idle = [c for c in range(3) if c not in self.active]
+        for c in idle:
+            self.const_wn[absol] += vel[absol, c] * nrm[absol, c]
+        self.const_wn[rel] = np.einsum("ij,ij->i", vel[rel], nrm[rel])
+        self.vn_abs = np.einsum("ij,ij->i", vel, nrm)          # v . n of absolute rows
+        self.v2_abs = np.einsum("ij,ij->i", vel, vel)          # |V|^2 of absolute rows
+        self.vel, self.nrm = vel, nrm
+        # Pressure force and weight (acting only while in contact).
+        area0 = np.where(np.isnan(ports.area), 0.0, ports.area)
+        p_force = -(ports.p_gauge * area0)[:, None] * nrm
+        self.p_total = p_force.sum(axis=0)
+        self.weight = float(fluid_mass) * g
+        # Closures: q_j = sqrt(a_j |w_src|^2 + c_j) along direction E_j.
+        self.cl_rows = np.flatnonzero(closed)
+        self.flow_rows = np.zeros(0, np.intp)
+        self.e_n = np.zeros(n)
+        if closures is not None:
+            self._closures(ports, closures, g)
+        # Rows that may carry a jet's absolute inflow (kinetic-energy flux of incoming jets).
+        may_jet = []
+        for i in range(n):
+            if self.given[i]:
+                if ports.mass_flow[i] < 0.0:
+                    may_jet.append(i)
+            elif self.is_in[i]:
+                may_jet.append(i)
+            elif closed[i]:
+                if self.e_n[i] < 0.0:
+                    may_jet.append(i)
+            elif absol[i] or self.const_wn[i] < 0.0:
+                may_jet.append(i)
+        # Absolute inlets with computed flow: rho A max(-V.n, 0) |V|^2 / 2 for every speed.
+        steady = [i for i in may_jet if absol[i] and self.is_in[i] and not self.given[i]]
+        self.jet_const = 0.0
+        for i in steady:
+            self.jet_const += 0.5 * (rho_a[i] * max(-self.vn_abs[i], 0.0)) * self.v2_abs[i]
+        self.jet_rows = [i for i in may_jet if i not in steady]
+        self.in_rows = np.flatnonzero(self.is_in)
+        # Rows whose flow can be negative (the others add nothing to the inflow).
+        never_neg = (self.given & (ports.mass_flow >= 0.0)) | (closed & (self.e_n >= 0.0))
+        if self.train:                         # the train's scale may change signs
+            never_neg[:] = False
+        self.neg_rows = np.flatnonzero(~never_neg)
+        if self.train:
+            self.k = int(np.flatnonzero(self.is_in)[0])
+
+    def _closures(self, ports, closures, g):
+        from .closures import BERNOULLI, LOSS
+        gmag = float(np.linalg.norm(g))
+        rows = self.cl_rows
+        self.src = closures.source[rows]
+        self.src_abs = ~ports.relative[self.src]
+        self.E = closures.direction
+        self.e_n = np.where(self.closed, np.einsum("ij,ij->i", np.nan_to_num(self.E), self.nrm),
+                            0.0)
+        rules = [closures.rule[j] for j in rows]
+        self.a = np.where([r == LOSS for r in rules], (1.0 - closures.loss[rows]) ** 2, 1.0)
+        c = np.zeros(rows.size)
+        for m, j in enumerate(rows):
+            if rules[m] == BERNOULLI:
+                k = self.src[m]
+                rho_s, rho_o = ports.density[k], ports.density[j]
+                rho_s = rho_o if np.isnan(rho_s) else rho_s
+                rho_o = rho_s if np.isnan(rho_o) else rho_o
+                c[m] = 2.0 * (ports.p_gauge[k] / rho_s - ports.p_gauge[j] / rho_o) + 2.0 * gmag * (
+                    ports.height[k] - ports.height[j])
+        self.c = c
+        given = self.vel[self.src]
+        self.s2_const = np.einsum("ij,ij->i", given, given)
+        idle = [c for c in range(3) if c not in self.active]
+        self.s2_idle = np.einsum("ij,ij->i", given[:, idle], given[:, idle])
+        self.flow_mask = closures.unknown | ~np.isnan(closures.share)
+        self.flow_rows = np.flatnonzero(self.flow_mask)
+        self.unk = np.flatnonzero(closures.unknown)
+        self.shr = np.flatnonzero(~np.isnan(closures.share))
+        self.share = closures.share[self.shr]
+        self.no_force = closures.no_force
+
+    # -- one chunk ---------------------------------------------------------------------------
+    def chunk(self, s, out, sl):
+        """Evaluate speeds ``s`` (m,) into ``out`` (dict of arrays) at slice ``sl``."""
+        n, m = self.n, s.size
+        act = self.active
+        sd = {c: s * self.d[c] for c in act}                   # V_cv components, as s * d_c
+        # relative velocity components of absolute rows on the active axes: V_c - s d_c
+        ar = self.abs_rows
+        w_abs = {c: self.vel[ar, c, None] - sd[c] for c in act}
+        wn = np.empty((n, m))
+        wn[:] = self.const_wn[:, None]
+        if ar.size:
+            acc = wn[ar]
+            for c in act:
+                acc += w_abs[c] * self.nrm[ar, c, None]
+            wn[ar] = acc
+        q = bad = None
+        if self.cl_rows.size:
+            q, bad = self._closure_speed(s, sd)
+            wn[self.cl_rows] = q[self.cl_rows] * self.e_n[self.cl_rows, None]
+        mdot = self.rho_a0[:, None] * wn
+        mdot += self.m_given[:, None]
+        if self.flow_rows.size:
+            mdot[self.flow_rows] = 0.0
+        no_contact = np.zeros(m, bool)          # here: some declared inlet is outrun
+        all_outrun = np.full(m, self.in_rows.size > 0)   # every declared inlet is outrun
+        for i in self.in_rows:                  # an outrun inlet carries nothing
+            io = wn[i] > 0.0
+            np.copyto(mdot[i], 0.0, where=io)
+            no_contact |= io
+            all_outrun &= io
+        if self.train:
+            k = self.k
+            vn_k = self._vn_row(k, s, sd, q)
+            wn_k = wn[k]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                scale = np.where(wn_k < 0, vn_k / wn_k, 0.0)
+            mdot *= scale
+        neg = np.minimum(mdot[self.neg_rows], 0.0)
+        inflow = -neg.sum(axis=0)
+        # as balance(): every declared inlet outrun and no port without a role brings fluid in,
+        # or some inlet outrun and nothing enters at all
+        unroled = self.neg_rows[~(self.is_in | self.is_out)[self.neg_rows]]
+        unroled_in = (mdot[unroled] < 0.0).any(axis=0) if unroled.size else np.zeros(m, bool)
+        no_contact &= inflow == 0.0
+        no_contact |= all_outrun & ~unroled_in
+        inflow = np.where(no_contact, 0.0, inflow)
+        touch = ~no_contact
+        np.copyto(mdot, 0.0, where=no_contact)
+        contact = inflow > 0.0
+        contact &= touch
+        # support force of the flows known so far
+        support = self._momentum(mdot, q, w_abs, slice(None))
+        for c in range(3):                     # as the general path: - p_total - weight
+            if self.p_total[c] != 0.0:
+                support[c] -= self.p_total[c] * touch
+            if self.weight[c] != 0.0:
+                support[c] -= self.weight[c] * touch
+        imbalance = mdot.sum(axis=0)
+        anybad = None
+        if bad is not None:
+            bad &= contact
+            anybad = bad.any(axis=0)
+        elif self.flow_rows.size:
+            anybad = np.zeros(m, bool)
+        if self.flow_rows.size:
+            flows = self._solve(s, mdot, q, w_abs, inflow, imbalance, support,
+                                anybad | ~contact)
+            if flows is None:
+                return False
+            rows = self.flow_rows
+            if self.train:
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    per = np.where(scale != 0, flows / scale, 0.0)
+                mf = per * scale
+            else:
+                mf = flows
+            mf = np.where(no_contact, 0.0, mf)
+            mdot[rows] = mf
+            inflow = inflow - np.minimum(mf, 0.0).sum(axis=0)
+            imbalance = mdot.sum(axis=0)
+            support += self._momentum(mdot, q, w_abs, rows)
+        # outputs
+        power = np.zeros(m)
+        for c in act:
+            power -= support[c] * sd[c]
+        jet_ke = np.full(m, self.jet_const)
+        for i in self.jet_rows:
+            if self.given[i]:
+                jf = np.where(mdot[i] < 0, -mdot[i], 0.0)
+                jf = np.where(np.isnan(jf), 0.0, jf)
+            else:
+                vn = self._vn_row(i, s, sd, q)
+                jf = self.rho_a[i] * np.maximum(-vn, 0.0)
+                if not self.is_in[i]:
+                    jf = np.where(wn[i] < 0, jf, 0.0)
+            jet_ke += 0.5 * jf * self._v2_row(i, s, sd, q)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            eff = np.where(jet_ke > 0, power / jet_ke, np.nan)
+            rel = np.where(inflow > 0, imbalance / inflow,
+                           np.where(imbalance == 0, 0.0, np.inf * np.sign(imbalance)))
+        balanced = np.abs(rel) <= self.tol
+        if anybad is not None and anybad.any():
+            support[:, anybad] = np.nan
+            power[anybad] = np.nan
+            eff[anybad] = np.nan
+            balanced &= ~anybad
+            out["valid"][sl] = ~anybad
+        support += 0.0                          # no negative zeros in outputs
+        power += 0.0
+        out["support"][:, sl] = support
+        body = out["body"][:, sl]
+        np.negative(support, out=body)
+        body += 0.0
+        out["power"][sl] = power
+        out["eff"][sl] = eff
+        out["inflow"][sl] = inflow
+        out["contact"][sl] = contact
+        out["balanced"][sl] = balanced
+        return True
+
+    def _closure_speed(self, s, sd):
+        rows = self.cl_rows
+        k = rows.size
+        s2 = np.empty((k, s.size))
+        for m in range(k):
+            src = self.src[m]
+            if self.src_abs[m]:
+                acc = np.full(s.size, self.s2_idle[m])
+                for c in self.active:
+                    t = self.vel[src, c] - sd[c]
+                    t *= t
+                    acc += t
+                s2[m] = acc
+            else:
+                s2[m] = self.s2_const[m]
+        a, c = self.a[:, None], self.c[:, None]
+        rad = a * s2 + c
+        if np.any(self.c != 0.0):
+            rad = np.where(np.abs(rad) <= 1e-12 * (a * s2 + np.abs(c)), 0.0, rad)
+        bad = rad < 0.0
+        q = np.sqrt(np.maximum(rad, 0.0))
+        full = np.zeros((self.n, s.size))
+        full[rows] = q
+        badf = np.zeros((self.n, s.size), bool)
+        badf[rows] = bad
+        return full, badf
+
+    def _w_row(self, i, c, q, w_abs):
+        """Relative velocity component c of row i: an (m,) array or a float."""
+        if self.closed[i]:
+            return q[i] * self.E[i, c]
+        if self.absol[i] and c in w_abs:
+            return w_abs[c][int(np.searchsorted(self.abs_rows, i))]
+        return self.vel[i, c]
+
+    def _momentum(self, mdot, q, w_abs, rows):
+        """sum beta mdot w over ``rows`` as (3, m)."""
+        idx = np.arange(self.n)[rows]
+        m = mdot.shape[1]
+        out = np.zeros((3, m))
+        for i in idx:
+            bm = mdot[i] if self.beta[i] == 1.0 else self.beta[i] * mdot[i]
+            for c in range(3):
+                w = self._w_row(i, c, q, w_abs)
+                if np.ndim(w) == 0 and w == 0.0:
+                    continue
+                out[c] += bm * w
+        return out
+
+    def _vn_row(self, i, s, sd, q):
+        if self.absol[i]:
+            return np.full(s.size, self.vn_abs[i])
+        acc = np.zeros(s.size)
+        for c in range(3):
+            base = q[i] * self.E[i, c] if self.closed[i] else self.vel[i, c]
+            vc = base + sd[c] if c in sd else base
+            acc += vc * self.nrm[i, c]
+        return acc
+
+    def _v2_row(self, i, s, sd, q):
+        if self.absol[i]:
+            return self.v2_abs[i]
+        acc = np.zeros(s.size)
+        for c in range(3):
+            base = q[i] * self.E[i, c] if self.closed[i] else self.vel[i, c]
+            vc = base + sd[c] if c in sd else base
+            acc += vc * vc
+        return acc
+
+    def _solve(self, s, mdot, q, w_abs, inflow, imbalance, support, skip):
+        """Flows of shared and solved outlets (rows ``flow_rows``), or None if singular."""
+        m = s.size
+        flows = np.zeros((self.flow_rows.size, m))
+        pos = {j: t for t, j in enumerate(self.flow_rows)}
+        m_share = self.share[:, None] * inflow
+        for t, j in enumerate(self.shr):
+            flows[pos[j]] = m_share[t]
+        unk = self.unk
+        if unk.size == 0:
+            return flows
+        dirs = self.no_force
+        nc = dirs.shape[0]
+
+        def dw(j):        # (c, m): d_c . w_j
+            r = np.zeros((nc, m))
+            for c in range(3):
+                w = self._w_row(j, c, q, w_abs)
+                r += dirs[:, c, None] * w
+            return r
+
+        rhs0 = -(imbalance + m_share.sum(axis=0))
+        if nc == 0 and unk.size == 1:
+            flows[pos[unk[0]]] = np.where(skip, 0.0, rhs0)
+            return flows
+        u = unk.size
+        A = np.empty((m, 1 + nc, u))
+        A[:, 0, :] = 1.0
+        for t, j in enumerate(unk):
+            A[:, 1:, t] = (self.beta[j] * dw(j)).T
+        rhs = np.empty((m, 1 + nc))
+        rhs[:, 0] = rhs0
+        r1 = np.zeros((nc, m))
+        for c in range(3):
+            r1 += dirs[:, c, None] * support[c]
+        for t, j in enumerate(self.shr):
+            r1 += dw(j) * (self.beta[j] * m_share[t])
+        rhs[:, 1:] = -r1.T
+        eye = np.eye(u)
+        A = np.where(skip[:, None, None], eye, A)
+        rhs = np.where(skip[:, None], 0.0, rhs)
+        scaled = A / np.max(np.abs(A), axis=-1, keepdims=True).clip(1e-300)
+        scaled = scaled / np.max(np.abs(scaled), axis=-2, keepdims=True).clip(1e-300)
+        if np.any(np.abs(np.linalg.det(scaled)) < _SINGULAR):
+            return None                     # the general path names the speed and raises
+        x = np.linalg.solve(A, rhs[..., None])[..., 0]
+        for t, j in enumerate(unk):
+            flows[pos[j]] = x[:, t]
+        return flows
 
 
 @dataclass(frozen=True)
