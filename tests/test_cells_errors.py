@@ -75,9 +75,12 @@ def fresh_caches():
     # a blank row inside the table
     (table(JET, (None,) * 5, EXIT), "ports row 4: blank row inside the table (ports continue at "
                                     "row 5)"),
-    # a closure the worksheet functions do not evaluate
-    ((HEAD + ("closure",), UNITS + (None,), JET + (None,), EXIT + ("free",)),
-     "ports row 4, closure: closure 'free' is not evaluated"),
+    # a closure on an inlet, and a closed outlet that also types its speed
+    ((HEAD + ("closure",), UNITS + (None,), JET + ("free",), EXIT + (None,)),
+     "ports row 3, Role: closure 'free' applies to outlets; declare role 'out'"),
+    ((HEAD + ("closure", "speed"), UNITS + (None, None), JET + (None, None),
+      EXIT[:4] + (None, "free", 80.0)),
+     "ports row 4, speed: closure 'free' sets this outlet's speed from its source inlet"),
     ((HEAD + ("Role",), UNITS + (None,), JET + ("in",)),
      "ports row 1: columns 2 ('Role') and 6 ('Role') both give role"),
 ])

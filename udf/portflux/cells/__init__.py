@@ -29,6 +29,7 @@ from __future__ import annotations
 import xlwings as xw
 
 from . import _functions as F
+from . import _speeds as S
 from ._grid import CellError
 from ._inputs import clear_caches
 from ..core import PortfluxError
@@ -49,8 +50,20 @@ ARG_DOCS = {
                  "the tolerance in settings).",
     "axis": "x, y or z for one component; blank returns all three (1x3).",
     "settings": "Optional rows name | value | unit: fluid_mass, gx, gy, gz, tolerance, "
-                "intercept (single or train).",
+                "intercept (single or train), slip_angle [deg] (repeatable) and slip_x, slip_y, "
+                "slip_z: directions along which the body carries no force.",
     "kind": "jet (power / kinetic-energy flux of the incoming jet, default) or propulsive.",
+    "speeds": "One column (or row) of CV speeds along the direction, optionally led by one text "
+              "cell with their unit (default m/s). Blank cells give blank output rows.",
+    "direction": "Direction of motion: an in-plane angle from +x toward +y [deg] or 3 "
+                 "components (1x3 or 3x1); default +x.",
+    "low": "Lowest speed of the search bracket [m/s], or a number and a unit cell such as "
+           "{0,\"ft/s\"}.",
+    "high": "Highest speed of the search bracket [m/s unless a unit cell follows]; above low.",
+    "value": "Force on the body to reach, in the force unit of units (N for SI, lbf for US), or "
+             "a number and a unit cell such as {500,\"lbf\"}.",
+    "component": "Which force on the body: x, y, z, along (the direction of motion, default) or "
+                 "magnitude.",
 }
 
 #: Read options passed to xlwings for every argument. ``err_to_str`` makes xlwings hand over a
@@ -129,7 +142,8 @@ def PFX_SETTINGS():
     """Names accepted in a settings range (name | value | unit), their unit kind and default.
 
     >>> [r[0] for r in PFX_SETTINGS()[1:]]
-    ['fluid_mass', 'gx', 'gy', 'gz', 'tolerance', 'intercept']
+    ['fluid_mass', 'gx', 'gy', 'gz', 'tolerance', 'intercept', 'slip_angle', 'slip_x', \
+'slip_y', 'slip_z']
     """
     return _guarded("PFX_SETTINGS", F.settings_names)
 
@@ -143,7 +157,9 @@ def PFX_SETTINGS():
 def PFX_RELVEL(ports, cv_velocity, port, units=None):
     """Relative velocity w = V - V_cv of one port, seen from the moving CV (1 x 3: wx, wy, wz).
 
-    A row given in the relative frame (frame 'rel') is returned as given.
+    A row given in the relative frame (frame 'rel') is returned as given; a closed outlet shows
+    the w its closure sets (a Bernoulli outlet with standard gravity: use PFX_RELVELS with a
+    settings range where gravity differs).
 
     Parameters
     ----------
@@ -168,9 +184,12 @@ def PFX_RELVEL(ports, cv_velocity, port, units=None):
 
 @_excel_help
 @xw.func(category=CATEGORY)
-@_documented("ports", "cv_velocity", "units", "labels")
-def PFX_RELVELS(ports, cv_velocity, units=None, labels=False):
+@_documented("ports", "cv_velocity", "units", "labels", "settings")
+def PFX_RELVELS(ports, cv_velocity, units=None, labels=False, settings=None):
     """Relative velocity w = V - V_cv of every port (n x 3: wx, wy, wz), one row per port.
+
+    A closed outlet (closure free, loss, bernoulli, solve) shows the relative velocity its
+    closure sets at this CV velocity.
 
     Parameters
     ----------
@@ -180,29 +199,32 @@ def PFX_RELVELS(ports, cv_velocity, units=None, labels=False):
         Output units [velocity].
     labels : bool, optional
         TRUE adds a header row ("wx [ft/s]", ...) and a port-label column.
+    settings : range, optional
+        gravity (gx, gy, gz) for a Bernoulli outlet; the other settings do not change velocities.
 
     >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
     >>> PFX_RELVELS(t, 12.0, "SI", True)[0]
     ['port', 'wx [m/s]', 'wy [m/s]', 'wz [m/s]']
     """
-    return _guarded("PFX_RELVELS", F.relvels, ports, cv_velocity, units, labels)
+    return _guarded("PFX_RELVELS", F.relvels, ports, cv_velocity, units, labels, settings)
 
 
 @_excel_help
 @xw.func(category=CATEGORY)
-@_documented("ports", "cv_velocity", "units", "labels")
-def PFX_ABSVEL(ports, cv_velocity, units=None, labels=False):
+@_documented("ports", "cv_velocity", "units", "labels", "settings")
+def PFX_ABSVEL(ports, cv_velocity, units=None, labels=False, settings=None):
     """Absolute velocity V of every port (n x 3), V = w + V_cv for rows given in frame 'rel'.
 
-    Parameters as PFX_RELVELS; the header reads "Vx [unit]".
+    Parameters as PFX_RELVELS; the header reads "Vx [unit]". A closed outlet shows w + V_cv with
+    the w its closure sets.
 
     >>> t = (("port", "frame", "area", "density", "vx", "role"), (None,) * 6,
     ...      ("out", "rel", 0.01, 1000.0, 18.0, "out"))
     >>> PFX_ABSVEL(t, 12.0)                    # 18 + 12 m/s
     [[30.0, 0.0, 0.0]]
     """
-    return _guarded("PFX_ABSVEL", F.absvels, ports, cv_velocity, units, labels)
+    return _guarded("PFX_ABSVEL", F.absvels, ports, cv_velocity, units, labels, settings)
 
 
 @_excel_help
@@ -390,6 +412,155 @@ def PFX_SUMMARY(ports, cv_velocity, units=None, settings=None):
     'ok'
     """
     return _guarded("PFX_SUMMARY", F.summary, ports, cv_velocity, units, settings)
+
+
+# --------------------------------------------------------------------------------------------
+# solved splits, speed tables and optimum speeds
+# --------------------------------------------------------------------------------------------
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "units", "settings")
+def PFX_SPLIT(ports, cv_velocity, units=None, settings=None):
+    """Per-port flows of a split (n+1 x 8): port, role, closure, mass flow (+ out), fraction of
+    the inflow (+ out), relative speed, stream area and where the area comes from.
+
+    Outlets marked 'solve' get their flows from continuity and one no-force ("slip") direction
+    per further unknown (settings rows slip_angle); an outlet with a share takes that fraction of
+    the inflow. Their stream area is the one the flow implies, A = mdot / (rho w . n).
+
+    Parameters
+    ----------
+    ports, cv_velocity : range
+        Port table (closure, share columns) and CV velocity.
+    units : str, optional
+        Output units [mass flow, velocity, area].
+    settings : range, optional
+        slip_angle rows (one per no-force direction), intercept, gravity.
+
+    A 25 m/s jet on a frictionless plate at 60 degrees to it splits (1 + cos 60)/2 forward,
+    (1 - cos 60)/2 backward:
+
+    >>> t = (("port", "role", "area", "density", "speed", "angle", "closure"),
+    ...      (None, None, "cm^2", None, None, "deg", None),
+    ...      ("jet", "in", 3.0, 998.0, 25.0, 0.0, None),
+    ...      ("fwd", "out", None, 998.0, None, 60.0, "solve"),
+    ...      ("back", "out", None, 998.0, None, 240.0, "solve"))
+    >>> [round(r[4], 12) for r in PFX_SPLIT(t, 0.0, None, (("slip_angle", 60.0, "deg"),))[1:]]
+    [-1.0, 0.75, 0.25]
+
+    Reference: inclined-plate split, White, *Fluid Mechanics*, ch. 3 (from memory).
+    """
+    return _guarded("PFX_SPLIT", F.split, ports, cv_velocity, units, settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "speeds", "direction", "units", "settings")
+def PFX_SPEEDTABLE(ports, speeds, direction=None, units=None, settings=None):
+    """Speed table (m+1 x 10): per CV speed U along the direction, support force x y z, force
+    on body x y z, power, jet efficiency and contact (1 fluid reaches the body, 0 outrun).
+
+    The closures are re-applied at every speed; all speeds are evaluated at once (vectorised).
+    A blank cell among the speeds gives a blank output row.
+
+    Parameters
+    ----------
+    ports : range
+        Port table.
+    speeds : range
+        Column (or row) of speeds, optionally led by a unit cell ("ft/s"); default m/s.
+    direction : number or range, optional
+        Angle from +x toward +y [deg] or 3 components; default +x.
+    units : str, optional
+        Output units [velocity, force, power, ratio].
+    settings : range, optional
+        intercept, slip directions, fluid_mass, gravity.
+
+    A 2 cm^2, 40 m/s water jet on a vane turning it through 150 degrees, the vane running at
+    0, 10 and 50 m/s: F_x = rho A (V - U)^2 (1 - cos 150), zero once the vane outruns the jet:
+
+    >>> t = (("port", "role", "area", "density", "speed", "angle", "closure"),
+    ...      (None, None, "cm^2", None, None, None, None),
+    ...      ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
+    ...      ("exit", "out", 2.0, 998.0, None, 150.0, "free"))
+    >>> [(r[0], round(r[4], 3), r[9]) for r in PFX_SPEEDTABLE(t, (("m/s",), (0.0,), (10.0,),
+    ...                                                              (50.0,)))[1:]]
+    [(0.0, 595.934, 1.0), (10.0, 335.213, 1.0), (50.0, 0.0, 0.0)]
+
+    Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
+    """
+    return _guarded("PFX_SPEEDTABLE", S.speedtable, ports, speeds, direction, units, settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "low", "high", "direction", "units", "settings")
+def PFX_BESTSPEED(ports, low, high, direction=None, units=None, settings=None):
+    """Speed of maximum power to the body in [low, high] (8 x 2 block): that speed, the power
+    and jet efficiency there, the force along the motion, the bracket and a note (edge maximum,
+    or no power delivered).
+
+    P(U) = F_body(U) . U d is sampled densely over the bracket and refined (Brent's method).
+
+    Parameters
+    ----------
+    low, high : number or range
+        Bracket of speeds [m/s, or a number and a unit cell].
+    direction : number or range, optional
+        Angle [deg] or 3 components; default +x.
+    units : str, optional
+        Output units [velocity, power, force, ratio].
+    settings : range, optional
+        intercept 'train' for a bucket wheel; slip directions; fluid_mass, gravity.
+
+    The vane of PFX_SPEEDTABLE does best at one third of the jet speed:
+
+    >>> t = (("port", "role", "area", "density", "speed", "angle", "closure"),
+    ...      (None, None, "cm^2", None, None, None, None),
+    ...      ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
+    ...      ("exit", "out", 2.0, 998.0, None, 150.0, "free"))
+    >>> round(PFX_BESTSPEED(t, 0.0, 40.0)[1][1], 6)        # 40/3 m/s
+    13.333333
+
+    Reference: single moving vane, optimum U = V/3, White, *Fluid Mechanics*, ch. 3 (from
+    memory); Brent, *Algorithms for Minimization without Derivatives*, ch. 5 (from memory).
+    """
+    return _guarded("PFX_BESTSPEED", S.bestspeed, ports, low, high, direction, units, settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "value", "low", "high", "component", "direction", "units", "settings")
+def PFX_SPEEDATFORCE(ports, value, low, high, component=None, direction=None, units=None,
+                     settings=None):
+    """Lowest speed in [low, high] at which the force on the body (x, y, z, along the motion or
+    magnitude) reaches value (7 x 2 block: speed, force there, crossings, bracket, note).
+
+    Parameters
+    ----------
+    value : number or range
+        Target force [force unit of units, or a number and a unit cell].
+    low, high : number or range
+        Bracket of speeds [m/s, or a number and a unit cell].
+    component : str, optional
+        x, y, z, along (default) or magnitude.
+    direction, units, settings
+        As PFX_BESTSPEED.
+
+    The vane of PFX_SPEEDTABLE: the thrust rho A (V - U)^2 (1 - cos 150) falls to 100 N at
+    U = V - sqrt(100 / (rho A (1 - cos 150))):
+
+    >>> t = (("port", "role", "area", "density", "speed", "angle", "closure"),
+    ...      (None, None, "cm^2", None, None, None, None),
+    ...      ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
+    ...      ("exit", "out", 2.0, 998.0, None, 150.0, "free"))
+    >>> round(PFX_SPEEDATFORCE(t, 100.0, 0.0, 40.0)[1][1], 6)
+    23.614453
+
+    Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
+    """
+    return _guarded("PFX_SPEEDATFORCE", S.speedatforce, ports, value, low, high, component,
+                    direction, units, settings)
 
 
 PUBLIC = tuple(sorted(n for n in dir() if n.startswith("PFX_")))

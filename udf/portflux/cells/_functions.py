@@ -14,7 +14,7 @@ import numpy as np
 from .. import __version__
 from .. import spec
 from ._grid import CellError, describe, error_value, flag, is_number, one_cell, scalar_text
-from ._inputs import SETTINGS, evaluate, port_table, tolerance, unit_system
+from ._inputs import SETTINGS, evaluate, evaluate_closed, tolerance, unit_system
 
 AXES = {"x": 0, "y": 1, "z": 2, "1": 0, "2": 1, "3": 2}
 
@@ -60,7 +60,7 @@ def _port_index(table, raw) -> int:
         raise CellError(f"port: holds the spreadsheet error {err}")
     if is_number(raw):
         k = float(raw)
-        if k != int(k) or not 1 <= k <= len(names):
+        if not math.isfinite(k) or k != int(k) or not 1 <= k <= len(names):
             raise CellError(f"port: number {k:g} is not a port; give 1 to {len(names)} or a label "
                             f"({', '.join(names)})")
         return int(k) - 1
@@ -110,26 +110,26 @@ def settings_names():
 
 
 def relvel(ports, cv_velocity, port, units=None):
-    t, b = evaluate(ports, cv_velocity)
+    t, b = evaluate(ports, cv_velocity, kinematic=True)
     k = _port_index(t, port)
     return _matrix(unit_system(units).out(b.w[k], "velocity"))
 
 
-def _velocities(ports, cv_velocity, units, labels, attr, symbol):
+def _velocities(ports, cv_velocity, units, labels, settings, attr, symbol):
     show = flag(labels, "labels")
     us = unit_system(units)
-    t, b = evaluate(ports, cv_velocity)
+    t, b = evaluate(ports, cv_velocity, settings, kinematic=True)
     u = us.label("velocity")
     body = _matrix(us.out(getattr(b, attr), "velocity"))
     return _labelled(body, [f"{symbol}{c} [{u}]" for c in "xyz"], t.names, show)
 
 
-def relvels(ports, cv_velocity, units=None, labels=False):
-    return _velocities(ports, cv_velocity, units, labels, "w", "w")
+def relvels(ports, cv_velocity, units=None, labels=False, settings=None):
+    return _velocities(ports, cv_velocity, units, labels, settings, "w", "w")
 
 
-def absvels(ports, cv_velocity, units=None, labels=False):
-    return _velocities(ports, cv_velocity, units, labels, "v_abs", "V")
+def absvels(ports, cv_velocity, units=None, labels=False, settings=None):
+    return _velocities(ports, cv_velocity, units, labels, settings, "v_abs", "V")
 
 
 def massflows(ports, cv_velocity, units=None, labels=False, settings=None):
@@ -234,3 +234,52 @@ def summary(ports, cv_velocity, units=None, settings=None):
         ["first warning", w[0] if w else "none"],
     ]
     return out
+
+
+def split(ports, cv_velocity, units=None, settings=None):
+    """Per-port flows of a (solved) split: mass flow, fraction of the inflow, stream area."""
+    us = unit_system(units)
+    t, b, cb = evaluate_closed(ports, cv_velocity, settings)
+    pt = t.data
+    p = pt.ports
+    mdot = np.asarray(b.mass_flow, dtype=float)
+    inflow = float(b.inflow)
+    wn = np.einsum("ij,ij->i", b.w, p.normal)
+    speed = np.linalg.norm(b.w, axis=1)
+    flow_set = _flow_ports(pt)
+    implied = np.full(p.n, np.nan) if cb is None else np.asarray(cb.stream_area, dtype=float)
+    head = ["port", "role", "closure", f"mass flow [{us.label('mass_flow')}] (+ out)",
+            f"fraction of inflow [{us.label('ratio')}] (+ out)",
+            f"relative speed [{us.label('velocity')}]", f"stream area [{us.label('area')}]",
+            "area from"]
+    out = [head]
+    for i, name in enumerate(p.names):
+        role = {-1: "in", 1: "out"}.get(int(p.role[i]), "")
+        closure = pt.closure[i] if pt.closure[i] != "given" else (
+            "share" if not math.isnan(pt.share[i]) else "given")
+        if flow_set[i]:
+            area = implied[i]
+            basis = "flow (share)" if not math.isnan(pt.share[i]) else "flow (solved)"
+            if not (wn[i] > 0 and mdot[i] > 0):
+                area, na = math.nan, "n/a: no outflow through the port"
+            else:
+                na = "n/a"
+        elif not math.isnan(p.area[i]):
+            area, basis, na = p.area[i], "table", "n/a"
+        else:
+            area, basis, na = math.nan, "table", "n/a: not given (mass flow given)"
+        frac = mdot[i] / inflow if inflow > 0 else math.nan
+        out.append([name, role, closure, _value(us.out(mdot[i], "mass_flow")),
+                    _value(us.out(frac, "ratio"), na="n/a: no inflow"),
+                    _value(us.out(speed[i], "velocity")), _value(us.out(area, "area"), na=na),
+                    basis])
+    return out
+
+
+def _flow_ports(pt) -> np.ndarray:
+    """Ports whose flow a closure sets: 'solve' outlets, outlets with a share, and closed outlets
+    typed without area or mass flow (their flow follows from continuity)."""
+    p = pt.ports
+    closed = np.array([c != "given" for c in pt.closure], dtype=bool) & (p.role > 0)
+    return (np.array([c == "solve" for c in pt.closure], dtype=bool) | ~np.isnan(pt.share)
+            | (closed & np.isnan(p.area) & np.isnan(p.mass_flow)))

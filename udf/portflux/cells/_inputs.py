@@ -11,6 +11,10 @@ Blank rows and columns after the table are ignored. A blank row *inside* the tab
 naming the row: per-port results spill one row per port next to the table, and a skipped row
 would shift every row below it against its port.
 
+The closure columns (closure, loss, source, share; height and p_gauge for a Bernoulli outlet)
+are applied through :func:`portflux.core.balance_closed`, with the no-force ("slip") directions
+of the settings range; a table without closures is balanced by :func:`portflux.core.balance`.
+
 Every parse result (or its error message) is cached on the frozen raw argument, so a sheet with
 many functions on one table converts units and validates it once. pint is reached only through
 :func:`portflux.units.factor`, itself cached, once per column and never per cell.
@@ -26,7 +30,8 @@ import numpy as np
 
 from .. import spec
 from .. import units as U
-from ..core import STANDARD_GRAVITY, Balance, InputError, OutsideScopeError, balance, polar_velocity
+from ..core import (FREE, GIVEN, LOSS, SOLVE, STANDARD_GRAVITY, Balance, ClosedBalance, Closures,
+                    InputError, OutsideScopeError, balance, balance_closed, polar_velocity)
 from ..core.balance import DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN
 from ._grid import (CellError, blank_row, describe, error_value, freeze, is_blank, number,
                     one_cell, rows, trim)
@@ -134,29 +139,6 @@ def _place(e: InputError, typed: dict) -> str:
     return f"{head}, {field}: {msg}" if field else f"{head}: {msg}"
 
 
-# Closure columns are read by spec but not yet evaluated by the engine the cells call; refuse
-# them rather than silently ignoring them.
-_CLOSURE_ONLY = ("loss", "source", "share")
-
-
-def _refuse_closures(pt: spec.PortTable, cols: dict, typed: dict):
-    for i, c in enumerate(pt.closure):
-        if c != "given":
-            raise CellError(f"ports row {i + FIRST_PORT_ROW}, {typed['closure']}: closure {c!r} is "
-                            f"not evaluated by the worksheet functions yet; give the outlet "
-                            f"velocity and leave closure blank (or 'given')")
-    for key in _CLOSURE_ONLY:
-        if key not in cols:
-            continue
-        vals = getattr(pt, key)
-        filled = [i for i, v in enumerate(vals)
-                  if (v != "" if isinstance(v, str) else not math.isnan(v))]
-        if filled:
-            raise CellError(f"ports row {filled[0] + FIRST_PORT_ROW}, {typed[key]}: is used only by "
-                            f"outlet closures, which the worksheet functions do not evaluate yet; "
-                            f"clear it")
-
-
 @_cached(256)
 def _table(key) -> Table:
     grid = trim(rows(key))
@@ -165,9 +147,9 @@ def _table(key) -> Table:
     if len(grid) == 1:
         raise CellError(f"ports: only a header row; {_TABLE_LAYOUT} (row 2 may be blank)")
     cols, typed = _header(grid)
+    units = _unit_row(grid, cols, typed)   # first: a port typed in row 2 is named as such
     if len(grid) == 2:
         raise CellError(f"ports: no port rows; {_TABLE_LAYOUT}")
-    units = _unit_row(grid, cols, typed)
     body = grid[2:]
     for i, r in enumerate(body):
         if blank_row(r):
@@ -177,10 +159,9 @@ def _table(key) -> Table:
                             f"are ignored only after the last port")
     table = {k: [r[j] for r in body] for k, j in cols.items()}
     try:
-        pt = spec.build(table, units)
+        pt = spec.build(table, units, closures=True)
     except InputError as e:
         raise CellError(_place(e, typed)) from None
-    _refuse_closures(pt, cols, typed)
     return Table(pt, typed)
 
 
@@ -242,6 +223,7 @@ class Settings:
     gravity: tuple = (0.0, 0.0, -STANDARD_GRAVITY)          #: [m/s^2]
     tolerance: float = DEFAULT_IMBALANCE_TOL                #: [-]
     intercept: str = SINGLE
+    no_force: tuple = ()     #: unit directions (3-tuples) along which the support force is zero
 
 
 SETTINGS = {  # normalised name -> (name shown, quantity kind or None for text, help)
@@ -253,7 +235,17 @@ SETTINGS = {  # normalised name -> (name shown, quantity kind or None for text, 
     "tolerance": ("tolerance", "ratio", "relative mass-imbalance tolerance, default "
                                         f"{DEFAULT_IMBALANCE_TOL:g} (unit blank or %)"),
     "intercept": ("intercept", None, "'single' vane (default) or vane 'train' (bucket wheel)"),
+    "slipangle": ("slip_angle", "angle", "in-plane direction (from +x toward +y, default unit "
+                                         "deg) along which the body carries no force "
+                                         "(frictionless surface); one condition for solved "
+                                         "outlet flows; repeat the row for more directions"),
+    "slipx": ("slip_x", "ratio", "x component of one more no-force direction (with slip_y, "
+                                 "slip_z; blank components are 0)"),
+    "slipy": ("slip_y", "ratio", "y component of that no-force direction"),
+    "slipz": ("slip_z", "ratio", "z component of that no-force direction"),
 }
+_REPEATABLE = ("slipangle",)
+_SLIP_COMPONENTS = ("slip_x", "slip_y", "slip_z")
 _SETTINGS_HEADER = ("setting", "name", "parameter", "quantity")
 
 
@@ -286,7 +278,7 @@ def _settings(key) -> Settings:
     if key is None:
         return Settings()
     grid = rows(key)
-    found, seen = {}, {}
+    found, seen, directions = {}, {}, []
     first = True
     for i, r in enumerate(grid, 1):
         if blank_row(r):
@@ -307,17 +299,30 @@ def _settings(key) -> Settings:
             raise CellError(f"settings row {i}: unknown setting {name.strip()!r}; known: "
                             f"{', '.join(s[0] for s in SETTINGS.values())}")
         shown, kind, _ = SETTINGS[k]
-        if k in seen:
+        if k in seen and k not in _REPEATABLE:
             raise CellError(f"settings rows {seen[k]} and {i} both set {shown}; keep one")
-        seen[k] = i
+        seen.setdefault(k, i)
         value = r[1] if len(r) > 1 else None
         unit = r[2] if len(r) > 2 else None
-        found[shown] = _setting_value(shown, kind, value, unit, f"settings row {i}, {name.strip()}")
+        x = _setting_value(shown, kind, value, unit, f"settings row {i}, {name.strip()}")
+        if k in _REPEATABLE:
+            directions.append((math.cos(x) + 0.0, math.sin(x) + 0.0, 0.0))
+        else:
+            found[shown] = x
     g = list(Settings.gravity)
     for axis, name in enumerate(("gx", "gy", "gz")):
         if name in found:
             g[axis] = found.pop(name)
-    return Settings(gravity=tuple(g), **found)
+    comps = [found.pop(c, 0.0) for c in _SLIP_COMPONENTS]
+    rows_ = sorted(seen[_setting_key(c)] for c in _SLIP_COMPONENTS if _setting_key(c) in seen)
+    if rows_:
+        if not math.hypot(*comps) > 1e-12:
+            raise CellError(f"settings row{'s' if len(rows_) > 1 else ''} "
+                            f"{', '.join(map(str, rows_))}: slip_x, slip_y, slip_z give a "
+                            f"zero-length direction; give the direction along which the body "
+                            f"carries no force")
+        directions.append(tuple(comps))
+    return Settings(gravity=tuple(g), no_force=tuple(directions), **found)
 
 
 def settings(raw) -> Settings:
@@ -367,35 +372,120 @@ def tolerance(raw):
     return x
 
 
+SLIP_ROWS = "slip_angle rows, slip_x/slip_y/slip_z"
+
+
+def _render(e: InputError, t: Table | None) -> str:
+    """Message of an engine InputError, placed on the sheet (ports row / settings row)."""
+    if e.argument == "no_force":
+        return f"settings, no-force directions ({SLIP_ROWS}): {e.message}"
+    if e.argument in ("intercept", "fluid_mass", "tolerance", "gravity"):
+        return "settings, " + e.describe()
+    if e.port is not None and e.argument is None and t is not None:
+        return _place(e, t.headers)
+    return e.describe(lambda i: f"row {i + FIRST_PORT_ROW}")
+
+
+def _uses_closures(pt: spec.PortTable) -> bool:
+    return any(c != GIVEN for c in pt.closure) or bool(np.any(~np.isnan(pt.share)))
+
+
+def closures_for(t: Table, s: Settings, *, kinematic=False) -> Closures | None:
+    """Closures of a parsed table under the settings' no-force directions (None: none used).
+
+    ``kinematic=True`` keeps only the speed rules ('solve' becomes its speed rule, shares and
+    no-force directions are dropped): what the velocity functions need, which never depend on the
+    flows. The full closures are still validated, except for the count of flow conditions.
+    """
+    pt = t.data
+    if not _uses_closures(pt):
+        if s.no_force:
+            c = len(s.no_force)
+            raise CellError(f"settings, no-force directions ({SLIP_ROWS}): {c} no-force "
+                            f"direction(s) given but no outlet flow is unknown: {c} condition(s) "
+                            f"extra; mark outlets 'solve' in the closure column or drop the rows")
+        return None
+    # a closed outlet (free, loss, bernoulli) typed without area or mass flow: flow unknown,
+    # found from continuity with the other conditions
+    ports = pt.ports
+    unknown = np.array([r not in (GIVEN, SOLVE) and ports.role[i] > 0
+                        and np.isnan(ports.area[i]) and np.isnan(ports.mass_flow[i])
+                        and np.isnan(pt.share[i]) for i, r in enumerate(pt.closure)], dtype=bool)
+    full = dict(loss=pt.loss, source=list(pt.source), share=pt.share,
+                unknown=unknown if unknown.any() else None,
+                no_force=np.array(s.no_force) if s.no_force else None)
+    try:
+        try:
+            c = Closures.build(pt.ports, list(pt.closure), **full)
+        except InputError as e:
+            if not (kinematic and e.argument == "no_force"):
+                raise
+            c = None
+        if kinematic:
+            rules = [(LOSS if not math.isnan(k) else FREE) if r == SOLVE else r
+                     for r, k in zip(pt.closure, pt.loss)]
+            c = Closures.build(pt.ports, rules, loss=pt.loss, source=list(pt.source))
+    except InputError as e:
+        raise CellError(_render(e, t)) from None
+    return c
+
+
 @lru_cache(maxsize=512)
-def _evaluate(pkey, ckey, skey, tol):
+def _evaluate(pkey, ckey, skey, tol, kinematic=False):
     try:
         t = _table(pkey)
         v = _cv(ckey)
         s = _settings(skey)
+        c = closures_for(t, s, kinematic=kinematic)
+        opts = dict(fluid_mass=s.fluid_mass, gravity=s.gravity,
+                    tol=s.tolerance if tol is None else tol, intercept=s.intercept)
         try:
-            b = balance(t.data.ports, v, fluid_mass=s.fluid_mass, gravity=s.gravity,
-                        tol=s.tolerance if tol is None else tol, intercept=s.intercept)
+            if c is None:
+                b, cb = balance(t.data.ports, v, **opts), None
+            else:
+                cb = balance_closed(t.data.ports, c, v, **opts)
+                b = cb.balance
         except InputError as e:
-            where = "settings, " if e.argument in ("intercept", "fluid_mass", "tolerance") else ""
-            raise CellError(where + e.describe(lambda i: f"row {i + FIRST_PORT_ROW}")) from None
+            raise CellError(_render(e, t)) from None
         except OutsideScopeError as e:
             raise CellError(str(e)) from None
-        return True, (t, b)
+        return True, (t, b, cb)
     except CellError as e:
         return False, str(e)
 
 
-def evaluate(ports, cv, settings_raw=None, tol=None) -> tuple[Table, Balance]:
-    """Parse (cached) and balance (cached) one control volume."""
+def _settings_key(settings_raw):
     skey = freeze(settings_raw)
     if not isinstance(skey, tuple):
         settings(skey)  # blank -> defaults; a scalar -> its message
         skey = None
-    ok, value = _evaluate(freeze(ports), freeze(cv), skey, tol)
+    return skey
+
+
+def evaluate(ports, cv, settings_raw=None, tol=None, *, kinematic=False) -> tuple[Table, Balance]:
+    """Parse (cached) and balance (cached) one control volume, closures applied.
+
+    ``kinematic=True``: only the velocities are needed (see :func:`closures_for`).
+    """
+    t, b, _ = evaluate_closed(ports, cv, settings_raw, tol, kinematic=kinematic)
+    return t, b
+
+
+def evaluate_closed(ports, cv, settings_raw=None, tol=None, *, kinematic=False
+                    ) -> tuple[Table, Balance, ClosedBalance | None]:
+    """As :func:`evaluate`, plus the :class:`ClosedBalance` (None when no closure is used)."""
+    ok, value = _evaluate(freeze(ports), freeze(cv), _settings_key(settings_raw), tol, kinematic)
     if not ok:
         raise CellError(value)
     return value
+
+
+def setup(ports, settings_raw=None) -> tuple[Table, Closures | None, Settings]:
+    """Parsed port table (cached), its closures and the settings, for the speed functions."""
+    skey = _settings_key(settings_raw)
+    t = _table(freeze(ports))
+    s = _settings(skey)
+    return t, closures_for(t, s), s
 
 
 def clear_caches():

@@ -1,0 +1,398 @@
+"""Speed tables and optimum speeds from the worksheet: parsing the speed arguments, calling
+:mod:`portflux.core.sweep` once per call, and building the spilled blocks.
+
+A speed table may hold a million speeds. The range is turned into one numpy array in one call
+(a type check over the flat cells, then ``numpy.array``), the engine evaluates every speed in
+vectorised chunks, and the output rows come from one ``ndarray.tolist()`` with the garbage
+collector paused (a million new row lists otherwise trigger a collection every few hundred rows).
+Only the rare rows that need text (blank input cells, "n/a") are touched one by one.
+"""
+
+from __future__ import annotations
+
+import gc
+import math
+from contextlib import contextmanager
+from itertools import chain
+
+import numpy as np
+
+from .. import units as U
+from ..core import InputError, OutsideScopeError, best_speed, speed_at_force, speed_table
+from ._functions import _value
+from ._grid import (CellError, describe, error_value, freeze, is_blank, is_number, number, rows,
+                    scalar_text, trim)
+from ._inputs import _render, setup, unit_system
+
+_SEQ = (list, tuple)
+_FAST_TYPES = {float, int, type(None)}
+
+#: Columns of PFX_SPEEDTABLE: (header, quantity kind) after the speed column.
+TABLE_COLUMNS = (
+    ("support force x", "force"), ("support force y", "force"), ("support force z", "force"),
+    ("force on body x", "force"), ("force on body y", "force"), ("force on body z", "force"),
+    ("power to body", "power"), ("jet efficiency", "ratio"),
+)
+COMPONENTS = ("x", "y", "z", "along", "magnitude")
+
+
+@contextmanager
+def _no_gc():
+    """Pause the cyclic garbage collector while building many small lists (restored after)."""
+    was = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was:
+            gc.enable()
+
+
+# --------------------------------------------------------------------------------------------
+# arguments
+# --------------------------------------------------------------------------------------------
+def _flat_cells(raw):
+    """The cells of a one-row or one-column argument as a flat list, and "row" or "column"
+    (the word that numbers them in messages). Large ranges take the C-level paths only."""
+    if isinstance(raw, np.ndarray):
+        raw = raw.tolist()
+    if not isinstance(raw, _SEQ):
+        return [raw], "cell"
+    if not raw:
+        return [], "cell"
+    kinds = set(map(type, raw))
+    if not kinds & {list, tuple, np.ndarray}:
+        return list(raw), "cell"            # a flat range: xlwings hands over a column flat
+    if kinds <= {list, tuple}:
+        if len(raw) == 1:
+            return list(raw[0]), "column"
+        if set(map(len, raw)) == {1}:
+            return list(chain.from_iterable(raw)), "row"
+    grid = trim(rows(freeze(raw)))           # odd shapes: the general (slower) path
+    if not grid:
+        return [], "cell"
+    if len(grid) > 1 and len(grid[0]) > 1:
+        raise CellError(f"speeds: expected one column (or one row) of speeds, got a {len(grid)} "
+                        f"x {len(grid[0])} range")
+    if len(grid) == 1:
+        return list(grid[0]), "column"
+    return [r[0] for r in grid], "row"
+
+
+def _slow_numbers(cells, start, word):
+    """Numbers of ``cells[start:]`` (NaN for blanks), checking each cell; names a bad one."""
+    out = []
+    for k, c in enumerate(cells[start:], start + 1):
+        if type(c) is float or (is_number(c) and not isinstance(c, bool)):
+            out.append(float(c))
+        elif is_blank(c):
+            out.append(math.nan)
+        elif isinstance(c, np.generic) and isinstance(c.item(), (int, float)) and not isinstance(
+                c.item(), bool):
+            out.append(float(c.item()))
+        else:
+            err = error_value(c)
+            got = f"the spreadsheet error {err}; fix the cell it comes from" if err else (
+                f"{describe(c)}; only the first cell may hold the speeds' unit")
+            raise CellError(f"speeds {word} {k}: expected a speed (a number), got {got}")
+    return np.array(out, dtype=float)
+
+
+def parse_speeds(raw):
+    """Speeds argument -> (speeds [m/s] with NaN at blank cells, unit as typed or "").
+
+    One column (or row) of numbers, optionally led by one text cell with their unit (default
+    m/s). Blank cells after the last speed are dropped; blank cells between speeds stay (their
+    output rows are blank, so every output row stays level with its speed).
+    """
+    cells, word = _flat_cells(raw)
+    end = len(cells)
+    while end and is_blank(cells[end - 1]):
+        end -= 1
+    del cells[end:]
+    unit, start = "", 0
+    if cells and isinstance(cells[0], str) and not is_blank(cells[0]) and not error_value(
+            cells[0]):
+        unit, start = cells[0].strip(), 1
+    if len(cells) <= start:
+        raise CellError("speeds: holds no speed; give a column of speeds, optionally led by a "
+                        "unit cell such as 'ft/s'" + (f" (found only the unit {unit!r})"
+                                                      if unit else ""))
+    body = cells[start:] if start else cells
+    kinds = set(map(type, body))
+    if kinds <= _FAST_TYPES:
+        u = np.array(body, dtype=float)               # None -> NaN in one call
+        if float in kinds and type(None) in kinds:
+            nan_at = np.flatnonzero(np.isnan(u))
+            real = [i for i in nan_at.tolist() if body[i] is not None]
+        else:
+            real = np.flatnonzero(np.isnan(u)).tolist() if type(None) not in kinds else []
+        if real:
+            raise CellError(f"speeds {word} {real[0] + start + 1}: is NaN; give a number")
+    else:
+        u = _slow_numbers(cells, start, word)
+    bad = np.flatnonzero(np.isinf(u))
+    if bad.size:
+        raise CellError(f"speeds {word} {int(bad[0]) + start + 1}: must be a finite number "
+                        f"(got {u[bad[0]]})")
+    if np.isnan(u).all():
+        raise CellError("speeds: holds no speed, only blank cells")
+    try:
+        f = U.factor(unit or None, "velocity")
+    except InputError as e:
+        raise CellError(f"speeds {word} 1 (the unit cell): {e.message}") from None
+    return u * f if f != 1.0 else u, unit, start
+
+
+def _number_and_unit(raw, where, kind, default):
+    """A one-number argument with an optional unit cell after it -> (SI value, typed value, unit
+    label shown)."""
+    grid = trim(rows(freeze(raw)))
+    cells = [c for r in grid for c in r]
+    if len(grid) > 1 and len(grid[0]) > 1:
+        raise CellError(f"{where}: expected one number (and an optional unit cell), got a "
+                        f"{len(grid)} x {len(grid[0])} range")
+    unit = None
+    if cells and isinstance(cells[-1], str) and not is_blank(cells[-1]) and not error_value(
+            cells[-1]):
+        unit = cells.pop().strip()
+    if not cells:
+        if unit is None:
+            raise CellError(f"{where}: is blank; give a number")
+        try:
+            U.factor(unit, kind)
+        except InputError:
+            raise CellError(f"{where}: expected a number, got text {unit!r}") from None
+        raise CellError(f"{where}: holds only the unit {unit!r}; put the number before it")
+    if len(cells) > 1:
+        raise CellError(f"{where}: expected one number and an optional unit cell, got "
+                        f"{len(cells) + (unit is not None)} cells")
+    x = number(cells[0], where)
+    try:
+        f = U.factor(unit or default, kind)
+    except InputError as e:
+        raise CellError(f"{where}, unit: {e.message}") from None
+    return x * f, x, unit or U.display(default, kind)
+
+
+def parse_direction(raw) -> np.ndarray:
+    """Direction of motion: blank = +x; one number = in-plane angle from +x toward +y [deg
+    unless a unit cell follows]; three numbers = components (any length)."""
+    grid = trim(rows(freeze(raw)))
+    cells = [c for r in grid for c in r]
+    if not cells:
+        return np.array([1.0, 0.0, 0.0])
+    if len(grid) > 1 and len(grid[0]) > 1:
+        raise CellError(f"direction: expected an angle [deg] or 3 components, got a {len(grid)} "
+                        f"x {len(grid[0])} range")
+    if len(cells) <= 2:
+        si, _, _ = _number_and_unit(raw, "direction", "angle", "deg")
+        return np.array([math.cos(si), math.sin(si), 0.0]) + 0.0
+    if len(cells) != 3:
+        raise CellError(f"direction: expected an angle [deg] (one number) or 3 components, got "
+                        f"{len(cells)} cells")
+    d = np.array([number(c, f"direction cell {k}") for k, c in enumerate(cells, 1)])
+    if not np.linalg.norm(d) > 1e-12:
+        raise CellError("direction: has zero length; give the direction the body moves in")
+    return d
+
+
+def parse_component(raw) -> str:
+    c = scalar_text(raw, "component") or "along"
+    if c not in COMPONENTS:
+        raise CellError(f"component: must be x, y, z, along (the direction of motion) or "
+                        f"magnitude (got {c!r})")
+    return c
+
+
+def _bracket(low, high):
+    lo, lo_typed, lo_unit = _number_and_unit(low, "low", "velocity", "m/s")
+    hi, hi_typed, hi_unit = _number_and_unit(high, "high", "velocity", "m/s")
+    if not lo < hi:
+        raise CellError(f"low, high: low must be below high (got low {lo_typed:g} {lo_unit}, "
+                        f"high {hi_typed:g} {hi_unit})")
+    return lo, hi
+
+
+def _engine(call, t, *args, **kw):
+    try:
+        return call(*args, **kw)
+    except InputError as e:
+        if e.argument == "bracket":
+            raise CellError(f"low, high: {e.message}") from None
+        raise CellError(_render(e, t)) from None
+    except OutsideScopeError as e:
+        raise CellError(str(e)) from None
+
+
+def _unmet(t, d, lo, hi, opts, us, sample=None) -> str:
+    """" ..." remark when a closure cannot be met at some speeds of the bracket ("" if none)."""
+    if opts["closures"] is None:
+        return ""
+    if sample is None:
+        sample = _engine(speed_table, t, t.data.ports, np.linspace(lo, hi, 257), d, **opts)
+    bad = ~np.asarray(sample.valid)
+    if not bad.any():
+        return ""
+    v = us.label("velocity")
+    s0, s1 = (us.out(float(x), "velocity") for x in sample.speed[bad][[0, -1]])
+    return (f"; a Bernoulli outlet cannot be reached at speeds about {s0:.4g} to {s1:.4g} {v} "
+            f"(no result there)")
+
+
+def _options(c, s):
+    return dict(closures=c, intercept=s.intercept, fluid_mass=s.fluid_mass, gravity=s.gravity)
+
+
+# --------------------------------------------------------------------------------------------
+# worksheet bodies
+# --------------------------------------------------------------------------------------------
+def speedtable(ports, speeds, direction=None, units=None, settings=None):
+    us = unit_system(units)
+    d = parse_direction(direction)
+    t, c, s = setup(ports, settings)
+    u, _, _ = parse_speeds(speeds)
+    blank = np.isnan(u)
+    some_blank = bool(blank.any())
+    r = _engine(speed_table, t, t.data.ports, u[~blank] if some_blank else u, d,
+                tol=s.tolerance, **_options(c, s))
+    width = 2 + len(TABLE_COLUMNS)
+    out = np.zeros((u.size, width))
+    rows_ = out[~blank] if some_blank else out
+    rows_[:, 0] = r.speed
+    rows_[:, 1:4] = r.support_force
+    rows_[:, 4:7] = r.force_on_body
+    rows_[:, 7] = r.power
+    rows_[:, 8] = r.jet_efficiency
+    rows_[:, 9] = r.contact
+    for cols, kind in ((slice(0, 1), "velocity"), (slice(1, 7), "force"), (slice(7, 8), "power"),
+                       (slice(8, 9), "ratio")):
+        f = U.factor(us.unit(kind), kind)            # one division per column, none for SI
+        if f != 1.0:
+            rows_[:, cols] /= f
+    if some_blank:
+        out[~blank] = rows_
+    out += 0.0                                          # no negative zeros
+    nan_rows = np.flatnonzero(~np.isfinite(out).all(axis=1) & ~blank)
+    met = np.ones(u.size, dtype=bool)
+    met[~blank] = r.valid
+    head = [f"speed [{us.label('velocity')}]"] + [
+        f"{name} [{us.label(kind)}]" for name, kind in TABLE_COLUMNS] + ["contact [1/0]"]
+    with _no_gc():
+        body = out.tolist()
+        for i in np.flatnonzero(blank).tolist():
+            body[i] = [""] * width
+        for i in nan_rows.tolist():
+            body[i] = _text_row(body[i], met[i])
+        body.insert(0, head)
+    return body
+
+
+def _text_row(row, met):
+    """A table row with its non-numbers as short texts (Excel shows no NaN or infinity)."""
+    if not met:
+        return [row[0]] + ["n/a: closure not met"] * (len(row) - 2) + [row[-1]]
+    out = []
+    for k, x in enumerate(row):
+        if math.isinf(x):
+            out.append("n/a: overflow")
+        elif math.isnan(x):
+            out.append("n/a: no jet enters the CV" if k == 8 else "n/a")
+        else:
+            out.append(x)
+    return out
+
+
+def _along(r):
+    return r.force_on_body @ r.direction
+
+
+def bestspeed(ports, low, high, direction=None, units=None, settings=None):
+    us = unit_system(units)
+    d = parse_direction(direction)
+    lo, hi = _bracket(low, high)
+    t, c, s = setup(ports, settings)
+    opts = _options(c, s)
+    best = _engine(best_speed, t, t.data.ports, (lo, hi), d, **opts)
+    v, p, f, e = (us.label(k) for k in ("velocity", "power", "force", "ratio"))
+    show = lambda x: _value(us.out(x, "velocity"))   # noqa: E731
+    if best.delivers:
+        at = _engine(speed_table, t, t.data.ports, [best.speed], d, **opts)
+        if best.edge:
+            beyond = "below" if best.edge == "low" else "beyond"
+            note = (f"edge maximum: the power is largest at the {best.edge} end of the bracket; "
+                    f"widen it {beyond} {show(best.speed):g} {v} to look further")
+        else:
+            note = "maximum inside the bracket"
+        speed, drag = show(best.speed), _value(us.out(_along(at)[0], "force"))
+        eff = _value(us.out(best.efficiency, "ratio"), na="n/a: no jet enters the CV")
+    else:
+        note = (f"no power delivered: the fluid delivers no positive power to the body for "
+                f"speeds {show(lo):g} to {show(hi):g} {v} (largest "
+                f"{_value(us.out(best.power, 'power')):.6g} {p})")
+        speed = drag = eff = "n/a: no power delivered"
+    note += _unmet(t, d, lo, hi, opts, us)
+    return [
+        ["quantity [unit]", "value"],
+        [f"speed of maximum power [{v}]", speed],
+        [f"power to body [{p}]", _value(us.out(best.power, "power")) if best.delivers else
+         "n/a: no power delivered"],
+        [f"jet efficiency [{e}]", eff],
+        [f"force on body along the motion [{f}]", drag],
+        [f"bracket low [{v}]", show(lo)],
+        [f"bracket high [{v}]", show(hi)],
+        ["note", note],
+    ]
+
+
+def _component_values(r, component):
+    if component == "along":
+        return _along(r)
+    if component == "magnitude":
+        return np.linalg.norm(r.force_on_body, axis=-1)
+    return r.force_on_body[:, "xyz".index(component)]
+
+
+def speedatforce(ports, value, low, high, component=None, direction=None, units=None,
+                 settings=None):
+    us = unit_system(units)
+    comp = parse_component(component)
+    d = parse_direction(direction)
+    target, typed, funit = _number_and_unit(value, "value", "force", us.unit("force"))
+    lo, hi = _bracket(low, high)
+    t, c, s = setup(ports, settings)
+    opts = _options(c, s)
+    v, f = us.label("velocity"), us.label("force")
+    try:
+        r = speed_at_force(t.data.ports, target, (lo, hi), d, component=comp, **opts)
+    except InputError as e:
+        if e.argument == "bracket":
+            raise CellError(f"low, high: {e.message}") from None
+        if e.argument != "value":
+            raise CellError(_render(e, t)) from None
+        sample = _engine(speed_table, t, t.data.ports, np.linspace(lo, hi, 1025), d, **opts)
+        fv = us.out(_component_values(sample, comp), "force")
+        fv = fv[np.isfinite(fv)]
+        if not fv.size:
+            raise CellError(f"low, high: no speed in {us.out(lo, 'velocity'):g} to "
+                            f"{us.out(hi, 'velocity'):g} {v} gives a result (a Bernoulli outlet "
+                            f"cannot be reached anywhere in the bracket)") from None
+        raise CellError(f"value: the force on the body ({comp}) runs from {fv.min():.6g} to "
+                        f"{fv.max():.6g} {f} over speeds {us.out(lo, 'velocity'):g} to "
+                        f"{us.out(hi, 'velocity'):g} {v} and never reaches {typed:g} {funit}"
+                        f"{_unmet(t, d, lo, hi, opts, us, sample)}; widen the bracket (low, "
+                        f"high) or check the value") from None
+    except OutsideScopeError as e:
+        raise CellError(str(e)) from None
+    note = (f"the force reaches {typed:g} {funit} {r.crossings} times in the bracket; this is "
+            f"the lowest speed" if r.crossings > 1 else "single crossing in the bracket")
+    note += _unmet(t, d, lo, hi, opts, us)
+    return [
+        ["quantity [unit]", "value"],
+        [f"speed [{v}]", _value(us.out(r.speed, "velocity"))],
+        [f"force on body, {comp} [{f}]", _value(us.out(r.force, "force"))],
+        ["crossings in the bracket", int(r.crossings)],
+        [f"bracket low [{v}]", _value(us.out(lo, "velocity"))],
+        [f"bracket high [{v}]", _value(us.out(hi, "velocity"))],
+        ["note", note],
+    ]
