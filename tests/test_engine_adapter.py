@@ -477,3 +477,23 @@ def test_recalc_file_evaluation_error_writes_nothing(book, tmp_path):
 def test_recalc_file_refuses_a_changed_extension(book, tmp_path):
     with pytest.raises(RecalcError, match="extension"):
         recalc_file(book, str(tmp_path / "out.xlsm"), FUNCS)
+
+
+def test_index_of_a_multi_value_call_and_a_scalar_call_of_the_same_function(tmp_path):
+    # One function that returns a row for one argument and a scalar for another: INDEX over the
+    # row in one cell must not make the plain scalar call in another cell an error.
+    def pfx_test_either(n):
+        return [[1.0, 2.0, 3.0]] if n == 3 else 7.0
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws["A1"] = "=INDEX(PFX_TEST_EITHER(3),1,2)"
+    ws["A2"] = "=PFX_TEST_EITHER(1)"
+    ws["A3"] = "=PFX_TEST_EITHER(3)"
+    path = tmp_path / "either.xlsx"
+    wb.save(path)
+    calc = Recalculator(path, {"PFX_TEST_EITHER": pfx_test_either})
+    assert calc.value(ws.title, "A1") == 2.0
+    assert calc.value(ws.title, "A2") == 7.0
+    with pytest.raises(RecalcError, match="A3: PFX_TEST_EITHER returns several values"):
+        calc.value(ws.title, "A3")

@@ -1,9 +1,11 @@
-"""Command line: ``portflux demo`` (and, as features land, recalc, check, template, bench)."""
+"""Command line: ``portflux demo | recalc | check | template | bench``."""
 
 from __future__ import annotations
 
 import argparse
+import os
 import sys
+import tempfile
 
 CAUTION = (
     "CAUTION: these forces feed the design of supports and restraints. The formulas idealize the "
@@ -14,26 +16,90 @@ CAUTION = (
 )
 
 
-def _grid_to_columns(grid):
-    header, unit_row, *rows = grid
-    cols = {h: [r[i] for r in rows] for i, h in enumerate(header)}
-    units = {h: u for h, u in zip(header, unit_row) if u}
-    return cols, units
+def _template_source(tmp: str) -> str:
+    from .workbook.template import build_template, shipped_template
+
+    return shipped_template() or build_template(os.path.join(tmp, "portflux_template.xlsx"))
+
+
+def _block(path, sheet, at) -> list[tuple]:
+    """Cached values of a (column, row, rows, columns) block of a recalculated workbook."""
+    import openpyxl
+
+    c, r, nr, nc = at
+    wb = openpyxl.load_workbook(path, data_only=True, read_only=True)
+    try:
+        rows = [row[c - 1:c - 1 + nc] for row in wb[sheet].iter_rows(
+            min_row=r, max_row=r + nr - 1, max_col=c + nc - 1, values_only=True)]
+    finally:
+        wb.close()
+    return [row for row in rows if row[0] not in (None, "#N/A")]
 
 
 def cmd_demo(args) -> int:
-    from . import api
-    from .demo.scenarios import CARRIAGE_VANE as s
+    from .demo.scenarios import carriage_vane
+    from .workbook.check import recalc
+    from .workbook.fill import fill
 
-    cols, units = _grid_to_columns(s["ports"])
-    r = api.solve(cols, s["cv_velocity"], units=units, cv_unit=s["cv_unit"],
-                  fluid_mass=s["fluid_mass"], mass_unit=s["mass_unit"], gravity_unit="m/s^2")
-    print(s["title"])
-    print("=" * len(s["title"]))
-    print(r.report(args.units or s["units"]))
+    sc = carriage_vane()
+    out = args.output or os.path.join(tempfile.mkdtemp(prefix="portflux-demo-"),
+                                      "portflux-demo.xlsx")
+    with tempfile.TemporaryDirectory(prefix="portflux-fill-") as tmp:
+        filled = fill(_template_source(tmp), os.path.join(tmp, "demo-input.xlsx"), sc)
+        recalc(filled, out, progress=True)
+    print(sc.title)
+    print("=" * len(sc.title))
+    print(sc.note)
+    print()
+    from .workbook import template as T
+
+    for q, v in _block(out, T.CV, T.SUMMARY_AT):
+        print(f"  {q:46s} {v:.6g}" if isinstance(v, float) else f"  {q:46s} {v}")
+    best = _block(out, T.SWEEP, T.BEST_AT)
+    if best:
+        print()
+        print("Speed sweep (sheet 'Speed sweep'):")
+        for q, v in best:
+            print(f"  {q:46s} {v:.6g}" if isinstance(v, float) else f"  {q:46s} {v}")
+    print()
+    print(f"result workbook: {out}")
     print()
     print(CAUTION)
     return 0
+
+
+def cmd_recalc(args) -> int:
+    from .workbook.check import recalc
+
+    summary = recalc(args.input, args.output, progress=not args.quiet)
+    if summary.error_cells and not args.quiet:
+        (sheet, where), v = next(iter(summary.error_cells.items()))
+        print(f"note: {len(summary.error_cells)} cell(s) show spreadsheet errors (first: "
+              f"{sheet}!{where} = {v}); array ranges larger than their result show #N/A",
+              file=sys.stderr)
+    return 0
+
+
+def cmd_check(args) -> int:
+    from .workbook.check import check, format_cases
+
+    results = check(args.input, progress=True)
+    print(format_cases(results))
+    return 0 if all(c.passed for c in results) else 1
+
+
+def cmd_template(args) -> int:
+    from .workbook.template import TEMPLATE_NAME, build_template
+
+    path = build_template(args.path or TEMPLATE_NAME)
+    print(f"template written: {path}")
+    return 0
+
+
+def cmd_bench(args) -> int:
+    from . import bench
+
+    return bench.main(["--quick"] if args.quick else [])
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -43,9 +109,25 @@ def build_parser() -> argparse.ArgumentParser:
                                 "control volumes moving at constant velocity.")
     p.add_argument("--version", action="version", version=f"portflux {__version__}")
     sub = p.add_subparsers(dest="command", required=True)
-    d = sub.add_parser("demo", help="solve the built-in demo scenario and print the results")
-    d.add_argument("--units", help="output units: SI, US, or e.g. 'SI; force=kN'")
+    d = sub.add_parser("demo", help="fill the template with a demo scenario, recalculate it, "
+                                    "print the summary and write the result workbook")
+    d.add_argument("-o", "--output", help="result workbook (default: a new temporary folder)")
     d.set_defaults(func=cmd_demo)
+    r = sub.add_parser("recalc", help="recalculate a workbook without Excel into a new file")
+    r.add_argument("input", help="workbook to read (never modified)")
+    r.add_argument("-o", "--output", required=True, help="workbook to write (not the input)")
+    r.add_argument("-q", "--quiet", action="store_true", help="no progress messages")
+    r.set_defaults(func=cmd_recalc)
+    c = sub.add_parser("check", help="recalculate a workbook's reference cases and report "
+                                     "PASS/FAIL (exit 1 if any fails)")
+    c.add_argument("input", nargs="?", help="workbook (default: the shipped template)")
+    c.set_defaults(func=cmd_check)
+    t = sub.add_parser("template", help="write the template workbook")
+    t.add_argument("path", nargs="?", help="file or folder (default: ./portflux_template.xlsx)")
+    t.set_defaults(func=cmd_template)
+    b = sub.add_parser("bench", help="measure speed against a bare numpy baseline")
+    b.add_argument("--quick", action="store_true", help="tiny sizes (seconds), as CI runs it")
+    b.set_defaults(func=cmd_bench)
     return p
 
 
@@ -57,6 +139,9 @@ def main(argv=None) -> int:
         return args.func(args)
     except PortfluxError as e:
         print(f"portflux: {e}", file=sys.stderr)
+        return 2
+    except OSError as e:
+        print(f"portflux: {e.filename or ''}: {e.strerror or e}", file=sys.stderr)
         return 2
 
 

@@ -6,20 +6,28 @@ per row. The numbers are invented for illustration and are not measurements of a
 
 from __future__ import annotations
 
-#: A deflector on a test carriage: a 2.5 in water jet at 110 ft/s from a fixed nozzle meets a
-#: vane that runs away from the nozzle at 30 ft/s and turns the jet through 135 degrees, throwing
-#: it 10 degrees upward. The vane is frictionless, so the relative speed stays 80 ft/s.
-CARRIAGE_VANE = {
-    "title": "Deflector on a test carriage (invented demo scenario)",
-    "ports": (
-        ("port", "role", "frame", "area", "density", "speed", "angle", "tilt"),
-        (None, None, None, "in^2", "slug/ft^3", "ft/s", "deg", "deg"),
-        ("nozzle jet", "in", "abs", 4.908739, 1.94, 110.0, 0.0, 0.0),
-        ("vane exit", "out", "rel", 4.908739, 1.94, 80.0, 135.0, 10.0),
-    ),
-    "cv_velocity": (30.0, 0.0, 0.0),
-    "cv_unit": "ft/s",
-    "fluid_mass": 0.04,
-    "mass_unit": "slug",
-    "units": "US",
-}
+
+def carriage_vane():
+    """A deflector on a test carriage (the ``portflux demo`` scenario).
+
+    A 2.5 in water jet at 110 ft/s from a fixed nozzle meets a vane that runs away from the nozzle
+    at 30 ft/s and turns the jet through 135 degrees, throwing it 10 degrees upward. The vane is
+    frictionless (closure ``free``): the relative speed leaves as it arrived.
+    """
+    from ..workbook.fill import Scenario
+
+    return Scenario(
+        title="Deflector on a test carriage (invented demo scenario)",
+        ports=(
+            ("port", "role", "frame", "area", "density", "speed", "angle", "tilt", "closure"),
+            (None, None, None, "in^2", "slug/ft^3", "ft/s", "deg", "deg", None),
+            ("nozzle jet", "in", "abs", 4.908739, 1.94, 110.0, 0.0, 0.0, None),
+            ("vane exit", "out", "rel", 4.908739, 1.94, None, 135.0, 10.0, "free"),
+        ),
+        cv_velocity=(30.0, 0.0, 0.0), cv_unit="ft/s", units="US",
+        settings={"fluid_mass": (0.04, "slug"), "gx": (0.0, "ft/s^2"), "gy": (0.0, "ft/s^2"),
+                  "gz": (-32.174049, "ft/s^2")},
+        sweep=dict(low=0.0, high=110.0, unit="ft/s", direction=0.0, force=500.0, units="US"),
+        note="Invented scenario for the demo: a 2.5 in jet at 110 ft/s, carriage at 30 ft/s, "
+             "135 degree frictionless vane throwing 10 degrees up. Check all results against "
+             "your own codes before use.")

@@ -1,0 +1,526 @@
+"""Benchmarks: portflux's speed measured against a bare numpy baseline, in one run.
+
+``portflux bench`` (or ``python -m portflux.bench``) times, with repetitions, and prints the
+median of each figure beside its target:
+
+1. **balance** -- a 10-port balance through a worksheet function (``PFX_BODYFORCE`` on a raw
+   grid with a unit row in US units, forces out in lbf) against bare numpy evaluating the same
+   formulas on pre-converted SI arrays. Reported cold (the cells caches cleared before every
+   call: what a recalculation after a changed input costs, since a changed input is a cache
+   miss) and warm (the same grid again: a cache hit). The target applies to the cold call.
+2. **speed table** -- 10^6 speeds of a single frictionless vane (F = rho A (V-U)^2 (1 - cos th))
+   through :func:`portflux.core.speed_table` and through ``PFX_SPEEDTABLE`` against bare numpy of
+   the closed form producing the same columns (support x y z, body x y z, power, efficiency,
+   contact). Compute-only (arrays in, arrays out) and end to end (a tuple of 10^6 1-tuples in, a
+   list of row lists out; the baseline then pays the same ``np.asarray`` and ``.tolist()``);
+   plus peak traced memory (tracemalloc) against the size of the output arrays.
+3. **import** -- a fresh interpreter importing ``portflux.cells`` against one importing numpy
+   alone (median of several); the pint registry must not be built at import.
+4. **recalc** -- headless recalculation of the template (``workbook_templates/
+   portflux_template.xlsx``, built with :func:`portflux.workbook.template.build_template` where
+   absent) cold (load + first evaluation) and warm (one input changed, the CV speed), beside
+   the same sheet with every ``PFX_`` call replaced by native arithmetic in the same engine.
+
+``--quick`` runs everything with tiny sizes and one or two repetitions (CI: the benchmark
+cannot rot). Timings are never asserted anywhere: machines are shared and noisy.
+
+Reference for the vane formulas: moving-vane momentum balance, White, *Fluid Mechanics*,
+sec. 3.4 (from memory).
+"""
+
+from __future__ import annotations
+
+import argparse
+import gc
+import math
+import os
+import platform
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+import tracemalloc
+
+import numpy as np
+
+# --------------------------------------------------------------------------------------------
+# machinery
+# --------------------------------------------------------------------------------------------
+
+
+def _median_time(fn, reps, setup=None):
+    """Median wall time [s] of ``fn()`` over ``reps`` runs (``setup()`` untimed before each)."""
+    times = []
+    for _ in range(reps):
+        if setup is not None:
+            setup()
+        gc.collect()
+        t0 = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times)
+
+
+def _per_call(fn, reps, inner, setup=None):
+    """Median time [s] per call, timing ``inner`` calls per repetition (short calls)."""
+    def many():
+        for _ in range(inner):
+            if setup is not None:
+                setup()
+            fn()
+    if setup is None:
+        return _median_time(many, reps) / inner
+    # setup inside the timed loop: time it alone and subtract
+    t_all = _median_time(many, reps) / inner
+    t_setup = _median_time(lambda: [setup() for _ in range(inner)], reps) / inner
+    return max(t_all - t_setup, 0.0)
+
+
+def _peak_mib(fn):
+    """Peak traced memory [MiB] of ``fn()`` (tracemalloc; numpy reports its buffers)."""
+    gc.collect()
+    tracemalloc.start()
+    try:
+        fn()
+        _, peak = tracemalloc.get_traced_memory()
+    finally:
+        tracemalloc.stop()
+    return peak / 2 ** 20
+
+
+def _figure(bench, name, value, unit, target=None, limit=None, applies=True, note=""):
+    """One row of the report; ``met`` is None where the figure has no target of its own."""
+    met = None
+    if limit is not None and applies:
+        met = bool(value <= limit)
+    return dict(benchmark=bench, figure=name, value=float(value), unit=unit,
+                target=target or "", limit=limit, applies=applies, met=met, note=note)
+
+
+def machine() -> dict:
+    """Platform, CPU count, Python, numpy and the BLAS numpy was built with."""
+    info = dict(platform=platform.platform(), machine=platform.machine(),
+                python=platform.python_version(), cpus=os.cpu_count(),
+                numpy=np.__version__, blas="unknown",
+                openblas_coretype=os.environ.get("OPENBLAS_CORETYPE", ""))
+    try:
+        cfg = np.show_config(mode="dicts")
+        blas = cfg.get("Build Dependencies", {}).get("blas", {})
+        info["blas"] = f"{blas.get('name', '?')} {blas.get('version', '')}".strip()
+    except Exception:  # noqa: BLE001 - older numpy: keep "unknown"
+        pass
+    try:
+        from threadpoolctl import threadpool_info
+
+        pools = [f"{p.get('internal_api')} {p.get('version')} ({p.get('num_threads')} threads)"
+                 for p in threadpool_info()]
+        if pools:
+            info["threadpools"] = "; ".join(pools)
+    except Exception:  # noqa: BLE001 - threadpoolctl is optional
+        pass
+    return info
+
+
+# --------------------------------------------------------------------------------------------
+# 1. a 10-port balance through a worksheet function
+# --------------------------------------------------------------------------------------------
+_FT, _SLUG_FT3, _LBF = 0.3048, 515.3788183931961, 4.4482216152605
+# NIST SP 811, appendix B.8: 1 ft = 0.3048 m, 1 lbf = 4.4482216152605 N;
+# 1 slug/ft^3 = 515.378818 kg/m^3 (NIST SP 811, B.8).
+
+
+def ten_ports():
+    """A 10-port CV of our own invention in US units: raw grid (bridge form) and SI arrays."""
+    rng = np.random.default_rng(7)
+    n = 10
+    ang = np.linspace(0.0, 2 * np.pi, n, endpoint=False)
+    area = 0.02 + 0.01 * rng.random(n)                   # ft^2
+    rho = np.full(n, 1.94)                               # slug/ft^3
+    vel = np.stack([60 * np.cos(ang), 60 * np.sin(ang), 5 * rng.standard_normal(n)], 1)
+    p = 5.0 * rng.random(n)                              # psi
+    role = ["in" if i % 3 == 0 else "out" for i in range(n)]
+    grid = [("port", "role", "area", "density", "vx", "vy", "vz", "p_gauge", "beta"),
+            (None, None, "ft^2", "slug/ft^3", "ft/s", "ft/s", "ft/s", "psi", None)]
+    for i in range(n):
+        grid.append((f"p{i + 1}", role[i], float(area[i]), float(rho[i]), *map(float, vel[i]),
+                     float(p[i]), 1.0))
+    from .core import Ports
+    ports = Ports.build(area=area * _FT ** 2, density=rho * _SLUG_FT3, velocity=vel * _FT,
+                        role=role, p_gauge=p * 6894.757293168361)
+    si = dict(area=ports.area, rho=ports.density, vel=ports.velocity, normal=ports.normal,
+              p=ports.p_gauge, beta=ports.beta, role=ports.role)
+    return tuple(grid), si, (12.0, 0.0, 0.0, "ft/s")
+
+
+def bare_balance(si, v_cv):
+    """Force on the body [lbf] from the balance formulas in bare numpy on SI arrays."""
+    w = si["vel"] - v_cv
+    wn = np.einsum("ij,ij->i", w, si["normal"])
+    mdot = si["rho"] * si["area"] * wn
+    mdot = np.where((si["role"] < 0) & (wn > 0), 0.0, mdot)
+    mom = (si["beta"] * mdot) @ w
+    support = mom + (si["p"] * si["area"]) @ si["normal"]
+    return (-support / _LBF).tolist()
+
+
+def bench_balance(quick):
+    from . import cells
+
+    grid, si, cv = ten_ports()
+    v_si = np.array(cv[:3]) * _FT
+    reps = 2 if quick else 7
+    inner = 3 if quick else 200
+    cells.clear_caches()
+    got = cells.PFX_BODYFORCE(grid, cv, None, "US")
+    ref = bare_balance(si, v_si)
+    if isinstance(got, str) or not np.allclose(got[0], ref, rtol=1e-9, atol=1e-9):
+        raise RuntimeError(f"benchmark 1: worksheet function and baseline disagree: {got} vs "
+                           f"{ref}")
+    t_bare = _per_call(lambda: bare_balance(si, v_si), reps, inner)
+    t_cold = _per_call(lambda: cells.PFX_BODYFORCE(grid, cv, None, "US"), reps,
+                       max(inner // 4, 1), setup=cells.clear_caches)
+    cells.PFX_BODYFORCE(grid, cv, None, "US")
+    t_warm = _per_call(lambda: cells.PFX_BODYFORCE(grid, cv, None, "US"), reps, inner)
+    b = "1 balance"
+    return [
+        _figure(b, "bare numpy, 10 ports, SI arrays", t_bare * 1e6, "us"),
+        _figure(b, "PFX_BODYFORCE cold (caches cleared)", t_cold * 1e6, "us"),
+        _figure(b, "PFX_BODYFORCE warm (cache hit)", t_warm * 1e6, "us"),
+        _figure(b, "ratio cold / bare (recalc, changed input)", t_cold / t_bare, "x", "<= 3",
+                3.0, note="the target applies here: a changed input is a cache miss"),
+        _figure(b, "ratio warm / bare (same input again)", t_warm / t_bare, "x", "<= 3", 3.0,
+                applies=False, note="cache hit; shown for comparison"),
+    ]
+
+
+# --------------------------------------------------------------------------------------------
+# 2. a speed table of many speeds
+# --------------------------------------------------------------------------------------------
+RHO, AREA, V_JET, THETA = 998.0, 2e-3, 30.0, np.radians(165.0)
+
+
+def vane_ports():
+    """Single vane, frictionless: inlet jet along +x, outlet 'free' at THETA, equal areas."""
+    return (("port", "role", "area", "density", "speed", "angle", "closure"),
+            (None, None, "m^2", "kg/m^3", "m/s", "deg", None),
+            ("jet", "in", AREA, RHO, V_JET, 0.0, None),
+            ("exit", "out", AREA, RHO, None, float(np.degrees(THETA)), "free"))
+
+
+def bare_table(u):
+    """Closed form in bare numpy: the columns of a speed table, each a 1-D array."""
+    contact = u < V_JET
+    r = V_JET - u
+    r *= contact                                        # outrun: no flow, no force
+    f = (RHO * AREA) * r
+    f *= r
+    fx = f * (1.0 - np.cos(THETA))
+    fy = f * -np.sin(THETA)
+    fz = np.zeros_like(u)
+    power = fx * u
+    eff = power / (0.5 * RHO * AREA * V_JET ** 3)
+    return -fx, -fy, -fz, fx, fy, fz, power, eff, contact
+
+
+def _core_vane():
+    from .core import Closures, Ports
+
+    p = Ports.build(area=[AREA, AREA], density=RHO, role=["in", "out"],
+                    velocity=[[V_JET, 0, 0], [np.cos(THETA), np.sin(THETA), 0]])
+    return p, Closures.build(p, ["", "free"])
+
+
+def bench_table(quick):
+    from . import cells
+    from .core import speed_table
+
+    m = 2_000 if quick else 10 ** 6
+    reps = 1 if quick else 5
+    u = np.linspace(-10.0, 45.0, m)
+    x = [1.0, 0.0, 0.0]
+    p, c = _core_vane()
+    grid = vane_ports()
+    col = tuple((float(s),) for s in u)                  # as a bridge hands a column over
+
+    t = speed_table(p, u, x, closures=c)
+    ref = bare_table(u)
+    np.testing.assert_allclose(t.force_on_body[:, 0], ref[3], rtol=1e-9, atol=1e-6)
+    np.testing.assert_array_equal(t.contact, ref[8])
+
+    def core():
+        return speed_table(p, u, x, closures=c)
+
+    def bare_e2e():
+        s = np.asarray(col, dtype=float).ravel()
+        cols = bare_table(s)
+        out = np.column_stack((s,) + cols[:8] + (cols[8].astype(float),)).tolist()
+        out.insert(0, ["speed"] + [""] * 9)
+        return out
+
+    def core_e2e():
+        s = np.asarray(col, dtype=float).ravel()
+        r = speed_table(p, s, x, closures=c)
+        out = np.column_stack((s, r.support_force, r.force_on_body, r.power, r.jet_efficiency,
+                               r.contact.astype(float))).tolist()
+        out.insert(0, ["speed"] + [""] * 9)
+        return out
+
+    have_cells = hasattr(cells, "PFX_SPEEDTABLE")
+
+    def sheet():
+        return cells.PFX_SPEEDTABLE(grid, col)
+
+    if have_cells:
+        got = sheet()
+        if isinstance(got, str):
+            raise RuntimeError(f"benchmark 2: PFX_SPEEDTABLE says {got}")
+        np.testing.assert_allclose([r[4] for r in got[1:]], ref[3], rtol=1e-9, atol=1e-6)
+
+    t_bare = _median_time(lambda: bare_table(u), max(reps, 3))
+    t_core = _median_time(core, reps)
+    t_bare_e = _median_time(bare_e2e, reps)
+    t_core_e = _median_time(core_e2e, reps)
+    out_mib = sum(a.nbytes for a in ref) / 2 ** 20
+    core_mib = sum(a.nbytes for a in (t.speed, t.support_force, t.force_on_body, t.power,
+                                       t.jet_efficiency, t.inflow, t.contact, t.balanced,
+                                       t.valid)) / 2 ** 20
+    pk_bare = _peak_mib(lambda: bare_table(u))
+    pk_core = _peak_mib(core)
+    b = f"2 speed table (m={m:,})"
+    rows = [
+        _figure(b, "bare numpy closed form (9 columns)", t_bare * 1e3, "ms"),
+        _figure(b, "core.speed_table, 'free' closure", t_core * 1e3, "ms"),
+        _figure(b, "ratio core / bare, compute only", t_core / t_bare, "x", "<= 1.5", 1.5),
+        _figure(b, "bare numpy + asarray(tuple) + tolist", t_bare_e * 1e3, "ms"),
+        _figure(b, "core + the same conversions", t_core_e * 1e3, "ms"),
+        _figure(b, "ratio core / bare, end to end", t_core_e / t_bare_e, "x", "<= 1.5", 1.5,
+                note="both sides pay np.asarray on the tuple and .tolist() of the rows"),
+    ]
+    if have_cells:
+        t_sheet = _median_time(sheet, reps)
+        rows += [
+            _figure(b, "PFX_SPEEDTABLE (tuple in, row lists out)", t_sheet * 1e3, "ms"),
+            _figure(b, "ratio PFX_SPEEDTABLE / bare, end to end", t_sheet / t_bare_e, "x",
+                    "<= 1.5", 1.5, note="cells parses the grid, converts units, writes a "
+                                        "header row and checks NaN rows"),
+        ]
+    else:
+        rows.append(_figure(b, "PFX_SPEEDTABLE (not in portflux.cells yet)", math.nan, "ms",
+                            note="worksheet path missing"))
+    rows += [
+        _figure(b, "output arrays of the baseline", out_mib, "MiB"),
+        _figure(b, "output arrays of core.speed_table", core_mib, "MiB",
+                note="adds speed, inflow, balanced, valid"),
+        _figure(b, "peak traced memory, bare", pk_bare, "MiB"),
+        _figure(b, "peak traced memory, core", pk_core, "MiB"),
+        _figure(b, "core peak / core output", pk_core / core_mib, "x", "<= 3", 3.0,
+                note="'a few times the output'"),
+    ]
+    return rows
+
+
+# --------------------------------------------------------------------------------------------
+# 3. cold import
+# --------------------------------------------------------------------------------------------
+_IMPORT_CHECK = ("import sys, portflux.cells, portflux.units as u; "
+                 "print(u.registry_built(), 'pint' in sys.modules)")
+
+
+def _fresh(code):
+    t0 = time.perf_counter()
+    subprocess.run([sys.executable, "-c", code], check=True, capture_output=True)
+    return time.perf_counter() - t0
+
+
+def import_profile(code="import portflux.cells", top=6):
+    """The heaviest top-level packages of a cold import, from ``python -X importtime``."""
+    r = subprocess.run([sys.executable, "-X", "importtime", "-c", code], capture_output=True,
+                       text=True, check=True)
+    total = {}
+    for line in r.stderr.splitlines():
+        if not line.startswith("import time:") or "|" not in line:
+            continue
+        parts = line.split("|")
+        try:
+            self_us = int(parts[0].split(":")[1])
+        except ValueError:
+            continue
+        name = parts[2].strip().split(".")[0]
+        total[name] = total.get(name, 0) + self_us
+    return sorted(total.items(), key=lambda kv: -kv[1])[:top]
+
+
+def bench_import(quick):
+    reps = 1 if quick else 7
+    t_np = statistics.median(_fresh("import numpy") for _ in range(reps))
+    t_pf = statistics.median(_fresh("import portflux.cells") for _ in range(reps))
+    out = subprocess.run([sys.executable, "-c", _IMPORT_CHECK], capture_output=True, text=True,
+                         check=True).stdout.split()
+    built, pint_loaded = out[0] == "True", out[1] == "True"
+    heavy = import_profile()
+    b = "3 import"
+    return [
+        _figure(b, "fresh python: import numpy", t_np * 1e3, "ms"),
+        _figure(b, "fresh python: import portflux.cells", t_pf * 1e3, "ms"),
+        _figure(b, "portflux.cells - numpy alone", (t_pf - t_np) * 1e3, "ms", "<= 300", 300.0),
+        _figure(b, "pint registry built at import (0 = no)", float(built), "", "== 0", 0.0),
+        _figure(b, "pint imported at import (0 = no)", float(pint_loaded), "",
+                note="informational"),
+        _figure(b, "self time of the 6 heaviest packages", sum(v for _, v in heavy) / 1e3, "ms",
+                note="python -X importtime: " + ", ".join(f"{k} {v / 1e3:.0f} ms"
+                                                          for k, v in heavy)),
+    ]
+
+
+# --------------------------------------------------------------------------------------------
+# 4. headless recalculation of the template
+# --------------------------------------------------------------------------------------------
+def _template(folder):
+    """The shipped template, or one built now in ``folder``; its sheet and CV-speed cell."""
+    from .workbook import template as T
+
+    shipped = T.shipped_template()
+    path = shipped if shipped and os.path.isfile(shipped) else T.build_template(
+        os.path.join(folder, T.TEMPLATE_NAME))
+    ref = T.layout().cv_cells[0]
+    return path, T.CV, ref.split("!")[-1].replace("$", ""), shipped == path
+
+
+def _native_twin(folder):
+    """A sheet computing single-vane numbers with native arithmetic only, and one with PFX_."""
+    import openpyxl
+
+    def book(native):
+        wb = openpyxl.Workbook()
+        ws = wb.active
+        ws.title = "Vane"
+        grid = vane_ports()
+        for i, row in enumerate(grid, 1):
+            for j, v in enumerate(row, 1):
+                ws.cell(row=i, column=j, value=v)
+        ws["I1"], ws["J1"] = "speed", 8.0                 # CV speed [m/s]
+        # rho A (V-U)^2 (1 - cos th) and friends, 20 cells
+        exprs = []
+        for _ in range(5):
+            th = "RADIANS($F$4)"
+            r = "MAX($E$3-$J$1,0)"
+            if native:
+                exprs += [f"=$C$3*$D$3*{r}^2*(1-COS({th}))",
+                          f"=-$C$3*$D$3*{r}^2*SIN({th})",
+                          f"=$C$3*$D$3*{r}^2*(1-COS({th}))*$J$1",
+                          f"=$C$3*$D$3*{r}^2*(1-COS({th}))*$J$1/(0.5*$C$3*$D$3*$E$3^3)"]
+            else:
+                table = "$A$1:$G$4"
+                exprs += [f'=PFX_BODYFORCE({table},$J$1,"x")',
+                          f'=PFX_BODYFORCE({table},$J$1,"y")',
+                          f"=PFX_POWER({table},$J$1)",
+                          f"=PFX_EFFICIENCY({table},$J$1)"]
+        for i, e in enumerate(exprs):
+            ws.cell(row=6 + i, column=2, value=e)
+        path = os.path.join(folder, f"vane_{'native' if native else 'pfx'}.xlsx")
+        wb.save(path)
+        return path
+    return book(True), book(False)
+
+
+def _recalc(path, functions, sheet, cell, new_value, reps):
+    from . import cells
+    from .workbook.engine import Recalculator
+
+    def cold():
+        calc = Recalculator(path, functions)
+        calc.evaluate()
+        return calc
+
+    t_cold = _median_time(cold, reps, setup=cells.clear_caches)   # cold: parse caches empty
+    calc = cold()
+    values = iter(new_value + 0.25 * k for k in range(10 ** 6))
+    t_warm = _median_time(lambda: (calc.set_value(sheet, cell, next(values)), calc.evaluate()),
+                          reps)
+    return t_cold, t_warm, len(calc.formula_cells)
+
+
+def bench_recalc(quick):
+    from . import cells
+    from .workbook import worksheet_functions
+
+    reps = 1 if quick else 5
+    fns = worksheet_functions()
+    rows = []
+    b = "4 recalc"
+    with tempfile.TemporaryDirectory() as folder:
+        path, sheet, cell, shipped = _template(folder)
+        cells.clear_caches()
+        tc, tw, nf = _recalc(path, fns, sheet, cell, 9.0, reps)
+        what = "shipped template" if shipped else "template built now (none shipped)"
+        rows += [
+            _figure(b, f"{what}, {nf} formula cells: cold", tc, "s", "<= 2", 2.0),
+            _figure(b, f"{what}: warm (CV speed changed)", tw, "s", "<= 0.1", 0.1),
+        ]
+        native, pfx = _native_twin(folder)
+        tcn, twn, nn = _recalc(native, {}, "Vane", "J1", 9.0, reps)
+        cells.clear_caches()
+        tcp, twp, np_ = _recalc(pfx, fns, "Vane", "J1", 9.0, reps)
+        rows += [
+            _figure(b, f"vane sheet, {nn} native formulas: cold", tcn, "s"),
+            _figure(b, "vane sheet, native formulas: warm", twn, "s"),
+            _figure(b, f"vane sheet, {np_} PFX_ formulas: cold", tcp, "s"),
+            _figure(b, "vane sheet, PFX_ formulas: warm", twp, "s"),
+            _figure(b, "ratio PFX_ / native, warm", twp / twn, "x",
+                    note="same numbers, same engine"),
+        ]
+    return rows
+
+
+# --------------------------------------------------------------------------------------------
+BENCHMARKS = (bench_balance, bench_table, bench_import, bench_recalc)
+
+
+def run(quick=False) -> list[dict]:
+    """Run every benchmark and return its figures (dicts: benchmark, figure, value, unit,
+    target, limit, applies, met, note). ``quick``: tiny sizes, 1-2 repetitions."""
+    rows = []
+    for bench in BENCHMARKS:
+        rows.extend(bench(quick))
+    return rows
+
+
+def format_report(rows, info=None) -> str:
+    info = machine() if info is None else info
+    head = [f"portflux bench  ({'quick' if info.get('quick') else 'full'}; medians of "
+            f"repetitions)",
+            f"machine: {info['platform']}, {info['cpus']} CPUs, python {info['python']}, "
+            f"numpy {info['numpy']}, BLAS {info['blas']}"
+            + (f", OPENBLAS_CORETYPE={info['openblas_coretype']}"
+               if info['openblas_coretype'] else "")]
+    if "threadpools" in info:
+        head.append(f"threads: {info['threadpools']}")
+    lines = head + [""]
+    current = None
+    for r in rows:
+        if r["benchmark"] != current:
+            current = r["benchmark"]
+            lines.append(current)
+        verdict = "" if r["met"] is None else ("met" if r["met"] else "MISSED")
+        target = r["target"] + ("" if r["applies"] or not r["target"] else " (n/a)")
+        value = f"{r['value']:10.3f}" if math.isfinite(r["value"]) else f"{'n/a':>10}"
+        lines.append(f"  {r['figure']:<50} {value} {r['unit']:<4} {target:<14} {verdict:<6}"
+                     + (f"  {r['note']}" if r["note"] else ""))
+    return "\n".join(lines)
+
+
+def main(argv=None) -> int:
+    """``portflux bench [--quick]``: run the benchmarks and print the report."""
+    ap = argparse.ArgumentParser(prog="portflux bench", description=__doc__.split("\n\n")[0])
+    ap.add_argument("--quick", action="store_true",
+                    help="tiny sizes, 1-2 repetitions (seconds; for CI)")
+    args = ap.parse_args(argv)
+    info = machine()
+    info["quick"] = args.quick
+    print(format_report(run(quick=args.quick), info))
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

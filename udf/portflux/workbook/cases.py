@@ -1,0 +1,287 @@
+"""Reference cases of the template's 'Check cases' sheet.
+
+Each case evaluates one worksheet function on a small port table placed on the sheet and compares
+one value of its result with the expected value. The expected value is a *native* spreadsheet
+formula of the published closed form written on the same input cells (never a typed number), so
+changing an input keeps the case meaningful. Every case names its source: a book (author, title,
+section; "from memory" where recalled), a standard (NIST SP 811), or "common practice, no source".
+
+Index table (rows :data:`INDEX_TOP` + 1 ...): case | function | output | expected | tolerance |
+result | source. ``portflux check`` reads it after recalculation.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from openpyxl.styles import Font
+
+from .. import __version__
+from openpyxl.utils import get_column_letter
+
+from .template import (BOLD, HEAD_FILL, INPUT_FILL, OUTPUT_FILL, TITLE_FONT, _cv_row, _put,
+                       _port_table, _settings, cell)
+
+INDEX_TOP = 4
+INDEX_HEADER = ("case", "function", "output", "expected", "tolerance", "result", "source")
+BLOCKS_TOP = 60
+BLOCK_WIDTH = 10
+
+WHITE = "F. M. White, Fluid Mechanics, sec. 3.4, moving-vane analysis (from memory)"
+NIST = "NIST SP 811 (2008), Appendix B: 1 lbf = 4.448222 N, 1 hp = 745.6999 W"
+PROPULSION = ("P. Hill & C. Peterson, Mechanics and Thermodynamics of Propulsion, thrust "
+              "equation (from memory)")
+FROUDE = ("Froude momentum theory of propulsion; J. Carlton, Marine Propellers and Propulsion, "
+          "waterjet chapter (from memory)")
+PLATE = ("inclined flat plate split, standard fluid-mechanics texts, e.g. White, Fluid "
+         "Mechanics, ch. 3 (from memory)")
+WHEEL = ("impulse turbine (bucket wheel) theory, S. L. Dixon, Fluid Mechanics and "
+         "Thermodynamics of Turbomachinery, Pelton wheel section (from memory)")
+TRADE = "common practice, no source"
+
+
+@dataclass
+class Case:
+    name: str
+    function: str
+    output: str           # formula giving one value
+    expected: str         # native closed-form formula, or a text value
+    tolerance: float | None
+    source: str
+
+
+class Sheet:
+    """Places input blocks side by side below the index and collects cases."""
+
+    def __init__(self, ws):
+        self.ws = ws
+        self.col = 1
+        self.cases: list[Case] = []
+
+    def block(self, title, columns, units, rows, cv, cv_unit, settings=None, extra=None):
+        ws, left = self.ws, self.col
+        _put(ws, left, BLOCKS_TOP, title, font=BOLD)
+        t = _port_table(ws, left, BLOCKS_TOP + 1, columns, units, rows)
+        r = BLOCKS_TOP + 3 + len(rows) + 1
+        cvref = _cv_row(ws, left, r, cv, cv_unit)
+        cvx = cell(left + 1, r + 1)
+        r += 3
+        sref = None
+        extras = {}
+        if settings:
+            sref = _settings(ws, left, r, settings)
+            extras.update({name: cell(left + 1, r + 1 + i)
+                           for i, (name, _, _) in enumerate(settings)})
+            r += len(settings) + 2
+        for name, value in (extra or ()):
+            _put(ws, left, r, name, font=BOLD)
+            _put(ws, left + 1, r, value, fill=INPUT_FILL)
+            extras[name] = cell(left + 1, r)
+            r += 1
+        self.col += max(len(columns), 5) + 1
+        return t, cvref, cvx, sref, extras
+
+    def add(self, *args):
+        self.cases.append(Case(*args))
+
+
+def _cos(c):
+    return f"COS(RADIANS({c}))"
+
+
+def _sin(c):
+    return f"SIN(RADIANS({c}))"
+
+
+VANE_COLS = ("port", "role", "frame", "area", "density", "speed", "angle")
+VANE_SI = (None, None, None, "m^2", "kg/m^3", "m/s", "deg")
+
+
+def _vane_cases(s: Sheet):
+    # Invented numbers: 0.002 m^2 water jet at 30 m/s, vane at 10 m/s (= V/3), 120 degree turn,
+    # frictionless: the outlet's relative speed is typed as V - U = 20 m/s.
+    t, cv, U, _, _ = s.block("A. single vane, SI (outlet speed typed)", VANE_COLS, VANE_SI,
+                             (("nozzle", "in", "abs", 0.002, 998.0, 30.0, 0.0),
+                              ("exit", "out", "rel", 0.002, 998.0, 20.0, 120.0)),
+                             (10.0, 0.0, 0.0), "m/s")
+    rho, A, V = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed")
+    w2, th = t.at(1, "speed"), t.at(1, "angle")
+    P = t.ref
+    flux = f"{rho}*{A}*({V}-{U})^2"
+    s.add("relative velocity = V - V_cv (jet, x)", "PFX_RELVEL",
+          f'=INDEX(PFX_RELVEL({P},{cv},"nozzle"),1,1)', f"={V}-{U}", 1e-12,
+          "Galilean velocity addition; " + WHITE)
+    s.add("relative velocity of every port (exit, y)", "PFX_RELVELS",
+          f"=INDEX(PFX_RELVELS({P},{cv}),2,2)", f"={w2}*{_sin(th)}", 1e-12, TRADE)
+    s.add("absolute velocity from relative (exit, x)", "PFX_ABSVEL",
+          f"=INDEX(PFX_ABSVEL({P},{cv}),2,1)", f"={U}+{w2}*{_cos(th)}", 1e-12,
+          "Galilean velocity addition; " + WHITE)
+    s.add("single-vane intercepted mass flow -rho A (V - U)", "PFX_MASSFLOWS",
+          f"=INDEX(PFX_MASSFLOWS({P},{cv}),1,1)", f"=-{rho}*{A}*({V}-{U})", 1e-12, WHITE)
+    s.add("mass balance status", "PFX_IMBALANCE", f"=INDEX(PFX_IMBALANCE({P},{cv}),1,3)",
+          "ok", None, TRADE)
+    s.add("support force x = -rho A (V-U)^2 (1 - cos th)", "PFX_SUPPORT",
+          f"=INDEX(PFX_SUPPORT({P},{cv}),1,1)", f"=-{flux}*(1-{_cos(th)})", 1e-12, WHITE)
+    s.add("force on body x = rho A (V-U)^2 (1 - cos th)", "PFX_BODYFORCE",
+          f"=INDEX(PFX_BODYFORCE({P},{cv}),1,1)", f"={flux}*(1-{_cos(th)})", 1e-12, WHITE)
+    s.add("force on body y = -rho A (V-U)^2 sin th (axis argument)", "PFX_BODYFORCE",
+          f'=PFX_BODYFORCE({P},{cv},"y")', f"=-{flux}*{_sin(th)}", 1e-12, WHITE)
+    s.add("power = F_x U", "PFX_POWER", f"=PFX_POWER({P},{cv})",
+          f"={flux}*(1-{_cos(th)})*{U}", 1e-12, WHITE)
+    s.add("jet efficiency at U = V/3: (8/27)(1 - cos th)", "PFX_EFFICIENCY",
+          f'=PFX_EFFICIENCY({P},{cv},"jet")', f"=8/27*(1-{_cos(th)})", 1e-12,
+          "P_max = (4/27) rho A V^3 (1 - cos th) over the jet flux rho A V^3 / 2; " + WHITE)
+    s.add("summary block: force on body x", "PFX_SUMMARY",
+          f'=VLOOKUP("force on body x [N]",PFX_SUMMARY({P},{cv}),2,FALSE)',
+          f"={flux}*(1-{_cos(th)})", 1e-12, WHITE)
+    s.add("about block: version", "PFX_ABOUT", '=VLOOKUP("portflux",PFX_ABOUT(),2,FALSE)',
+          __version__, None, "the installed package's version (common practice, no source)")
+    s.add("column catalogue: US unit of area", "PFX_COLUMNS",
+          '=VLOOKUP("area",PFX_COLUMNS("US"),3,FALSE)', "ft^2", None,
+          "US customary area unit, NIST SP 811 Appendix B (square foot)")
+    s.add("settings catalogue: gz is an acceleration", "PFX_SETTINGS",
+          '=VLOOKUP("gz",PFX_SETTINGS(),2,FALSE)', "acceleration", None, TRADE)
+
+    # The same vane, outrun by the body: U = 40 m/s > V.
+    t2, cv2, U2, _, _ = s.block("B. the body outruns the jet", VANE_COLS, VANE_SI,
+                                (("nozzle", "in", "abs", 0.002, 998.0, 30.0, 0.0),
+                                 ("exit", "out", "rel", 0.002, 998.0, 20.0, 120.0)),
+                                (40.0, 0.0, 0.0), "m/s")
+    s.add("body faster than the jet: no contact", "PFX_IMBALANCE",
+          f"=INDEX(PFX_IMBALANCE({t2.ref},{cv2}),1,3)", "no contact", None,
+          "a vane faster than the jet receives no fluid (" + TRADE + ")")
+    s.add("body faster than the jet: zero force", "PFX_BODYFORCE",
+          f'=PFX_BODYFORCE({t2.ref},{cv2},"x")', "=0", 1e-12, TRADE)
+    s.add("body faster than the jet: warning names the outrun inlet", "PFX_WARNINGS",
+          f"=LEFT(INDEX(PFX_WARNINGS({t2.ref},{cv2}),1,1),27)", "port nozzle: declared inlet",
+          None, TRADE)
+
+
+def _us_vane_cases(s: Sheet):
+    # Invented: 0.05 ft^2 jet at 80 ft/s, vane at 20 ft/s, 150 degree turn, US customary.
+    t, cv, U, _, _ = s.block("C. single vane, US customary", VANE_COLS,
+                             (None, None, None, "ft^2", "slug/ft^3", "ft/s", "deg"),
+                             (("nozzle", "in", "abs", 0.05, 1.94, 80.0, 0.0),
+                              ("exit", "out", "rel", 0.05, 1.94, 60.0, 150.0)),
+                             (20.0, 0.0, 0.0), "ft/s")
+    rho, A, V, th = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"), t.at(1, "angle")
+    f = f"{rho}*{A}*({V}-{U})^2*(1-{_cos(th)})"
+    s.add("force on body x in lbf (slug ft/s^2 = lbf)", "PFX_BODYFORCE",
+          f'=PFX_BODYFORCE({t.ref},{cv},"x","US")', f"={f}", 1e-9, WHITE + "; " + NIST)
+    s.add("force on body x in N = lbf x 4.4482216152605", "PFX_BODYFORCE",
+          f'=PFX_BODYFORCE({t.ref},{cv},"x","SI")', f"={f}*4.4482216152605", 1e-9, NIST)
+    s.add("power in hp = F U / 550", "PFX_POWER", f'=PFX_POWER({t.ref},{cv},"US")',
+          f"={f}*{U}/550", 1e-9, NIST + " (1 hp = 550 ft lbf/s)")
+
+
+def _frame_cases(s: Sheet):
+    # Deliberately imbalanced (outlet area smaller): frame difference = V_cv x imbalance.
+    t, cv, U, _, _ = s.block("D. imbalanced CV (frame cross-check)", VANE_COLS, VANE_SI,
+                             (("in", "in", "abs", 0.01, 1000.0, 12.0, 0.0),
+                              ("out", "out", "rel", 0.008, 1000.0, 9.0, 90.0)),
+                             (3.0, 1.0, 0.0), "m/s")
+    rho, A1, V = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed")
+    A2, w2 = t.at(1, "area"), t.at(1, "speed")
+    imb = f"({rho}*{A2}*{w2}-{rho}*{A1}*({V}-{U}))"
+    s.add("frame check: sum mdot V - sum mdot w = V_cv x imbalance (x)", "PFX_FRAMECHECK",
+          f"=INDEX(PFX_FRAMECHECK({t.ref},{cv}),4,2)", f"={U}*{imb}", 1e-12,
+          "Galilean velocity addition; " + WHITE)
+    s.add("imbalance = sum of mass flows", "PFX_IMBALANCE",
+          f"=INDEX(PFX_IMBALANCE({t.ref},{cv}),1,1)", f"={imb}", 1e-12, TRADE)
+
+
+def _propulsion_cases(s: Sheet):
+    # Invented water-jet craft at 12 m/s, jet 21 m/s relative, 0.04 m^2 nozzle, sea water.
+    cols = ("port", "role", "frame", "area", "density", "vx", "mass_flow", "p_gauge", "nx")
+    t, cv, U, _, _ = s.block(
+        "E. water-jet craft at cruise", cols,
+        (None, None, None, "m^2", "kg/m^3", "m/s", "kg/s", "Pa", None),
+        (("intake", "in", "rel", 0.07, 1025.0, -12.0, None, None, None),
+         ("nozzle", "out", "rel", 0.04, 1025.0, -21.0, None, None, None)),
+        (12.0, 0.0, 0.0), "m/s")
+    rho, Aj, Vj = t.at(1, "density"), t.at(1, "area"), t.at(1, "vx")
+    mj = f"{rho}*{Aj}*ABS({Vj})"
+    # intake area chosen so the intake swallows the nozzle flow at V0: A_i = A_j Vj / V0
+    s.ws[t.at(0, "area").replace("$", "")] = f"={Aj}*ABS({Vj})/{U}"
+    s.ws[t.at(0, "area").replace("$", "")].fill = OUTPUT_FILL
+    s.add("water-jet thrust = mdot (Vj - V0)", "PFX_BODYFORCE",
+          f'=PFX_BODYFORCE({t.ref},{cv},"x")', f"={mj}*(ABS({Vj})-{U})", 1e-12, FROUDE)
+    s.add("Froude propulsive efficiency = 2 / (1 + Vj/V0)", "PFX_EFFICIENCY",
+          f'=PFX_EFFICIENCY({t.ref},{cv},"propulsive")', f"=2/(1+ABS({Vj})/{U})", 1e-12,
+          FROUDE)
+
+    # Invented turbojet at 240 m/s: air 50 kg/s, fuel 1.1 kg/s, exit 610 m/s, 18 kPa over ambient.
+    t2, cv2, U2, _, _ = s.block(
+        "F. turbojet at cruise (fuel port, exit pressure)", cols,
+        (None, None, None, "m^2", "kg/m^3", "m/s", "kg/s", "kPa", None),
+        (("intake", "in", "rel", None, None, -240.0, 50.0, None, 1.0),
+         ("fuel", "in", "rel", None, None, 0.0, 1.1, None, None),
+         ("nozzle", "out", "rel", 0.21, None, -610.0, 51.1, 18.0, -1.0)),
+        (240.0, 0.0, 0.0), "m/s")
+    ma, Ve = t2.at(0, "mass_flow"), t2.at(2, "vx")
+    me, pe, Ae = t2.at(2, "mass_flow"), t2.at(2, "p_gauge"), t2.at(2, "area")
+    s.add("net thrust = (ma + mf) Ve - ma V0 + (pe - pa) Ae", "PFX_BODYFORCE",
+          f'=PFX_BODYFORCE({t2.ref},{cv2},"x")',
+          f"={me}*ABS({Ve})-{ma}*{U2}+{pe}*1000*{Ae}", 1e-12, PROPULSION)
+    s.add("turbojet: inflow (air + fuel) balances the exit", "PFX_IMBALANCE",
+          f"=INDEX(PFX_IMBALANCE({t2.ref},{cv2}),1,3)", "ok", None, PROPULSION)
+
+
+def _statics_cases(s: Sheet):
+    cols = ("port", "role", "area", "density", "vx", "vy", "vz", "nx", "ny", "nz", "p_gauge")
+    units = (None, None, "m^2", "kg/m^3", "m/s", "m/s", "m/s", None, None, None, "kPa")
+    t, cv, _, sref, cells = s.block(
+        "G. capped pipe: water at rest, gauge pressure, weight", cols, units,
+        (("cap", "in", 0.05, 1000.0, 0.0, 0.0, 0.0, -1.0, 0.0, 0.0, 200.0),),
+        (0.0, 0.0, 0.0), "m/s",
+        settings=(("fluid_mass", 250.0, "kg"), ("gz", -9.80665, "m/s^2")))
+    p, A = t.at(0, "p_gauge"), t.at(0, "area")
+    s.add("end-cap thrust = p A", "PFX_BODYFORCE",
+          f'=PFX_BODYFORCE({t.ref},{cv},"x",,{sref})', f"={p}*1000*{A}", 1e-12, TRADE)
+    s.add("weight of the fluid is carried by the support: R_z = m g", "PFX_SUPPORT",
+          f'=PFX_SUPPORT({t.ref},{cv},"z",,{sref})', f"={cells['fluid_mass']}*9.80665", 1e-12,
+          "g_n = 9.80665 m/s^2, NIST SP 330 (3rd CGPM, 1901); statics (" + TRADE + ")")
+
+
+def write_cases(ws):
+    """Write the index table and every input block on the 'Check cases' sheet."""
+    _put(ws, 1, 1, "Reference cases: every worksheet function against a published closed "
+                   "form", font=TITLE_FONT)
+    _put(ws, 1, 2, "The expected value of each case is a native formula on the inputs of its "
+                   "block (below, from row " + str(BLOCKS_TOP) + "). 'portflux check' "
+                   "recalculates this sheet and reports every case.")
+    s = Sheet(ws)
+    for part in (_vane_cases, _us_vane_cases, _frame_cases, _propulsion_cases, _statics_cases):
+        part(s)
+    from .cases_closures import closure_cases
+
+    closure_cases(s)
+    widths = (46, 16, 14, 14, 10, 8, 90)
+    for j, h in enumerate(INDEX_HEADER):
+        _put(ws, 1 + j, INDEX_TOP, h, fill=HEAD_FILL, font=BOLD)
+        ws.column_dimensions[get_column_letter(1 + j)].width = max(
+            widths[j], ws.column_dimensions[get_column_letter(1 + j)].width or 0)
+    for i, c in enumerate(s.cases):
+        r = INDEX_TOP + 1 + i
+        _put(ws, 1, r, c.name)
+        _put(ws, 2, r, c.function)
+        _put(ws, 3, r, c.output, fill=OUTPUT_FILL)
+        _put(ws, 4, r, c.expected, fill=OUTPUT_FILL if str(c.expected).startswith("=")
+             else INPUT_FILL)
+        out, exp = cell(3, r, absolute=False), cell(4, r, absolute=False)
+        if c.tolerance is None:
+            _put(ws, 5, r, "text")
+            verdict = f'=IF({out}={exp},"PASS","FAIL")'
+        else:
+            _put(ws, 5, r, c.tolerance, fill=INPUT_FILL)
+            tol = cell(5, r, absolute=False)
+            verdict = (f'=IF(AND(ISNUMBER({out}),ISNUMBER({exp})),'
+                       f'IF(ABS({out}-{exp})<={tol}*MAX(1,ABS({exp})),"PASS","FAIL"),"FAIL")')
+        _put(ws, 6, r, verdict, fill=OUTPUT_FILL, font=Font(bold=True))
+        _put(ws, 7, r, c.source)
+    if len(s.cases) + INDEX_TOP + 2 > BLOCKS_TOP:
+        raise AssertionError("reference-case index runs into the input blocks; raise BLOCKS_TOP")
+    return s.cases
+
+
+__all__ = ["INDEX_HEADER", "INDEX_TOP", "Case", "write_cases"]

@@ -1,0 +1,111 @@
+"""Reference cases for closures, splits, vane trains, speed tables and the optimum speed."""
+
+from __future__ import annotations
+
+from .cases import PLATE, TRADE, WHEEL, WHITE, _cos
+from .template import _put, rng
+
+COLS = ("port", "role", "frame", "area", "density", "speed", "angle", "closure", "loss",
+        "height")
+UNITS = (None, None, None, "m^2", "kg/m^3", "m/s", "deg", None, None, "m")
+
+
+def _speeds(s, left, top, values):
+    """A speeds column led by its unit cell; ``values`` are formulas or numbers."""
+    _put(s.ws, left, top - 1, "speeds", font=None)
+    _put(s.ws, left, top, "m/s")
+    for i, v in enumerate(values):
+        _put(s.ws, left, top + 1 + i, v)
+    return rng(left, top, left, top + len(values))
+
+
+def closure_cases(s) -> None:
+    """Add the closure and speed cases to the 'Check cases' sheet (see :mod:`.cases`)."""
+    # H. Invented: frictionless single vane (closure "free"), 0.002 m^2 jet at 30 m/s, 120 deg.
+    left = s.col
+    t, cv, U, _, ex = s.block("H. frictionless single vane over speed", COLS, UNITS,
+                              (("nozzle", "in", "abs", 0.002, 998.0, 30.0, 0.0, None, None, None),
+                               ("exit", "out", "rel", 0.002, 998.0, None, 120.0, "free", None,
+                                None)),
+                              (10.0, 0.0, 0.0), "m/s",
+                              extra=(("force to find [N]", 500.0), ("low [m/s]", 0.0),
+                                     ("high [m/s]", 30.0)))
+    rho, A, V, th = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"), t.at(1, "angle")
+    F, lo, hi = ex["force to find [N]"], ex["low [m/s]"], ex["high [m/s]"]
+    sp = _speeds(s, left + 8, 78, (0.0, f"={V}/3", f"=2*{V}/3", f"=1.2*{V}"))
+    pmax = f"4/27*{rho}*{A}*{V}^3*(1-{_cos(th)})"
+    P = t.ref
+    s.add("speed table: power at U = V/3 is (4/27) rho A V^3 (1 - cos th)", "PFX_SPEEDTABLE",
+          f"=INDEX(PFX_SPEEDTABLE({P},{sp}),3,8)", f"={pmax}", 1e-12, WHITE)
+    s.add("speed table: body faster than the jet has no contact (0)", "PFX_SPEEDTABLE",
+          f"=INDEX(PFX_SPEEDTABLE({P},{sp}),5,10)", "=0", 0.0, TRADE)
+    s.add("best speed of a single vane is V/3", "PFX_BESTSPEED",
+          f"=INDEX(PFX_BESTSPEED({P},{lo},{hi}),2,2)", f"={V}/3", 1e-6, WHITE)
+    s.add("maximum power of a single vane (4/27) rho A V^3 (1 - cos th)", "PFX_BESTSPEED",
+          f"=INDEX(PFX_BESTSPEED({P},{lo},{hi}),3,2)", f"={pmax}", 1e-9, WHITE)
+    s.add("speed at which F_x falls to F: U = V - sqrt(F / (rho A (1 - cos th)))",
+          "PFX_SPEEDATFORCE", f'=INDEX(PFX_SPEEDATFORCE({P},{F},{lo},{hi},"x"),2,2)',
+          f"={V}-SQRT({F}/({rho}*{A}*(1-{_cos(th)})))", 1e-6, WHITE)
+
+    # I. Invented bucket wheel: the same jet, 165 deg buckets, a vane train.
+    t, cv, _, sref, ex = s.block("I. bucket wheel (vane train)", COLS, UNITS,
+                                 (("nozzle", "in", "abs", 0.002, 998.0, 30.0, 0.0, None, None,
+                                   None),
+                                  ("bucket exit", "out", "rel", 0.002, 998.0, None, 165.0, "free",
+                                   None, None)),
+                                 (15.0, 0.0, 0.0), "m/s", settings=(("intercept", "train", None),),
+                                 extra=(("low [m/s]", 0.0), ("high [m/s]", 30.0)))
+    V, b = t.at(0, "speed"), t.at(1, "angle")
+    lo, hi = ex["low [m/s]"], ex["high [m/s]"]
+    s.add("best speed of a bucket wheel is V/2", "PFX_BESTSPEED",
+          f"=INDEX(PFX_BESTSPEED({t.ref},{lo},{hi},,,{sref}),2,2)", f"={V}/2", 1e-6, WHEEL)
+    s.add("ideal bucket-wheel efficiency (1 - cos beta)/2", "PFX_BESTSPEED",
+          f"=INDEX(PFX_BESTSPEED({t.ref},{lo},{hi},,,{sref}),4,2)", f"=(1-{_cos(b)})/2", 1e-9,
+          WHEEL)
+    rho, A = t.at(0, "density"), t.at(0, "area")
+    s.add("vane train intercepts the full nozzle flow rho A V", "PFX_MASSFLOWS",
+          f"=INDEX(PFX_MASSFLOWS({t.ref},{cv},,,{sref}),1,1)", f"=-{rho}*{A}*{V}", 1e-12, WHEEL)
+
+    # J. Invented: vane losing 10 % of its relative speed.
+    t, cv, U, _, _ = s.block("J. vane with a loss factor", COLS, UNITS,
+                             (("nozzle", "in", "abs", 0.002, 998.0, 30.0, 0.0, None, None, None),
+                              ("exit", "out", "rel", None, 998.0, None, 150.0, "loss", 0.1,
+                               None)),
+                             (8.0, 0.0, 0.0), "m/s")
+    rho, A, V = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed")
+    th, k = t.at(1, "angle"), t.at(1, "loss")
+    s.add("loss vane: F_x = rho A (V-U)^2 (1 - (1-k) cos th)", "PFX_BODYFORCE",
+          f'=PFX_BODYFORCE({t.ref},{cv},"x")',
+          f"={rho}*{A}*({V}-{U})^2*(1-(1-{k})*{_cos(th)})", 1e-12,
+          WHITE + "; relative speed reduced by the loss fraction (" + TRADE + ")")
+
+    # K. Invented: a jet striking a fixed frictionless flat plate (the x axis) at 60 degrees.
+    t, cv, _, sref, _ = s.block("K. jet split on an inclined flat plate", COLS, UNITS,
+                                (("jet", "in", "abs", 0.002, 998.0, 30.0, -60.0, None, None,
+                                  None),
+                                 ("up", "out", "rel", None, 998.0, None, 0.0, "solve", None, None),
+                                 ("down", "out", "rel", None, 998.0, None, 180.0, "solve", None,
+                                  None)),
+                                (0.0, 0.0, 0.0), "m/s", settings=(("slip_angle", 0.0, "deg"),))
+    rho, A, V, a = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"), t.at(0, "angle")
+    s.add("plate split: share of the upstream-facing stream (1 + cos th)/2", "PFX_SPLIT",
+          f"=INDEX(PFX_SPLIT({t.ref},{cv},,{sref}),3,5)", f"=(1+COS(RADIANS(-{a})))/2", 1e-12,
+          PLATE)
+    s.add("plate split: share of the other stream (1 - cos th)/2", "PFX_SPLIT",
+          f"=INDEX(PFX_SPLIT({t.ref},{cv},,{sref}),4,5)", f"=(1-COS(RADIANS(-{a})))/2", 1e-12,
+          PLATE)
+    s.add("plate-normal force rho Q V sin th", "PFX_BODYFORCE",
+          f'=PFX_BODYFORCE({t.ref},{cv},"y",,{sref})',
+          f"=-{rho}*{A}*{V}*{V}*SIN(RADIANS(-{a}))", 1e-12, PLATE)
+
+    # L. Invented: Bernoulli outlet 2 m above the inlet, CV at rest.
+    t, cv, _, sref, _ = s.block("L. Bernoulli outlet above the inlet", COLS, UNITS,
+                                (("in", "in", "rel", 0.01, 1000.0, 10.0, 0.0, None, None, 0.0),
+                                 ("out", "out", "rel", None, 1000.0, None, 90.0, "bernoulli",
+                                  None, 2.0)),
+                                (0.0, 0.0, 0.0), "m/s",
+                                settings=(("gz", -9.80665, "m/s^2"),))
+    w1, h = t.at(0, "speed"), t.at(1, "height")
+    s.add("Bernoulli outlet: w_out^2 = w_in^2 - 2 g h", "PFX_RELVELS",
+          f"=INDEX(PFX_RELVELS({t.ref},{cv},,,{sref}),2,2)", f"=SQRT({w1}^2-2*9.80665*{h})",
+          1e-12, "Bernoulli equation along a streamline in the moving frame; " + WHITE)

@@ -1,0 +1,92 @@
+"""Fill the template's input cells with a scenario, writing a new workbook (never the template).
+
+A scenario is a port grid as users lay it out (header row, unit row, one port per row), a CV
+velocity with its unit, optional settings, output units and speed-sweep inputs. Columns of the
+scenario are matched to the template's port-table columns by name (case-insensitive, as the
+worksheet functions read them); a scenario column the template lacks is an error naming it.
+"""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass, field
+
+import openpyxl
+
+from .. import spec
+from ..core import InputError
+from . import template as T
+
+
+@dataclass
+class Scenario:
+    """Inputs for the template's 'Control volume' and 'Speed sweep' sheets."""
+
+    title: str
+    ports: tuple                       #: header row, unit row, port rows
+    cv_velocity: tuple                 #: (x, y, z)
+    cv_unit: str = "m/s"
+    units: str = "SI"                  #: output units of the results
+    settings: dict = field(default_factory=dict)   #: name -> (value, unit)
+    sweep: dict = field(default_factory=dict)      #: low, high, unit, direction, force, units
+    note: str = ""
+
+
+def _cell_name(ref: str) -> str:
+    return ref.replace("$", "").split("!")[-1]
+
+
+def fill(template_path, out_path, sc: Scenario) -> str:
+    """Write a copy of the template with the scenario's inputs; returns ``out_path``.
+
+    The template file is only read. The copy is saved to a temporary file next to ``out_path``
+    and renamed into place.
+    """
+    template_path, out_path = os.fspath(template_path), os.fspath(out_path)
+    if os.path.abspath(template_path) == os.path.abspath(out_path):
+        raise InputError("refusing to write over the template; choose another output path",
+                         argument="output")
+    lay = T.layout()
+    wb = openpyxl.load_workbook(template_path)
+    ws = wb[T.CV]
+    header, units, *rows = sc.ports
+    if len(rows) > T.MAX_PORTS:
+        raise InputError(f"the template holds {T.MAX_PORTS} ports; the scenario has "
+                         f"{len(rows)}", argument="ports")
+    cols = {spec.resolve_header(h): j for j, h in enumerate(lay.ports.columns)}
+    top, left = lay.ports.top, lay.ports.left
+    for i in range(T.MAX_PORTS):                      # clear the template's example ports
+        for j in range(len(lay.ports.columns)):
+            ws.cell(row=top + 2 + i, column=left + j).value = None
+    for j in range(len(lay.ports.columns)):
+        ws.cell(row=top + 1, column=left + j).value = None
+    for k, h in enumerate(header):
+        key = spec.resolve_header(h)
+        if key not in cols:
+            raise InputError(f"column {h!r} is not in the template's port table (it has "
+                             f"{', '.join(lay.ports.columns)})", argument="ports")
+        c = left + cols[key]
+        ws.cell(row=top + 1, column=c).value = units[k]
+        for i, row in enumerate(rows):
+            ws.cell(row=top + 2 + i, column=c).value = row[k]
+    for ref, v in zip(lay.cv_cells, (*sc.cv_velocity, sc.cv_unit)):
+        ws[_cell_name(ref)] = v
+    ws[_cell_name(lay.units_cell)] = sc.units
+    for name, (value, unit) in sc.settings.items():
+        if name not in lay.settings_cells:
+            raise InputError(f"unknown setting {name!r}; the template has "
+                             f"{', '.join(lay.settings_cells)}", argument="settings")
+        vref, uref = lay.settings_cells[name]
+        ws[_cell_name(vref)] = value
+        ws[_cell_name(uref)] = unit
+    sw = wb[T.SWEEP]
+    for name, value in sc.sweep.items():
+        if name not in lay.sweep_cells:
+            raise InputError(f"unknown sweep input {name!r}; the template has "
+                             f"{', '.join(lay.sweep_cells)}", argument="sweep")
+        sw[_cell_name(lay.sweep_cells[name])] = value
+    if sc.title:
+        ws["A1"] = sc.title
+    if sc.note:
+        ws["A3"] = sc.note
+    return T.save_atomic(wb, out_path)
