@@ -59,3 +59,28 @@ def test_wrong_dimension_unit_names_the_column():
     with pytest.raises(InputError, match=r"vx unit: unit 'psi' is a pressure unit"):
         pf.solve([{"role": "in", "area": 1.0, "density": 1.0, "vx": 3.0}], 0.0,
                  units={"vx": "psi"})
+
+
+def test_closure_columns_are_applied_not_ignored():
+    # Frictionless vane typed with closure 'free' and no outlet speed: F_x = rho A (V-U)^2
+    # (1 - cos th) (White, Fluid Mechanics, sec. 3.4, from memory).
+    rows = [{"port": "jet", "role": "in", "area": 0.002, "density": 998.0, "vx": 30.0},
+            {"port": "exit", "role": "out", "frame": "rel", "area": 0.002, "density": 998.0,
+             "angle": 120.0, "closure": "free"}]
+    r = pf.solve(rows, [10.0, 0, 0])
+    assert r.force_on_body[0] == pytest.approx(998 * 0.002 * 20 ** 2 * 1.5)
+
+
+def test_plate_split_with_a_slip_direction():
+    # Jet at 60 deg to a frictionless plate along x: shares (1 +- cos 60)/2 (inclined-plate
+    # result of standard fluid-mechanics texts, e.g. White, ch. 3; from memory).
+    rows = [{"port": "jet", "role": "in", "area": 0.002, "density": 998.0, "speed": 30.0,
+             "angle": -60.0},
+            {"port": "up", "role": "out", "frame": "rel", "density": 998.0, "angle": 0.0,
+             "closure": "solve"},
+            {"port": "down", "role": "out", "frame": "rel", "density": 998.0, "angle": 180.0,
+             "closure": "solve"}]
+    r = pf.solve(rows, 0.0, slip_angles=[0.0])
+    inflow = r.inflow
+    assert r.mass_flow[1] / inflow == pytest.approx(0.75)
+    assert r.mass_flow[2] / inflow == pytest.approx(0.25)

@@ -167,7 +167,8 @@ def power(ports, cv_velocity, units=None, settings=None):
 
 _EFFICIENCY = {
     "jet": ("jet_efficiency", "n/a: no jet enters the CV"),
-    "propulsive": ("propulsive_efficiency", "n/a: the body receives no power"),
+    "propulsive": ("propulsive_efficiency", "n/a: not a propulsor (the fluid does not gain "
+                                            "energy while the body receives power)"),
 }
 
 

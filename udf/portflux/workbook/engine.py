@@ -1031,7 +1031,7 @@ def recalc_file(in_path: str | os.PathLike, out_path: str | os.PathLike,
     errors = {k: v for k, v in values.items()
               if isinstance(v, str) and v in ERROR_VALUES}
     if errors:
-        logging.getLogger(__name__).warning(
+        logging.getLogger(__name__).info(
             "%s: %d cell(s) show Excel errors, first %s", out_path,
             len(errors), next(iter(errors)))
     return RecalcSummary(

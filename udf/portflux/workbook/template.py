@@ -233,15 +233,16 @@ def _about(wb):
 
 
 #: Default port table of the template: an invented vane on a carriage, SI units.
-CV_COLUMNS = ("port", "role", "frame", "area", "density", "speed", "angle", "tilt", "p_gauge",
-              "closure", "loss", "height", "nx", "ny", "nz")
-CV_UNITS = (None, None, None, "m^2", "kg/m^3", "m/s", "deg", "deg", "Pa", None, None, "m",
-            None, None, None)
+CV_COLUMNS = ("port", "role", "frame", "area", "density", "speed", "angle", "tilt", "vx", "vy",
+              "vz", "nx", "ny", "nz", "p_gauge", "beta", "mass_flow", "closure", "loss", "source",
+              "share", "height")
+CV_UNITS = (None, None, None, "m^2", "kg/m^3", "m/s", "deg", "deg", "m/s", "m/s", "m/s", None,
+            None, None, "Pa", None, "kg/s", None, None, None, None, "m")
+_BLANK = (None,) * 14
 CV_ROWS = (
-    ("nozzle jet", "in", "abs", 0.003, 998.0, 25.0, 0.0, None, None, None, None, None,
-     None, None, None),
-    ("vane exit", "out", "rel", 0.003, 998.0, None, 135.0, None, None, "free", None, None,
-     None, None, None),
+    ("nozzle jet", "in", "abs", 0.003, 998.0, 25.0, 0.0) + _BLANK + (None,),
+    ("vane exit", "out", "rel", 0.003, 998.0, None, 135.0) + _BLANK[:10] + ("free",)
+    + (None,) * 4,
 )
 CV_SETTINGS = (("fluid_mass", 0.0, "kg"), ("gx", 0.0, "m/s^2"), ("gy", 0.0, "m/s^2"),
                ("gz", -9.80665, "m/s^2"), ("tolerance", 0.001, None), ("intercept", "single",
