@@ -170,3 +170,21 @@ def test_template_command_writes_a_workbook(tmp_path):
                         str(tmp_path / "t.xlsx")], capture_output=True, text=True)
     assert p.returncode == 0, p.stderr
     assert (tmp_path / "t.xlsx").is_file()
+
+
+def test_values_only_copy_keeps_values_and_charts_but_no_formulas(tmp_path):
+    out = tmp_path / "frozen.xlsx"
+    assert cli.main(["recalc", COMMITTED, "-o", str(out), "-q", "--values-only"]) == 0
+    wb = openpyxl.load_workbook(out)
+    for ws in wb.worksheets:
+        for row in ws.iter_rows():
+            for c in row:
+                assert not isinstance(c.value, ArrayFormula)
+                assert not (isinstance(c.value, str) and c.value.startswith("=")), c.coordinate
+    import zipfile
+
+    with zipfile.ZipFile(out) as z:
+        assert sum(n.startswith("xl/charts/chart") for n in z.namelist()) == 3
+    vals = dict(r for r in wb[T.CV].iter_rows(min_row=31, max_row=53, max_col=2,
+                                              values_only=True))
+    assert vals["status"] == "ok" and isinstance(vals["force on body x [N]"], float)

@@ -71,7 +71,8 @@ def cmd_demo(args) -> int:
 def cmd_recalc(args) -> int:
     from .workbook.check import recalc
 
-    summary = recalc(args.input, args.output, progress=not args.quiet)
+    summary = recalc(args.input, args.output, progress=not args.quiet,
+                     values_only=args.values_only)
     if summary.error_cells and not args.quiet:
         (sheet, where), v = next(iter(summary.error_cells.items()))
         print(f"note: {len(summary.error_cells)} cell(s) show spreadsheet errors (first: "
@@ -117,6 +118,9 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("input", help="workbook to read (never modified)")
     r.add_argument("-o", "--output", required=True, help="workbook to write (not the input)")
     r.add_argument("-q", "--quiet", action="store_true", help="no progress messages")
+    r.add_argument("--values-only", action="store_true",
+                   help="write values without formulas (for LibreOffice and for sharing "
+                        "results; charts are kept)")
     r.set_defaults(func=cmd_recalc)
     c = sub.add_parser("check", help="recalculate a workbook's reference cases and report "
                                      "PASS/FAIL (exit 1 if any fails)")

@@ -350,6 +350,12 @@ def _unit_system(spec_text: str) -> U.UnitSystem:
 def unit_system(raw) -> U.UnitSystem:
     """Output units of a ``units`` argument: blank = SI; cells of a range are joined with ';'."""
     key = freeze(raw)
+    if key is None or type(key) is str:
+        return _units_of(key)      # the usual forms, cached ("US" and the like)
+    return _parse_units(key)   # ranges: True == 1 inside a tuple key, so not cached here
+
+
+def _parse_units(key) -> U.UnitSystem:
     cells = [c for r in rows(key) for c in r if not is_blank(c)]
     for c in cells:
         err = error_value(c)
@@ -357,6 +363,9 @@ def unit_system(raw) -> U.UnitSystem:
             got = f"the spreadsheet error {err}" if err else describe(c)
             raise CellError(f"units: expected text such as SI, US or 'US; force=kN', got {got}")
     return _unit_system("; ".join(c.strip() for c in cells))
+
+
+_units_of = _cached(256)(_parse_units)
 
 
 # --------------------------------------------------------------------------------------------
@@ -455,6 +464,8 @@ def _evaluate(pkey, ckey, skey, tol, kinematic=False):
 
 
 def _settings_key(settings_raw):
+    if settings_raw is None:
+        return None                # blank: the defaults
     skey = freeze(settings_raw)
     if not isinstance(skey, tuple):
         settings(skey)  # blank -> defaults; a scalar -> its message
@@ -490,5 +501,5 @@ def setup(ports, settings_raw=None) -> tuple[Table, Closures | None, Settings]:
 
 def clear_caches():
     """Forget every parsed table and balance (tests; a long-running sheet never needs it)."""
-    for f in (_table, _cv, _settings, _unit_system, _evaluate):
+    for f in (_table, _cv, _settings, _unit_system, _units_of, _evaluate):
         f.cache_clear()

@@ -272,6 +272,7 @@ class _Sweep:
         # Closures: q_j = sqrt(a_j |w_src|^2 + c_j) along direction E_j.
         self.cl_rows = np.flatnonzero(closed)
         self.flow_rows = np.zeros(0, np.intp)
+        self.flow_mask = np.zeros(n, bool)
         self.e_n = np.zeros(n)
         if closures is not None:
             self._closures(ports, closures, g)
@@ -302,6 +303,14 @@ class _Sweep:
         self.neg_rows = np.flatnonzero(~never_neg)
         if self.train:
             self.k = int(np.flatnonzero(self.is_in)[0])
+        # Declared inlets outside a train never carry a positive flow (outrun ones carry 0):
+        # their negative part is the flow itself.
+        fin = np.isfinite(self.rho_a0) & (self.rho_a0 >= 0.0)
+        self.nonpos = (self.is_in & ~self.train & ~closed & ~self.flow_mask
+                       & np.where(self.given, self.m_given <= 0.0, fin))
+        self.unroled = self.neg_rows[~(self.is_in | self.is_out)[self.neg_rows]]
+        self.abs_list = [int(i) for i in self.abs_rows]
+        self.known_rows = [i for i in range(n) if not self.flow_mask[i]]
 
     def _closures(self, ports, closures, g):
         from .closures import BERNOULLI, LOSS
@@ -336,73 +345,115 @@ class _Sweep:
         self.no_force = closures.no_force
 
     # -- one chunk ---------------------------------------------------------------------------
+    # Rows are evaluated one by one as (m,) arrays, or as plain floats where a row does not
+    # depend on the speed (relative rows, given flows, closures fed by a relative inlet), so a
+    # constant row costs nothing per speed. Outputs are written straight into ``out``.
     def chunk(self, s, out, sl):
         """Evaluate speeds ``s`` (m,) into ``out`` (dict of arrays) at slice ``sl``."""
         n, m = self.n, s.size
         act = self.active
-        sd = {c: s * self.d[c] for c in act}                   # V_cv components, as s * d_c
+        d = self.d
+        sd = {c: s if d[c] == 1.0 else s * d[c] for c in act}   # V_cv components s d_c
         # relative velocity components of absolute rows on the active axes: V_c - s d_c
-        ar = self.abs_rows
-        w_abs = {c: self.vel[ar, c, None] - sd[c] for c in act}
-        wn = np.empty((n, m))
-        wn[:] = self.const_wn[:, None]
-        if ar.size:
-            acc = wn[ar]
+        wabs = {(i, c): self.vel[i, c] - sd[c] for i in self.abs_list for c in act}
+        st = _Chunk(sd, wabs)
+        wn = [self.const_wn[i] for i in range(n)]              # floats; arrays where s enters
+        for i in self.abs_list:
+            acc = None
             for c in act:
-                acc += w_abs[c] * self.nrm[ar, c, None]
-            wn[ar] = acc
-        q = bad = None
+                if self.nrm[i, c] == 0.0:
+                    continue
+                t = wabs[i, c] * self.nrm[i, c]
+                if acc is None:
+                    acc = t if self.const_wn[i] == 0.0 else np.add(self.const_wn[i], t, out=t)
+                else:
+                    acc += t
+            if acc is not None:
+                wn[i] = acc
+        bad = []
         if self.cl_rows.size:
-            q, bad = self._closure_speed(s, sd)
-            wn[self.cl_rows] = q[self.cl_rows] * self.e_n[self.cl_rows, None]
-        mdot = self.rho_a0[:, None] * wn
-        mdot += self.m_given[:, None]
-        if self.flow_rows.size:
-            mdot[self.flow_rows] = 0.0
-        no_contact = np.zeros(m, bool)          # here: some declared inlet is outrun
-        all_outrun = np.full(m, self.in_rows.size > 0)   # every declared inlet is outrun
+            bad = self._closure_speed(st)
+            for j in self.cl_rows:
+                e = self.e_n[j]
+                wn[j] = st.q[j] if e == 1.0 else st.q[j] * e
+        mdot = [None] * n
+        flow = self.flow_mask
+        for i in range(n):
+            if flow[i]:
+                mdot[i] = 0.0
+            elif self.given[i] and not self.closed[i]:
+                mdot[i] = self.m_given[i] + 0.0
+            elif self.given[i]:
+                mdot[i] = self.rho_a0[i] * wn[i] + self.m_given[i]
+            else:
+                mdot[i] = self.rho_a0[i] * wn[i]
+        some_out = all_out = None               # some / every declared inlet outrun
         for i in self.in_rows:                  # an outrun inlet carries nothing
-            io = wn[i] > 0.0
-            np.copyto(mdot[i], 0.0, where=io)
-            no_contact |= io
-            all_outrun &= io
+            io = np.broadcast_to(wn[i] > 0.0, (m,)) if np.ndim(wn[i]) == 0 else wn[i] > 0.0
+            if io.any():
+                mdot[i] = _zero_where(mdot[i], io, m)
+            some_out = io if some_out is None else some_out | io
+            all_out = io if all_out is None else all_out & io
+        scale = None
         if self.train:
             k = self.k
-            vn_k = self._vn_row(k, s, sd, q)
-            wn_k = wn[k]
+            vn_k = self._vn_row(k, st, m)
+            wn_k = np.broadcast_to(wn[k], (m,))
             with np.errstate(divide="ignore", invalid="ignore"):
                 scale = np.where(wn_k < 0, vn_k / wn_k, 0.0)
-            mdot *= scale
-        neg = np.minimum(mdot[self.neg_rows], 0.0)
-        inflow = -neg.sum(axis=0)
+            mdot = [x * scale for x in mdot]
+        inflow = out["inflow"][sl]              # -sum of the negative flows, in row order
+        terms = [mdot[i] if self.nonpos[i] else np.minimum(mdot[i], 0.0)
+                 for i in self.neg_rows]       # (an inlet's flow is never positive)
+        if not terms:
+            inflow.fill(0.0)
+        elif len(terms) == 1:
+            np.negative(terms[0], out=inflow)
+        else:
+            np.add(terms[0], terms[1], out=inflow)
+            for t in terms[2:]:
+                inflow += t
+            np.negative(inflow, out=inflow)
         # as balance(): every declared inlet outrun and no port without a role brings fluid in,
         # or some inlet outrun and nothing enters at all
-        unroled = self.neg_rows[~(self.is_in | self.is_out)[self.neg_rows]]
-        unroled_in = (mdot[unroled] < 0.0).any(axis=0) if unroled.size else np.zeros(m, bool)
-        no_contact &= inflow == 0.0
-        no_contact |= all_outrun & ~unroled_in
-        inflow = np.where(no_contact, 0.0, inflow)
-        touch = ~no_contact
-        np.copyto(mdot, 0.0, where=no_contact)
-        contact = inflow > 0.0
-        contact &= touch
-        # support force of the flows known so far
-        support = self._momentum(mdot, q, w_abs, slice(None))
-        for c in range(3):                     # as the general path: - p_total - weight
-            if self.p_total[c] != 0.0:
-                support[c] -= self.p_total[c] * touch
-            if self.weight[c] != 0.0:
-                support[c] -= self.weight[c] * touch
-        imbalance = mdot.sum(axis=0)
+        nc = None
+        if some_out is not None and some_out.any():
+            unroled = self.unroled
+            if unroled.size:
+                unroled_in = np.zeros(m, bool)
+                for i in unroled:
+                    unroled_in |= np.broadcast_to(mdot[i] < 0.0, (m,))
+                nc = (some_out & (inflow == 0.0)) | (all_out & ~unroled_in)
+            elif self.in_rows.size == 1:
+                nc = some_out                    # then all_out is some_out
+            else:
+                nc = (some_out & (inflow == 0.0)) | all_out
+            if not nc.any():
+                nc = None
+        if nc is not None:
+            np.copyto(inflow, 0.0, where=nc)
+            mdot = [_zero_where(x, nc, m) for x in mdot]
+        contact = out["contact"][sl]
+        np.greater(inflow, 0.0, out=contact)     # 0 where no contact (inflow set to 0 there)
+        # support force of the flows known so far, straight into the output rows
+        sup = out["support"][:, sl]
+        fixed = self._momentum_into(sup, mdot, st, self.known_rows, m)
+        for c in range(3):                       # as the general path: - p_total - weight
+            for f in (self.p_total[c], self.weight[c]):
+                if f != 0.0:
+                    if nc is None:
+                        sup[c] -= f
+                    else:
+                        sup[c] -= f * ~nc
+                    fixed[c] = False
+        imbalance = _rowsum([x for i, x in enumerate(mdot) if not flow[i] or self.train], m)
         anybad = None
-        if bad is not None:
-            bad &= contact
-            anybad = bad.any(axis=0)
-        elif self.flow_rows.size:
-            anybad = np.zeros(m, bool)
+        for b in bad:
+            b &= contact
+            anybad = b if anybad is None else anybad | b
         if self.flow_rows.size:
-            flows = self._solve(s, mdot, q, w_abs, inflow, imbalance, support,
-                                anybad | ~contact)
+            skip = ~contact if anybad is None else anybad | ~contact
+            flows = self._solve(st, inflow, imbalance, sup, skip, m)
             if flows is None:
                 return False
             rows = self.flow_rows
@@ -412,122 +463,190 @@ class _Sweep:
                 mf = per * scale
             else:
                 mf = flows
-            mf = np.where(no_contact, 0.0, mf)
-            mdot[rows] = mf
-            inflow = inflow - np.minimum(mf, 0.0).sum(axis=0)
-            imbalance = mdot.sum(axis=0)
-            support += self._momentum(mdot, q, w_abs, rows)
+            if nc is not None:
+                mf = np.where(nc, 0.0, mf)
+            for t, j in enumerate(rows):
+                mdot[j] = mf[t]
+            inflow[:] = inflow - np.minimum(mf, 0.0).sum(axis=0)
+            imbalance = _rowsum(mdot, m)
+            sup += self._momentum(mdot, st, rows, m)
+            fixed[:] = False
         # outputs
-        power = np.zeros(m)
-        for c in act:
-            power -= support[c] * sd[c]
-        jet_ke = np.full(m, self.jet_const)
-        for i in self.jet_rows:
-            if self.given[i]:
-                jf = np.where(mdot[i] < 0, -mdot[i], 0.0)
-                jf = np.where(np.isnan(jf), 0.0, jf)
+        power = out["power"][sl]
+        for t, c in enumerate(act):              # 0 - sum support_c s d_c: never -0.0
+            if t == 0:
+                np.multiply(sup[c], sd[c], out=power)
+                np.subtract(0.0, power, out=power)
             else:
-                vn = self._vn_row(i, s, sd, q)
-                jf = self.rho_a[i] * np.maximum(-vn, 0.0)
-                if not self.is_in[i]:
-                    jf = np.where(wn[i] < 0, jf, 0.0)
-            jet_ke += 0.5 * jf * self._v2_row(i, s, sd, q)
+                power -= sup[c] * sd[c]
+        eff = out["eff"][sl]
+        jet_ke = self._jet_ke(mdot, wn, st, m)
         with np.errstate(divide="ignore", invalid="ignore"):
-            eff = np.where(jet_ke > 0, power / jet_ke, np.nan)
-            rel = np.where(inflow > 0, imbalance / inflow,
-                           np.where(imbalance == 0, 0.0, np.inf * np.sign(imbalance)))
-        balanced = np.abs(rel) <= self.tol
+            if np.ndim(jet_ke) == 0:
+                if jet_ke > 0:
+                    np.divide(power, jet_ke, out=eff)
+                else:
+                    eff.fill(np.nan)
+            else:
+                np.divide(power, jet_ke, out=eff)
+                np.copyto(eff, np.nan, where=~(jet_ke > 0))
+            # |imbalance / inflow| <= tol where fluid enters; elsewhere balanced only when the
+            # imbalance is exactly 0 (as the general path's 0 or +-inf relative imbalance)
+            rel = np.divide(imbalance, inflow)
+        np.abs(rel, out=rel)
+        balanced = out["balanced"][sl]
+        np.less_equal(rel, self.tol, out=balanced)
+        if not contact.all():
+            dry = ~contact
+            balanced[dry] = np.broadcast_to(imbalance, (m,))[dry] == 0.0
         if anybad is not None and anybad.any():
-            support[:, anybad] = np.nan
+            sup[:, anybad] = np.nan
             power[anybad] = np.nan
             eff[anybad] = np.nan
             balanced &= ~anybad
             out["valid"][sl] = ~anybad
-        support += 0.0                          # no negative zeros in outputs
-        power += 0.0
-        out["support"][:, sl] = support
+            fixed[:] = False
         body = out["body"][:, sl]
-        np.negative(support, out=body)
-        body += 0.0
-        out["power"][sl] = power
-        out["eff"][sl] = eff
-        out["inflow"][sl] = inflow
-        out["contact"][sl] = contact
-        out["balanced"][sl] = balanced
+        for c in range(3):
+            if fixed[c]:                        # no term at all: 0 on both sides
+                body[c].fill(0.0)
+            else:
+                sup[c] += 0.0                   # no negative zeros in outputs
+                np.subtract(0.0, sup[c], out=body[c])
         return True
 
-    def _closure_speed(self, s, sd):
-        rows = self.cl_rows
-        k = rows.size
-        s2 = np.empty((k, s.size))
-        for m in range(k):
-            src = self.src[m]
-            if self.src_abs[m]:
-                acc = np.full(s.size, self.s2_idle[m])
+    def _closure_speed(self, st):
+        """Closure speeds q_j into ``st.q`` (floats for rows fed by a relative inlet); returns
+        the (m,) "unreachable" masks of the rows that can have one (c_j < 0 only)."""
+        bad = []
+        for k, j in enumerate(self.cl_rows):
+            src = self.src[k]
+            if self.src_abs[k]:
+                s2 = None
                 for c in self.active:
-                    t = self.vel[src, c] - sd[c]
-                    t *= t
-                    acc += t
-                s2[m] = acc
+                    w = st.wabs.get((src, c))
+                    if w is None:
+                        t = self.vel[src, c] - st.sd[c]
+                        t *= t
+                    else:
+                        t = w * w
+                    if s2 is None:
+                        s2 = t if self.s2_idle[k] == 0.0 else np.add(self.s2_idle[k], t, out=t)
+                    else:
+                        s2 += t
+                if s2 is None:
+                    s2 = self.s2_idle[k]
             else:
-                s2[m] = self.s2_const[m]
-        a, c = self.a[:, None], self.c[:, None]
-        rad = a * s2 + c
-        if np.any(self.c != 0.0):
-            rad = np.where(np.abs(rad) <= 1e-12 * (a * s2 + np.abs(c)), 0.0, rad)
-        bad = rad < 0.0
-        q = np.sqrt(np.maximum(rad, 0.0))
-        full = np.zeros((self.n, s.size))
-        full[rows] = q
-        badf = np.zeros((self.n, s.size), bool)
-        badf[rows] = bad
-        return full, badf
+                s2 = self.s2_const[k]
+            a, c = self.a[k], self.c[k]
+            rad = s2 if a == 1.0 else a * s2
+            if c != 0.0:
+                rad = rad + c
+            if c < 0.0:                          # only then can the radicand reach or cross 0
+                rad = np.where(np.abs(rad) <= 1e-12 * (a * s2 + abs(c)), 0.0, rad)
+                b = rad < 0.0
+                if np.ndim(b) == 0:
+                    b = np.full(st.m, bool(b)) if st.m else np.zeros(0, bool)
+                bad.append(b)
+                st.q[j] = np.sqrt(np.maximum(rad, 0.0))
+            elif np.ndim(rad) == 0:
+                st.q[j] = float(np.sqrt(rad))
+            else:
+                st.q[j] = np.sqrt(rad, out=rad)      # rad is this chunk's own array
+        return bad
 
-    def _w_row(self, i, c, q, w_abs):
+    def _w_row(self, i, c, st):
         """Relative velocity component c of row i: an (m,) array or a float."""
         if self.closed[i]:
-            return q[i] * self.E[i, c]
-        if self.absol[i] and c in w_abs:
-            return w_abs[c][int(np.searchsorted(self.abs_rows, i))]
-        return self.vel[i, c]
+            return st.q[i] * self.E[i, c]
+        w = st.wabs.get((i, c))
+        return self.vel[i, c] if w is None else w
 
-    def _momentum(self, mdot, q, w_abs, rows):
+    def _momentum_into(self, sup, mdot, st, rows, m):
+        """sum beta mdot w over ``rows`` written into ``sup`` (3, m); True per axis where no
+        row contributes (the axis is then 0)."""
+        fixed = np.ones(3, bool)
+        bms = {}
+        for c in range(3):
+            first = True
+            for i in rows:
+                if self.closed[i]:
+                    e = self.E[i, c]
+                    if e == 0.0:
+                        continue
+                    if i not in bms:                 # beta mdot q, then times E_c
+                        bm = mdot[i] if self.beta[i] == 1.0 else self.beta[i] * mdot[i]
+                        bms[i] = bm * st.q[i]
+                    x, w = bms[i], e
+                else:
+                    w = self._w_row(i, c, st)
+                    if np.ndim(w) == 0 and w == 0.0:
+                        continue
+                    x = mdot[i] if self.beta[i] == 1.0 else self.beta[i] * mdot[i]
+                if first:
+                    np.multiply(x, w, out=sup[c])
+                    first = False
+                else:
+                    sup[c] += x * w
+            if first:
+                sup[c].fill(0.0)
+            else:
+                fixed[c] = False
+        return fixed
+
+    def _momentum(self, mdot, st, rows, m):
         """sum beta mdot w over ``rows`` as (3, m)."""
-        idx = np.arange(self.n)[rows]
-        m = mdot.shape[1]
         out = np.zeros((3, m))
-        for i in idx:
+        for i in rows:
             bm = mdot[i] if self.beta[i] == 1.0 else self.beta[i] * mdot[i]
             for c in range(3):
-                w = self._w_row(i, c, q, w_abs)
+                w = self._w_row(i, c, st)
                 if np.ndim(w) == 0 and w == 0.0:
                     continue
                 out[c] += bm * w
         return out
 
-    def _vn_row(self, i, s, sd, q):
+    def _vn_row(self, i, st, m):
         if self.absol[i]:
-            return np.full(s.size, self.vn_abs[i])
-        acc = np.zeros(s.size)
+            return np.full(m, self.vn_abs[i])
+        acc = np.zeros(m)
         for c in range(3):
-            base = q[i] * self.E[i, c] if self.closed[i] else self.vel[i, c]
-            vc = base + sd[c] if c in sd else base
+            base = st.q[i] * self.E[i, c] if self.closed[i] else self.vel[i, c]
+            vc = base + st.sd[c] if c in st.sd else base
             acc += vc * self.nrm[i, c]
         return acc
 
-    def _v2_row(self, i, s, sd, q):
+    def _v2_row(self, i, st, m):
         if self.absol[i]:
             return self.v2_abs[i]
-        acc = np.zeros(s.size)
+        acc = np.zeros(m)
         for c in range(3):
-            base = q[i] * self.E[i, c] if self.closed[i] else self.vel[i, c]
-            vc = base + sd[c] if c in sd else base
+            base = st.q[i] * self.E[i, c] if self.closed[i] else self.vel[i, c]
+            vc = base + st.sd[c] if c in st.sd else base
             acc += vc * vc
         return acc
 
-    def _solve(self, s, mdot, q, w_abs, inflow, imbalance, support, skip):
+    def _jet_ke(self, mdot, wn, st, m):
+        """Absolute kinetic-energy flux of the incoming jets [W]: a float where only steady
+        absolute inlets carry it."""
+        if not self.jet_rows:
+            return self.jet_const
+        jet_ke = np.full(m, self.jet_const)
+        for i in self.jet_rows:
+            if self.given[i]:
+                mi = np.broadcast_to(mdot[i], (m,))
+                jf = np.where(mi < 0, -mi, 0.0)
+                jf = np.where(np.isnan(jf), 0.0, jf)
+            else:
+                vn = self._vn_row(i, st, m)
+                jf = self.rho_a[i] * np.maximum(-vn, 0.0)
+                if not self.is_in[i]:
+                    jf = np.where(np.broadcast_to(wn[i], (m,)) < 0, jf, 0.0)
+            jet_ke += 0.5 * jf * self._v2_row(i, st, m)
+        return jet_ke
+
+    def _solve(self, st, inflow, imbalance, support, skip, m):
         """Flows of shared and solved outlets (rows ``flow_rows``), or None if singular."""
-        m = s.size
         flows = np.zeros((self.flow_rows.size, m))
         pos = {j: t for t, j in enumerate(self.flow_rows)}
         m_share = self.share[:, None] * inflow
@@ -542,7 +661,7 @@ class _Sweep:
         def dw(j):        # (c, m): d_c . w_j
             r = np.zeros((nc, m))
             for c in range(3):
-                w = self._w_row(j, c, q, w_abs)
+                w = self._w_row(j, c, st)
                 r += dirs[:, c, None] * w
             return r
 
@@ -574,6 +693,34 @@ class _Sweep:
         for t, j in enumerate(unk):
             flows[pos[j]] = x[:, t]
         return flows
+
+
+class _Chunk:
+    """Per-chunk state of a sweep: V_cv components, absolute rows' w, closure speeds."""
+
+    __slots__ = ("sd", "wabs", "q", "m")
+
+    def __init__(self, sd, wabs):
+        self.sd, self.wabs, self.q = sd, wabs, {}
+        self.m = next(iter(sd.values())).size
+
+
+def _zero_where(x, mask, m):
+    """Row ``x`` (array or float) set to 0 where ``mask``; in place for an array."""
+    if np.ndim(x) == 0:
+        return np.where(mask, 0.0, x)
+    np.copyto(x, 0.0, where=mask)
+    return x
+
+
+def _rowsum(rows, m):
+    """Sum of rows (arrays or floats) in their order, as an (m,) array."""
+    acc = None
+    for x in rows:
+        acc = x if acc is None else acc + x
+    if acc is None:
+        return np.zeros(m)
+    return np.broadcast_to(acc, (m,)) if np.ndim(acc) == 0 else acc
 
 
 @dataclass(frozen=True)

@@ -28,6 +28,7 @@ def carriage_vane():
         settings={"fluid_mass": (0.04, "slug"), "gx": (0.0, "ft/s^2"), "gy": (0.0, "ft/s^2"),
                   "gz": (-32.174049, "ft/s^2")},
         sweep=dict(low=0.0, high=110.0, unit="ft/s", direction=0.0, force=500.0, units="US"),
+        triangle_port=2,
         note="Invented scenario for the demo: a 2.5 in jet at 110 ft/s, carriage at 30 ft/s, "
              "135 degree frictionless vane throwing 10 degrees up. Check all results against "
              "your own codes before use.")

@@ -34,8 +34,11 @@ def _say(progress, text):
         print(text, file=sys.stderr, flush=True)
 
 
-def recalc(in_path, out_path, *, progress=False):
+def recalc(in_path, out_path, *, progress=False, values_only=False):
     """Recalculate ``in_path`` into ``out_path`` with portflux's worksheet functions.
+
+    ``values_only`` writes a frozen copy (values without formulas; see
+    :func:`~portflux.workbook.engine.recalc_file`).
 
     Returns the engine's :class:`~portflux.workbook.engine.RecalcSummary`.
     """
@@ -48,7 +51,7 @@ def recalc(in_path, out_path, *, progress=False):
     try:
         if check_workbook_file is not None:
             check_workbook_file(in_path)
-        summary = recalc_file(in_path, out_path, worksheet_functions())
+        summary = recalc_file(in_path, out_path, worksheet_functions(), values_only=values_only)
     except RecalcError as e:
         raise WorkbookError(str(e)) from None
     _say(progress, f"  {summary.formula_cells} formulas, {summary.array_ranges} array ranges, "

@@ -761,8 +761,9 @@ def _child(body: bytes, p: bytes, tag: bytes) -> bytes:
     return m.group(0) if m else b""
 
 
-def _cell_xml(p: bytes, attrs: bytes, body: bytes, value: Scalar) -> bytes:
-    formula = _child(body, p, b"f")
+def _cell_xml(p: bytes, attrs: bytes, body: bytes, value: Scalar,
+              freeze: bool = False) -> bytes:
+    formula = b"" if freeze else _child(body, p, b"f")
     ext = _child(body, p, b"extLst")
     t, payload = _value_xml(p, value, bool(formula))
     attrs = _T_ATTR_RE.sub(b"", attrs).rstrip(b"/").rstrip()
@@ -796,11 +797,12 @@ def _splice(text: bytes, pieces: list[tuple]) -> bytes:
 
 
 def _patch_sheet_xml(xml: bytes, values: Mapping[str, Scalar],
-                     where: str) -> bytes:
+                     where: str, freeze: bool = False) -> bytes:
     """Write cached values for ``{coordinate: value}`` into sheet XML.
 
     Only ``<c>`` elements of those cells change (their ``t`` attribute and
     ``<v>``/``<is>`` child); missing cells and rows are inserted in order.
+    With ``freeze`` their formulas are dropped: the cells keep only values.
     """
     sd = _SHEETDATA_RE.search(xml)
     if sd is None:
@@ -828,7 +830,7 @@ def _patch_sheet_xml(xml: bytes, values: Mapping[str, Scalar],
             if col in wanted:
                 _, v = wanted.pop(col)
                 xml_c = _cell_xml(cm.group("p"), cm.group("attrs"),
-                                  cm.group("body") or b"", v)
+                                  cm.group("body") or b"", v, freeze)
             else:
                 xml_c = cm.group(0)
             cells.append((col, cm.start(), cm.end(), xml_c))
@@ -945,7 +947,8 @@ def _same_file(a: str, b: str) -> bool:
 
 
 def recalc_file(in_path: str | os.PathLike, out_path: str | os.PathLike,
-                functions: Mapping[str, Callable]) -> RecalcSummary:
+                functions: Mapping[str, Callable], *,
+                values_only: bool = False) -> RecalcSummary:
     """Recalculate a workbook and save a copy carrying the computed values.
 
     Every formula and array formula is kept; each formula cell and each cell
@@ -967,6 +970,10 @@ def recalc_file(in_path: str | os.PathLike, out_path: str | os.PathLike,
         be the input file.
     functions : mapping of str to callable
         Worksheet functions beyond Excel's own, as for :class:`Recalculator`.
+    values_only : bool
+        Write a frozen copy: every formula cell keeps its computed value and
+        loses its formula (for readers that recalculate, such as LibreOffice,
+        and for sharing results); charts and formatting are kept.
 
     Returns
     -------
@@ -1013,7 +1020,7 @@ def recalc_file(in_path: str | os.PathLike, out_path: str | os.PathLike,
                     where = (f"{os.path.basename(in_path)}, sheet "
                              f"{titles[info.filename]!r}")
                     data = _patch_sheet_xml(data, by_part[info.filename],
-                                            where)
+                                            where, values_only)
                     _read_xml_bytes(data, where)   # still well-formed
                 elif info.filename == calc._book_part:
                     data = _keep_cached_values_on_load(data)

@@ -29,6 +29,7 @@ class Scenario:
     units: str = "SI"                  #: output units of the results
     settings: dict = field(default_factory=dict)   #: name -> (value, unit)
     sweep: dict = field(default_factory=dict)      #: low, high, unit, direction, force, units
+    triangle_port: int = 1                         #: port number of the velocity triangle
     note: str = ""
 
 
@@ -72,6 +73,7 @@ def fill(template_path, out_path, sc: Scenario) -> str:
     for ref, v in zip(lay.cv_cells, (*sc.cv_velocity, sc.cv_unit)):
         ws[_cell_name(ref)] = v
     ws[_cell_name(lay.units_cell)] = sc.units
+    ws[_cell_name(lay.triangle_cell)] = sc.triangle_port
     for name, (value, unit) in sc.settings.items():
         if name not in lay.settings_cells:
             raise InputError(f"unknown setting {name!r}; the template has "

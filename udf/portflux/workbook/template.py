@@ -31,6 +31,7 @@ from dataclasses import dataclass, field
 
 from openpyxl import Workbook
 from openpyxl.chart import Reference, ScatterChart, Series
+from openpyxl.formatting.rule import FormulaRule
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.formula import ArrayFormula
@@ -102,9 +103,13 @@ def _put(ws, c, r, value, *, fill=None, font=None, fmt=None, wrap=False):
 
 
 def _array(ws, c, r, rows, cols, formula):
-    """An array formula over rows x cols starting at (c, r), grey."""
+    """An array formula over rows x cols starting at (c, r), grey; the #N/A that Excel shows
+    where the range is larger than the result (rows past the last port) is greyed out."""
     ref = rng(c, r, c + cols - 1, r + rows - 1, absolute=False)
     ws.cell(row=r, column=c).value = ArrayFormula(ref, formula)
+    if rows * cols > 1:
+        ws.conditional_formatting.add(ref, FormulaRule(
+            formula=[f"ISNA({cell(c, r, absolute=False)})"], font=Font(color="BFBFBF")))
     for i in range(rows):
         for j in range(cols):
             x = ws.cell(row=r + i, column=c + j)
@@ -258,6 +263,7 @@ class Layout:
     units_cell: str = ""
     settings_cells: dict = field(default_factory=dict)   # name -> (value cell, unit cell)
     sweep_cells: dict = field(default_factory=dict)      # low, high, unit, direction, force
+    triangle_cell: str = ""                              # port number of the velocity triangle
 
 
 def _control_volume(wb, lay: Layout):
@@ -321,14 +327,24 @@ def _control_volume(wb, lay: Layout):
     _put(ws, 4, r2 + 7, "Warnings", font=BOLD)
     _array(ws, 4, r2 + 8, WARNING_ROWS, 1, f"=PFX_WARNINGS({args},{S})")
 
-    _velocity_triangle(ws, 10, r, top)
+    _velocity_triangle(ws, 10, r, top, lay)
 
 
-def _velocity_triangle(ws, left, top, table_top):
-    """Velocity triangle of the first port: V, V_cv and w (in the output units), and a chart."""
-    _put(ws, left, top, "Velocity triangle, first port (x, y in output units)", font=BOLD)
-    w = (cell(5, table_top + 1), cell(6, table_top + 1))      # first port's wx, wy
-    v = (cell(10, table_top + 1), cell(11, table_top + 1))    # first port's Vx, Vy
+def _velocity_triangle(ws, left, top, table_top, lay=None):
+    """Velocity triangle of one port (default the first): V, V_cv and w in the output units,
+    and a chart. The port number is an input cell beside the table."""
+    _put(ws, left, top, "Velocity triangle (x, y in output units) of port number", font=BOLD)
+    _put(ws, left + 4, top, 1, fill=INPUT_FILL)
+    k = cell(left + 4, top)
+    if lay is not None:
+        lay.triangle_cell = k
+    rows_w = (table_top + 1, table_top + MAX_PORTS)
+
+    def pick(col):   # the chosen port's value in a per-port result column
+        return f"INDEX({rng(col, rows_w[0], col, rows_w[1])},{k})"
+
+    w = (pick(5), pick(6))        # wx, wy of the relative-velocity table
+    v = (pick(10), pick(11))      # Vx, Vy of the absolute-velocity table
     rows = (("vector", "x start", "y start", "x end", "y end"),
             ("V (absolute)", "=0", "=0", f"={v[0]}", f"={v[1]}"),
             ("V_cv", "=0", "=0", f"={v[0]}-{w[0]}", f"={v[1]}-{w[1]}"),
@@ -350,7 +366,7 @@ def _velocity_triangle(ws, left, top, table_top):
             _formula(ws, left + 2, rr, f"={cell(left + cy, src)}")
             _put(ws, left, rr, rows[1 + k][0] if p == 0 else None)
     ch = ScatterChart()
-    ch.title = "Velocity triangle (first port)"
+    ch.title = "Velocity triangle"
     ch.style = 13
     ch.x_axis.title = "x"
     ch.y_axis.title = "y"
