@@ -14,10 +14,11 @@ from portflux import bench
 
 EXPECTED = {
     "1 balance": ["ratio cold / bare", "ratio warm / bare", "PFX_BODYFORCE cold",
-                  "PFX_BODYFORCE warm", "bare numpy, 10 ports"],
+                  "PFX_BODYFORCE warm", "bare numpy, 10 ports", "unit factors cleared too"],
     "2 speed table": ["ratio core / bare, compute only", "ratio core / bare, end to end",
                       "ratio PFX_SPEEDTABLE / bare, end to end", "core peak / core output",
-                      "peak traced memory, bare", "peak traced memory, core"],
+                      "peak traced memory, bare", "peak traced memory, core",
+                      "garbage collector running"],
     "3 import": ["portflux.cells - numpy alone", "pint registry built at import",
                  "import numpy", "import portflux.cells"],
     "4 recalc": ["cold", "warm (CV speed changed)", "native formulas: warm",
@@ -47,6 +48,14 @@ def test_every_figure_with_a_target_carries_its_limit_and_verdict(rows):
     for r in targeted:
         assert r["limit"] is not None and math.isfinite(r["limit"])
         assert (r["met"] is None) == (not r["applies"])
+
+
+def test_cold_figure_says_unit_factors_stay_cached_and_baseline_pauses_gc(rows):
+    # What "cold" and the end-to-end baseline mean is part of the report, not folklore.
+    cold = next(r for r in rows if r["figure"].startswith("PFX_BODYFORCE cold"))
+    assert "unit factors stay cached" in cold["note"]
+    base = next(r for r in rows if r["figure"].startswith("bare numpy + asarray"))
+    assert "gc paused" in base["note"]
 
 
 def test_pint_registry_is_not_built_by_importing_the_cells(rows):

@@ -210,3 +210,14 @@ def test_no_worksheet_function_raises_on_arbitrary_cells(data):
             assert all(isinstance(r, list) for r in out)
             assert all(isinstance(c, (str, float, int)) and not isinstance(c, bool)
                        for r in out for c in r), (name, out)
+
+
+def test_true_and_one_do_not_share_a_cache_entry():
+    # Python has True == 1; a cached parse must still tell a boolean cell from a number.
+    ports = (HEAD, UNITS, JET)
+    first = C.PFX_RELVEL(ports, 1, "jet")
+    assert isinstance(first, list)
+    flagged = C.PFX_RELVEL(ports, True, "jet")
+    assert isinstance(flagged, str) and "boolean" in flagged.lower()
+    assert C.PFX_RELVEL(ports, ((True, 0.0, 0.0),), "jet") != C.PFX_RELVEL(
+        ports, ((1.0, 0.0, 0.0),), "jet")

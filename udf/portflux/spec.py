@@ -80,13 +80,20 @@ for _c in COLUMNS.values():
         _LOOKUP[_name.replace("_", "").lower()] = _c.key
 
 
+_HEADERS = {}   # header text as typed -> column key (resolved once per spelling)
+
+
 def resolve_header(text) -> str:
     """Column key for a header cell: case-insensitive, spaces and underscores ignored.
 
     >>> resolve_header("Mass Flow"), resolve_header("P_GAUGE"), resolve_header("rho")
     ('mass_flow', 'p_gauge', 'density')
     """
+    if type(text) is str and text in _HEADERS:
+        return _HEADERS[text]
     key = str(text).strip().lower().replace(" ", "").replace("_", "").replace("-", "")
+    if key in _LOOKUP and type(text) is str and len(_HEADERS) < 4096:
+        _HEADERS[text] = _LOOKUP[key]
     if key not in _LOOKUP:
         raise InputError(f"unknown column {str(text)!r}; known columns: "
                          f"{', '.join(COLUMNS)}")
@@ -149,6 +156,19 @@ class PortTable:
     def n(self) -> int:
         return self.ports.n
 
+
+def _where(mask) -> list:
+    """Indices of the True entries of a 1-D mask, as ints (cheap for short masks)."""
+    return mask.nonzero()[0].tolist() if mask.any() else []
+
+
+def _nan_zero(a):
+    """NaN (blank) -> 0 of a column of finite numbers and NaN."""
+    return np.where(np.isnan(a), 0.0, a)
+
+
+#: Cell types read as numbers (or blank, None) without a check per cell.
+_NUMERIC = frozenset((float, int, type(None)))
 
 _FRAMES = {"": False, "abs": False, "absolute": False, "fixed": False,
            "rel": True, "relative": True, "moving": True}
@@ -228,6 +248,15 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
         vals = table.get(key)
         if vals is None:
             return np.full(n, np.nan)
+        if _NUMERIC.issuperset(map(type, vals)):     # plain numbers and blanks: one call
+            try:
+                a = np.array(vals, dtype=float)          # None -> NaN
+            except (OverflowError, ValueError, TypeError):
+                a = None
+            if a is not None:
+                odd = _where(~np.isfinite(a))
+                if all(vals[i] is None for i in odd):
+                    return a * factors[key]
         try:
             return np.array([number(v, i, key) for i, v in enumerate(vals)]) * factors[key]
         except InputError as e:
@@ -266,7 +295,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
     has_c = ~np.isnan(comps).all(axis=1)
     has_s = ~np.isnan(speed)
     has_a = ~np.isnan(angle) | ~np.isnan(tilt)
-    for i in np.flatnonzero(closed):
+    for i in _where(closed):
         if has_s[i]:
             raise InputError(f"closure {kinds[i]!r} sets this outlet's speed from its source "
                              f"inlet; leave speed blank (angle and tilt give the direction)",
@@ -275,7 +304,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
             raise InputError(f"closure {kinds[i]!r} sets the outlet's relative velocity: its "
                              f"direction is read in the moving frame; give frame 'rel' or leave "
                              f"it blank (got {frame_words[i]!r})", port=i, field="frame")
-    for i in range(n):
+    for i in _where(~has_s & has_a & (has_c | ~closed)):
         if not has_s[i] and has_a[i] and not has_c[i] and not closed[i]:
             raise InputError("angle or tilt is given without a speed", port=i, field="speed")
         if not has_s[i] and has_a[i] and has_c[i]:
@@ -284,11 +313,11 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
                              port=i, field="angle")
     unit_dir = closed & has_a & ~has_c        # a closed outlet's direction from its angle
     polar = polar_velocity(np.where(has_s, speed, np.where(unit_dir, 1.0, 0.0)),
-                           np.nan_to_num(angle), np.nan_to_num(tilt))
+                           _nan_zero(angle), _nan_zero(tilt))
     comps = np.where(np.isnan(comps) & has_c[:, None], 0.0, comps)
     velocity = np.where(has_c[:, None], comps, polar)
     both = has_c & has_s
-    for i in np.flatnonzero(both):
+    for i in _where(both):
         scale = max(np.linalg.norm(comps[i]), np.linalg.norm(polar[i]), 1e-300)
         if np.linalg.norm(comps[i] - polar[i]) > 1e-6 * scale:
             raise InputError(f"components vx, vy, vz and speed + angle disagree "
@@ -298,7 +327,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
     mass_flow = num("mass_flow")
     qv = num("volume_flow")
     density = num("density")
-    for i in np.flatnonzero(~np.isnan(qv)):
+    for i in _where(~np.isnan(qv)):
         if not np.isnan(mass_flow[i]):
             raise InputError("give mass_flow or volume_flow, not both", port=i,
                              field="volume_flow")
@@ -313,7 +342,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
     nvec = np.where(np.isnan(nvec) & has_n[:, None], 0.0, nvec)
 
     need_v = np.isnan(mass_flow) & ~has_c & ~has_s & ~(closed & (has_a | has_n))
-    for i in np.flatnonzero(need_v):
+    for i in _where(need_v):
         if closed[i]:
             raise InputError(f"closure {kinds[i]!r} needs the outlet's direction: give angle "
                              f"(and tilt), vx, vy, vz, or the normal nx, ny, nz", port=i,
@@ -322,10 +351,10 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
                          port=i, field="velocity")
 
     loss, share = num("loss"), num("share")
-    for i in np.flatnonzero(~np.isnan(loss)):
+    for i in _where(~np.isnan(loss)):
         if not 0.0 <= loss[i] < 1.0:
             raise InputError(f"must be in [0, 1) (got {loss[i]:g})", port=i, field="loss")
-    for i in np.flatnonzero(~np.isnan(share)):
+    for i in _where(~np.isnan(share)):
         if not 0.0 <= share[i] <= 1.0:
             raise InputError(f"must be in [0, 1] (got {share[i]:g})", port=i, field="share")
 

@@ -47,6 +47,34 @@ def _zeros(r):
     return tuple([0.0 if type(c) is float and c == 0.0 else c for c in r])
 
 
+class Frozen(tuple):
+    """Rows of cells holding booleans: equal (and hashing equal) only to rows with booleans in
+    the same places, so TRUE and 1 never share a cache entry (Python has True == 1)."""
+
+    def __new__(cls, rows):
+        t = tuple.__new__(cls, rows)
+        t.bools = tuple(i for i, c in enumerate(chain.from_iterable(rows)) if type(c) is bool)
+        return t
+
+    def __hash__(self):
+        return hash((tuple(self), self.bools))
+
+    def __eq__(self, other):
+        return tuple.__eq__(self, other) and self.bools == getattr(other, "bools", ())
+
+    def __ne__(self, other):
+        return not self == other
+
+
+def _tag(rows):
+    """``rows`` as a plain tuple, or :class:`Frozen` where a cell is a boolean."""
+    for r in rows:
+        for c in r:
+            if type(c) is bool:
+                return Frozen(rows)
+    return rows
+
+
 def freeze(value):
     """Hashable form of an argument: a scalar stays a scalar, a range becomes rows of cells.
 
@@ -56,15 +84,20 @@ def freeze(value):
     ((5.0, 0.0, 'ft/s'),)
     >>> freeze(3.0)
     3.0
+    >>> freeze(((True,),)) == freeze(((1.0,),))   # TRUE is not the number 1
+    False
     """
     kind = type(value)
     if kind is tuple or kind is list:        # the usual bridge forms: rows of plain cells
         if value and all(type(r) is tuple or type(r) is list for r in value):
-            if _PLAIN.issuperset(map(type, chain.from_iterable(value))):
-                return tuple([_zeros(r) if 0.0 in r else r if type(r) is tuple else tuple(r)
+            types = set(map(type, chain.from_iterable(value)))
+            if _PLAIN.issuperset(types):
+                rows = tuple([_zeros(r) if 0.0 in r else r if type(r) is tuple else tuple(r)
                               for r in value])
+                return Frozen(rows) if bool in types else rows
         elif value and _PLAIN.issuperset(map(type, value)):
-            return (_zeros(value) if 0.0 in value else tuple(value),)
+            row = (_zeros(value) if 0.0 in value else tuple(value),)
+            return _tag(row)
     elif kind in _PLAIN and kind is not float:
         return value
     if isinstance(value, np.ndarray):
@@ -72,13 +105,13 @@ def freeze(value):
     if not isinstance(value, _SEQUENCES):
         return _cell(value)
     if not any(isinstance(r, _SEQUENCES) for r in value):
-        return (tuple(_cell(c) for c in value),)
+        return _tag((tuple(_cell(c) for c in value),))
     out = []
     for r in value:
         if isinstance(r, np.ndarray):
             r = r.tolist()
         out.append(tuple(_cell(c) for c in r) if isinstance(r, _SEQUENCES) else (_cell(r),))
-    return tuple(out)
+    return _tag(tuple(out))
 
 
 def rows(frozen) -> tuple:

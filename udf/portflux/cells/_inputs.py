@@ -43,7 +43,7 @@ FIRST_PORT_ROW = 3
 def _cached(maxsize):
     """lru_cache that also remembers failures (as their message, re-raised as a new CellError)."""
     def wrap(parse):
-        @lru_cache(maxsize=maxsize)
+        @lru_cache(maxsize=maxsize, typed=True)
         def remember(key):
             try:
                 return True, parse(key)
@@ -439,7 +439,7 @@ def closures_for(t: Table, s: Settings, *, kinematic=False) -> Closures | None:
     return c
 
 
-@lru_cache(maxsize=512)
+@lru_cache(maxsize=512, typed=True)
 def _evaluate(pkey, ckey, skey, tol, kinematic=False):
     try:
         t = _table(pkey)

@@ -202,7 +202,10 @@ class Ports:
         p_gauge[np.isnan(p_gauge)] = 0.0
         height[np.isnan(height)] = 0.0
 
-        for i in range(n):
+        # Checked for all ports at once; the ports flagged are then checked one by one, in
+        # order, so the first bad port raises exactly the message of its first failed check.
+        for i in _where(_suspects(area, density, vel, normal, roles, beta, p_gauge,
+                                          mass_flow, height, by_closure)):
             _check_port(i, area[i], density[i], vel[i], normal[i], roles[i], beta[i],
                         p_gauge[i], mass_flow[i], height[i], bool(by_closure[i]))
 
@@ -228,6 +231,32 @@ class Ports:
         return Ports(tuple(self.names[i] for i in idx), *(getattr(self, f)[idx] for f in (
             "area", "density", "velocity", "relative", "normal", "role", "beta", "p_gauge",
             "mass_flow", "height")))
+
+
+def _where(mask) -> list:
+    """Indices of the True entries of a 1-D mask, as ints (cheap for short masks)."""
+    return mask.nonzero()[0].tolist() if mask.any() else []
+
+
+def _suspects(area, density, vel, normal, role, beta, p, mdot, height, by_closure):
+    """Ports that may fail :func:`_check_port` (every one that does, vectorised)."""
+    with np.errstate(invalid="ignore", over="ignore"):
+        has_m = ~np.isnan(mdot)
+        bad = ~np.isfinite(vel).all(axis=1)
+        bad |= has_m & (~np.isfinite(mdot) | ((role != UNKNOWN) & (mdot < 0)))
+        need_area = ~(has_m | by_closure) | (p != 0.0)
+        bad |= np.where(np.isnan(area), need_area, ~(np.isfinite(area) & (area > 0)))
+        bad |= np.where(np.isnan(density), ~has_m, ~(np.isfinite(density) & (density > 0)))
+        bad |= ~(np.isfinite(beta) & (beta >= 1.0))
+        bad |= ~np.isfinite(p) | ~np.isfinite(height)
+        nan_n = np.isnan(normal)
+        some = nan_n.any(axis=1)
+        bad |= some & (~nan_n.all(axis=1) | (role == UNKNOWN)
+                       | (~(vel != 0.0).any(axis=1) & ~(has_m & (p == 0.0))))
+        finite_n = np.isfinite(normal).all(axis=1)
+        # (2e-12: a margin over the exact check's 1e-12, so round-off never hides a port)
+        bad |= ~some & (~finite_n | ~(np.sqrt((normal * normal).sum(axis=1)) >= 2e-12))
+    return bad
 
 
 def _check_port(i, area, density, vel, normal, role, beta, p, mdot, height, by_closure=False):

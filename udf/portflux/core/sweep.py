@@ -311,6 +311,9 @@ class _Sweep:
         self.unroled = self.neg_rows[~(self.is_in | self.is_out)[self.neg_rows]]
         self.abs_list = [int(i) for i in self.abs_rows]
         self.known_rows = [i for i in range(n) if not self.flow_mask[i]]
+        self.rho_en = self.rho_a0 * self.e_n
+        self.wn_closed = [i for i in self.jet_rows if closed[i] and not self.given[i]]
+        self._pool = {}                          # scratch rows of :class:`_Chunk`
 
     def _closures(self, ports, closures, g):
         from .closures import BERNOULLI, LOSS
@@ -353,29 +356,32 @@ class _Sweep:
         n, m = self.n, s.size
         act = self.active
         d = self.d
-        sd = {c: s if d[c] == 1.0 else s * d[c] for c in act}   # V_cv components s d_c
+        st = _Chunk(self._pool, m)
+        f = st.f
+        sd = st.sd = {c: s if d[c] == 1.0 else np.multiply(s, d[c], out=f(("sd", c)))
+                      for c in act}                        # V_cv components s d_c
         # relative velocity components of absolute rows on the active axes: V_c - s d_c
-        wabs = {(i, c): self.vel[i, c] - sd[c] for i in self.abs_list for c in act}
-        st = _Chunk(sd, wabs)
+        wabs = st.wabs = {(i, c): np.subtract(self.vel[i, c], sd[c], out=f(("w", i, c)))
+                          for i in self.abs_list for c in act}
         wn = [self.const_wn[i] for i in range(n)]              # floats; arrays where s enters
         for i in self.abs_list:
             acc = None
             for c in act:
                 if self.nrm[i, c] == 0.0:
                     continue
-                t = wabs[i, c] * self.nrm[i, c]
                 if acc is None:
-                    acc = t if self.const_wn[i] == 0.0 else np.add(self.const_wn[i], t, out=t)
+                    acc = np.multiply(wabs[i, c], self.nrm[i, c], out=f(("wn", i)))
+                    if self.const_wn[i] != 0.0:
+                        np.add(self.const_wn[i], acc, out=acc)
                 else:
-                    acc += t
+                    acc += np.multiply(wabs[i, c], self.nrm[i, c], out=f("tmp"))
             if acc is not None:
                 wn[i] = acc
         bad = []
         if self.cl_rows.size:
             bad = self._closure_speed(st)
-            for j in self.cl_rows:
-                e = self.e_n[j]
-                wn[j] = st.q[j] if e == 1.0 else st.q[j] * e
+            for j in self.wn_closed:             # w . n = q E . n where a jet may enter
+                wn[j] = st.q[j] * self.e_n[j]
         mdot = [None] * n
         flow = self.flow_mask
         for i in range(n):
@@ -384,12 +390,15 @@ class _Sweep:
             elif self.given[i] and not self.closed[i]:
                 mdot[i] = self.m_given[i] + 0.0
             elif self.given[i]:
-                mdot[i] = self.rho_a0[i] * wn[i] + self.m_given[i]
+                mdot[i] = self.rho_a0[i] * (st.q[i] * self.e_n[i]) + self.m_given[i]
+            elif self.closed[i]:                 # rho A (E . n) q: one pass
+                mdot[i] = _times(self.rho_en[i], st.q[i], f, ("m", i))
             else:
-                mdot[i] = self.rho_a0[i] * wn[i]
+                mdot[i] = _times(self.rho_a0[i], wn[i], f, ("m", i))
         some_out = all_out = None               # some / every declared inlet outrun
         for i in self.in_rows:                  # an outrun inlet carries nothing
-            io = np.broadcast_to(wn[i] > 0.0, (m,)) if np.ndim(wn[i]) == 0 else wn[i] > 0.0
+            io = (np.broadcast_to(wn[i] > 0.0, (m,)) if np.ndim(wn[i]) == 0 else
+                  np.greater(wn[i], 0.0, out=st.b(("io", i))))
             if io.any():
                 mdot[i] = _zero_where(mdot[i], io, m)
             some_out = io if some_out is None else some_out | io
@@ -403,7 +412,7 @@ class _Sweep:
                 scale = np.where(wn_k < 0, vn_k / wn_k, 0.0)
             mdot = [x * scale for x in mdot]
         inflow = out["inflow"][sl]              # -sum of the negative flows, in row order
-        terms = [mdot[i] if self.nonpos[i] else np.minimum(mdot[i], 0.0)
+        terms = [mdot[i] if self.nonpos[i] else _lowest(mdot[i], f, ("neg", i))
                  for i in self.neg_rows]       # (an inlet's flow is never positive)
         if not terms:
             inflow.fill(0.0)
@@ -439,14 +448,15 @@ class _Sweep:
         sup = out["support"][:, sl]
         fixed = self._momentum_into(sup, mdot, st, self.known_rows, m)
         for c in range(3):                       # as the general path: - p_total - weight
-            for f in (self.p_total[c], self.weight[c]):
-                if f != 0.0:
+            for load in (self.p_total[c], self.weight[c]):
+                if load != 0.0:
                     if nc is None:
-                        sup[c] -= f
+                        sup[c] -= load
                     else:
-                        sup[c] -= f * ~nc
+                        sup[c] -= load * ~nc
                     fixed[c] = False
-        imbalance = _rowsum([x for i, x in enumerate(mdot) if not flow[i] or self.train], m)
+        imbalance = _rowsum([x for i, x in enumerate(mdot) if not flow[i] or self.train], m,
+                            f("imb"))
         anybad = None
         for b in bad:
             b &= contact
@@ -468,7 +478,7 @@ class _Sweep:
             for t, j in enumerate(rows):
                 mdot[j] = mf[t]
             inflow[:] = inflow - np.minimum(mf, 0.0).sum(axis=0)
-            imbalance = _rowsum(mdot, m)
+            imbalance = _rowsum(mdot, m, f("imb"))
             sup += self._momentum(mdot, st, rows, m)
             fixed[:] = False
         # outputs
@@ -478,7 +488,7 @@ class _Sweep:
                 np.multiply(sup[c], sd[c], out=power)
                 np.subtract(0.0, power, out=power)
             else:
-                power -= sup[c] * sd[c]
+                power -= np.multiply(sup[c], sd[c], out=f("tmp"))
         eff = out["eff"][sl]
         jet_ke = self._jet_ke(mdot, wn, st, m)
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -492,7 +502,7 @@ class _Sweep:
                 np.copyto(eff, np.nan, where=~(jet_ke > 0))
             # |imbalance / inflow| <= tol where fluid enters; elsewhere balanced only when the
             # imbalance is exactly 0 (as the general path's 0 or +-inf relative imbalance)
-            rel = np.divide(imbalance, inflow)
+            rel = np.divide(imbalance, inflow, out=f("rel"))
         np.abs(rel, out=rel)
         balanced = out["balanced"][sl]
         np.less_equal(rel, self.tol, out=balanced)
@@ -524,12 +534,13 @@ class _Sweep:
             if self.src_abs[k]:
                 s2 = None
                 for c in self.active:
+                    t = st.f(("q", j) if s2 is None else "tmp")
                     w = st.wabs.get((src, c))
                     if w is None:
-                        t = self.vel[src, c] - st.sd[c]
+                        np.subtract(self.vel[src, c], st.sd[c], out=t)
                         t *= t
                     else:
-                        t = w * w
+                        np.multiply(w, w, out=t)
                     if s2 is None:
                         s2 = t if self.s2_idle[k] == 0.0 else np.add(self.s2_idle[k], t, out=t)
                     else:
@@ -539,20 +550,24 @@ class _Sweep:
             else:
                 s2 = self.s2_const[k]
             a, c = self.a[k], self.c[k]
-            rad = s2 if a == 1.0 else a * s2
-            if c != 0.0:
-                rad = rad + c
             if c < 0.0:                          # only then can the radicand reach or cross 0
+                rad = (s2 if a == 1.0 else a * s2) + c
                 rad = np.where(np.abs(rad) <= 1e-12 * (a * s2 + abs(c)), 0.0, rad)
                 b = rad < 0.0
                 if np.ndim(b) == 0:
                     b = np.full(st.m, bool(b)) if st.m else np.zeros(0, bool)
                 bad.append(b)
                 st.q[j] = np.sqrt(np.maximum(rad, 0.0))
-            elif np.ndim(rad) == 0:
-                st.q[j] = float(np.sqrt(rad))
-            else:
-                st.q[j] = np.sqrt(rad, out=rad)      # rad is this chunk's own array
+                continue
+            if np.ndim(s2) == 0:
+                st.q[j] = float(np.sqrt((s2 if a == 1.0 else a * s2) + c))
+                continue
+            rad = s2                             # this chunk's own buffer: in place
+            if a != 1.0:
+                rad *= a
+            if c != 0.0:
+                rad += c
+            st.q[j] = np.sqrt(rad, out=rad)
         return bad
 
     def _w_row(self, i, c, st):
@@ -575,24 +590,29 @@ class _Sweep:
                     if e == 0.0:
                         continue
                     if i not in bms:                 # beta mdot q, then times E_c
-                        bm = mdot[i] if self.beta[i] == 1.0 else self.beta[i] * mdot[i]
-                        bms[i] = bm * st.q[i]
+                        bms[i] = _times(self._bm(i, mdot, st), st.q[i], st.f, ("g", i))
                     x, w = bms[i], e
                 else:
                     w = self._w_row(i, c, st)
                     if np.ndim(w) == 0 and w == 0.0:
                         continue
-                    x = mdot[i] if self.beta[i] == 1.0 else self.beta[i] * mdot[i]
+                    x = self._bm(i, mdot, st)
                 if first:
                     np.multiply(x, w, out=sup[c])
                     first = False
                 else:
-                    sup[c] += x * w
+                    sup[c] += _times(x, w, st.f, "tmp")
             if first:
                 sup[c].fill(0.0)
             else:
                 fixed[c] = False
         return fixed
+
+    def _bm(self, i, mdot, st):
+        """beta mdot of row i (the flow itself where beta is 1)."""
+        if self.beta[i] == 1.0:
+            return mdot[i]
+        return _times(self.beta[i], mdot[i], st.f, ("bm", i))
 
     def _momentum(self, mdot, st, rows, m):
         """sum beta mdot w over ``rows`` as (3, m)."""
@@ -696,13 +716,39 @@ class _Sweep:
 
 
 class _Chunk:
-    """Per-chunk state of a sweep: V_cv components, absolute rows' w, closure speeds."""
+    """Per-chunk state of a sweep: V_cv components, absolute rows' w, closure speeds, and
+    named scratch rows kept from chunk to chunk (fresh memory is paid once per table, not once
+    per chunk and temporary)."""
 
-    __slots__ = ("sd", "wabs", "q", "m")
+    __slots__ = ("sd", "wabs", "q", "m", "pool")
 
-    def __init__(self, sd, wabs):
-        self.sd, self.wabs, self.q = sd, wabs, {}
-        self.m = next(iter(sd.values())).size
+    def __init__(self, pool, m):
+        self.sd, self.wabs, self.q, self.pool, self.m = {}, {}, {}, pool, m
+
+    def f(self, key):
+        """Scratch float row ``key`` of this chunk's length (its values are left over)."""
+        a = self.pool.get(key)
+        if a is None or a.size < self.m:
+            a = self.pool[key] = np.empty(self.m)
+        return a[:self.m]
+
+    def b(self, key):
+        """Scratch boolean row ``key``."""
+        return self.f(key).view(bool)[:self.m]
+
+
+def _times(x, y, f, key):
+    """x * y (rows or floats) into scratch row ``key`` when the product is a row."""
+    if np.ndim(x) == 0 and np.ndim(y) == 0:
+        return x * y
+    return np.multiply(x, y, out=f(key))
+
+
+def _lowest(x, f, key):
+    """min(x, 0) of a row or float (into scratch row ``key`` for a row)."""
+    if np.ndim(x) == 0:
+        return min(x, 0.0) if not np.isnan(x) else x
+    return np.minimum(x, 0.0, out=f(key))
 
 
 def _zero_where(x, mask, m):
@@ -713,11 +759,19 @@ def _zero_where(x, mask, m):
     return x
 
 
-def _rowsum(rows, m):
-    """Sum of rows (arrays or floats) in their order, as an (m,) array."""
+def _rowsum(rows, m, buf):
+    """Sum of rows (arrays or floats) in their order, as an (m,) array (``buf`` once a row
+    enters the sum)."""
     acc = None
     for x in rows:
-        acc = x if acc is None else acc + x
+        if acc is None:
+            acc = x
+        elif np.ndim(acc) == 0 and np.ndim(x) == 0:
+            acc = acc + x
+        elif acc is buf:
+            acc += x
+        else:
+            acc = np.add(acc, x, out=buf)
     if acc is None:
         return np.zeros(m)
     return np.broadcast_to(acc, (m,)) if np.ndim(acc) == 0 else acc
