@@ -221,3 +221,11 @@ def test_true_and_one_do_not_share_a_cache_entry():
     assert isinstance(flagged, str) and "boolean" in flagged.lower()
     assert C.PFX_RELVEL(ports, ((True, 0.0, 0.0),), "jet") != C.PFX_RELVEL(
         ports, ((1.0, 0.0, 0.0),), "jet")
+
+
+def test_an_accelerating_control_volume_is_refused_with_the_reason():
+    # Design note: accelerating CVs are outside the steady inertial form; say so in an error.
+    out = C.PFX_BODYFORCE((HEAD, UNITS, JET), 10.0, None, None, (("az", 1.5, "ft/s^2"),))
+    assert out.startswith("settings row 1, az: an accelerating control volume is outside")
+    assert isinstance(C.PFX_BODYFORCE((HEAD, UNITS, JET), 10.0, None, None,
+                                      (("az", 0.0, "ft/s^2"),)), list)

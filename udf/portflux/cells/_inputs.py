@@ -243,7 +243,12 @@ SETTINGS = {  # normalised name -> (name shown, quantity kind or None for text, 
                                  "slip_z; blank components are 0)"),
     "slipy": ("slip_y", "ratio", "y component of that no-force direction"),
     "slipz": ("slip_z", "ratio", "z component of that no-force direction"),
+    "ax": ("ax", "acceleration", "CV acceleration x component: must be 0 (an accelerating CV "
+                                 "is outside the steady inertial form)"),
+    "ay": ("ay", "acceleration", "CV acceleration y component: must be 0"),
+    "az": ("az", "acceleration", "CV acceleration z component: must be 0"),
 }
+_ACCELERATION = ("ax", "ay", "az")
 _REPEATABLE = ("slipangle",)
 _SLIP_COMPONENTS = ("slip_x", "slip_y", "slip_z")
 _SETTINGS_HEADER = ("setting", "name", "parameter", "quantity")
@@ -309,6 +314,11 @@ def _settings(key) -> Settings:
             directions.append((math.cos(x) + 0.0, math.sin(x) + 0.0, 0.0))
         else:
             found[shown] = x
+    for name in _ACCELERATION:
+        if found.pop(name, 0.0) != 0.0:
+            raise CellError(f"settings row {seen[name]}, {name}: an accelerating control volume "
+                            f"is outside the steady inertial form portflux solves; give a "
+                            f"constant CV velocity (acceleration 0)")
     g = list(Settings.gravity)
     for axis, name in enumerate(("gx", "gy", "gz")):
         if name in found:
