@@ -143,7 +143,7 @@ def PFX_SETTINGS():
 
     >>> [r[0] for r in PFX_SETTINGS()[1:]]
     ['fluid_mass', 'gx', 'gy', 'gz', 'tolerance', 'intercept', 'slip_angle', 'slip_x', \
-'slip_y', 'slip_z']
+'slip_y', 'slip_z', 'ax', 'ay', 'az']
     """
     return _guarded("PFX_SETTINGS", F.settings_names)
 
