@@ -9,6 +9,7 @@ port, raising :class:`InputError` that names the port (0-based row index) and th
 
 from __future__ import annotations
 
+import datetime
 import math
 from dataclasses import dataclass, field
 
@@ -100,6 +101,22 @@ def resolve_header(text) -> str:
     return _LOOKUP[key]
 
 
+def shown(v) -> str:
+    """A cell value of an unexpected type as a message shows it (dates readably).
+
+    >>> import datetime
+    >>> shown(datetime.date(2026, 3, 1)), shown(2.5)
+    ('the date/time 2026-03-01', '2.5')
+    """
+    if isinstance(v, datetime.datetime):
+        return f"the date/time {v.isoformat(sep=' ')}"
+    if isinstance(v, (datetime.date, datetime.time)):
+        return f"the date/time {v.isoformat()}"
+    if isinstance(v, (int, float, str, bool)) or v is None:
+        return repr(v)
+    return f"{type(v).__name__} {v!r}"
+
+
 def is_blank(v) -> bool:
     """None, empty text or only spaces."""
     return v is None or (isinstance(v, str) and v.strip() == "")
@@ -124,7 +141,7 @@ def number(v, port: int, col: str) -> float:
             raise InputError(f"holds the spreadsheet error {s}; fix the cell it comes from",
                              port=port, field=col)
         raise InputError(f"expected a number, got text {v!r}", port=port, field=col)
-    raise InputError(f"expected a number, got {type(v).__name__} {v!r}", port=port, field=col)
+    raise InputError(f"expected a number, got {shown(v)}", port=port, field=col)
 
 
 def text(v, port: int, col: str) -> str:
@@ -138,7 +155,7 @@ def text(v, port: int, col: str) -> str:
         return s
     if col in ("port", "source") and isinstance(v, (int, float)) and not isinstance(v, bool):
         return f"{v:g}"
-    raise InputError(f"expected text, got {v!r}", port=port, field=col)
+    raise InputError(f"expected text, got {shown(v)}", port=port, field=col)
 
 
 @dataclass

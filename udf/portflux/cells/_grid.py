@@ -15,7 +15,7 @@ from itertools import chain
 
 import numpy as np
 
-from ..spec import EXCEL_ERRORS, is_blank
+from ..spec import EXCEL_ERRORS, is_blank, shown
 
 _SEQUENCES = (list, tuple, np.ndarray)
 
@@ -161,7 +161,7 @@ def describe(v) -> str:
         return f"the boolean {str(v).upper()}"
     if isinstance(v, str):
         return f"text {v!r}"
-    return f"{type(v).__name__} {v!r}"
+    return shown(v)
 
 
 def number(v, where: str, *, allow_blank=False) -> float:

@@ -190,6 +190,11 @@ def _cv(key) -> np.ndarray:
     if isinstance(cells[-1], str) and not error_value(cells[-1]) and not is_blank(cells[-1]):
         unit = cells.pop().strip()
     if not cells:
+        try:
+            U.factor(unit, "velocity")
+        except InputError:
+            raise CellError(f"cv_velocity: expected a speed or velocity components, got text "
+                            f"{unit!r}; give {_CV_FORMS}") from None
         raise CellError(f"cv_velocity: holds only the unit {unit!r}; put the velocity before it")
     nums = [number(c, f"cv_velocity cell {k}") for k, c in enumerate(cells, 1)]
     if len(nums) > 3:
