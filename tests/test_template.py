@@ -154,6 +154,7 @@ def test_demo_writes_a_result_workbook_with_the_carriage_vane_forces(tmp_path, c
     assert cli.main(["demo", "-o", str(out)]) == 0
     text = capsys.readouterr().out
     assert f"result workbook: {out}" in text and "CAUTION" in text
+    assert "wx [ft/s]" in text and "mass flow [slug/s]" in text and "force on body x [lbf]" in text
     # Closed form for the frictionless vane (White, Fluid Mechanics, sec. 3.4, from memory),
     # outlet at 135 deg in plane and 10 deg up: F_x = mdot (V-U) (1 - cos135 cos10) on the body.
     rho, A, V, U = 1.94, 4.908739 / 144, 110.0, 30.0

@@ -53,6 +53,15 @@ def cmd_demo(args) -> int:
     print()
     from .workbook import template as T
 
+    w = _block(out, T.CV, T.RELVEL_AT)
+    m = _block(out, T.CV, T.MASSFLOW_AT)
+    print("Ports (relative velocity w = V - V_cv; mass flow + out of the CV)")
+    table = [[f"{c:.6g}" if isinstance(c, float) else str(c) for c in (*wr, mr[1])]
+             for wr, mr in zip(w, m)]
+    widths = [max(len(r[j]) for r in table) for j in range(len(table[0]))] if table else []
+    for r in table:
+        print("  " + "  ".join(c.rjust(widths[j]) for j, c in enumerate(r)))
+    print()
     for q, v in _block(out, T.CV, T.SUMMARY_AT):
         print(f"  {q:46s} {v:.6g}" if isinstance(v, float) else f"  {q:46s} {v}")
     best = _block(out, T.SWEEP, T.BEST_AT)

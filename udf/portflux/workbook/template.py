@@ -44,6 +44,8 @@ SWEEP_POINTS = 41
 WARNING_ROWS = 6
 SUMMARY_AT = (1, 31, 23, 2)        #: (column, row, rows, columns) of the summary block
 BEST_AT = (16, 11, 5, 2)           #: the same for the best-speed block on the sweep sheet
+RELVEL_AT = (4, 31, 11, 4)         #: relative velocities of every port (header + ports)
+MASSFLOW_AT = (14, 31, 11, 2)      #: mass flows of every port (header + ports)
 
 INPUT_FILL = PatternFill("solid", fgColor="FFF2CC")      # pale yellow: cells users fill
 OUTPUT_FILL = PatternFill("solid", fgColor="EDEDED")     # grey: computed by portflux
@@ -298,6 +300,7 @@ def _control_volume(wb, lay: Layout):
 
     n = MAX_PORTS + 1
     _put(ws, 4, top - 1, "Relative velocity w = V - V_cv of every port", font=BOLD)
+    assert RELVEL_AT == (4, top, n, 4) and MASSFLOW_AT == (14, top, n, 2)
     _array(ws, 4, top, n, 4, f"=PFX_RELVELS({args},{U},TRUE)")
     _put(ws, 9, top - 1, "Absolute velocity V", font=BOLD)
     _array(ws, 9, top, n, 4, f"=PFX_ABSVEL({args},{U},TRUE)")
