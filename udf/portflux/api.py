@@ -24,7 +24,7 @@ from . import spec
 from . import units as U
 from .core import STANDARD_GRAVITY, Balance, InputError, balance
 from .core.balance import DEFAULT_IMBALANCE_TOL
-from .core.closures import Closures, balance_closed
+from .core.closures import balance_closed
 from .core.geometry import direction
 
 
@@ -83,28 +83,6 @@ class ControlVolumeResult:
         return format_report(self.balance, U.UnitSystem(units))
 
 
-def table_closures(pt: spec.PortTable, no_force=None) -> Closures | None:
-    """The outlet closures a port table declares (None when it declares none).
-
-    Closed outlets (free, loss, bernoulli) typed without area or mass flow get their flow from
-    continuity; ``no_force`` (k, 3) are directions along which the body carries no force.
-    """
-    uses = any(c != "given" for c in pt.closure) or bool(np.any(~np.isnan(pt.share)))
-    if not uses:
-        if no_force is not None and len(no_force):
-            raise InputError(f"{len(no_force)} no-force direction(s) given but no outlet flow is "
-                             f"unknown: mark outlets 'solve'", argument="no_force")
-        return None
-    p = pt.ports
-    unknown = np.array([c not in ("given", "solve") and p.role[i] > 0 and np.isnan(p.area[i])
-                        and np.isnan(p.mass_flow[i]) and np.isnan(pt.share[i])
-                        for i, c in enumerate(pt.closure)], dtype=bool)
-    return Closures.build(p, list(pt.closure), loss=pt.loss, source=list(pt.source),
-                          share=pt.share, unknown=unknown if unknown.any() else None,
-                          no_force=None if no_force is None or not len(no_force)
-                          else np.asarray(no_force, dtype=float))
-
-
 def solve(ports, cv_velocity, *, units=None, cv_unit="m/s", fluid_mass=0.0, mass_unit="kg",
           gravity=(0.0, 0.0, -STANDARD_GRAVITY), gravity_unit="m/s^2",
           tolerance=DEFAULT_IMBALANCE_TOL, intercept="single",
@@ -145,7 +123,10 @@ def solve(ports, cv_velocity, *, units=None, cv_unit="m/s", fluid_mass=0.0, mass
     m = U.to_si(fluid_mass, mass_unit, "mass")
     g = U.to_si(np.asarray(gravity, float), gravity_unit, "acceleration")
     nf = direction(np.radians(np.asarray(slip_angles, dtype=float))) if len(slip_angles) else None
-    closures = table_closures(table, nf)
+    closures = spec.build_closures(table, nf)
+    if closures is None and nf is not None:
+        raise InputError(f"{len(nf)} no-force direction(s) given but no outlet flow is unknown: "
+                         f"mark outlets 'solve'", argument="slip_angles")
     opts = dict(fluid_mass=m, gravity=g, tol=tolerance, intercept=intercept)
     if closures is None:
         return ControlVolumeResult(table, balance(table.ports, v, **opts))

@@ -17,6 +17,7 @@ import numpy as np
 
 from . import units as U
 from .core import InputError, Ports, polar_velocity
+from .core.closures import Closures
 
 EXCEL_ERRORS = ("#N/A", "#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#NULL!",
                 "#GETTING_DATA", "#SPILL!", "#CALC!", "#FIELD!", "#BLOCKED!", "#UNKNOWN!",
@@ -168,10 +169,46 @@ class PortTable:
     source: tuple = ()           #: per port label of the closure's inlet ("" blank)
     share: np.ndarray = None     #: per port share of the inflow [-] (NaN blank)
     units: dict = field(default_factory=dict)  #: column key -> unit string as given
+    #: per port: the flow is set by a closure condition ('solve', a share, or a closed outlet
+    #: typed without area or mass flow, whose flow follows from continuity)
+    flow_by_closure: np.ndarray = None
 
     @property
     def n(self) -> int:
         return self.ports.n
+
+    @property
+    def uses_closures(self) -> bool:
+        """True when any port declares a closure or a share."""
+        return any(c != "given" for c in self.closure) or bool(np.any(~np.isnan(self.share)))
+
+    @property
+    def unknown_flow(self) -> np.ndarray:
+        """Closed outlets (free, loss, bernoulli) whose flow is unknown: typed without area, mass
+        flow or share, so continuity and the other conditions find it."""
+        if self.flow_by_closure is None:
+            return np.zeros(self.n, dtype=bool)
+        solve = np.array([c == "solve" for c in self.closure], dtype=bool)
+        return self.flow_by_closure & ~solve & np.isnan(self.share)
+
+
+def build_closures(pt: PortTable, no_force=None) -> Closures | None:
+    """The outlet closures a port table declares (None when it declares none).
+
+    Parameters
+    ----------
+    pt : PortTable
+        Built with ``closures=True``.
+    no_force : array_like (k, 3), optional
+        Directions along which the body carries no force (frictionless surfaces) [-].
+    """
+    if not pt.uses_closures:
+        return None
+    unknown = pt.unknown_flow
+    return Closures.build(pt.ports, list(pt.closure), loss=pt.loss, source=list(pt.source),
+                          share=pt.share, unknown=unknown if unknown.any() else None,
+                          no_force=None if no_force is None or not len(no_force)
+                          else np.asarray(no_force, dtype=float))
 
 
 def _where(mask) -> list:
@@ -387,7 +424,8 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
     except InputError as e:
         raise _in_user_units(e, table, units) from None
     return PortTable(ports=ports, closure=tuple(kinds), loss=loss, source=tuple(words("source")),
-                     share=share, units={k: units.get(k) for k in table})
+                     share=share, units={k: units.get(k) for k in table},
+                     flow_by_closure=np.zeros(n, dtype=bool) if flow_set is None else flow_set)
 
 
 def _in_user_units(e: InputError, table: dict, units: dict) -> InputError:

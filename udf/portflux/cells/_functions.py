@@ -247,7 +247,7 @@ def split(ports, cv_velocity, units=None, settings=None):
     inflow = float(b.inflow)
     wn = np.einsum("ij,ij->i", b.w, p.normal)
     speed = np.linalg.norm(b.w, axis=1)
-    flow_set = _flow_ports(pt)
+    flow_set = pt.flow_by_closure
     implied = np.full(p.n, np.nan) if cb is None else np.asarray(cb.stream_area, dtype=float)
     head = ["port", "role", "closure", f"mass flow [{us.label('mass_flow')}] (+ out)",
             f"fraction of inflow [{us.label('ratio')}] (+ out)",
@@ -275,12 +275,3 @@ def split(ports, cv_velocity, units=None, settings=None):
                     _value(us.out(speed[i], "velocity")), _value(us.out(area, "area"), na=na),
                     basis])
     return out
-
-
-def _flow_ports(pt) -> np.ndarray:
-    """Ports whose flow a closure sets: 'solve' outlets, outlets with a share, and closed outlets
-    typed without area or mass flow (their flow follows from continuity)."""
-    p = pt.ports
-    closed = np.array([c != "given" for c in pt.closure], dtype=bool) & (p.role > 0)
-    return (np.array([c == "solve" for c in pt.closure], dtype=bool) | ~np.isnan(pt.share)
-            | (closed & np.isnan(p.area) & np.isnan(p.mass_flow)))

@@ -30,7 +30,7 @@ import numpy as np
 
 from .. import spec
 from .. import units as U
-from ..core import (FREE, GIVEN, LOSS, SOLVE, STANDARD_GRAVITY, Balance, ClosedBalance, Closures,
+from ..core import (FREE, LOSS, SOLVE, STANDARD_GRAVITY, Balance, ClosedBalance, Closures,
                     InputError, OutsideScopeError, balance, balance_closed, polar_velocity)
 from ..core.balance import DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN
 from ._grid import (CellError, blank_row, describe, error_value, freeze, is_blank, number,
@@ -410,10 +410,6 @@ def _render(e: InputError, t: Table | None) -> str:
     return e.describe(lambda i: f"row {i + FIRST_PORT_ROW}")
 
 
-def _uses_closures(pt: spec.PortTable) -> bool:
-    return any(c != GIVEN for c in pt.closure) or bool(np.any(~np.isnan(pt.share)))
-
-
 def closures_for(t: Table, s: Settings, *, kinematic=False) -> Closures | None:
     """Closures of a parsed table under the settings' no-force directions (None: none used).
 
@@ -422,25 +418,16 @@ def closures_for(t: Table, s: Settings, *, kinematic=False) -> Closures | None:
     flows. The full closures are still validated, except for the count of flow conditions.
     """
     pt = t.data
-    if not _uses_closures(pt):
+    if not pt.uses_closures:
         if s.no_force:
             c = len(s.no_force)
             raise CellError(f"settings, no-force directions ({SLIP_ROWS}): {c} no-force "
                             f"direction(s) given but no outlet flow is unknown: {c} condition(s) "
                             f"extra; mark outlets 'solve' in the closure column or drop the rows")
         return None
-    # a closed outlet (free, loss, bernoulli) typed without area or mass flow: flow unknown,
-    # found from continuity with the other conditions
-    ports = pt.ports
-    unknown = np.array([r not in (GIVEN, SOLVE) and ports.role[i] > 0
-                        and np.isnan(ports.area[i]) and np.isnan(ports.mass_flow[i])
-                        and np.isnan(pt.share[i]) for i, r in enumerate(pt.closure)], dtype=bool)
-    full = dict(loss=pt.loss, source=list(pt.source), share=pt.share,
-                unknown=unknown if unknown.any() else None,
-                no_force=np.array(s.no_force) if s.no_force else None)
     try:
         try:
-            c = Closures.build(pt.ports, list(pt.closure), **full)
+            c = spec.build_closures(pt, s.no_force or None)
         except InputError as e:
             if not (kinematic and e.argument == "no_force"):
                 raise
