@@ -7,13 +7,7 @@ import os
 import sys
 import tempfile
 
-CAUTION = (
-    "CAUTION: these forces feed the design of supports and restraints. The formulas idealize the "
-    "flow (steady, inertial CV, uniform or beta-corrected ports, frictionless closures) and can "
-    "under-predict real loads. Apply the safety factors and load cases of the governing code, "
-    "have designs checked under licensed engineering practice, and treat high-pressure jets as "
-    "hazardous."
-)
+from .cautions import CAUTION
 
 
 def _template_source(tmp: str) -> str:
@@ -73,7 +67,7 @@ def cmd_demo(args) -> int:
     print()
     print(f"result workbook: {out}")
     print()
-    print(CAUTION)
+    print("CAUTION: " + CAUTION)
     return 0
 
 

@@ -11,8 +11,8 @@ import math
 
 import numpy as np
 
-from .. import __version__
-from .. import spec
+from .. import __version__, spec
+from ..cautions import CAUTION
 from ._grid import CellError, describe, error_value, flag, is_number, one_cell, scalar_text
 from ._inputs import SETTINGS, evaluate, evaluate_closed, tolerance, unit_system
 
@@ -88,9 +88,7 @@ def about():
         ["power", "force on body . V_cv, delivered to the body"],
         ["pressures", "gauge (the atmosphere acts everywhere else)"],
         ["units", "SI unless the units argument says otherwise (US, 'US; force=kN')"],
-        ["caution", "Idealized steady results: apply the safety factors and load cases of the "
-                    "governing code, have restraint designs checked under licensed engineering "
-                    "practice, treat high-pressure jets as hazardous."],
+        ["caution", CAUTION],
     ]
     return [["item", "value"]] + conventions
 

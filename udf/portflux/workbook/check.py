@@ -44,13 +44,7 @@ def recalc(in_path, out_path, *, progress=False, values_only=False):
     """
     t0 = time.perf_counter()
     _say(progress, f"recalculating {in_path} ...")
-    try:
-        from .safety import check_workbook_file
-    except ImportError:       # safety checks not installed in this build
-        check_workbook_file = None
-    try:
-        if check_workbook_file is not None:
-            check_workbook_file(in_path)
+    try:     # the engine checks the file (zip/entity bombs, foreign functions) before reading
         summary = recalc_file(in_path, out_path, worksheet_functions(), values_only=values_only)
     except RecalcError as e:
         raise WorkbookError(str(e)) from None

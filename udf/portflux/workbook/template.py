@@ -37,6 +37,7 @@ from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.formula import ArrayFormula
 
 from .. import __version__
+from ..cautions import CAUTION_LINES
 
 TEMPLATE_NAME = "portflux_template.xlsx"
 MAX_PORTS = 10
@@ -61,15 +62,6 @@ SWEEP = "Speed sweep"
 CHECKS = "Check cases"
 ABOUT = "About"
 
-CAUTION_LINES = (
-    "Forces from these formulas feed the design of supports and restraints.",
-    "The idealizations (steady flow in an inertial control volume, uniform or beta-corrected "
-    "ports, frictionless closures) can under-predict real loads: start-up transients, water "
-    "hammer, splashing and unsteady jets are not covered.",
-    "Apply the safety factors and load cases of the governing code, have designs checked under "
-    "licensed engineering practice, and treat high-pressure jets as hazardous.",
-    "portflux is a calculation aid, not a substitute for engineering judgement.",
-)
 
 
 def q(sheet: str) -> str:
