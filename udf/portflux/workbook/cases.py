@@ -95,14 +95,17 @@ def _sin(c):
 
 VANE_COLS = ("port", "role", "frame", "area", "density", "speed", "angle")
 VANE_SI = (None, None, None, "m^2", "kg/m^3", "m/s", "deg")
+#: Invented numbers: 0.002 m^2 water jet at 30 m/s, 120 degree frictionless vane; the outlet's
+#: relative speed is typed as V - U = 20 m/s for a vane at 10 m/s (= V/3).
+VANE_ROWS = (("nozzle", "in", "abs", 0.002, 998.0, 30.0, 0.0),
+             ("exit", "out", "rel", 0.002, 998.0, 20.0, 120.0))
 
 
 def _vane_cases(s: Sheet):
     # Invented numbers: 0.002 m^2 water jet at 30 m/s, vane at 10 m/s (= V/3), 120 degree turn,
     # frictionless: the outlet's relative speed is typed as V - U = 20 m/s.
     t, cv, U, _, _ = s.block("A. single vane, SI (outlet speed typed)", VANE_COLS, VANE_SI,
-                             (("nozzle", "in", "abs", 0.002, 998.0, 30.0, 0.0),
-                              ("exit", "out", "rel", 0.002, 998.0, 20.0, 120.0)),
+                             VANE_ROWS,
                              (10.0, 0.0, 0.0), "m/s")
     rho, A, V = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed")
     w2, th = t.at(1, "speed"), t.at(1, "angle")
@@ -144,8 +147,7 @@ def _vane_cases(s: Sheet):
 
     # The same vane, outrun by the body: U = 40 m/s > V.
     t2, cv2, U2, _, _ = s.block("B. the body outruns the jet", VANE_COLS, VANE_SI,
-                                (("nozzle", "in", "abs", 0.002, 998.0, 30.0, 0.0),
-                                 ("exit", "out", "rel", 0.002, 998.0, 20.0, 120.0)),
+                                VANE_ROWS,
                                 (40.0, 0.0, 0.0), "m/s")
     s.add("body faster than the jet: no contact", "PFX_IMBALANCE",
           f"=INDEX(PFX_IMBALANCE({t2.ref},{cv2}),1,3)", "no contact", None,
