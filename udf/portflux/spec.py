@@ -9,19 +9,17 @@ port, raising :class:`InputError` that names the port (0-based row index) and th
 
 from __future__ import annotations
 
-import datetime
 import math
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from . import units as U
+from .excel import ERROR_VALUES, is_blank, shown  # noqa: F401  (re-exported)
 from .core import InputError, Ports, polar_velocity
 from .core.closures import Closures
 
-EXCEL_ERRORS = ("#N/A", "#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#NULL!",
-                "#GETTING_DATA", "#SPILL!", "#CALC!", "#FIELD!", "#BLOCKED!", "#UNKNOWN!",
-                "#CONNECT!", "#BUSY!", "#PYTHON!")
+EXCEL_ERRORS = ERROR_VALUES
 
 
 @dataclass(frozen=True)
@@ -100,27 +98,6 @@ def resolve_header(text) -> str:
         raise InputError(f"unknown column {str(text)!r}; known columns: "
                          f"{', '.join(COLUMNS)}")
     return _LOOKUP[key]
-
-
-def shown(v) -> str:
-    """A cell value of an unexpected type as a message shows it (dates readably).
-
-    >>> import datetime
-    >>> shown(datetime.date(2026, 3, 1)), shown(2.5)
-    ('the date/time 2026-03-01', '2.5')
-    """
-    if isinstance(v, datetime.datetime):
-        return f"the date/time {v.isoformat(sep=' ')}"
-    if isinstance(v, (datetime.date, datetime.time)):
-        return f"the date/time {v.isoformat()}"
-    if isinstance(v, (int, float, str, bool)) or v is None:
-        return repr(v)
-    return f"{type(v).__name__} {v!r}"
-
-
-def is_blank(v) -> bool:
-    """None, empty text or only spaces."""
-    return v is None or (isinstance(v, str) and v.strip() == "")
 
 
 def number(v, port: int, col: str) -> float:

@@ -97,11 +97,7 @@ __all__ = [
 ]
 
 #: Excel error values, as the bridge and this module spell them.
-ERROR_VALUES = frozenset({
-    "#NULL!", "#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#N/A",
-    "#GETTING_DATA", "#SPILL!", "#CALC!", "#FIELD!", "#BLOCKED!",
-    "#CONNECT!", "#UNKNOWN!", "#BUSY!",
-})
+from ..excel import ERROR_VALUES  # noqa: E402  (one list, shared with the worksheet functions)
 
 _ENGINE_EMPTY = "#EMPTY!"  # pycel's marker for a blank cell in some results
 _FUNC_NAME_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_]*$")

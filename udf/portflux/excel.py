@@ -1,0 +1,74 @@
+"""Spreadsheet facts shared by the worksheet functions and the workbook engines.
+
+What a spreadsheet bridge hands a worksheet function (Excel through xlwings, LibreOffice Calc
+through its add-in, the headless engine, or plain Python) is a scalar or a range as a tuple of row
+tuples: ``None`` **or** ``''`` for a blank cell (LibreOffice hands ``''``), floats for numbers,
+str for text, and an Excel error as its display string (``"#N/A"``). This module holds those
+facts once: the error values, the blank-cell rule, and how a cell value is shown in a message.
+It imports nothing from portflux, so every layer may use it.
+"""
+
+from __future__ import annotations
+
+import datetime
+
+#: Excel's error values as their display strings (what a bridge hands over for an error cell).
+ERROR_VALUES = frozenset({
+    "#N/A", "#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#NULL!",
+    "#GETTING_DATA", "#SPILL!", "#CALC!", "#FIELD!", "#BLOCKED!", "#UNKNOWN!",
+    "#CONNECT!", "#BUSY!", "#PYTHON!",
+})
+
+#: Most characters of a user's value a message repeats (a cell holds up to 32,767).
+EXCERPT = 60
+
+
+def is_error(v) -> bool:
+    """True for a spreadsheet error value such as ``"#N/A"`` (case and outer spaces ignored).
+
+    >>> is_error("#n/a"), is_error("N/A"), is_error(3.0)
+    (True, False, False)
+    """
+    return isinstance(v, str) and len(v) < 20 and v.strip().upper() in ERROR_VALUES
+
+
+def is_blank(v) -> bool:
+    """A blank cell: None, empty text or only spaces (LibreOffice hands '' for a blank).
+
+    >>> is_blank(None), is_blank(""), is_blank("  "), is_blank(0.0)
+    (True, True, True, False)
+    """
+    return v is None or (isinstance(v, str) and v.strip() == "")
+
+
+def excerpt(text, limit: int = EXCERPT) -> str:
+    """``text`` cut to at most ``limit`` characters, saying how long it was when cut.
+
+    >>> excerpt("abc")
+    'abc'
+    >>> excerpt("x" * 1000, 10)
+    'xxxxxxxxxx... (1000 characters)'
+    """
+    s = str(text) if not isinstance(text, str) else text
+    if len(s) <= limit:
+        return s
+    return f"{s[:limit]}... ({len(s)} characters)"
+
+
+def shown(v) -> str:
+    """A cell value as a message shows it: dates readably, long text cut to an excerpt.
+
+    >>> shown(datetime.date(2026, 3, 1)), shown(2.5), shown("ab")
+    ('the date/time 2026-03-01', '2.5', "'ab'")
+    >>> shown("y" * 100)
+    "'yyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyyy... (100 characters)'"
+    """
+    if isinstance(v, datetime.datetime):
+        return f"the date/time {v.isoformat(sep=' ')}"
+    if isinstance(v, (datetime.date, datetime.time)):
+        return f"the date/time {v.isoformat()}"
+    if isinstance(v, str):
+        return repr(excerpt(v))
+    if isinstance(v, (int, float, bool)) or v is None:
+        return repr(v)
+    return f"{type(v).__name__} {excerpt(repr(v))}"
