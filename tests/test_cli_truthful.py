@@ -184,6 +184,23 @@ def test_check_of_the_shipped_template_passes(capsys):
     assert code == 0 and "reference cases: 41 PASS, 0 FAIL" in out
 
 
+def test_check_without_a_shipped_template_builds_one_and_names_no_temporary_file(
+        capsys, monkeypatch):
+    import portflux.workbook.template as T
+
+    monkeypatch.setattr(T, "shipped_template", lambda: None)
+    code, out, err = run(["check"], capsys)
+    assert code == 0 and "reference cases: 41 PASS, 0 FAIL" in out
+    assert err.splitlines() == ["checking the built-in template ..."]
+
+
+def test_demo_progress_names_no_temporary_file(tmp_path, capsys):
+    code, out, err = run(["demo", "-o", str(tmp_path / "d.xlsx")], capsys)
+    assert code == 0 and f"result workbook: {tmp_path / 'd.xlsx'}" in out
+    assert "recalculating the demo scenario ..." in err and f"-> {tmp_path / 'd.xlsx'}" in err
+    assert ".part" not in err and "portflux-fill" not in err
+
+
 # ---- template -----------------------------------------------------------------------------------
 
 def test_template_refuses_to_overwrite_without_force(tmp_path, capsys):
@@ -244,6 +261,42 @@ def test_a_full_disk_while_writing_the_template(tmp_path, capsys, monkeypatch):
     assert os.listdir(tmp_path) == []
 
 
+@pytest.fixture
+def tiny_disk(tmp_path):
+    """A real 16 KiB tmpfs (root and mount needed; skipped elsewhere)."""
+    import shutil
+
+    mnt = tmp_path / "tiny"
+    mnt.mkdir()
+    if not (hasattr(os, "geteuid") and os.geteuid() == 0 and shutil.which("mount")):
+        pytest.skip("a tmpfs needs root and mount")
+    p = subprocess.run(["mount", "-t", "tmpfs", "-o", "size=16k", "tmpfs", str(mnt)],
+                       capture_output=True, text=True)
+    if p.returncode:
+        pytest.skip(f"cannot mount a tmpfs here: {p.stderr.strip()}")
+    try:
+        yield mnt
+    finally:
+        subprocess.run(["umount", str(mnt)], check=False)
+
+
+def test_a_really_full_disk_gives_one_plain_message(tmp_path, tiny_disk):
+    src = workbook(tmp_path / "in.xlsx", {"H1": "=PFX_POWER(A1:E4, 10)"})
+    for argv in (["template", str(tiny_disk / "t.xlsx")],
+                 ["recalc", src, "-o", str(tiny_disk / "o.xlsx")]):
+        if argv[0] == "recalc":       # an output larger than the disk: the template's recalc
+            subprocess.run([sys.executable, "-m", "portflux.cli", "template",
+                            str(tmp_path / "big.xlsx")], check=True, capture_output=True)
+            argv[1] = str(tmp_path / "big.xlsx")
+        p = subprocess.run([sys.executable, "-m", "portflux.cli", *argv, *(["-q"] if
+                            argv[0] == "recalc" else [])], capture_output=True, text=True)
+        assert p.returncode == 2, p.stderr
+        assert p.stderr.strip().splitlines()[-1].endswith(
+            "the disk is full (no space left on device); nothing was written. Free some space "
+            "or choose another folder."), p.stderr
+        assert "Traceback" not in p.stderr and os.listdir(tiny_disk) == []
+
+
 # ---- signals ------------------------------------------------------------------------------------
 
 CHILD = textwrap.dedent("""
@@ -281,6 +334,30 @@ def test_a_signal_during_a_write_leaves_no_temporary_file_and_no_traceback(tmp_p
     assert child.returncode == code, err
     assert "Traceback" not in err and f"portflux: {word}" in err
     assert os.listdir(tmp_path) == []
+
+
+def test_sigterm_during_a_real_recalc_leaves_nothing_behind(tmp_path):
+    src = tmp_path / "t.xlsx"
+    subprocess.run([sys.executable, "-m", "portflux.cli", "template", str(src)], check=True,
+                   capture_output=True)
+    child = subprocess.Popen([sys.executable, "-m", "portflux.cli", "recalc", str(src), "-o",
+                              str(tmp_path / "o.xlsx")], stdout=subprocess.PIPE,
+                             stderr=subprocess.PIPE, text=True)
+    try:
+        deadline = time.monotonic() + 60
+        while len(os.listdir(tmp_path)) < 2 and child.poll() is None \
+                and time.monotonic() < deadline:
+            time.sleep(0.002)           # the output's temporary file has appeared: kill now
+        child.send_signal(signal.SIGTERM)
+        _, err = child.communicate(timeout=60)
+    finally:
+        if child.poll() is None:
+            child.kill()
+    if child.returncode == 0:
+        pytest.skip("the recalculation finished before the signal arrived")
+    assert child.returncode == 128 + signal.SIGTERM, err
+    assert "Traceback" not in err
+    assert os.listdir(tmp_path) == ["t.xlsx"]
 
 
 # ---- exit codes ---------------------------------------------------------------------------------
@@ -344,3 +421,20 @@ def test_the_recalc_path_runs_without_the_ast_names_python_3_14_removed(tmp_path
     # (common practice, no source): 2 * 0 + 1 = 1.
     assert wb["Ports"]["H1"].value == pytest.approx(1.0)
     assert wb["Ports"]["H2"].value == "ab"
+
+
+def test_requires_python_states_the_truth():
+    # pycel (the formula engine while it is a dependency) uses ast.Str, which Python 3.14 removed
+    # ("What's New In Python 3.14", Removed, ast): with pycel the package must exclude 3.14, and
+    # without it must not (tools/py314_check.sh proves the demo and recalc on a real 3.14).
+    import re
+
+    root = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+    text = open(os.path.join(root, "pyproject.toml"), encoding="utf-8").read()
+    requires = re.search(r'^requires-python\s*=\s*"([^"]*)"', text, re.M).group(1)
+    deps = re.search(r"^dependencies\s*=\s*\[(.*?)\]", text, re.M | re.S).group(1)
+    assert requires.startswith(">=3.10")
+    if re.search(r'"pycel\b', deps):
+        assert "<3.14" in requires, requires
+    else:
+        assert "<" not in requires, f"nothing stops 3.14 once pycel is gone: {requires}"

@@ -36,18 +36,14 @@ def _block(path, sheet, at) -> list[tuple]:
 
 def cmd_demo(args) -> int:
     from .demo.scenarios import carriage_vane
-    from .workbook.check import recalc
     from .workbook.fill import fill
-
-    from .workbook.output import atomic_path
 
     sc = carriage_vane()
     out = args.output or os.path.join(tempfile.mkdtemp(prefix="portflux-demo-"),
                                       "portflux-demo.xlsx")
     with tempfile.TemporaryDirectory(prefix="portflux-fill-") as tmp:
         filled = fill(_template_source(tmp), os.path.join(tmp, "demo-input.xlsx"), sc)
-        with atomic_path(out) as part:
-            recalc(filled, part, progress=True)
+        _recalc_into(filled, out, quiet=False, label="the demo scenario")
     print(sc.title)
     print("=" * len(sc.title))
     print(sc.note)
@@ -111,23 +107,36 @@ def _report_cells(found) -> None:
         print(line, file=sys.stderr)
 
 
-def cmd_recalc(args) -> int:
+def _recalc_into(src, out, *, quiet, values_only=False, label=None):
+    """Recalculate ``src`` into ``out`` atomically, naming the user's files (never a temporary
+    one) in the progress lines; returns the engine's summary."""
     import time
 
+    from .workbook.check import recalc
+    from .workbook.output import atomic_path
+
+    t0 = time.perf_counter()
+    if not quiet:
+        print(f"recalculating {label or src} ...", file=sys.stderr, flush=True)
+    with atomic_path(out) as part:
+        summary = recalc(src, part, values_only=values_only)
+    if not quiet:
+        print(f"  {summary.formula_cells} formulas, {summary.array_ranges} array ranges, "
+              f"{summary.cells_written} cells written in {time.perf_counter() - t0:.2f} s "
+              f"-> {out}", file=sys.stderr, flush=True)
+    return summary
+
+
+def cmd_recalc(args) -> int:
     from .workbook.audit import audit
-    from .workbook.check import WorkbookError, recalc
-    from .workbook.output import atomic_path, same_file
+    from .workbook.check import WorkbookError
+    from .workbook.output import same_file
 
     if same_file(args.input, args.output):
         raise WorkbookError(f"{args.output}: refusing to write over the input workbook; "
                             f"choose another output path")
-    t0 = time.perf_counter()
-    _say(args, f"recalculating {args.input} ...")
-    with atomic_path(args.output) as part:
-        summary = recalc(args.input, part, values_only=args.values_only)
-    _say(args, f"  {summary.formula_cells} formulas, {summary.array_ranges} array ranges, "
-               f"{summary.cells_written} cells written in {time.perf_counter() - t0:.2f} s "
-               f"-> {args.output}")
+    summary = _recalc_into(args.input, args.output, quiet=args.quiet,
+                           values_only=args.values_only)
     found = audit(args.input, summary.values)
     if not found.clean:
         _report_cells(found)
@@ -147,16 +156,19 @@ def cmd_check(args) -> int:
     from .workbook.template import shipped_template
 
     with tempfile.TemporaryDirectory(prefix="portflux-check-") as tmp:
-        src = args.input or shipped_template() or _template_source(tmp)
+        src = args.input or shipped_template()
+        name = src or "the built-in template"      # what the user is told, never a temp path
+        src = src or _template_source(tmp)
         out = os.path.join(tmp, "checked" + os.path.splitext(os.fspath(src))[1])
-        print(f"checking {src} ...", file=sys.stderr, flush=True)
-        summary = recalc(src, out)
+        print(f"checking {name} ...", file=sys.stderr, flush=True)
         try:
+            summary = recalc(src, out)
             results = read_cases(out)
-        except WorkbookError as e:   # name the user's file, not the temporary copy
-            raise WorkbookError(str(e).replace(out, os.fspath(src))) from None
+        except WorkbookError as e:
+            raise WorkbookError(str(e).replace(out, os.fspath(name))
+                                .replace(os.fspath(src), os.fspath(name))) from None
+        found = audit(src, summary.values)     # reads src: inside the temporary folder's life
     print(format_cases(results))
-    found = audit(src, summary.values)
     _report_cells(found)
     return 0 if all(c.passed for c in results) and found.clean else 1
 
