@@ -234,6 +234,18 @@ def test_replacing_a_file_keeps_its_permissions(tmp_path):
     assert p.read_bytes() == b"new" and stat.S_IMODE(os.stat(p).st_mode) == 0o604
 
 
+def test_an_unwritable_folder_names_the_users_file_not_a_temporary_one(tmp_path, capsys,
+                                                                     monkeypatch):
+    def denied(*a, **k):
+        raise PermissionError(errno.EACCES, "Permission denied", str(tmp_path / ".t.x.part.xlsx"))
+
+    monkeypatch.setattr(output.tempfile, "mkstemp", denied)
+    code, _, err = run(["template", str(tmp_path / "t.xlsx")], capsys)
+    assert code == 2
+    assert err.strip() == (f"portflux: {tmp_path / 't.xlsx'}: cannot write here (Permission "
+                           f"denied); choose another folder.")
+
+
 # ---- full disk ----------------------------------------------------------------------------------
 
 @pytest.mark.parametrize("where", ["fsync", "replace"])

@@ -173,15 +173,19 @@ def atomic_path(path, *, overwrite: bool = True) -> Iterator[str]:
     tmp = None
     try:
         with _signals_blocked():     # no signal between creating the file and owning its name
-            fd, tmp = tempfile.mkstemp(dir=folder, prefix=prefix, suffix=suffix)
+            try:
+                fd, tmp = tempfile.mkstemp(dir=folder, prefix=prefix, suffix=suffix)
+            except OSError as e:     # name the user's file, not the temporary name tried
+                raise OutputError(explain(e, path)) from None
             os.close(fd)
         yield tmp
         _finish(tmp, path, overwrite)
         tmp = None
     except OSError as e:
-        if e.errno in DISK_FULL:
+        ours = e.filename is not None and os.fspath(e.filename) in (tmp, path)
+        if e.errno in DISK_FULL or ours:
             raise OutputError(explain(e, path)) from None
-        raise
+        raise                        # e.g. the writer could not read its input: not ours
     finally:
         _remove(tmp)
 
