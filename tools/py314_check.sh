@@ -11,8 +11,8 @@
 #
 # Usage (as root, on a Debian/Ubuntu host with network access to deb.debian.org and a package index):
 #     tools/py314_check.sh [CHROOT_DIR]        # default /var/tmp/portflux-py314
-#     KEEP_MOUNTS=1 tools/py314_check.sh ...    # leave /proc,/dev bound for inspection
-# A second run reuses the chroot (delete CHROOT_DIR for a fresh one). Times of each phase are
+# A second run reuses the chroot (delete CHROOT_DIR for a fresh one, after checking with
+# `findmnt -R CHROOT_DIR` that nothing is still mounted under it). Times of each phase are
 # printed so that the cost of making this a CI step can be judged.
 set -euo pipefail
 
@@ -30,11 +30,11 @@ die() { say "$*"; exit 2; }
 
 cleanup() {
     local i
-    if [ -z "${KEEP_MOUNTS:-}" ]; then
-        for ((i=${#MOUNTS[@]}-1; i>=0; i--)); do umount -l "${MOUNTS[$i]}" 2>/dev/null || true; done
-    fi
+    for ((i=${#MOUNTS[@]}-1; i>=0; i--)); do umount -l "${MOUNTS[$i]}" 2>/dev/null || true; done
 }
 trap cleanup EXIT
+trap "exit 130" INT
+trap "exit 143" TERM
 
 t0=$(now)
 # 1. the chroot -----------------------------------------------------------------------------------
@@ -45,7 +45,9 @@ if [ ! -x "$ROOT/usr/bin/$PYV" ]; then
             >/dev/null || die "cannot install debootstrap"
     fi
     say "debootstrap unstable into $ROOT (several minutes)"
-    rm -rf "$ROOT"
+    # never delete through a bind mount (/dev, the pip folders) left by an interrupted run
+    if grep -q " $ROOT/" /proc/mounts 2>/dev/null; then die "something is mounted under $ROOT; unmount it first"; fi
+    rm -rf --one-file-system "$ROOT"
     debootstrap --variant=minbase --include=$PYV,$PYV-venv,ca-certificates \
         unstable "$ROOT" "$MIRROR" >"$ROOT.debootstrap.log" 2>&1 \
         || { tail -20 "$ROOT.debootstrap.log" >&2; die "debootstrap failed (log: $ROOT.debootstrap.log)"; }
