@@ -125,6 +125,16 @@ def test_recalc_refuses_to_write_over_its_input(tmp_path, capsys):
     assert open(src, "rb").read() == before
 
 
+def test_refusals_of_the_output_name_the_users_file(tmp_path, capsys):
+    src = workbook(tmp_path / "in.xlsx", {"H1": "=PFX_POWER(A1:E4, 10)"})
+    for out, words in ((tmp_path / "out.xls", "the output must keep the input's extension"),
+                       (tmp_path / "no" / "out.xlsx", "does not exist")):
+        code, _, err = run(["recalc", src, "-o", str(out)], capsys)
+        assert code == 2 and f"portflux: {out}: " in err and words in err
+        assert ".part" not in err
+    assert leftovers(tmp_path, ["in.xlsx"]) == []
+
+
 def test_engine_log_records_and_warnings_do_not_reach_the_terminal(tmp_path, capsys, monkeypatch):
     import logging
     import warnings

@@ -112,14 +112,17 @@ def _recalc_into(src, out, *, quiet, values_only=False, label=None):
     one) in the progress lines; returns the engine's summary."""
     import time
 
-    from .workbook.check import recalc
+    from .workbook.check import WorkbookError, recalc
     from .workbook.output import atomic_path
 
     t0 = time.perf_counter()
     if not quiet:
         print(f"recalculating {label or src} ...", file=sys.stderr, flush=True)
     with atomic_path(out) as part:
-        summary = recalc(src, part, values_only=values_only)
+        try:
+            summary = recalc(src, part, values_only=values_only)
+        except WorkbookError as e:      # the engine names the file it wrote: the user's, here
+            raise WorkbookError(str(e).replace(part, os.fspath(out))) from None
     if not quiet:
         print(f"  {summary.formula_cells} formulas, {summary.array_ranges} array ranges, "
               f"{summary.cells_written} cells written in {time.perf_counter() - t0:.2f} s "
