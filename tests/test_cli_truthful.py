@@ -12,6 +12,7 @@ import subprocess
 import sys
 import textwrap
 import time
+from pathlib import Path
 
 import openpyxl
 import pytest
@@ -119,10 +120,10 @@ def test_the_shipped_template_has_padding_but_no_findings(tmp_path):
 
 def test_recalc_refuses_to_write_over_its_input(tmp_path, capsys):
     src = workbook(tmp_path / "in.xlsx", {"H1": "=PFX_POWER(A1:E4, 10)"})
-    before = open(src, "rb").read()
+    before = Path(src).read_bytes()
     code, _, err = run(["recalc", src, "-o", src], capsys)
     assert code == 2 and "refusing to write over the input" in err
-    assert open(src, "rb").read() == before
+    assert Path(src).read_bytes() == before
 
 
 def test_refusals_of_the_output_name_the_users_file(tmp_path, capsys):
@@ -452,7 +453,7 @@ def test_requires_python_states_the_truth():
     import re
 
     root = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
-    text = open(os.path.join(root, "pyproject.toml"), encoding="utf-8").read()
+    text = Path(root, "pyproject.toml").read_text(encoding="utf-8")
     requires = re.search(r'^requires-python\s*=\s*"([^"]*)"', text, re.M).group(1)
     deps = re.search(r"^dependencies\s*=\s*\[(.*?)\]", text, re.M | re.S).group(1)
     assert requires.startswith(">=3.10")

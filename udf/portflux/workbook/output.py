@@ -21,10 +21,10 @@ The interface is small on purpose, so that every writer can use it::
     with atomic_path(path) as tmp:                         # writer needs a path of its own
         workbook.save(tmp)
 
->>> import os, tempfile
+>>> import os, pathlib, tempfile
 >>> d = tempfile.mkdtemp()
 >>> p = write_atomic(os.path.join(d, "a.txt"), lambda f: f.write(b"hello"))
->>> open(p, "rb").read(), os.listdir(d)
+>>> pathlib.Path(p).read_bytes(), os.listdir(d)
 (b'hello', ['a.txt'])
 """
 
