@@ -1,4 +1,8 @@
-"""Command line: ``portflux demo | recalc | check | template | bench``."""
+"""Command line: ``portflux demo | recalc | check | template | bench``.
+
+Exit codes: 0 ok, 1 reference cases FAILed or cells hold messages/errors, 2 usage or a file
+that cannot be read, is refused or cannot be written, 3 an internal fault (a bug).
+"""
 
 from __future__ import annotations
 
@@ -32,7 +36,6 @@ def _block(path, sheet, at) -> list[tuple]:
 
 def cmd_demo(args) -> int:
     from .demo.scenarios import carriage_vane
-    from .workbook.check import recalc
     from .workbook.fill import fill
 
     sc = carriage_vane()
@@ -40,7 +43,7 @@ def cmd_demo(args) -> int:
                                       "portflux-demo.xlsx")
     with tempfile.TemporaryDirectory(prefix="portflux-fill-") as tmp:
         filled = fill(_template_source(tmp), os.path.join(tmp, "demo-input.xlsx"), sc)
-        recalc(filled, out, progress=True)
+        _recalc_into(filled, out, quiet=False, label="the demo scenario")
     print(sc.title)
     print("=" * len(sc.title))
     print(sc.note)
@@ -56,14 +59,7 @@ def cmd_demo(args) -> int:
     for r in table:
         print("  " + "  ".join(c.rjust(widths[j]) for j, c in enumerate(r)))
     print()
-    for q, v in _block(out, T.CV, T.SUMMARY_AT):
-        print(f"  {q:46s} {v:.6g}" if isinstance(v, float) else f"  {q:46s} {v}")
-    best = _block(out, T.SWEEP, T.BEST_AT)
-    if best:
-        print()
-        print("Speed sweep (sheet 'Speed sweep'):")
-        for q, v in best:
-            print(f"  {q:46s} {v:.6g}" if isinstance(v, float) else f"  {q:46s} {v}")
+    print("\n".join(_summary_lines(out)))
     print()
     print(f"result workbook: {out}")
     print()
@@ -71,31 +67,124 @@ def cmd_demo(args) -> int:
     return 0
 
 
-def cmd_recalc(args) -> int:
-    from .workbook.check import recalc
+def _summary_lines(path) -> list[str]:
+    """The template's summary block (and best speed) of a recalculated workbook; [] when the
+    workbook is not a template."""
+    import openpyxl
 
-    summary = recalc(args.input, args.output, progress=not args.quiet,
-                     values_only=args.values_only)
-    if summary.error_cells and not args.quiet:
-        (sheet, where), v = next(iter(summary.error_cells.items()))
-        print(f"note: {len(summary.error_cells)} cell(s) show spreadsheet errors (first: "
-              f"{sheet}!{where} = {v}); array ranges larger than their result show #N/A",
+    from .workbook import template as T
+
+    wb = openpyxl.load_workbook(path, read_only=True)
+    try:
+        names = set(wb.sheetnames)
+    finally:
+        wb.close()
+    if T.CV not in names:
+        return []
+    rows = _block(path, T.CV, T.SUMMARY_AT)
+    if not rows or str(rows[0][0]).strip().lower() != "quantity [unit]":
+        return []
+
+    def line(q, v):
+        return f"  {q:46s} {v:.6g}" if isinstance(v, float) else f"  {q:46s} {v}"
+
+    lines = [line(q, v) for q, v in rows]
+    best = _block(path, T.SWEEP, T.BEST_AT) if T.SWEEP in names else []
+    if best:
+        lines += ["", f"Speed sweep (sheet {T.SWEEP!r}):"] + [line(q, v) for q, v in best]
+    return lines
+
+
+def _say(args, text) -> None:
+    if not getattr(args, "quiet", False):
+        print(text, file=sys.stderr, flush=True)
+
+
+def _report_cells(found) -> None:
+    from .workbook.audit import describe
+
+    for line in describe(found):
+        print(line, file=sys.stderr)
+
+
+def _recalc_into(src, out, *, quiet, values_only=False, label=None):
+    """Recalculate ``src`` into ``out`` atomically, naming the user's files (never a temporary
+    one) in the progress lines; returns the engine's summary."""
+    import time
+
+    from .workbook.check import WorkbookError, recalc
+    from .workbook.output import atomic_path
+
+    t0 = time.perf_counter()
+    if not quiet:
+        print(f"recalculating {label or src} ...", file=sys.stderr, flush=True)
+    with atomic_path(out) as part:
+        try:
+            summary = recalc(src, part, values_only=values_only)
+        except WorkbookError as e:      # the engine names the file it wrote: the user's, here
+            raise WorkbookError(str(e).replace(part, os.fspath(out))) from None
+    if not quiet:
+        print(f"  {summary.formula_cells} formulas, {summary.array_ranges} array ranges, "
+              f"{summary.cells_written} cells written in {time.perf_counter() - t0:.2f} s "
+              f"-> {out}", file=sys.stderr, flush=True)
+    return summary
+
+
+def cmd_recalc(args) -> int:
+    from .workbook.audit import audit
+    from .workbook.check import WorkbookError
+    from .workbook.output import same_file
+
+    if same_file(args.input, args.output):
+        raise WorkbookError(f"{args.output}: refusing to write over the input workbook; "
+                            f"choose another output path")
+    summary = _recalc_into(args.input, args.output, quiet=args.quiet,
+                           values_only=args.values_only)
+    found = audit(args.input, summary.values)
+    if not found.clean:
+        _report_cells(found)
+        print(f"portflux: {args.output} written, but its cells report the problems above",
               file=sys.stderr)
+        return 1
+    if not args.quiet:
+        lines = _summary_lines(args.output)
+        if lines:
+            print("\n".join(lines))
     return 0
 
 
 def cmd_check(args) -> int:
-    from .workbook.check import check, format_cases
+    from .workbook.audit import audit
+    from .workbook.check import WorkbookError, format_cases, read_cases, recalc
+    from .workbook.template import shipped_template
 
-    results = check(args.input, progress=True)
+    with tempfile.TemporaryDirectory(prefix="portflux-check-") as tmp:
+        src = args.input or shipped_template()
+        name = src or "the built-in template"      # what the user is told, never a temp path
+        src = src or _template_source(tmp)
+        out = os.path.join(tmp, "checked" + os.path.splitext(os.fspath(src))[1])
+        print(f"checking {name} ...", file=sys.stderr, flush=True)
+        try:
+            summary = recalc(src, out)
+            results = read_cases(out)
+        except WorkbookError as e:
+            raise WorkbookError(str(e).replace(out, os.fspath(name))
+                                .replace(os.fspath(src), os.fspath(name))) from None
+        found = audit(src, summary.values)     # reads src: inside the temporary folder's life
     print(format_cases(results))
-    return 0 if all(c.passed for c in results) else 1
+    _report_cells(found)
+    return 0 if all(c.passed for c in results) and found.clean else 1
 
 
 def cmd_template(args) -> int:
+    from .workbook.output import atomic_path
     from .workbook.template import TEMPLATE_NAME, build_template
 
-    path = build_template(args.path or TEMPLATE_NAME)
+    path = args.path or TEMPLATE_NAME
+    if os.path.isdir(path):
+        path = os.path.join(path, TEMPLATE_NAME)
+    with atomic_path(path, overwrite=args.force) as part:
+        build_template(part)
     print(f"template written: {path}")
     return 0
 
@@ -131,6 +220,7 @@ def build_parser() -> argparse.ArgumentParser:
     c.set_defaults(func=cmd_check)
     t = sub.add_parser("template", help="write the template workbook")
     t.add_argument("path", nargs="?", help="file or folder (default: ./portflux_template.xlsx)")
+    t.add_argument("-f", "--force", action="store_true", help="replace an existing file")
     t.set_defaults(func=cmd_template)
     b = sub.add_parser("bench", help="measure speed against a bare numpy baseline")
     b.add_argument("--quick", action="store_true", help="tiny sizes (seconds), as CI runs it")
@@ -138,18 +228,65 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
-def main(argv=None) -> int:
-    from .core import PortfluxError
+#: Exit codes (README, "Exit codes of the command line").
+EXIT_OK, EXIT_FINDINGS, EXIT_REFUSED, EXIT_BUG = 0, 1, 2, 3
+#: Where an internal fault should be reported.
+BUG_REPORT = "the portflux issue tracker (README, 'Exit codes of the command line')"
 
-    args = build_parser().parse_args(argv)
+
+class _QuietInternals:
+    """No log records or Python warnings of the libraries on the user's terminal."""
+
+    def __enter__(self):
+        import logging
+        import warnings
+
+        self._warn = warnings.catch_warnings()
+        self._warn.__enter__()
+        warnings.simplefilter("ignore")
+        self._null = logging.NullHandler()
+        self._root = logging.getLogger()
+        self._root.addHandler(self._null)
+        return self
+
+    def __exit__(self, *exc):
+        self._root.removeHandler(self._null)
+        self._warn.__exit__(*exc)
+        return False
+
+
+def main(argv=None) -> int:
+    """Run the command line; returns the exit code (see README)."""
+    from .core import PortfluxError
+    from .workbook.output import DISK_FULL, OutputError, Terminated, explain, signals_raise
+
+    args = build_parser().parse_args(argv)          # usage errors: argparse exits with 2
     try:
-        return args.func(args)
-    except PortfluxError as e:
+        with signals_raise(), _QuietInternals():
+            return args.func(args)
+    except KeyboardInterrupt:
+        print("portflux: interrupted; no partial output was left", file=sys.stderr)
+        return 130
+    except Terminated as e:
+        print("portflux: terminated; no partial output was left", file=sys.stderr)
+        return 128 + int(e.signum)
+    except (OutputError, PortfluxError) as e:
         print(f"portflux: {e}", file=sys.stderr)
-        return 2
+        return EXIT_REFUSED
     except OSError as e:
-        print(f"portflux: {e.filename or ''}: {e.strerror or e}", file=sys.stderr)
-        return 2
+        if e.errno in DISK_FULL:
+            print(f"portflux: {explain(e, e.filename or 'output')}", file=sys.stderr)
+        else:
+            print(f"portflux: {e.filename or ''}: {e.strerror or e}", file=sys.stderr)
+        return EXIT_REFUSED
+    except Exception as e:  # noqa: BLE001 - the last line of defence: one line, no traceback
+        from . import __version__
+
+        text = " ".join(str(e).split())[:200]
+        print(f"portflux: internal error ({type(e).__name__}: {text}). This is a bug in "
+              f"portflux {__version__}, not in your input; please report it with the command "
+              f"you ran to {BUG_REPORT}.", file=sys.stderr)
+        return EXIT_BUG
 
 
 if __name__ == "__main__":  # pragma: no cover
