@@ -1,4 +1,4 @@
-"""Command line: ``portflux demo | recalc | check | template | bench``."""
+"""Command line: ``portflux demo | recalc | check | template | bench | libreoffice``."""
 
 from __future__ import annotations
 
@@ -72,7 +72,10 @@ def cmd_demo(args) -> int:
 
 
 def cmd_recalc(args) -> int:
-    from .workbook.check import recalc
+    if args.engine == "libreoffice":
+        from .addins.libreoffice.recalc import recalc_libreoffice as recalc
+    else:
+        from .workbook.check import recalc
 
     summary = recalc(args.input, args.output, progress=not args.quiet,
                      values_only=args.values_only)
@@ -124,6 +127,9 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--values-only", action="store_true",
                    help="write values without formulas (for LibreOffice and for sharing "
                         "results; charts are kept)")
+    r.add_argument("--engine", choices=("embedded", "libreoffice"), default="embedded",
+                   help="embedded (default, no other program needed) or libreoffice (headless "
+                        "LibreOffice >= 25.2 with the portflux add-in)")
     r.set_defaults(func=cmd_recalc)
     c = sub.add_parser("check", help="recalculate a workbook's reference cases and report "
                                      "PASS/FAIL (exit 1 if any fails)")
@@ -135,6 +141,9 @@ def build_parser() -> argparse.ArgumentParser:
     b = sub.add_parser("bench", help="measure speed against a bare numpy baseline")
     b.add_argument("--quick", action="store_true", help="tiny sizes (seconds), as CI runs it")
     b.set_defaults(func=cmd_bench)
+    from .addins.libreoffice.install import add_parser as add_libreoffice_parser
+
+    add_libreoffice_parser(sub)
     return p
 
 

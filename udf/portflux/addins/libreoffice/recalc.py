@@ -1,0 +1,281 @@
+"""``portflux recalc --engine libreoffice``: recalculate a workbook in headless LibreOffice.
+
+The same contract as the embedded engine (:func:`portflux.workbook.check.recalc`): the input is
+only read (LibreOffice opens a private copy), writing over it is refused, the output is written
+to a temporary file in its folder and renamed into place, and the file checks
+(:func:`portflux.workbook.safety.check_workbook_file`: zip and entity bombs, non-workbooks) and
+the formula check (Excel's functions and portflux's only) run before LibreOffice sees the file,
+with the same messages. LibreOffice-specific defences: macros never run, links are never
+updated, functions that reach outside the workbook in LibreOffice (WEBSERVICE, INDIRECT, ...)
+and references to other files are refused, and the whole run is bounded by a timeout that
+kills the private LibreOffice process.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import sys
+import tempfile
+import threading
+import time
+from dataclasses import dataclass
+
+from ...core import PortfluxError
+from .office import HeadlessOffice, OfficeError
+
+#: Functions Excel has but LibreOffice would use to reach outside the workbook (network, other
+#: files, the environment); a workbook calling them is refused by this engine.
+OUTSIDE_REACH = frozenset({"WEBSERVICE", "FILTERXML", "RTD", "CALL", "REGISTER.ID", "DDE",
+                           "INDIRECT", "INFO", "CELL", "HYPERLINK", "IMAGE", "ENCODEURL"})
+#: Seconds a recalculation may take before the LibreOffice process is killed.
+TIMEOUT = 300.0
+
+
+class LibreOfficeRecalcError(PortfluxError):
+    """The workbook cannot be recalculated in LibreOffice; the message names file and place."""
+
+
+@dataclass(frozen=True)
+class RecalcSummary:
+    """What :func:`recalc_file_libreoffice` wrote (the fields of the embedded engine's summary).
+
+    ``error_cells`` and ``values`` are keyed ``(sheet, "A1")``; a spreadsheet error shows as
+    LibreOffice displays it ("#N/A", "#VALUE!", "Err:502").
+    """
+    in_path: str
+    out_path: str
+    formula_cells: int
+    array_ranges: int
+    cells_written: int
+    error_cells: dict
+    values: dict
+
+
+def _same_file(a: str, b: str) -> bool:
+    if os.path.realpath(a) == os.path.realpath(b):
+        return True
+    try:
+        return os.path.samefile(a, b)
+    except OSError:
+        return False
+
+
+def _check_paths(in_path: str, out_path: str) -> None:
+    """The embedded engine's path rules, with its messages."""
+    if _same_file(in_path, out_path):
+        raise LibreOfficeRecalcError(f"{out_path}: refusing to write over the input workbook; "
+                                     f"choose another output path")
+    in_ext = os.path.splitext(in_path)[1].lower()
+    if os.path.splitext(out_path)[1].lower() != in_ext:
+        raise LibreOfficeRecalcError(f"{out_path}: the output must keep the input's "
+                                     f"extension {in_ext!r}")
+    out_dir = os.path.dirname(os.path.abspath(out_path))
+    if not os.path.isdir(out_dir):
+        raise LibreOfficeRecalcError(f"{out_path}: folder {out_dir} does not exist")
+
+
+def _formulas(path) -> dict:
+    import openpyxl
+    from openpyxl.worksheet.formula import ArrayFormula
+
+    wb = openpyxl.load_workbook(path, read_only=False, data_only=False)
+    try:
+        out = {}
+        for ws in wb.worksheets:
+            for row in ws.iter_rows():
+                for c in row:
+                    v = c.value
+                    if isinstance(v, ArrayFormula):
+                        out[(ws.title, c.coordinate)] = v.text or ""
+                    elif isinstance(v, str) and v.startswith("="):
+                        out[(ws.title, c.coordinate)] = v
+        return out
+    finally:
+        wb.close()
+
+
+def check_formulas(path) -> int:
+    """Refuse formulas LibreOffice must not evaluate; return the number of formulas.
+
+    The embedded engine's rule (Excel's functions and portflux's only, same message), plus
+    the functions in :data:`OUTSIDE_REACH` and references into other files.
+    """
+    from openpyxl.formula.tokenizer import Token, Tokenizer
+    from pycel.lib.function_info import func_status_msg
+
+    from ... import cells
+    from ...workbook.safety import check_formula_functions
+
+    formulas = _formulas(path)
+    check_formula_functions(path, formulas, cells.PUBLIC, lambda n: bool(func_status_msg(n)[0]))
+    name = os.path.basename(os.fspath(path))
+    for (sheet, cell), text in formulas.items():
+        for t in Tokenizer(text if text.startswith("=") else "=" + text).items:
+            if t.type == Token.FUNC and t.subtype == Token.OPEN:
+                f = t.value[:-1].upper().removeprefix("_XLFN.")
+                if f in OUTSIDE_REACH:
+                    raise LibreOfficeRecalcError(
+                        f"{name}: sheet {sheet!r}, cell {cell}: the formula calls {f}, which "
+                        f"reaches outside the workbook in LibreOffice; refusing to evaluate the "
+                        f"workbook (use the embedded engine, or remove the call)")
+            elif t.type == Token.OPERAND and t.subtype == Token.RANGE and (
+                    t.value.startswith("[") or "'[" in t.value or "file:" in t.value.lower()):
+                raise LibreOfficeRecalcError(
+                    f"{name}: sheet {sheet!r}, cell {cell}: the formula refers to another file "
+                    f"({t.value[:60]}); refusing to evaluate the workbook")
+    return len(formulas)
+
+
+def _read_results(doc):
+    """Every formula cell's value after recalculation, array ranges and error cells."""
+    from com.sun.star.sheet.CellFlags import FORMULA
+
+    values, errors, anchors, plain = {}, {}, set(), 0
+    sheets = doc.Sheets
+    for k in range(sheets.Count):
+        sheet = sheets.getByIndex(k)
+        title = sheet.Name
+        found = sheet.queryContentCells(FORMULA)
+        for addr in found.getRangeAddresses():
+            block = sheet.getCellRangeByPosition(addr.StartColumn, addr.StartRow,
+                                                 addr.EndColumn, addr.EndRow)
+            for i in range(addr.EndRow - addr.StartRow + 1):
+                for j in range(addr.EndColumn - addr.StartColumn + 1):
+                    cell = block.getCellByPosition(j, i)
+                    col, row = addr.StartColumn + j, addr.StartRow + i
+                    coord = f"{_column(col)}{row + 1}"
+                    if cell.getArrayFormula():
+                        cur = sheet.createCursorByRange(cell)
+                        cur.collapseToCurrentArray()
+                        a = cur.getRangeAddress()
+                        anchors.add((title, a.StartColumn, a.StartRow))
+                    else:
+                        plain += 1
+                    if cell.getError():
+                        v = cell.getString()
+                        errors[(title, coord)] = v
+                    elif cell.FormulaResultType2 == 2:   # sheet.FormulaResult.STRING
+                        v = cell.getString()
+                    else:
+                        v = cell.getValue()
+                    values[(title, coord)] = v
+    return values, errors, anchors, plain
+
+
+def _column(i: int) -> str:
+    s = ""
+    i += 1
+    while i:
+        i, r = divmod(i - 1, 26)
+        s = chr(65 + r) + s
+    return s
+
+
+def _freeze(doc) -> None:
+    """Replace every formula by its value (``--values-only``)."""
+    from com.sun.star.sheet.CellFlags import FORMULA
+
+    for k in range(doc.Sheets.Count):
+        sheet = doc.Sheets.getByIndex(k)
+        for addr in sheet.queryContentCells(FORMULA).getRangeAddresses():
+            block = sheet.getCellRangeByPosition(addr.StartColumn, addr.StartRow,
+                                                 addr.EndColumn, addr.EndRow)
+            data = block.getDataArray()
+            for i in range(addr.EndRow - addr.StartRow + 1):
+                for j in range(addr.EndColumn - addr.StartColumn + 1):
+                    cell = block.getCellByPosition(j, i)
+                    if cell.getArrayFormula():
+                        cur = sheet.createCursorByRange(cell)
+                        cur.collapseToCurrentArray()
+                        cur.setArrayFormula("")
+            block.setDataArray(data)
+
+
+def recalc_file_libreoffice(in_path, out_path, *, values_only=False, office=None,
+                            timeout=TIMEOUT) -> RecalcSummary:
+    """Recalculate ``in_path`` in headless LibreOffice (with the portflux add-in) into
+    ``out_path`` (.xlsx; atomically). ``office``: a running :class:`HeadlessOffice` to reuse
+    (tests); by default a private one is started and stopped.
+
+    Raises a :class:`~portflux.core.PortfluxError` naming the file and place (bad paths, an
+    unsafe file, a refused formula, LibreOffice missing or failing).
+    """
+    from ...workbook.safety import check_workbook_file
+
+    in_path, out_path = os.fspath(in_path), os.fspath(out_path)
+    _check_paths(in_path, out_path)
+    check_workbook_file(in_path)
+    check_formulas(in_path)
+    out_dir = os.path.dirname(os.path.abspath(out_path))
+    own = office is None
+    with tempfile.TemporaryDirectory(prefix="portflux-lo-recalc-") as tmp:
+        copy = os.path.join(tmp, "input" + os.path.splitext(in_path)[1].lower())
+        shutil.copyfile(in_path, copy)
+        if own:
+            from .package import OXT_NAME, build_oxt, site_dirs_of_this_python
+
+            office = HeadlessOffice(build_oxt(os.path.join(tmp, OXT_NAME),
+                                              site_dirs_of_this_python()), timeout=timeout)
+        timer = threading.Timer(timeout, office.kill)
+        timer.daemon = True
+        timer.start()
+        try:
+            if own:
+                office.start()
+            doc = office.load(copy)
+            if doc is None:
+                raise LibreOfficeRecalcError(f"{in_path}: LibreOffice could not open it")
+            try:
+                doc.calculateAll()
+                values, errors, anchors, plain = _read_results(doc)
+                if values_only:
+                    _freeze(doc)
+                fd, tmp_out = tempfile.mkstemp(dir=out_dir,
+                                               prefix="." + os.path.basename(out_path) + ".",
+                                               suffix=".tmp.xlsx")
+                os.close(fd)
+                try:
+                    office.store_xlsx(doc, tmp_out)
+                    os.replace(tmp_out, out_path)
+                except BaseException:
+                    if os.path.exists(tmp_out):
+                        os.unlink(tmp_out)
+                    raise
+            finally:
+                try:
+                    doc.close(True)
+                except Exception:  # noqa: BLE001 - the office may have been killed
+                    pass
+        except PortfluxError:
+            raise
+        except Exception as e:  # noqa: BLE001 - UNO errors: name the file, never a traceback
+            if office.killed:
+                raise LibreOfficeRecalcError(
+                    f"{in_path}: LibreOffice did not finish within {timeout:.0f} s; "
+                    f"stopped") from None
+            raise LibreOfficeRecalcError(f"{in_path}: LibreOffice failed: "
+                                         f"{type(e).__name__}: {e}") from None
+        finally:
+            timer.cancel()
+            if own:
+                office.stop()
+    return RecalcSummary(in_path, out_path, plain + len(anchors), len(anchors), len(values),
+                         errors, values)
+
+
+def recalc_libreoffice(in_path, out_path, *, progress=False, values_only=False):
+    """The command line's entry (progress lines as the embedded engine's ``recalc``)."""
+    t0 = time.perf_counter()
+    if progress:
+        print(f"recalculating {in_path} in LibreOffice ...", file=sys.stderr, flush=True)
+    s = recalc_file_libreoffice(in_path, out_path, values_only=values_only)
+    if progress:
+        print(f"  {s.formula_cells} formulas, {s.array_ranges} array ranges, "
+              f"{s.cells_written} cells written in {time.perf_counter() - t0:.2f} s "
+              f"-> {out_path}", file=sys.stderr, flush=True)
+    return s
+
+
+__all__ = ["OfficeError", "LibreOfficeRecalcError", "RecalcSummary", "check_formulas",
+           "recalc_file_libreoffice", "recalc_libreoffice"]
