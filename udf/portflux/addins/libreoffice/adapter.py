@@ -63,12 +63,3 @@ def call(name: str, args):
     except Exception as e:  # noqa: BLE001 - a worksheet function must not raise
         return ((f"portflux: internal error in {name}: {type(e).__name__}: {e}"[:250],),)
 
-
-def function_help(name: str):
-    """(help text, [(argument name, help), ...]) of a function, for Calc's XAddIn queries."""
-    from .registry import functions
-
-    f = functions().get(name)
-    if f is None:
-        return "", []
-    return f.help, [(a.name, a.doc) for a in f.args]

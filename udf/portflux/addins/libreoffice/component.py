@@ -15,7 +15,6 @@ import site
 import sys
 
 SERVICE = "org.portflux.calc.Functions"
-CATEGORY = "Add-In"
 _state = {}
 
 
@@ -61,16 +60,18 @@ def _adapter():
 try:
     import unohelper
     from com.sun.star.lang import XLocalizable, XServiceInfo, XServiceName
-    from com.sun.star.sheet import LocalizedName, XAddIn, XCompatibilityNames
-    from com.sun.star.lang import Locale
     from org.portflux.calc import XPortfluxFunctions
 except ImportError:     # not inside LibreOffice
     unohelper = None
 
 if unohelper is not None:
-    class PortfluxFunctions(unohelper.Base, XPortfluxFunctions, XAddIn, XCompatibilityNames,
-                            XServiceName, XServiceInfo, XLocalizable):
-        """Every PFX_ method is looked up by name and forwarded to the adapter."""
+    class PortfluxFunctions(unohelper.Base, XPortfluxFunctions, XServiceName, XServiceInfo,
+                            XLocalizable):
+        """Every PFX_ method is looked up by name and forwarded to the adapter.
+
+        Calc reads names, help texts and compatibility names from CalcAddIns.xcu (generated
+        from the registry): the component does not implement XAddIn, which Calc would prefer
+        over the configuration (and XAddIn's answers would need portflux imported)."""
 
         def __init__(self, ctx=None):
             self.ctx = ctx
@@ -86,39 +87,6 @@ if unohelper is not None:
                     return ((a,),)
                 return a.call(name, args)
             return method
-
-        # XAddIn (Calc reads CalcAddIns.xcu first; these answer the same from the registry)
-        def getProgrammaticFuntionName(self, display):
-            return display
-
-        def getDisplayFunctionName(self, name):
-            return name
-
-        def _help(self, name):
-            a = _adapter()
-            return ("", []) if isinstance(a, str) else a.function_help(name)
-
-        def getFunctionDescription(self, name):
-            return self._help(name)[0]
-
-        def getDisplayArgumentName(self, name, i):
-            args = self._help(name)[1]
-            return args[i][0] if 0 <= i < len(args) else ""
-
-        def getArgumentDescription(self, name, i):
-            args = self._help(name)[1]
-            return args[i][1] if 0 <= i < len(args) else ""
-
-        def getProgrammaticCategoryName(self, name):
-            return CATEGORY
-
-        def getDisplayCategoryName(self, name):
-            return CATEGORY
-
-        # XCompatibilityNames: the name in .xlsx files is the same PFX_... name (Calc reads
-        # it here, not from CalcAddIns.xcu, because the component implements XAddIn)
-        def getCompatibilityNames(self, name):
-            return (LocalizedName(Locale("en", "US", ""), name),)
 
         # XServiceName, XServiceInfo, XLocalizable
         def getServiceName(self):

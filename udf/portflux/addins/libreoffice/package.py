@@ -83,7 +83,7 @@ def xcu_text() -> str:
         out.append(f'<prop oor:name="CompatibilityName">{_value(f.name)}</prop>')
         out.append('<node oor:name="Parameters">')
         for a in f.args:
-            doc = a.doc + (" (optional)" if a.optional else "")
+            doc = a.doc
             out.append(f'<node oor:name={quoteattr(a.idl_name)} oor:op="replace">')
             out.append(f'<prop oor:name="DisplayName">{_value(a.name)}</prop>')
             out.append(f'<prop oor:name="Description">{_value(doc)}</prop>')
