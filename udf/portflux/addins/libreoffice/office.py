@@ -243,10 +243,9 @@ class HeadlessOffice:
     def start(self):
         self._start()
         if self.oxt_path:
+            # Calc reads its add-in list when a formula first needs it: adding the extension
+            # before any document is loaded is enough (no restart).
             self._add_extension()
-            # Calc reads its add-in list once per process: restart so the add-in is seen.
-            self._terminate()
-            self._start()
         return self
 
     def _terminate(self):

@@ -81,22 +81,24 @@ def _formulas(path) -> dict:
 
     wb = openpyxl.load_workbook(path, read_only=False, data_only=False)
     try:
-        out = {}
+        out, arrays = {}, 0
         for ws in wb.worksheets:
             for row in ws.iter_rows():
                 for c in row:
                     v = c.value
                     if isinstance(v, ArrayFormula):
+                        arrays += 1
                         out[(ws.title, c.coordinate)] = v.text or ""
                     elif isinstance(v, str) and v.startswith("="):
                         out[(ws.title, c.coordinate)] = v
-        return out
+        return out, arrays
     finally:
         wb.close()
 
 
-def check_formulas(path) -> int:
-    """Refuse formulas LibreOffice must not evaluate; return the number of formulas.
+def check_formulas(path) -> tuple[int, int]:
+    """Refuse formulas LibreOffice must not evaluate; return the number of formula cells
+    (an array formula counted once, at its anchor) and of array formulas.
 
     The embedded engine's rule (Excel's functions and portflux's only, same message), plus
     the functions in :data:`OUTSIDE_REACH` and references into other files.
@@ -107,7 +109,7 @@ def check_formulas(path) -> int:
     from ... import cells
     from ...workbook.safety import check_formula_functions
 
-    formulas = _formulas(path)
+    formulas, arrays = _formulas(path)
     check_formula_functions(path, formulas, cells.PUBLIC, lambda n: bool(func_status_msg(n)[0]))
     name = os.path.basename(os.fspath(path))
     for (sheet, cell), text in formulas.items():
@@ -124,14 +126,18 @@ def check_formulas(path) -> int:
                 raise LibreOfficeRecalcError(
                     f"{name}: sheet {sheet!r}, cell {cell}: the formula refers to another file "
                     f"({t.value[:60]}); refusing to evaluate the workbook")
-    return len(formulas)
+    return len(formulas), arrays
 
 
 def _read_results(doc):
-    """Every formula cell's value after recalculation, array ranges and error cells."""
-    from com.sun.star.sheet.CellFlags import FORMULA
+    """Every formula cell's value after recalculation and the cells showing errors.
 
-    values, errors, anchors, plain = {}, {}, set(), 0
+    One UNO call per block of formula cells (``getDataArray``: numbers as float, text as str),
+    one query for the error cells and one call per error cell for its text."""
+    from com.sun.star.sheet.CellFlags import FORMULA
+    from com.sun.star.sheet.FormulaResult import ERROR
+
+    values, errors = {}, {}
     sheets = doc.Sheets
     for k in range(sheets.Count):
         sheet = sheets.getByIndex(k)
@@ -140,27 +146,15 @@ def _read_results(doc):
         for addr in found.getRangeAddresses():
             block = sheet.getCellRangeByPosition(addr.StartColumn, addr.StartRow,
                                                  addr.EndColumn, addr.EndRow)
-            for i in range(addr.EndRow - addr.StartRow + 1):
-                for j in range(addr.EndColumn - addr.StartColumn + 1):
-                    cell = block.getCellByPosition(j, i)
-                    col, row = addr.StartColumn + j, addr.StartRow + i
-                    coord = f"{_column(col)}{row + 1}"
-                    if cell.getArrayFormula():
-                        cur = sheet.createCursorByRange(cell)
-                        cur.collapseToCurrentArray()
-                        a = cur.getRangeAddress()
-                        anchors.add((title, a.StartColumn, a.StartRow))
-                    else:
-                        plain += 1
-                    if cell.getError():
-                        v = cell.getString()
-                        errors[(title, coord)] = v
-                    elif cell.FormulaResultType2 == 2:   # sheet.FormulaResult.STRING
-                        v = cell.getString()
-                    else:
-                        v = cell.getValue()
-                    values[(title, coord)] = v
-    return values, errors, anchors, plain
+            for i, row in enumerate(block.getDataArray()):
+                for j, v in enumerate(row):
+                    values[(title, f"{_column(addr.StartColumn + j)}{addr.StartRow + i + 1}")] = v
+        for addr in found.queryFormulaCells(ERROR).getRangeAddresses():
+            for r in range(addr.StartRow, addr.EndRow + 1):
+                for c in range(addr.StartColumn, addr.EndColumn + 1):
+                    key = (title, f"{_column(c)}{r + 1}")
+                    values[key] = errors[key] = sheet.getCellByPosition(c, r).getString()
+    return values, errors
 
 
 def _column(i: int) -> str:
@@ -206,9 +200,10 @@ def recalc_file_libreoffice(in_path, out_path, *, values_only=False, office=None
     in_path, out_path = os.fspath(in_path), os.fspath(out_path)
     _check_paths(in_path, out_path)
     check_workbook_file(in_path)
-    check_formulas(in_path)
+    n_formulas, n_arrays = check_formulas(in_path)
     out_dir = os.path.dirname(os.path.abspath(out_path))
     own = office is None
+    t0 = time.monotonic()
     with tempfile.TemporaryDirectory(prefix="portflux-lo-recalc-") as tmp:
         copy = os.path.join(tmp, "input" + os.path.splitext(in_path)[1].lower())
         shutil.copyfile(in_path, copy)
@@ -228,7 +223,7 @@ def recalc_file_libreoffice(in_path, out_path, *, values_only=False, office=None
                 raise LibreOfficeRecalcError(f"{in_path}: LibreOffice could not open it")
             try:
                 doc.calculateAll()
-                values, errors, anchors, plain = _read_results(doc)
+                values, errors = _read_results(doc)
                 if values_only:
                     _freeze(doc)
                 fd, tmp_out = tempfile.mkstemp(dir=out_dir,
@@ -248,11 +243,15 @@ def recalc_file_libreoffice(in_path, out_path, *, values_only=False, office=None
                 except Exception:  # noqa: BLE001 - the office may have been killed
                     pass
         except PortfluxError:
+            if office.killed or time.monotonic() - t0 >= timeout:
+                raise LibreOfficeRecalcError(
+                    f"{in_path}: LibreOffice did not finish within {timeout:g} s; "
+                    f"stopped") from None
             raise
         except Exception as e:  # noqa: BLE001 - UNO errors: name the file, never a traceback
             if office.killed:
                 raise LibreOfficeRecalcError(
-                    f"{in_path}: LibreOffice did not finish within {timeout:.0f} s; "
+                    f"{in_path}: LibreOffice did not finish within {timeout:g} s; "
                     f"stopped") from None
             raise LibreOfficeRecalcError(f"{in_path}: LibreOffice failed: "
                                          f"{type(e).__name__}: {e}") from None
@@ -260,8 +259,7 @@ def recalc_file_libreoffice(in_path, out_path, *, values_only=False, office=None
             timer.cancel()
             if own:
                 office.stop()
-    return RecalcSummary(in_path, out_path, plain + len(anchors), len(anchors), len(values),
-                         errors, values)
+    return RecalcSummary(in_path, out_path, n_formulas, n_arrays, len(values), errors, values)
 
 
 def recalc_libreoffice(in_path, out_path, *, progress=False, values_only=False):
