@@ -50,8 +50,8 @@ def _adapter():
         _state["error"] = (
             f"portflux: cannot import portflux in LibreOffice's Python {here_py} "
             f"({sys.executable}): {type(e).__name__}: {e}{note}; run 'portflux libreoffice "
-            f"install' from a Python {here_py} environment that has portflux, or pip install "
-            f"portflux (with numpy) into LibreOffice's Python")[:500]
+            f"install' from a Python {here_py} environment that has portflux, or install "
+            f"portflux and numpy into LibreOffice's Python")[:500]
         return _state["error"]
     _state["adapter"] = adapter
     return adapter
