@@ -16,8 +16,7 @@ import subprocess
 import sys
 import tempfile
 
-OXT_NAME = "portflux.oxt"        # as package.OXT_NAME (kept here: this module loads lightly)
-EXTENSION_ID = "org.portflux.calc"
+from .registry import EXTENSION_ID, OXT_NAME
 
 
 def _unopkg():

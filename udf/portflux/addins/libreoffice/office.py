@@ -186,7 +186,8 @@ def _approving_environment():
 class HeadlessOffice:
     """One headless LibreOffice with a private profile and the portflux add-in installed.
 
-    >>> # with HeadlessOffice(oxt) as office: doc = office.load("book.xlsx")   (needs soffice)
+    Use: ``with HeadlessOffice(oxt) as office: doc = office.load("book.xlsx")``; ``stop()``
+    (or leaving the block) ends that process only and deletes the profile.
     """
 
     def __init__(self, oxt_path=None, *, timeout=120.0):

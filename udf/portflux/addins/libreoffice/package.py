@@ -19,7 +19,6 @@ An .oxt is a zip archive that LibreOffice's extension manager installs. Ours hol
 
 from __future__ import annotations
 
-import io
 import json
 import os
 import shutil
@@ -29,13 +28,15 @@ import tempfile
 import zipfile
 from xml.sax.saxutils import escape, quoteattr
 
-from .registry import CALC_CATEGORY, IDL_MODULE, INTERFACE, SERVICE, functions
+from ...files import atomic_path
+from .registry import (CALC_CATEGORY, EXTENSION_ID, IDL_MODULE, INTERFACE, OXT_NAME, SERVICE,
+                       functions)
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 IDL_PATH = os.path.join(HERE, "portflux.idl")
 RDB_PATH = os.path.join(HERE, "portflux.rdb")
 COMPONENT_PATH = os.path.join(HERE, "component.py")
-from .install import EXTENSION_ID, OXT_NAME  # noqa: E402 - one definition
+
 
 
 def idl_text() -> str:
@@ -162,20 +163,11 @@ def build_oxt(out_path, site_dirs=None) -> str:
         "CalcAddIns.xcu": xcu_text(),
         "portflux_site.json": json.dumps(site_record(site_dirs), indent=1) + "\n",
     }
-    out_dir = os.path.dirname(os.path.abspath(out_path))
-    fd, tmp = tempfile.mkstemp(dir=out_dir, prefix="." + os.path.basename(out_path) + ".",
-                               suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as raw, zipfile.ZipFile(raw, "w", zipfile.ZIP_DEFLATED) as z:
-            for name, text in parts.items():
-                z.writestr(name, text.encode("utf-8"))
-            z.write(RDB_PATH, "portflux.rdb")
-            z.write(COMPONENT_PATH, "portflux_calc.py")
-        os.replace(tmp, out_path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    with atomic_path(out_path) as tmp, zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED) as z:
+        for name, text in parts.items():
+            z.writestr(name, text.encode("utf-8"))
+        z.write(RDB_PATH, "portflux.rdb")
+        z.write(COMPONENT_PATH, "portflux_calc.py")
     return out_path
 
 

@@ -22,6 +22,7 @@ import time
 from dataclasses import dataclass
 
 from ...core import PortfluxError
+from ...files import atomic_path
 from .office import HeadlessOffice, OfficeError
 
 #: Functions Excel has but LibreOffice would use to reach outside the workbook (network, other
@@ -50,29 +51,6 @@ class RecalcSummary:
     cells_written: int
     error_cells: dict
     values: dict
-
-
-def _same_file(a: str, b: str) -> bool:
-    if os.path.realpath(a) == os.path.realpath(b):
-        return True
-    try:
-        return os.path.samefile(a, b)
-    except OSError:
-        return False
-
-
-def _check_paths(in_path: str, out_path: str) -> None:
-    """The embedded engine's path rules, with its messages."""
-    if _same_file(in_path, out_path):
-        raise LibreOfficeRecalcError(f"{out_path}: refusing to write over the input workbook; "
-                                     f"choose another output path")
-    in_ext = os.path.splitext(in_path)[1].lower()
-    if os.path.splitext(out_path)[1].lower() != in_ext:
-        raise LibreOfficeRecalcError(f"{out_path}: the output must keep the input's "
-                                     f"extension {in_ext!r}")
-    out_dir = os.path.dirname(os.path.abspath(out_path))
-    if not os.path.isdir(out_dir):
-        raise LibreOfficeRecalcError(f"{out_path}: folder {out_dir} does not exist")
 
 
 def _formulas(path) -> dict:
@@ -195,13 +173,12 @@ def recalc_file_libreoffice(in_path, out_path, *, values_only=False, office=None
     Raises a :class:`~portflux.core.PortfluxError` naming the file and place (bad paths, an
     unsafe file, a refused formula, LibreOffice missing or failing).
     """
-    from ...workbook.safety import check_workbook_file
+    from ...workbook.safety import check_output_path, check_workbook_file
 
     in_path, out_path = os.fspath(in_path), os.fspath(out_path)
-    _check_paths(in_path, out_path)
+    check_output_path(in_path, out_path)
     check_workbook_file(in_path)
     n_formulas, n_arrays = check_formulas(in_path)
-    out_dir = os.path.dirname(os.path.abspath(out_path))
     own = office is None
     t0 = time.monotonic()
     with tempfile.TemporaryDirectory(prefix="portflux-lo-recalc-") as tmp:
@@ -226,17 +203,8 @@ def recalc_file_libreoffice(in_path, out_path, *, values_only=False, office=None
                 values, errors = _read_results(doc)
                 if values_only:
                     _freeze(doc)
-                fd, tmp_out = tempfile.mkstemp(dir=out_dir,
-                                               prefix="." + os.path.basename(out_path) + ".",
-                                               suffix=".tmp.xlsx")
-                os.close(fd)
-                try:
+                with atomic_path(out_path, suffix=".tmp.xlsx") as tmp_out:
                     office.store_xlsx(doc, tmp_out)
-                    os.replace(tmp_out, out_path)
-                except BaseException:
-                    if os.path.exists(tmp_out):
-                        os.unlink(tmp_out)
-                    raise
             finally:
                 try:
                     doc.close(True)

@@ -28,6 +28,9 @@ INTERFACE = "XPortfluxFunctions"
 SERVICE = "org.portflux.calc.Functions"
 #: Calc's own category for add-in functions (the function wizard's list of categories is fixed).
 CALC_CATEGORY = "Add-In"
+#: The extension's identifier (``unopkg remove``) and the package's file name.
+EXTENSION_ID = "org.portflux.calc"
+OXT_NAME = "portflux.oxt"
 
 
 @dataclass(frozen=True)
