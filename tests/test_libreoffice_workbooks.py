@@ -218,3 +218,25 @@ def test_a_recalculation_past_its_time_limit_is_stopped_and_writes_nothing(tmp_p
     with pytest.raises(LibreOfficeRecalcError, match="did not finish within"):
         recalc_file_libreoffice(EXAMPLES[0], tmp_path / "o.xlsx", timeout=0.5)
     assert os.listdir(tmp_path) == []
+
+
+def test_values_only_output_keeps_values_and_drops_formulas(computed, office, tmp_path):
+    src = EXAMPLES[0]
+    out = tmp_path / "frozen.xlsx"
+    summary = recalc_file_libreoffice(src, out, values_only=True, office=office)
+    wb = openpyxl.load_workbook(out)
+    try:
+        # LibreOffice writes an error value as the one-token formula "#N/A" (no function)
+        formulas = [c.coordinate for ws in wb.worksheets for row in ws.iter_rows() for c in row
+                    if isinstance(c.value, str) and c.value.startswith("=")
+                    and c.value[1:] not in ("#N/A", "#VALUE!", "#DIV/0!")
+                    or type(c.value).__name__ == "ArrayFormula"]
+        assert formulas == []
+        sheet = wb["Control volume"]
+        numbers = {k: v for k, v in summary.values.items()
+                   if k[0] == "Control volume" and isinstance(v, float)}
+        assert len(numbers) > 50
+        for (_, coord), v in numbers.items():
+            assert same(float(sheet[coord].value), v, rel=1e-12), coord
+    finally:
+        wb.close()
