@@ -183,3 +183,26 @@ def test_libreoffice_build_command_writes_an_oxt_without_the_sdk(tmp_path):
     assert main(["libreoffice", "build", "-o", str(out)]) == 0
     with zipfile.ZipFile(out) as z:
         assert "CalcAddIns.xcu" in z.namelist()
+
+
+def test_libreoffice_engine_without_libreoffice_fails_with_what_to_install(tmp_path, capsys,
+                                                                          monkeypatch):
+    from portflux.addins.libreoffice import office
+    from portflux.cli import main
+    from portflux.workbook.template import shipped_template
+
+    monkeypatch.setattr(office, "soffice_path", lambda: None)
+    out = tmp_path / "out.xlsx"
+    code = main(["recalc", shipped_template(), "-o", str(out), "--engine", "libreoffice", "-q"])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert err.startswith("portflux: LibreOffice ('soffice') is not installed; Debian bookworm: "
+                          "apt-get install -t bookworm-backports libreoffice-calc-nogui")
+    assert os.listdir(tmp_path) == []
+
+
+def test_embedded_engine_stays_the_default():
+    from portflux.cli import build_parser
+
+    args = build_parser().parse_args(["recalc", "a.xlsx", "-o", "b.xlsx"])
+    assert args.engine == "embedded"

@@ -35,8 +35,12 @@ def _unopkg():
 def _run_unopkg(args, timeout=300):
     from .office import OfficeError, clean_env
 
-    r = subprocess.run([_unopkg(), *args], stdin=subprocess.DEVNULL, capture_output=True,
-                       text=True, timeout=timeout, env=clean_env())
+    try:
+        r = subprocess.run([_unopkg(), *args], stdin=subprocess.DEVNULL, capture_output=True,
+                           text=True, timeout=timeout, env=clean_env())
+    except subprocess.TimeoutExpired:
+        raise OfficeError(f"unopkg {args[0]} did not finish within {timeout} s; is LibreOffice "
+                          f"running? close it and try again") from None
     text = "\n".join(x for x in (r.stdout.strip(), r.stderr.strip()) if x)
     if r.returncode != 0:
         raise OfficeError(f"unopkg {' '.join(args[:1])} failed ({r.returncode}): {text}")
