@@ -303,5 +303,7 @@ class HeadlessOffice:
         return self.desktop.loadComponentFromURL("private:factory/scalc", "_blank", 0,
                                                  props(Hidden=True))
 
-    def store_xlsx(self, doc, path):
-        doc.storeToURL(_url(path), props(FilterName="Calc MS Excel 2007 XML"))
+    def store_xlsx(self, doc, path, *, macro_enabled=False):
+        """Save as Office Open XML (.xlsx, or .xlsm with ``macro_enabled``)."""
+        name = "Calc MS Excel 2007 VBA XML" if macro_enabled else "Calc MS Excel 2007 XML"
+        doc.storeToURL(_url(path), props(FilterName=name))

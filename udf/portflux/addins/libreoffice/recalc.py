@@ -204,7 +204,8 @@ def recalc_file_libreoffice(in_path, out_path, *, values_only=False, office=None
                 if values_only:
                     _freeze(doc)
                 with atomic_path(out_path, suffix=".tmp.xlsx") as tmp_out:
-                    office.store_xlsx(doc, tmp_out)
+                    office.store_xlsx(doc, tmp_out, macro_enabled=in_path.lower().endswith(
+                        ".xlsm"))
             finally:
                 try:
                     doc.close(True)
