@@ -230,7 +230,6 @@ class HeadlessOffice:
                 last = e
                 time.sleep(0.2)
         else:
-            self.stop()
             raise OfficeError(f"soffice did not accept a connection within {self.timeout:.0f} "
                               f"s ({last})")
         self.desktop = self.ctx.ServiceManager.createInstanceWithContext(
@@ -242,11 +241,21 @@ class HeadlessOffice:
         em.addExtension(_url(self.oxt_path), (), "user", None, _approving_environment())
 
     def start(self):
-        self._start()
-        if self.oxt_path:
-            # Calc reads its add-in list when a formula first needs it: adding the extension
-            # before any document is loaded is enough (no restart).
-            self._add_extension()
+        """Start the office and add the extension; on any failure nothing is left running."""
+        try:
+            self._start()
+            if self.oxt_path:
+                # Calc reads its add-in list when a formula first needs it: adding the
+                # extension before any document is loaded is enough (no restart).
+                try:
+                    self._add_extension()
+                except Exception as e:  # noqa: BLE001 - UNO exceptions: say what failed
+                    raise OfficeError(f"LibreOffice refused the add-in {self.oxt_path}: "
+                                      f"{type(e).__name__}: {e}") from None
+        except BaseException:
+            self._kill_process()
+            self.stop()
+            raise
         return self
 
     def _terminate(self):
@@ -266,9 +275,13 @@ class HeadlessOffice:
 
     def kill(self):
         """End the office process at once (the recalculation timeout)."""
+        if self.proc is not None and self.proc.poll() is None:
+            self.killed = True
+        self._kill_process()
+
+    def _kill_process(self):
         proc = self.proc
         if proc is not None and proc.poll() is None:
-            self.killed = True
             try:
                 os.killpg(proc.pid, signal.SIGKILL)
             except (OSError, AttributeError):
