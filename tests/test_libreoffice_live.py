@@ -20,34 +20,53 @@ from portflux.addins.libreoffice.registry import functions
 
 pytestmark = needs_libreoffice
 
-# Invented vane: 2 cm^2 water jet at 40 m/s turned through 150 degrees; a blank row after it.
-PORTS = (("port", "role", "area", "density", "speed", "angle", "closure"),
-         (None, None, "cm^2", None, None, None, None),
-         ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
-         ("exit", "out", 2.0, 998.0, None, 150.0, "free"),
-         (None,) * 7)
-SETTINGS = (("fluid_mass", 0.5, "kg"), ("gz", -9.81, "m/s^2"))
-SPEEDS = (("m/s",), (0.0,), (None,), (10.0,), (50.0,))
+# Where the inputs go on the sheet: ports A1:G6, settings I1:K3, speeds M1:M5, CV velocity
+# O1:R1. Each argument is a formula operand and the value Calc hands the add-in (a range as
+# rows with None for blanks, TRUE as 1.0).
+RANGES = {"ports": "$A$1:$G$6", "settings": "$I$1:$K$3", "speeds": "$M$1:$M$5",
+          "cv_velocity": "$O$1:$R$1"}
+COMMON = {"labels": ("TRUE()", 1.0), "tolerance": ("0.002", 0.002), "kind": ('"jet"', "jet"),
+          "direction": ("0", 0.0), "low": ("0", 0.0), "high": ("40", 40.0),
+          "component": ('"along"', "along")}
 
-# Where the inputs go on the sheet, and each argument as a formula operand and as the value
-# Calc hands the add-in (a range as rows with None for blanks, TRUE as 1.0).
-ARGS = {
-    "ports": ("$A$1:$G$5", PORTS),
-    "cv_velocity": ("$O$1", 10.0),
-    "port": ('"exit"', "exit"),
-    "units": ('"SI; force=kN"', "SI; force=kN"),
-    "labels": ("TRUE()", 1.0),
-    "settings": ("$I$1:$K$2", SETTINGS),
-    "tolerance": ("0.002", 0.002),
-    "axis": ('"y"', "y"),
-    "kind": ('"jet"', "jet"),
-    "speeds": ("$M$1:$M$5", SPEEDS),
-    "direction": ("0", 0.0),
-    "low": ("0", 0.0),
-    "high": ("40", 40.0),
-    "value": ("0.1", 0.1),
-    "component": ('"along"', "along"),
+SCENARIOS = {
+    # Invented vane: 2 cm^2 water jet at 40 m/s turned through 150 degrees, SI, kN out.
+    "vane": dict(
+        ports=(("port", "role", "area", "density", "speed", "angle", "closure"),
+               (None, None, "cm^2", None, None, None, None),
+               ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
+               ("exit", "out", 2.0, 998.0, None, 150.0, "free"),
+               (None,) * 7, (None,) * 7),
+        settings=(("fluid_mass", 0.5, "kg"), ("gz", -9.81, "m/s^2"), (None, None, None)),
+        speeds=(("m/s",), (0.0,), (None,), (10.0,), (50.0,)),
+        cv=((10.0, 0.0, 0.0, "m/s"),),
+        scalars={"port": ('"exit"', "exit"), "units": ('"SI; force=kN"', "SI; force=kN"),
+                 "axis": ('"y"', "y"), "value": ("0.1", 0.1)}),
+    # Invented plate: a 0.03 ft^2 jet split by a frictionless plate at 60 degrees into two
+    # solved streams, the plate backing away at 5 ft/s; US customary units in and out.
+    "plate, US": dict(
+        ports=(("port", "role", "area", "density", "speed", "angle", "closure"),
+               (None, None, "ft^2", "slug/ft^3", "ft/s", "deg", None),
+               ("jet", "in", 0.03, 1.94, 60.0, 0.0, None),
+               ("fwd", "out", None, 1.94, None, 60.0, "solve"),
+               ("back", "out", None, 1.94, None, 240.0, "solve"),
+               (None,) * 7),
+        settings=(("slip_angle", 60.0, "deg"), ("fluid_mass", 0.0, "slug"), (None, None, None)),
+        speeds=(("ft/s",), (0.0,), (5.0,), (None,), (20.0,)),
+        cv=((5.0, 0.0, 0.0, "ft/s"),),
+        scalars={"port": ("2", 2.0), "units": ('"US"', "US"), "axis": ('"x"', "x"),
+                 "value": ("10", 10.0)}),
 }
+
+
+def _args(sc):
+    args = dict(COMMON, **sc["scalars"])
+    for key, table in (("ports", sc["ports"]), ("settings", sc["settings"]),
+                       ("speeds", sc["speeds"]), ("cv_velocity", sc["cv"])):
+        args[key] = (RANGES[key], table)
+    return args
+
+
 OUT_ROW = 10          # blocks are written from this row down, one below another
 
 
@@ -65,17 +84,16 @@ def doc(office):
     d.close(True)
 
 
-def _inputs(sheet):
-    sheet.getCellRangeByName("A1:G5").setDataArray(calc_rows(PORTS))
-    sheet.getCellRangeByName("I1:K2").setDataArray(calc_rows(SETTINGS))
-    sheet.getCellRangeByName("M1:M5").setDataArray(calc_rows(SPEEDS))
-    sheet.getCellRangeByName("O1").setValue(10.0)
+def _inputs(sheet, sc):
+    for key, table in (("ports", sc["ports"]), ("settings", sc["settings"]),
+                       ("speeds", sc["speeds"]), ("cv_velocity", sc["cv"])):
+        sheet.getCellRangeByName(RANGES[key].replace("$", "")).setDataArray(calc_rows(table))
 
 
-def _formula(name, n_args):
+def _formula(name, n_args, args):
     params = list(inspect.signature(getattr(C, name)).parameters)[:n_args]
-    return f"={name}(" + ";".join(ARGS[p][0] for p in params) + ")", \
-        [ARGS[p][1] for p in params]
+    return f"={name}(" + ";".join(args[p][0] for p in params) + ")", \
+        [args[p][1] for p in params]
 
 
 def _read(sheet, row, nrows, ncols, col=0):
@@ -91,18 +109,22 @@ def _assert_block(got, want, where):
             assert same(a, b), f"{where} cell ({i + 1}, {j + 1}): Calc {a!r}, Python {b!r}"
 
 
+@pytest.mark.parametrize("scenario", SCENARIOS)
 @pytest.mark.parametrize("name", C.PUBLIC)
-def test_each_function_as_array_and_single_cell_formula_matches_python(doc, name):
+def test_each_function_as_array_and_single_cell_formula_matches_python(doc, name, scenario):
+    sc = SCENARIOS[scenario]
+    args = _args(sc)
     sheet = doc.Sheets.getByIndex(0)
-    _inputs(sheet)
+    _inputs(sheet, sc)
     n = len(inspect.signature(getattr(C, name)).parameters)
     cases = []
     row = OUT_ROW
     # all arguments, then only the required ones (omitted optionals arrive as None)
     required = sum(1 for p in inspect.signature(getattr(C, name)).parameters.values()
                    if p.default is inspect.Parameter.empty)
-    for k in sorted({n, required}, reverse=True):
-        formula, values = _formula(name, k)
+    # (the plate needs its settings: its two solved streams need the slip direction)
+    for k in sorted({n, required} if scenario == "vane" else {n}, reverse=True):
+        formula, values = _formula(name, k, args)
         want = adapter.to_calc(getattr(C, name)(*values))
         assert not (len(want) == 1 and isinstance(want[0][0], str)
                     and want[0][0].startswith(("ports", "portflux", "settings"))), want
@@ -122,9 +144,11 @@ def test_each_function_as_array_and_single_cell_formula_matches_python(doc, name
 def test_body_force_in_calc_equals_the_python_api(doc):
     from portflux import api
 
+    sc = SCENARIOS["vane"]
     sheet = doc.Sheets.getByIndex(0)
-    _inputs(sheet)
-    sheet.getCellRangeByName("A20:C20").setArrayFormula("=PFX_BODYFORCE($A$1:$G$5;$O$1)")
+    _inputs(sheet, sc)
+    sheet.getCellRangeByName("A20:C20").setArrayFormula(
+        f"=PFX_BODYFORCE({RANGES['ports']};{RANGES['cv_velocity']})")
     doc.calculateAll()
     got = sheet.getCellRangeByName("A20:C20").getDataArray()[0]
     r = api.solve([{"port": "jet", "role": "in", "area": 2.0, "density": 998.0, "speed": 40.0,
