@@ -206,3 +206,39 @@ def test_embedded_engine_stays_the_default():
 
     args = build_parser().parse_args(["recalc", "a.xlsx", "-o", "b.xlsx"])
     assert args.engine == "embedded"
+
+
+def test_libreoffice_engine_refuses_links_to_other_files_before_starting_libreoffice(tmp_path):
+    import openpyxl
+    from openpyxl.workbook.defined_name import DefinedName
+
+    from portflux.addins.libreoffice.recalc import LibreOfficeRecalcError, check_formulas
+
+    wb = openpyxl.Workbook()
+    wb.active["A1"] = "=SECRET"
+    wb.defined_names["SECRET"] = DefinedName("SECRET", attr_text="'file:///etc/passwd'#$A.A1")
+    wb.save(tmp_path / "name.xlsx")
+    with pytest.raises(LibreOfficeRecalcError, match="defined name 'SECRET': the formula "
+                                                     "cannot be read"):
+        check_formulas(tmp_path / "name.xlsx")
+    wb.defined_names["SECRET"] = DefinedName("SECRET", attr_text="'[1]Sheet1'!$A$1")
+    wb.save(tmp_path / "name2.xlsx")
+    with pytest.raises(LibreOfficeRecalcError, match="defined name 'SECRET': the formula "
+                                                     "refers to another file"):
+        check_formulas(tmp_path / "name2.xlsx")
+    wb = openpyxl.Workbook()
+    wb.active["A1"] = "=[1]Sheet1!A1"
+    wb.save(tmp_path / "ref.xlsx")
+    with pytest.raises(LibreOfficeRecalcError, match="cell A1: the formula refers to another"):
+        check_formulas(tmp_path / "ref.xlsx")
+    src = tmp_path / "ref.xlsx"
+    with zipfile.ZipFile(src) as zin, zipfile.ZipFile(tmp_path / "link.xlsx", "w") as zout:
+        for info in zin.infolist():
+            zout.writestr(info, zin.read(info))
+        zout.writestr("xl/externalLinks/externalLink1.xml", "<externalLink/>")
+    with pytest.raises(LibreOfficeRecalcError, match="links to other files or data sources"):
+        check_formulas(tmp_path / "link.xlsx")
+    wb = openpyxl.Workbook()
+    wb.active["A1"] = "=SUM(1,2)+PFX_POWER(B1:C3,1)"
+    wb.save(tmp_path / "fine.xlsx")
+    assert check_formulas(tmp_path / "fine.xlsx") == (1, 0)

@@ -53,7 +53,12 @@ class RecalcSummary:
     values: dict
 
 
-def _formulas(path) -> dict:
+#: Package parts through which a workbook reaches other files or data sources.
+OUTSIDE_PARTS = ("xl/externalLinks/", "xl/connections.xml", "xl/queryTables/")
+
+
+def _formulas(path):
+    """``({(sheet, cell): formula}, number of array formulas, {defined name: text})``."""
     import openpyxl
     from openpyxl.worksheet.formula import ArrayFormula
 
@@ -69,41 +74,69 @@ def _formulas(path) -> dict:
                         out[(ws.title, c.coordinate)] = v.text or ""
                     elif isinstance(v, str) and v.startswith("="):
                         out[(ws.title, c.coordinate)] = v
-        return out, arrays
+        names = {n: d.attr_text or "" for n, d in wb.defined_names.items()}
+        for ws in wb.worksheets:
+            names.update({f"{ws.title}!{n}": d.attr_text or ""
+                          for n, d in ws.defined_names.items()})
+        return out, arrays, names
     finally:
         wb.close()
 
 
+def _refuse_outside_reach(text: str, where: str) -> None:
+    """Refuse a formula that calls an :data:`OUTSIDE_REACH` function or refers to a file."""
+    from openpyxl.formula.tokenizer import Token, Tokenizer
+
+    try:
+        tokens = Tokenizer(text if text.startswith("=") else "=" + text).items
+    except Exception as e:  # noqa: BLE001 - openpyxl raises TokenizerError and others
+        raise LibreOfficeRecalcError(f"{where}: the formula cannot be read ({e}); refusing to "
+                                     f"evaluate the workbook") from None
+    for t in tokens:
+        if t.type == Token.FUNC and t.subtype == Token.OPEN:
+            f = t.value[:-1].upper().removeprefix("_XLFN.")
+            if f in OUTSIDE_REACH:
+                raise LibreOfficeRecalcError(
+                    f"{where}: the formula calls {f}, which reaches outside the workbook in "
+                    f"LibreOffice; refusing to evaluate the workbook (use the embedded engine, "
+                    f"or remove the call)")
+        elif t.type == Token.OPERAND and t.subtype == Token.RANGE and (
+                t.value.startswith("[") or "'[" in t.value or "file:" in t.value.lower()
+                or "://" in t.value):
+            raise LibreOfficeRecalcError(
+                f"{where}: the formula refers to another file ({t.value[:60]}); refusing to "
+                f"evaluate the workbook")
+
+
 def check_formulas(path) -> tuple[int, int]:
-    """Refuse formulas LibreOffice must not evaluate; return the number of formula cells
-    (an array formula counted once, at its anchor) and of array formulas.
+    """Refuse what LibreOffice must not evaluate; return the number of formula cells (an
+    array formula counted once, at its anchor) and of array formulas.
 
     The embedded engine's rule (Excel's functions and portflux's only, same message), plus
-    the functions in :data:`OUTSIDE_REACH` and references into other files.
+    the functions in :data:`OUTSIDE_REACH` and references into other files, in cell formulas
+    and defined names, and links to other files or data sources (:data:`OUTSIDE_PARTS`).
     """
-    from openpyxl.formula.tokenizer import Token, Tokenizer
+    import zipfile
+
     from pycel.lib.function_info import func_status_msg
 
     from ... import cells
     from ...workbook.safety import check_formula_functions
 
-    formulas, arrays = _formulas(path)
-    check_formula_functions(path, formulas, cells.PUBLIC, lambda n: bool(func_status_msg(n)[0]))
     name = os.path.basename(os.fspath(path))
-    for (sheet, cell), text in formulas.items():
-        for t in Tokenizer(text if text.startswith("=") else "=" + text).items:
-            if t.type == Token.FUNC and t.subtype == Token.OPEN:
-                f = t.value[:-1].upper().removeprefix("_XLFN.")
-                if f in OUTSIDE_REACH:
-                    raise LibreOfficeRecalcError(
-                        f"{name}: sheet {sheet!r}, cell {cell}: the formula calls {f}, which "
-                        f"reaches outside the workbook in LibreOffice; refusing to evaluate the "
-                        f"workbook (use the embedded engine, or remove the call)")
-            elif t.type == Token.OPERAND and t.subtype == Token.RANGE and (
-                    t.value.startswith("[") or "'[" in t.value or "file:" in t.value.lower()):
+    with zipfile.ZipFile(path) as z:
+        for part in z.namelist():
+            if part.startswith(OUTSIDE_PARTS):
                 raise LibreOfficeRecalcError(
-                    f"{name}: sheet {sheet!r}, cell {cell}: the formula refers to another file "
-                    f"({t.value[:60]}); refusing to evaluate the workbook")
+                    f"{name}: the workbook links to other files or data sources (part "
+                    f"{part!r}); refusing to evaluate it in LibreOffice (use the embedded "
+                    f"engine)")
+    formulas, arrays, names = _formulas(path)
+    check_formula_functions(path, formulas, cells.PUBLIC, lambda n: bool(func_status_msg(n)[0]))
+    for (sheet, cell), text in formulas.items():
+        _refuse_outside_reach(text, f"{name}: sheet {sheet!r}, cell {cell}")
+    for n, text in names.items():
+        _refuse_outside_reach(text, f"{name}: defined name {n!r}")
     return len(formulas), arrays
 
 
