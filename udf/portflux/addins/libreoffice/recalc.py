@@ -19,7 +19,6 @@ import sys
 import tempfile
 import threading
 import time
-from dataclasses import dataclass
 
 from ...core import PortfluxError
 from ...files import atomic_path
@@ -35,22 +34,6 @@ TIMEOUT = 300.0
 
 class LibreOfficeRecalcError(PortfluxError):
     """The workbook cannot be recalculated in LibreOffice; the message names file and place."""
-
-
-@dataclass(frozen=True)
-class RecalcSummary:
-    """What :func:`recalc_file_libreoffice` wrote (the fields of the embedded engine's summary).
-
-    ``error_cells`` and ``values`` are keyed ``(sheet, "A1")``; a spreadsheet error shows as
-    LibreOffice displays it ("#N/A", "#VALUE!", "Err:502").
-    """
-    in_path: str
-    out_path: str
-    formula_cells: int
-    array_ranges: int
-    cells_written: int
-    error_cells: dict
-    values: dict
 
 
 #: Package parts through which a workbook reaches other files or data sources.
@@ -198,10 +181,11 @@ def _freeze(doc) -> None:
 
 
 def recalc_file_libreoffice(in_path, out_path, *, values_only=False, office=None,
-                            timeout=TIMEOUT) -> RecalcSummary:
+                            timeout=TIMEOUT):
     """Recalculate ``in_path`` in headless LibreOffice (with the portflux add-in) into
-    ``out_path`` (.xlsx; atomically). ``office``: a running :class:`HeadlessOffice` to reuse
-    (tests); by default a private one is started and stopped.
+    ``out_path`` (.xlsx; atomically) and return the embedded engine's
+    :class:`~portflux.workbook.engine.RecalcSummary` of it. ``office``: a running
+    :class:`HeadlessOffice` to reuse (tests); by default a private one is started and stopped.
 
     Raises a :class:`~portflux.core.PortfluxError` naming the file and place (bad paths, an
     unsafe file, a refused formula, LibreOffice missing or failing).
@@ -261,7 +245,13 @@ def recalc_file_libreoffice(in_path, out_path, *, values_only=False, office=None
             timer.cancel()
             if own:
                 office.stop()
-    return RecalcSummary(in_path, out_path, n_formulas, n_arrays, len(values), errors, values)
+    # the embedded engine's summary type: one shape for both engines (errors as LibreOffice
+    # shows them: "#N/A", "#VALUE!", "Err:502")
+    from ...workbook.engine import RecalcSummary
+
+    return RecalcSummary(in_path=in_path, out_path=out_path, formula_cells=n_formulas,
+                         array_ranges=n_arrays, cells_written=len(values), error_cells=errors,
+                         values=values)
 
 
 def recalc_libreoffice(in_path, out_path, *, progress=False, values_only=False):
@@ -277,5 +267,5 @@ def recalc_libreoffice(in_path, out_path, *, progress=False, values_only=False):
     return s
 
 
-__all__ = ["OfficeError", "LibreOfficeRecalcError", "RecalcSummary", "check_formulas",
+__all__ = ["OfficeError", "LibreOfficeRecalcError", "check_formulas",
            "recalc_file_libreoffice", "recalc_libreoffice"]
