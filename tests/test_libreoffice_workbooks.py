@@ -90,6 +90,8 @@ def test_every_reference_case_passes_in_libreoffice(computed, office, tmp_path, 
     # The VLOOKUP-over-a-function cases: #N/A in LibreOffice (see LOOKUP); the proposed
     # INDEX/MATCH form of the same cases passes.
     assert all(c.value == "#N/A" for c in failed.values())
+    if path != shipped_template():
+        return          # the examples carry the template's cases: proven once, below
     wb = openpyxl.load_workbook(path)
     ws = wb[CHECKS]
     for row in ws.iter_rows():
