@@ -1,4 +1,4 @@
-"""Command line: ``portflux demo | recalc | check | template | bench``.
+"""Command line: ``portflux demo | recalc | check | template | bench | libreoffice``.
 
 Exit codes: 0 ok, 1 reference cases FAILed or cells hold messages/errors, 2 usage or a file
 that cannot be read, is refused or cannot be written, 3 an internal fault (a bug).
@@ -107,12 +107,18 @@ def _report_cells(found) -> None:
         print(line, file=sys.stderr)
 
 
-def _recalc_into(src, out, *, quiet, values_only=False, label=None):
+def _recalc_into(src, out, *, quiet, values_only=False, label=None, engine="embedded"):
     """Recalculate ``src`` into ``out`` atomically, naming the user's files (never a temporary
-    one) in the progress lines; returns the engine's summary."""
+    one) in the progress lines; returns the engine's summary. ``engine`` is "embedded" (the
+    built-in interpreter) or "libreoffice" (headless LibreOffice with the portflux add-in)."""
     import time
 
-    from .workbook.check import WorkbookError, recalc
+    from .core import PortfluxError
+    from .workbook.check import WorkbookError
+    if engine == "libreoffice":
+        from .addins.libreoffice.recalc import recalc_libreoffice as recalc
+    else:
+        from .workbook.check import recalc
     from .workbook.output import atomic_path
 
     t0 = time.perf_counter()
@@ -121,7 +127,9 @@ def _recalc_into(src, out, *, quiet, values_only=False, label=None):
     with atomic_path(out) as part:
         try:
             summary = recalc(src, part, values_only=values_only)
-        except WorkbookError as e:      # the engine names the file it wrote: the user's, here
+        except PortfluxError as e:      # the engine names the file it wrote: the user's, here
+            if part not in str(e):
+                raise
             raise WorkbookError(str(e).replace(part, os.fspath(out))) from None
     if not quiet:
         print(f"  {summary.formula_cells} formulas, {summary.array_ranges} array ranges, "
@@ -139,7 +147,7 @@ def cmd_recalc(args) -> int:
         raise WorkbookError(f"{args.output}: refusing to write over the input workbook; "
                             f"choose another output path")
     summary = _recalc_into(args.input, args.output, quiet=args.quiet,
-                           values_only=args.values_only)
+                           values_only=args.values_only, engine=args.engine)
     found = audit(args.input, summary.values)
     if not found.clean:
         _report_cells(found)
@@ -213,6 +221,9 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--values-only", action="store_true",
                    help="write values without formulas (for LibreOffice and for sharing "
                         "results; charts are kept)")
+    r.add_argument("--engine", choices=("embedded", "libreoffice"), default="embedded",
+                   help="embedded (default, no other program needed) or libreoffice (headless "
+                        "LibreOffice >= 25.2 with the portflux add-in)")
     r.set_defaults(func=cmd_recalc)
     c = sub.add_parser("check", help="recalculate a workbook's reference cases and report "
                                      "PASS/FAIL (exit 1 if any fails)")
@@ -225,6 +236,9 @@ def build_parser() -> argparse.ArgumentParser:
     b = sub.add_parser("bench", help="measure speed against a bare numpy baseline")
     b.add_argument("--quick", action="store_true", help="tiny sizes (seconds), as CI runs it")
     b.set_defaults(func=cmd_bench)
+    from .addins.libreoffice.install import add_parser as add_libreoffice_parser
+
+    add_libreoffice_parser(sub)
     return p
 
 

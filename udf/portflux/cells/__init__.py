@@ -90,8 +90,14 @@ def _excel_help(f):
     """
     record = getattr(f, "__xlfunc__", None)
     if isinstance(record, dict) and isinstance(record.get("ret"), dict) and f.__doc__:
-        record["ret"]["doc"] = " ".join(f.__doc__.split("\n\n")[0].split())[:255]
+        record["ret"]["doc"] = help_text(f)
     return f
+
+
+def help_text(f) -> str:
+    """A worksheet function's help as a function dialog shows it: the docstring's first
+    paragraph on one line, at most 255 characters (Excel's limit; the Calc add-in uses it too)."""
+    return " ".join((f.__doc__ or "").split("\n\n")[0].split())[:255]
 
 
 def _guarded(name, body, *args):
@@ -565,4 +571,4 @@ def PFX_SPEEDATFORCE(ports, value, low, high, component=None, direction=None, un
 
 PUBLIC = tuple(sorted(n for n in dir() if n.startswith("PFX_")))
 
-__all__ = ["ARG_DOCS", "CATEGORY", "PUBLIC", "clear_caches", *PUBLIC]
+__all__ = ["ARG_DOCS", "CATEGORY", "PUBLIC", "clear_caches", "help_text", *PUBLIC]

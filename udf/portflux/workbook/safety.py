@@ -344,3 +344,36 @@ a registered worksheet function; refusing to evaluate the workbook
                                           f"{name}, which is neither an Excel function nor a "
                                           f"registered worksheet function; refusing to evaluate "
                                           f"the workbook")
+
+
+def check_output_path(in_path, out_path) -> None:
+    """Refuse an output path that is the input (however spelled: relative, ``..``, a symbolic
+    or hard link), has another extension, or lies in a folder that does not exist.
+
+    The rule of every recalculation engine (the LibreOffice engine calls it; the messages are
+    the embedded engine's).
+
+    >>> check_output_path("a.xlsx", "b.xlsx")
+    >>> try:
+    ...     check_output_path("a.xlsx", "b.ods")
+    ... except WorkbookFileError as e:
+    ...     print(e)
+    b.ods: the output must keep the input's extension '.xlsx'
+    """
+    in_path, out_path = os.fspath(in_path), os.fspath(out_path)
+    same = os.path.realpath(in_path) == os.path.realpath(out_path)
+    if not same:
+        try:
+            same = os.path.samefile(in_path, out_path)
+        except OSError:
+            same = False
+    if same:
+        raise WorkbookFileError(out_path, "refusing to write over the input workbook; choose "
+                                          "another output path")
+    in_ext = os.path.splitext(in_path)[1].lower()
+    if os.path.splitext(out_path)[1].lower() != in_ext:
+        raise WorkbookFileError(out_path, f"the output must keep the input's extension "
+                                          f"{in_ext!r}")
+    out_dir = os.path.dirname(os.path.abspath(out_path))
+    if not os.path.isdir(out_dir):
+        raise WorkbookFileError(out_path, f"folder {out_dir} does not exist")
