@@ -92,7 +92,7 @@ def resolve_header(text) -> str:
     if type(text) is str and text in _HEADERS:
         return _HEADERS[text]
     key = str(text).strip().lower().replace(" ", "").replace("_", "").replace("-", "")
-    if key in _LOOKUP and type(text) is str and len(_HEADERS) < 4096:
+    if key in _LOOKUP and type(text) is str and len(_HEADERS) < 4096 and len(text) <= 64:
         _HEADERS[text] = _LOOKUP[key]
     if key not in _LOOKUP:
         raise InputError(f"unknown column {shown(str(text))}; known columns: "
