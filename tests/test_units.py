@@ -67,3 +67,126 @@ def test_import_does_not_build_the_pint_registry():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
     assert out.returncode == 0, out.stderr
     assert out.stdout.strip() == "lazy"
+
+
+# --------------------------------------------------------------------------------------------
+# the built-in table (cold start without pint) against pint, the external reference library
+# --------------------------------------------------------------------------------------------
+def _pint():
+    """A fresh pint registry with portflux's three extra names (pint is the reference here)."""
+    import pint
+
+    reg = pint.UnitRegistry(cache_folder=None)
+    for d in U._EXTRA_DEFINITIONS:
+        reg.define(d)
+    return reg
+
+
+@pytest.fixture(scope="module")
+def reg():
+    return _pint()
+
+
+def _pint_si(reg, text):
+    q = reg.Quantity(1.0, reg.parse_units(text)).to_base_units()
+    dim = q.dimensionality
+    return float(q.magnitude), (dim.get("[length]", 0), dim.get("[mass]", 0), dim.get("[time]", 0))
+
+
+@pytest.mark.parametrize("name", sorted(U.TABLE))
+def test_every_table_entry_matches_pint(reg, name):
+    # pint (package registry) is the reference; the table's definitions are NIST SP 811 (2008)
+    # App. B exact values (foot 0.3048 m, pound 0.45359237 kg, g_n 9.80665 m/s^2, ...).
+    f, dim, is_angle = U.TABLE[name]
+    pf, pdim = _pint_si(reg, name)
+    assert f == pytest.approx(pf, rel=1e-15)
+    assert dim == pdim
+    assert is_angle == (name in ("deg", "degree", "°", "rad", "radian"))
+
+
+@pytest.mark.parametrize("text", sorted(U._PINNED))
+def test_pinned_factors_are_pints_bit_for_bit(reg, text):
+    # The pinned values are pint's own numbers (package registry), so a result does not move by
+    # a last bit whether or not pint is loaded.
+    pf, _ = _pint_si(reg, text)
+    assert U._PINNED[text] == pf
+    kind = next(k for k, q in U.QUANTITIES.items()
+                if text in U.TABLE and U.TABLE[text][2] and k == "angle"
+                or text in ("%", "percent") and k == "ratio"
+                or q.dimension not in ("", "angle") and _pint_si(reg, text)[1] == U._KIND_DIMS[k])
+    assert U.factor(text, kind) == pf
+
+
+@pytest.mark.parametrize("text, kind", [
+    ("kN*s^2/m^4", "density"),  # not pinned: composed from the table
+    ("mm^2", "area"), ("in^3/min", "volume_flow"), ("lbf*ft/s", "power"), ("kg/cm^3", "density"),
+    ("mi/h", "velocity"), ("ft/min", "velocity"), ("kPa*m^2/N", "ratio"), ("kW*s/m", "force"),
+    ("foot ** 2", "area"), ("(ft/s)^2*slug/ft^3", "pressure"), ("lbf / ft^2", "pressure"),
+    ("1/s*m", "velocity"), ("m^(1/2)*m^1.5", "area"),
+])
+def test_composed_table_units_match_pint(reg, text, kind):
+    pf, _ = _pint_si(reg, text)                 # pint (package registry) is the reference
+    assert U.factor(text, kind) == pytest.approx(pf, rel=1e-14)
+
+
+# every unit text the template, the examples, README and the tests type (kept working)
+PROJECT_UNITS = [
+    ("ft^2", "area"), ("slug/ft^3", "density"), ("lbf*s^2/ft^4", "density"), ("kg/m^3", "density"),
+    ("psi", "pressure"), ("psig", "pressure"), ("kPa", "pressure"), ("Pa", "pressure"),
+    ("bar", "pressure"), ("m/s", "velocity"), ("ft/s", "velocity"), ("km/h", "velocity"),
+    ("mph", "velocity"), ("knot", "velocity"), ("m^2", "area"), ("cm^2", "area"), ("in^2", "area"),
+    ("m²", "area"), ("m**2", "area"), ("deg", "angle"), ("rad", "angle"), ("°", "angle"),
+    ("m", "length"), ("in", "length"), ("ft", "length"), ("m/s^2", "acceleration"),
+    ("ft/s^2", "acceleration"), ("kg/s", "mass_flow"), ("slug/s", "mass_flow"),
+    ("lb/s", "mass_flow"), ("lbm/s", "mass_flow"), ("kg", "mass"), ("slug", "mass"),
+    ("lbm", "mass"), ("lb/ft^3", "density"), ("N", "force"), ("kN", "force"), ("lbf", "force"),
+    ("W", "power"), ("kW", "power"), ("hp", "power"), ("ft*lbf/s", "power"),
+    ("ft·lbf/s", "power"), ("ft lbf/s", "power"), ("m^3/s", "volume_flow"),
+    ("L/s", "volume_flow"), ("ft^3/s", "volume_flow"), ("gal/min", "volume_flow"),
+    ("gpm", "volume_flow"), ("%", "ratio"), ("percent", "ratio"), ("", "ratio"), ("-", "ratio"),
+    ("rpm", None), ("meter ** -1", None), ("kg m/s^2", "force"), ("m / s", "velocity"),
+]
+
+
+@pytest.mark.parametrize("text, kind", PROJECT_UNITS)
+def test_every_unit_the_project_uses_passes_the_grammar(reg, text, kind):
+    if text in ("", "-"):
+        assert U.factor(text, kind) == 1.0                  # dimensionless, no grammar needed
+        return
+    U.parse(U._clean(text))
+    if kind is not None:
+        pf, _ = _pint_si(reg, U._clean(text))       # pint (package registry) is the reference
+        assert U.factor(text, kind) == pytest.approx(pf, rel=1e-14)
+
+
+def test_common_units_never_build_the_pint_registry():
+    code = ("import sys, portflux.units as U\n"
+            "for t in U._PINNED: U.parse(t)\n"
+            "fs = [U.factor(u, k) for k in U.QUANTITIES for u in (U.QUANTITIES[k].us, "
+            "U.QUANTITIES[k].default, U.QUANTITIES[k].si)]\n"
+            "us = U.UnitSystem('US; force=kN; power=kW'); U.UnitSystem('lbf; hp')\n"
+            "print(U.registry_built(), 'pint' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.split() == ["False", "False"]
+
+
+def test_a_unit_outside_the_table_still_goes_through_pint():
+    # NIST SP 811 (2008) B.9: nautical mile = 1.852 E+03 m (exact)
+    assert "nautical_mile" not in U.TABLE
+    assert U.factor("nautical_mile", "length") == pytest.approx(1852.0, rel=1e-15)
+    assert U.registry_built()
+
+
+def test_pint_never_writes_an_on_disk_cache(tmp_path):
+    # pint's cache is a pickle; portflux builds its registry with the cache off, so no cache
+    # folder appears anywhere, shared or private.
+    env = dict(__import__("os").environ, HOME=str(tmp_path), XDG_CACHE_HOME=str(tmp_path / "c"),
+               LOCALAPPDATA=str(tmp_path / "l"))
+    code = ("import portflux.units as U; U.factor('nautical_mile', 'length'); "
+            "import pint; print(U.registry()._diskcache is None if "
+            "hasattr(U.registry(), '_diskcache') else 'n/a')")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.strip() in ("True", "n/a")
+    assert not any(tmp_path.rglob("*")), list(tmp_path.rglob("*"))

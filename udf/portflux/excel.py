@@ -11,6 +11,7 @@ It imports nothing from portflux, so every layer may use it.
 from __future__ import annotations
 
 import datetime
+import re
 
 #: Excel's error values as their display strings (what a bridge hands over for an error cell).
 ERROR_VALUES = frozenset({
@@ -53,6 +54,33 @@ def excerpt(text, limit: int = EXCERPT) -> str:
     if len(s) <= limit:
         return s
     return f"{s[:limit]}... ({len(s)} characters)"
+
+
+#: Longest message a worksheet function returns; a longer one holds a value that was not cut.
+MAX_MESSAGE = 600
+_LONG_RUN = re.compile(r"\S{%d,}" % (EXCERPT + 1))
+
+
+def bounded_message(text: str) -> str:
+    """A cell message at most :data:`MAX_MESSAGE` characters long, whatever it echoes.
+
+    Messages quote values through :func:`shown` or :func:`excerpt`; this is the safety net for a
+    path that did not: in a message over the limit, every run of more than :data:`EXCERPT`
+    characters without a space is cut to an excerpt, and what is still too long keeps its start
+    (the place) and its end (what to do).
+
+    >>> bounded_message("ports row 3, role: must be 'in' or 'out' (got 'sideways')")
+    "ports row 3, role: must be 'in' or 'out' (got 'sideways')"
+    >>> len(bounded_message("row 1: unknown '" + "x" * 10**6 + "'; fix it")) < 200
+    True
+    """
+    if len(text) <= MAX_MESSAGE:
+        return text
+    text = _LONG_RUN.sub(lambda m: excerpt(m.group()), text)
+    if len(text) <= MAX_MESSAGE:
+        return text
+    head, tail = MAX_MESSAGE * 2 // 3, MAX_MESSAGE // 4
+    return f"{text[:head]} ... ({len(text)} characters cut to their start and end) ... {text[-tail:]}"
 
 
 def shown(v) -> str:

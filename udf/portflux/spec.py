@@ -92,10 +92,10 @@ def resolve_header(text) -> str:
     if type(text) is str and text in _HEADERS:
         return _HEADERS[text]
     key = str(text).strip().lower().replace(" ", "").replace("_", "").replace("-", "")
-    if key in _LOOKUP and type(text) is str and len(_HEADERS) < 4096:
+    if key in _LOOKUP and type(text) is str and len(_HEADERS) < 4096 and len(text) <= 64:
         _HEADERS[text] = _LOOKUP[key]
     if key not in _LOOKUP:
-        raise InputError(f"unknown column {str(text)!r}; known columns: "
+        raise InputError(f"unknown column {shown(str(text))}; known columns: "
                          f"{', '.join(COLUMNS)}")
     return _LOOKUP[key]
 
@@ -118,7 +118,7 @@ def number(v, port: int, col: str) -> float:
         if s.upper() in EXCEL_ERRORS:
             raise InputError(f"holds the spreadsheet error {s}; fix the cell it comes from",
                              port=port, field=col)
-        raise InputError(f"expected a number, got text {v!r}", port=port, field=col)
+        raise InputError(f"expected a number, got text {shown(v)}", port=port, field=col)
     raise InputError(f"expected a number, got {shown(v)}", port=port, field=col)
 
 
@@ -268,7 +268,8 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
         kind = COLUMNS[key].kind
         if kind is None:
             if not is_blank(unit):
-                raise InputError(f"is a text column and takes no unit (got {unit!r})", field=key)
+                raise InputError(f"is a text column and takes no unit (got {shown(unit)})",
+                                 field=key)
             continue
         try:
             factors[key] = U.factor(unit, kind)
@@ -301,7 +302,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
     seen = {}
     for i, s in enumerate(names):
         if s in seen:
-            raise InputError(f"label {s!r} is used by port {seen[s] + 1} already; labels must "
+            raise InputError(f"label {shown(s)} is used by port {seen[s] + 1} already; labels must "
                              f"be unique", port=i, field="port")
         seen[s] = i
     roles = words("role")
@@ -309,12 +310,12 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
     frames = []
     for i, f in enumerate(frame_words):
         if f.lower() not in _FRAMES:
-            raise InputError(f"must be 'abs' or 'rel' (got {f!r})", port=i, field="frame")
+            raise InputError(f"must be 'abs' or 'rel' (got {shown(f)})", port=i, field="frame")
         frames.append(_FRAMES[f.lower()])
     kinds = []
     for i, c in enumerate(words("closure")):
         if c.lower() not in _CLOSURES:
-            raise InputError(f"must be one of given, free, loss, bernoulli, solve (got {c!r})",
+            raise InputError(f"must be one of given, free, loss, bernoulli, solve (got {shown(c)})",
                              port=i, field="closure")
         kinds.append(_CLOSURES[c.lower()])
     # closed outlets read their direction only (an inlet with a closure is refused later)
@@ -334,7 +335,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
         if frame_words[i] and not frames[i]:
             raise InputError(f"closure {kinds[i]!r} sets the outlet's relative velocity: its "
                              f"direction is read in the moving frame; give frame 'rel' or leave "
-                             f"it blank (got {frame_words[i]!r})", port=i, field="frame")
+                             f"it blank (got {shown(frame_words[i])})", port=i, field="frame")
     for i in _where(~has_s & has_a & (has_c | ~closed)):
         if not has_s[i] and has_a[i] and not has_c[i] and not closed[i]:
             raise InputError("angle or tilt is given without a speed", port=i, field="speed")
@@ -412,8 +413,8 @@ def _in_user_units(e: InputError, table: dict, units: dict) -> InputError:
     raw = table[e.field][e.port]
     unit = units.get(e.field)
     kind = COLUMNS[e.field].kind
-    shown = f"{raw:g}" if isinstance(raw, (int, float)) and not isinstance(raw, bool) else repr(raw)
+    got = f"{raw:g}" if isinstance(raw, (int, float)) and not isinstance(raw, bool) else shown(raw)
     if kind not in (None, "ratio"):
-        shown += f" {U.display(unit, kind)}"
-    msg = e.message[:e.message.index("(got ")] + f"(got {shown})"
+        got += f" {U.display(unit, kind)}"
+    msg = e.message[:e.message.index("(got ")] + f"(got {got})"
     return InputError(msg, argument=e.argument, port=e.port, field=e.field)

@@ -33,6 +33,7 @@ from . import _speeds as S
 from ._grid import CellError
 from ._inputs import clear_caches
 from ..core import PortfluxError
+from ..excel import bounded_message
 
 CATEGORY = "portflux"
 
@@ -105,7 +106,7 @@ def _guarded(name, body, *args):
     try:
         return body(*args)
     except (CellError, PortfluxError) as e:
-        return str(e)
+        return bounded_message(str(e))
     except Exception as e:  # noqa: BLE001 - a worksheet function must not raise
         msg = " ".join(str(e).split())[:160]
         return f"portflux: internal error in {name}: {type(e).__name__}: {msg}"

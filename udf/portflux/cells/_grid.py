@@ -160,7 +160,7 @@ def describe(v) -> str:
     if isinstance(v, bool):
         return f"the boolean {str(v).upper()}"
     if isinstance(v, str):
-        return f"text {v!r}"
+        return f"text {shown(v)}"
     return shown(v)
 
 

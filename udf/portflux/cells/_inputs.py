@@ -24,7 +24,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from functools import lru_cache
 
 import numpy as np
 
@@ -33,6 +32,8 @@ from .. import units as U
 from ..core import (FREE, LOSS, SOLVE, STANDARD_GRAVITY, Balance, ClosedBalance, Closures,
                     InputError, OutsideScopeError, balance, balance_closed, polar_velocity)
 from ..core.balance import DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN
+from ..excel import bounded_message
+from ._memo import memory_lru
 from ._grid import (CellError, blank_row, describe, error_value, freeze, is_blank, number,
                     one_cell, rows, trim)
 
@@ -41,14 +42,15 @@ FIRST_PORT_ROW = 3
 
 
 def _cached(maxsize):
-    """lru_cache that also remembers failures (as their message, re-raised as a new CellError)."""
+    """An LRU cache bounded by entries and memory (:mod:`._memo`) that also remembers failures
+    (as their message, at most a short excerpt of any long value, re-raised as a CellError)."""
     def wrap(parse):
-        @lru_cache(maxsize=maxsize, typed=True)
+        @memory_lru(maxsize)
         def remember(key):
             try:
                 return True, parse(key)
             except CellError as e:
-                return False, str(e)
+                return False, bounded_message(str(e))
 
         def get(key):
             ok, value = remember(key)
@@ -58,6 +60,7 @@ def _cached(maxsize):
 
         get.cache_clear = remember.cache_clear
         get.cache_info = remember.cache_info
+        get.cache = remember.cache
         return get
     return wrap
 
@@ -441,7 +444,7 @@ def closures_for(t: Table, s: Settings, *, kinematic=False) -> Closures | None:
     return c
 
 
-@lru_cache(maxsize=512, typed=True)
+@memory_lru(512)
 def _evaluate(pkey, ckey, skey, tol, kinematic=False):
     try:
         t = _table(pkey)

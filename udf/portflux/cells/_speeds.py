@@ -20,6 +20,7 @@ import numpy as np
 from .. import units as U
 from ..core import InputError, OutsideScopeError, best_speed, speed_at_force, speed_table
 from ._functions import _value
+from ..excel import shown
 from ._grid import (CellError, describe, error_value, freeze, is_blank, is_number, number, rows,
                     scalar_text, trim)
 from ._inputs import _render, setup, unit_system
@@ -34,6 +35,13 @@ TABLE_COLUMNS = (
     ("power to body", "power"), ("jet efficiency", "ratio"),
 )
 COMPONENTS = ("x", "y", "z", "along", "magnitude")
+
+#: Speeds at or above the speed of light [m/s] (CODATA, exact by the SI definition of the metre)
+#: are refused: the steady moving-CV balance is Newtonian mechanics, and squares of larger
+#: speeds overflow a float.
+SPEED_LIMIT = 299_792_458.0
+_LIMIT_TEXT = (f"a speed must be below the speed of light ({SPEED_LIMIT:.0f} m/s), where "
+               f"Newtonian momentum balances hold")
 
 
 @contextmanager
@@ -116,7 +124,7 @@ def parse_speeds(raw):
         unit, start = cells[0].strip(), 1
     if len(cells) <= start:
         raise CellError("speeds: holds no speed; give a column of speeds, optionally led by a "
-                        "unit cell such as 'ft/s'" + (f" (found only the unit {unit!r})"
+                        "unit cell such as 'ft/s'" + (f" (found only the unit {shown(unit)})"
                                                       if unit else ""))
     body = cells[start:] if start else cells
     kinds = set(map(type, body))
@@ -141,7 +149,14 @@ def parse_speeds(raw):
         f = U.factor(unit or None, "velocity")
     except InputError as e:
         raise CellError(f"speeds {word} 1 (the unit cell): {e.message}") from None
-    return u * f if f != 1.0 else u, unit, start
+    si = u * f if f != 1.0 else u
+    with np.errstate(invalid="ignore"):
+        fast = np.flatnonzero(np.abs(si) >= SPEED_LIMIT)
+    if fast.size:
+        k = int(fast[0])
+        raise CellError(f"speeds {word} {k + start + 1}: {_LIMIT_TEXT} (got {u[k]:g} "
+                        f"{U.display(unit, 'velocity')}); check the cell")
+    return si, unit, start
 
 
 def _number_and_unit(raw, where, kind, default):
@@ -162,8 +177,8 @@ def _number_and_unit(raw, where, kind, default):
         try:
             U.factor(unit, kind)
         except InputError:
-            raise CellError(f"{where}: expected a number, got text {unit!r}") from None
-        raise CellError(f"{where}: holds only the unit {unit!r}; put the number before it")
+            raise CellError(f"{where}: expected a number, got text {shown(unit)}") from None
+        raise CellError(f"{where}: holds only the unit {shown(unit)}; put the number before it")
     if len(cells) > 1:
         raise CellError(f"{where}: expected one number and an optional unit cell, got "
                         f"{len(cells) + (unit is not None)} cells")
@@ -201,13 +216,17 @@ def parse_component(raw) -> str:
     c = scalar_text(raw, "component") or "along"
     if c not in COMPONENTS:
         raise CellError(f"component: must be x, y, z, along (the direction of motion) or "
-                        f"magnitude (got {c!r})")
+                        f"magnitude (got {shown(c)})")
     return c
 
 
 def _bracket(low, high):
     lo, lo_typed, lo_unit = _number_and_unit(low, "low", "velocity", "m/s")
     hi, hi_typed, hi_unit = _number_and_unit(high, "high", "velocity", "m/s")
+    for name, si, typed, unit in (("low", lo, lo_typed, lo_unit), ("high", hi, hi_typed, hi_unit)):
+        if not abs(si) < SPEED_LIMIT:
+            raise CellError(f"{name}: the bracket's {name} end is out of range: {_LIMIT_TEXT} "
+                            f"(got {typed:g} {unit}); give the speed range the body runs at")
     if not lo < hi:
         raise CellError(f"low, high: low must be below high (got low {lo_typed:g} {lo_unit}, "
                         f"high {hi_typed:g} {hi_unit})")

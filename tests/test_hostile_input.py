@@ -1,0 +1,196 @@
+"""Every worksheet function answers hostile input within a bounded time, with a short message.
+
+A worksheet function runs inside the user's spreadsheet process: a hang freezes their Excel. The
+inputs below used to make pint compute exponent towers (``m**9**9**9``), parse for minutes (a
+megabyte of unit text; ``"m" * 40000`` took 23 s and grew as n^2), echo a 10^6-character cell
+whole, or answer a bracket of +-1e308 with "entry 1 is nan". Each must now come back as a
+message naming the argument, well within one second (the cap is generous on purpose: this is a
+bound, not a benchmark), and no longer than a message should be. Port data are invented.
+"""
+
+import time
+
+import pytest
+
+import portflux.cells as C
+import portflux.units as U
+from portflux.excel import MAX_MESSAGE
+
+HEAD = ("port", "role", "area", "density", "vx")
+UNITS = (None, None, "ft^2", "slug/ft^3", "ft/s")
+JET = ("jet", "in", 0.05, 1.94, 80.0)
+EXIT = ("exit", "out", 0.05, 1.94, 80.0)
+GOOD = (HEAD, UNITS, JET, EXIT)
+CLOSED = (("port", "role", "area", "density", "speed", "angle", "closure"),
+          (None, None, "cm^2", "kg/m^3", "m/s", "deg", None),
+          ("jet", "in", 20.0, 998.0, 30.0, 0.0, None),
+          ("exit", "out", 20.0, 998.0, None, 150.0, "free"))
+
+TOWER = "m**9**9**9"
+CHAIN = "m^2^2^2^2^2^2^2^2^2^2"
+MEGA = "m" * 10 ** 6            # a unit text of a million characters
+SLOW = "m" * 40000              # took 23 s in pint
+LONG = "x" * 32767              # the longest text a cell holds
+HUGE = "y" * 10 ** 6            # longer than a cell holds (Python callers, other bridges)
+BOUND_S = 1.0                   # "within one second" (issue 11); typical answers take ~1 ms
+
+
+def units_row(col, text):
+    u = list(UNITS)
+    u[HEAD.index(col)] = text
+    return (HEAD, tuple(u), JET, EXIT)
+
+
+def cell(row, col, value):
+    r = list(row)
+    r[HEAD.index(col)] = value
+    return tuple(r)
+
+
+HOSTILE = [
+    # ---- unit texts, every path that hands text to pint ------------------------------------
+    ("exponent tower in the unit row", C.PFX_POWER, (units_row("vx", TOWER), 1.0),
+     ["ports row 2, vx: unknown unit 'm**9**9**9': powers of powers are not accepted"]),
+    ("chained carets in the unit row", C.PFX_POWER, (units_row("area", CHAIN), 1.0),
+     ["ports row 2, area: unknown unit 'm^2^2^2^2", "powers of powers"]),
+    ("a megabyte of unit text in the unit row", C.PFX_POWER, (units_row("density", MEGA), 1.0),
+     ["ports row 2, density: unit text 'mmmm", "(1000000 characters)", "at most 64"]),
+    ("40000 m in the unit row", C.PFX_POWER, (units_row("vx", SLOW), 1.0),
+     ["ports row 2, vx: unit text", "(40000 characters)"]),
+    ("huge power in the unit row", C.PFX_POWER, (units_row("area", "ft^999999999"), 1.0),
+     ["ports row 2, area: unknown unit 'ft^999999999'", "a power must be a small number"]),
+    ("nested parentheses in the unit row", C.PFX_POWER,
+     (units_row("area", "(" * 30 + "m" + ")" * 30), 1.0),
+     ["ports row 2, area: unknown unit", "parentheses nested more than 4 deep"]),
+    ("powers of a group in the unit row", C.PFX_POWER, (units_row("area", "((m^9)^9)^9"), 1.0),
+     ["ports row 2, area: unknown unit '((m^9)^9)^9': m is raised to the power 81"]),
+    ("exponent tower in the CV velocity's unit cell", C.PFX_POWER, (GOOD, (10.0, TOWER)),
+     ["cv_velocity, unit cell 2: unknown unit 'm**9**9**9'", "expected a velocity unit"]),
+    ("a megabyte of unit text in the CV velocity's unit cell", C.PFX_POWER, (GOOD, (10.0, MEGA)),
+     ["cv_velocity, unit cell 2: unit text 'mmm", "(1000000 characters)"]),
+    ("exponent tower in a settings unit", C.PFX_POWER,
+     (GOOD, 1.0, None, (("gz", -9.8, TOWER),)),
+     ["settings row 1, gz unit: unknown unit 'm**9**9**9'"]),
+    ("a megabyte of unit text in a settings unit", C.PFX_POWER,
+     (GOOD, 1.0, None, (("fluid_mass", 1.0, MEGA),)),
+     ["settings row 1, fluid_mass unit: unit text 'mmm", "(1000000 characters)"]),
+    ("exponent tower as the output units", C.PFX_POWER, (GOOD, 1.0, TOWER),
+     ["units: unknown unit 'm**9**9**9': powers of powers"]),
+    ("exponent tower in an output-unit override", C.PFX_POWER, (GOOD, 1.0, "US; force=" + TOWER),
+     ["units: unknown unit 'm**9**9**9'", "expected a force unit"]),
+    ("a megabyte of output units", C.PFX_POWER, (GOOD, 1.0, MEGA),
+     ["units: 'mmm", "(1000000 characters)' is too long", "give SI, US"]),
+    ("many output-unit parts", C.PFX_POWER, (GOOD, 1.0, "; ".join(["lbf"] * 5000)),
+     ["units: 'lbf; lbf", "too long"]),
+    ("exponent tower in the speeds' unit cell", C.PFX_SPEEDTABLE, (GOOD, (TOWER, 1.0, 2.0)),
+     ["speeds cell 1 (the unit cell): unknown unit 'm**9**9**9'"]),
+    ("a megabyte of unit text in the speeds' unit cell", C.PFX_SPEEDTABLE, (GOOD, (MEGA, 1.0)),
+     ["speeds cell 1 (the unit cell): unit text 'mmm", "(1000000 characters)"]),
+    ("exponent tower in the bracket's unit", C.PFX_BESTSPEED, (CLOSED, 0.0, (30.0, TOWER)),
+     ["high, unit: unknown unit 'm**9**9**9'"]),
+    ("exponent tower in the force value's unit", C.PFX_SPEEDATFORCE,
+     (CLOSED, (10.0, TOWER), 0.0, 30.0), ["value, unit: unknown unit 'm**9**9**9'"]),
+    ("exponent tower in the direction's unit", C.PFX_SPEEDTABLE,
+     (GOOD, (1.0, 2.0), (30.0, TOWER)), ["direction, unit: unknown unit 'm**9**9**9'"]),
+    # ---- long values echoed in messages ----------------------------------------------------
+    ("a megabyte header", C.PFX_POWER, (((HUGE,) + HEAD[1:], UNITS, JET, EXIT), 1.0),
+     ["ports row 1, column 1: unknown column 'yyyy", "(1000000 characters)", "known columns"]),
+    ("a full cell of text where a number belongs", C.PFX_POWER,
+     ((HEAD, UNITS, cell(JET, "area", LONG), EXIT), 1.0),
+     ["ports row 3, area: expected a number, got text 'xxx", "(32767 characters)"]),
+    ("a full cell of text as the role", C.PFX_POWER,
+     ((HEAD, UNITS, cell(JET, "role", LONG), EXIT), 1.0),
+     ["ports row 3, role: must be 'in' or 'out'"]),
+    ("a full cell of text as a text column's unit", C.PFX_POWER, (units_row("role", LONG), 1.0),
+     ["ports row 2, role: a text column takes no unit"]),
+    ("a megabyte port label used twice", C.PFX_POWER,
+     ((HEAD, UNITS, cell(JET, "port", HUGE), cell(EXIT, "port", HUGE)), 1.0),
+     ["ports row 4, port: label 'yyy", "(1000000 characters)' is used by port 1 already"]),
+    ("a megabyte frame word", C.PFX_POWER,
+     ((HEAD + ("frame",), UNITS + (None,), JET + (HUGE,), EXIT + ("rel",)), 1.0),
+     ["ports row 3, frame: must be 'abs' or 'rel' (got 'yyy", "(1000000 characters)"]),
+    ("a megabyte closure word", C.PFX_POWER,
+     (CLOSED[:3] + (CLOSED[3][:6] + (HUGE,),), 1.0),
+     ["ports row 4, closure: must be one of given, free, loss, bernoulli, solve (got 'yyy"]),
+    ("a megabyte settings name", C.PFX_POWER, (GOOD, 1.0, None, ((HUGE, 1.0, None),)),
+     ["settings row 1: unknown setting 'yyy", "known: fluid_mass"]),
+    ("a megabyte intercept word", C.PFX_POWER, (GOOD, 1.0, None, (("intercept", HUGE, None),)),
+     ["settings row 1, intercept: must be 'single' or 'train' (got text 'yyy"]),
+    ("a megabyte axis word", C.PFX_SUPPORT, (GOOD, 1.0, HUGE), ["axis: must be x, y or z"]),
+    ("a megabyte efficiency kind", C.PFX_EFFICIENCY, (GOOD, 1.0, HUGE), ["kind: "]),
+    ("a megabyte component word", C.PFX_SPEEDATFORCE, (CLOSED, 10.0, 0.0, 30.0, HUGE),
+     ["component: must be x, y, z, along", "(got 'yyy"]),
+    ("a megabyte port argument", C.PFX_RELVEL, (GOOD, 1.0, HUGE),
+     ["port: no port labelled 'yyy", "labels: jet, exit"]),
+    ("a megabyte labels flag", C.PFX_RELVELS, (GOOD, 1.0, None, HUGE),
+     ["labels: must be TRUE or FALSE (got text 'yyy"]),
+    ("a megabyte CV velocity text", C.PFX_POWER, (GOOD, HUGE), ["cv_velocity"]),
+    ("a megabyte speed cell", C.PFX_SPEEDTABLE, (GOOD, ("m/s", 1.0, HUGE)),
+     ["speeds cell 3: expected a speed (a number), got text 'yyy"]),
+    ("a megabyte tolerance text", C.PFX_IMBALANCE, (GOOD, 1.0, HUGE),
+     ["tolerance: expected a number, got text 'yyy"]),
+    # ---- overflowing numbers ---------------------------------------------------------------
+    ("bracket of +-1e308 for the best speed", C.PFX_BESTSPEED, (CLOSED, -1e308, 1e308),
+     ["low: the bracket's low end is out of range", "speed of light", "(got -1e+308 m/s)"]),
+    ("bracket up to 1e308 for the best speed", C.PFX_BESTSPEED, (CLOSED, 0.0, 1e308),
+     ["high: the bracket's high end is out of range", "(got 1e+308 m/s)"]),
+    ("bracket of +-1e308 for the speed at a force", C.PFX_SPEEDATFORCE,
+     (CLOSED, 10.0, -1e308, 1e308), ["low: the bracket's low end is out of range"]),
+    ("bracket end that overflows in its unit", C.PFX_SPEEDATFORCE,
+     (CLOSED, 10.0, 0.0, (1e306, "km/s")), ["high: the bracket's high end is out of range",
+                                             "(got 1e+306 km/s)"]),
+    ("speed of 1e308 in a speed table", C.PFX_SPEEDTABLE, (GOOD, ("ft/s", 10.0, 1e308)),
+     ["speeds cell 3: a speed must be below the speed of light", "(got 1e+308 ft/s)"]),
+    ("speed of -1e308 in a speed column", C.PFX_SPEEDTABLE, (GOOD, ((1.0,), (-1e308,))),
+     ["speeds row 2: a speed must be below the speed of light"]),
+]
+
+
+@pytest.fixture(autouse=True)
+def fresh_caches():
+    C.clear_caches()
+    yield
+
+
+@pytest.mark.parametrize("name, func, args, fragments", HOSTILE, ids=[h[0] for h in HOSTILE])
+def test_hostile_input_is_answered_within_a_second_with_a_short_message(name, func, args,
+                                                                          fragments):
+    U._factor.cache_clear()
+    U.parse.cache_clear()
+    t0 = time.perf_counter()
+    out = func(*args)
+    elapsed = time.perf_counter() - t0
+    assert elapsed < BOUND_S, f"{name}: {elapsed:.2f} s"
+    assert isinstance(out, str), out
+    assert not out.startswith("portflux: internal error"), out
+    assert len(out) <= MAX_MESSAGE, len(out)
+    for fragment in fragments:
+        assert fragment in out, (fragment, out)
+
+
+@pytest.mark.parametrize("text", [TOWER, CHAIN, MEGA, SLOW, "m^(9**9)", "((((m))))^12^12"])
+def test_hostile_unit_texts_never_reach_pint(monkeypatch, text):
+    def no_pint():
+        raise AssertionError("pint was asked to read a hostile unit text")
+    monkeypatch.setattr(U, "registry", no_pint)
+    U._factor.cache_clear()
+    with pytest.raises(U.InputError):
+        U.factor(text, "length")
+    with pytest.raises(U.InputError):
+        U.UnitSystem(f"US; force={text}")
+
+
+def test_a_unit_text_payload_never_runs(tmp_path, monkeypatch):
+    # If any reader evaluated unit text as Python, these would create the marker file.
+    monkeypatch.chdir(tmp_path)
+    marker = tmp_path / "marker"
+    payloads = [f"__import__('pathlib').Path('{marker}').touch()",
+                f"m*__import__('os').system('touch {marker}')",
+                "m*eval(\"open('marker','w')\")", "[open('marker','w')]"]
+    for p in payloads:
+        out = C.PFX_POWER(units_row("vx", p), 1.0)
+        assert isinstance(out, str) and out.startswith(("ports row 2, vx: unit text",
+                                                        "ports row 2, vx: unknown unit")), out
+        assert isinstance(C.PFX_POWER(GOOD, 1.0, p), str)
+        assert isinstance(C.PFX_SPEEDTABLE(GOOD, (p, 1.0)), str)
+    assert not marker.exists()
