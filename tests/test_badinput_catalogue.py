@@ -319,7 +319,7 @@ CATALOGUE = [
      ["settings row 1, intercept: must be 'single' or 'train' (got text 'wheel')"]),
     # ---- settings ranges -------------------------------------------------------------------
     ("settings set twice", C.PFX_WARNINGS, (GOOD, 10.0, (("gz", -9.8, None), ("gz", -9.7, None))),
-     ["settings rows 1 and 2 both set gz; keep one"]),
+     ["settings rows 1 and 2: both set gz; keep one"]),
     ("accelerating CV in the settings", C.PFX_SUMMARY, (GOOD, 10.0, None, (("ax", 1.0, "m/s^2"),)),
      ["settings row 1, ax: an accelerating control volume is outside the steady inertial form"]),
     ("settings given as one word", C.PFX_ABSVEL, (GOOD, 10.0, None, False, "gz"),

@@ -242,7 +242,7 @@ def _row(table, label, **cells):
     ((("slip_x", 0.0, None), ("slip_y", 0.0, None)),
      "settings rows 1, 2: slip_x, slip_y, slip_z give a zero-length direction"),
     ((("slip_x", 1.0, None), ("slip_x", 2.0, None)),
-     "settings rows 1 and 2 both set slip_x; keep one"),
+     "settings rows 1 and 2: both set slip_x; keep one"),
     ((("slip_angle", 40.0, "m"),), "settings row 1, slip_angle unit: unit 'm' is not an angle"),
     ((("slip_angle", 130.0, "deg"),), "settings, no-force directions (slip_angle rows, "
                                       "slip_x/slip_y/slip_z): the no-force directions and the "

@@ -112,7 +112,7 @@ def test_bad_cv_velocity_names_the_cell(cv, expected):
     ((("gravity", 9.8, "m/s^2"),), "settings row 1: unknown setting 'gravity'; known: fluid_mass"),
     ((("setting", "value", "unit"), (None, None, None), ("fluidmas", 2.0, "kg")),
      "settings row 3: unknown setting 'fluidmas'"),
-    ((("gz", -9.8, None), ("GZ", -9.81, None)), "settings rows 1 and 2 both set gz; keep one"),
+    ((("gz", -9.8, None), ("GZ", -9.81, None)), "settings rows 1 and 2: both set gz; keep one"),
     ((("fluid_mass", -1.0, "kg"),), "settings row 1, fluid_mass: must be >= 0 (got -1 kg)"),
     ((("fluid_mass", 1.0, "m"),), "settings row 1, fluid_mass unit: unit 'm' is a length unit"),
     ((("fluid_mass", None, "kg"),), "settings row 1, fluid_mass: is blank; give a number"),

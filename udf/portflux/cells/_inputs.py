@@ -313,7 +313,7 @@ def _settings(key) -> Settings:
                             f"{', '.join(s[0] for s in SETTINGS.values())}")
         shown, kind, _ = SETTINGS[k]
         if k in seen and k not in _REPEATABLE:
-            raise CellError(f"settings rows {seen[k]} and {i} both set {shown}; keep one")
+            raise CellError(f"settings rows {seen[k]} and {i}: both set {shown}; keep one")
         seen.setdefault(k, i)
         value = r[1] if len(r) > 1 else None
         unit = r[2] if len(r) > 2 else None

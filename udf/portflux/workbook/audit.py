@@ -41,8 +41,8 @@ def _message_pattern() -> re.Pattern:
     names = "|".join(sorted((re.escape(n) for n in ARG_DOCS), key=len, reverse=True))
     # "ports: ...", "ports row 4, area: ...", "speeds row 5: ...", "settings row 2, gx: ...",
     # "portflux: internal error in PFX_X: ..." -- but not "port jet: declared inlet ..." (a flag).
-    return re.compile(rf"^(?:(?:{names})(?: (?:row|cell|column) \d+)?(?:, [^:\n]{{1,80}})?: "
-                      rf"|portflux: )")
+    return re.compile(rf"^(?:(?:{names})(?: (?:rows?|cells?|columns?) \d+[^:,\n]{{0,60}})?"
+                      rf"(?:, [^:\n]{{1,80}})?: |portflux: )")
 
 
 _PATTERN: re.Pattern | None = None
