@@ -20,7 +20,7 @@ try:
 except ImportError:
     sys.path.insert(0, os.path.join(os.path.dirname(__file__), "..", "udf"))
 
-from portflux.workbook import engine
+from portflux.workbook import engine, writeback
 from portflux.workbook.engine import RecalcError, Recalculator, recalc_file
 
 # Input data of the test workbook: (tag, mass flow, ux, uy)  -- invented.
@@ -458,7 +458,7 @@ def test_recalc_file_failure_leaves_previous_output_and_no_temp_file(
     def fail(*args, **kwargs):
         raise OSError("disk full (simulated)")
 
-    monkeypatch.setattr(engine, "_patch_sheet_xml", fail)
+    monkeypatch.setattr(writeback, "patch_sheet_xml", fail)
     with pytest.raises(OSError, match="simulated"):
         recalc_file(book, str(out), FUNCS)
     assert out.read_bytes() == b"previous result"
