@@ -2,8 +2,9 @@
 
 On POSIX systems :func:`run_contained` forks a child, lowers its address-space limit
 (``RLIMIT_AS``: what the parent already maps plus :data:`DEFAULT_LIMITS` ``memory_bytes``) and its
-CPU-time limit (``RLIMIT_CPU``), runs the function there and sends the (pickled, plain) result back
-through a pipe. The parent waits at most ``wall_seconds`` and kills the child after that. A child
+CPU-time limit (``RLIMIT_CPU``), runs the function there and sends its result back through a pipe
+as JSON (plain data only: the parent never unpickles what a child that read a hostile file
+sends). The parent waits at most ``wall_seconds`` and kills the child after that. A child
 that runs out of memory, exceeds its CPU time, dies or is killed becomes a :class:`RecalcError`
 naming the workbook; a Python traceback never reaches the user.
 
@@ -15,8 +16,8 @@ what a well-formed but enormous workbook can cost.
 
 from __future__ import annotations
 
+import json
 import os
-import pickle
 import select
 import signal
 import sys
@@ -75,9 +76,11 @@ def _child(fn, write_fd, limits):
         except BaseException as exc:  # noqa: BLE001 - reported to the parent, never shown raw
             payload = ("fault", f"{type(exc).__name__}: {exc}")
         try:
-            data = pickle.dumps(payload, protocol=pickle.HIGHEST_PROTOCOL)
+            data = json.dumps(payload, allow_nan=False).encode()
         except MemoryError:
-            data = pickle.dumps(("memory", None))
+            data = json.dumps(["memory", None]).encode()
+        except (TypeError, ValueError) as exc:
+            data = json.dumps(["fault", f"result is not plain data ({exc})"]).encode()
         view = memoryview(data)
         while view:
             n = os.write(write_fd, view)
@@ -89,7 +92,8 @@ def _child(fn, write_fd, limits):
 
 
 def run_contained(fn, what: str, **limits):
-    """``fn()`` evaluated in a limited child process; its result (must pickle).
+    """``fn()`` evaluated in a limited child process; its result (plain JSON data: dicts with
+    text keys, lists, text, numbers, logicals, None; tuples come back as lists).
 
     ``what`` names the workbook in messages. Keyword overrides of :data:`DEFAULT_LIMITS`.
 
@@ -144,7 +148,10 @@ def run_contained(fn, what: str, **limits):
         raise RecalcError(f"{what}: the recalculation stopped: {why} (limits: "
                           f"{lim['memory_bytes'] / 2**30:g} GiB memory, {lim['cpu_seconds']} s "
                           f"CPU)")
-    kind, value = pickle.loads(b"".join(chunks))     # our own child's bytes
+    try:
+        kind, value = json.loads(b"".join(chunks))
+    except (ValueError, TypeError):
+        raise RecalcError(f"{what}: the recalculation sent an unreadable result") from None
     if kind == "ok":
         return value
     if kind == "refused":

@@ -97,8 +97,9 @@ def _evaluate(data: bytes, name: str, functions):
     calc = Recalculator(None, functions, package=package)
     values = calc.evaluate()
     parts = {title: calc.sheet_part(title) for title in calc.sheets}
-    return (values, parts, package.book_part, package.strings, len(calc.formula_cells),
-            len(calc.array_ranges))
+    return {"values": [[s, c, v] for (s, c), v in values.items()], "parts": parts,
+            "book_part": package.book_part, "strings": package.strings,
+            "formulas": len(calc.formula_cells), "arrays": len(calc.array_ranges)}
 
 
 def recalc_file(in_path, out_path, functions: Mapping[str, Callable], *,
@@ -155,8 +156,11 @@ def recalc_file(in_path, out_path, functions: Mapping[str, Callable], *,
     except WorkbookFileError as exc:
         raise RecalcError(str(exc)) from None
     name = os.path.basename(in_path)
-    values, parts, book_part, strings, n_formulas, n_arrays = run_contained(
-        lambda: _evaluate(data, name, functions), in_path, **dict(limits or {}))
+    got = run_contained(lambda: _evaluate(data, name, functions), in_path,
+                        **dict(limits or {}))
+    values = {(s, c): v for s, c, v in got["values"]}
+    parts, book_part, strings = got["parts"], got["book_part"], got["strings"]
+    n_formulas, n_arrays = got["formulas"], got["arrays"]
 
     by_part: dict[str, dict] = {}
     titles = {}
