@@ -75,6 +75,7 @@ _TOKEN = re.compile(
     re.IGNORECASE)
 
 _LEVELS = (("=", "<>", "<", ">", "<=", ">="), ("&",), ("+", "-"), ("*", "/"), ("^",))
+_LEVEL_OF = {op: k for k, ops in enumerate(_LEVELS) for op in ops}
 _PART = re.compile(r"\$?([A-Za-z]{1,3})?\$?([0-9]{1,7})?")
 
 
@@ -147,8 +148,8 @@ def _tokens(text: str):
         pos = m.end()
         if kind == "ws":
             continue
-        out.append((kind, m))
-    out.append(("end", None))
+        out.append((kind, m.group(kind), m))
+    out.append(("end", "", None))
     return out
 
 
@@ -159,27 +160,29 @@ class _Parser:
         self.depth = 0
 
     def peek_op(self):
-        kind, m = self.toks[self.i]
-        return m.group("op") if kind == "op" else None
+        tok = self.toks[self.i]
+        return tok[1] if tok[0] == "op" else None
 
     def expect(self, op):
         if self.peek_op() != op:
-            kind, m = self.toks[self.i]
-            got = "the end of the formula" if kind == "end" else repr(m.group(0))
+            kind, text, _ = self.toks[self.i]
+            got = "the end of the formula" if kind == "end" else repr(text)
             raise FormulaSyntaxError(f"expected {op!r} but found {got}")
         self.i += 1
 
-    def expression(self, level=0):
-        if level == len(_LEVELS):
-            return self.unary()
-        ops = _LEVELS[level]
-        first = self.expression(level + 1)
-        rest = []
-        while self.peek_op() in ops:
-            op = self.peek_op()
-            self.i += 1
-            rest.append((op, self.expression(level + 1)))
-        return ("ops", first, tuple(rest)) if rest else first
+    def expression(self, min_level=0):
+        """Precedence climbing; operators of one level are gathered into one ("ops") node."""
+        left = self.unary()
+        while True:
+            level = _LEVEL_OF.get(self.peek_op())
+            if level is None or level < min_level:
+                return left
+            rest = []
+            while _LEVEL_OF.get(self.peek_op()) == level:
+                op = self.peek_op()
+                self.i += 1
+                rest.append((op, self.expression(level + 1)))
+            left = ("ops", left, tuple(rest))
 
     def unary(self):
         signs = 0
@@ -198,7 +201,7 @@ class _Parser:
             raise FormulaSyntaxError(f"the formula nests more than {MAX_DEPTH} levels deep")
 
     def primary(self):
-        kind, m = self.toks[self.i]
+        kind, _, m = self.toks[self.i]
         self.i += 1
         if kind == "num":
             return ("num", float(m.group(0)))
@@ -254,7 +257,7 @@ class _Parser:
             sign = 1.0
             if self.peek_op() == "-":
                 sign, self.i = -1.0, self.i + 1
-            kind, m = self.toks[self.i]
+            kind, _, m = self.toks[self.i]
             self.i += 1
             if kind == "num":
                 row.append(sign * float(m.group(0)))
@@ -304,9 +307,9 @@ def parse(text: str):
     if p.toks[0][0] == "end":
         raise FormulaSyntaxError("the formula is empty")
     node = p.expression()
-    kind, m = p.toks[p.i]
+    kind, text, _ = p.toks[p.i]
     if kind != "end":
-        raise FormulaSyntaxError(f"unexpected {m.group(0)!r} after the end of an expression")
+        raise FormulaSyntaxError(f"unexpected {text!r} after the end of an expression")
     return node
 
 

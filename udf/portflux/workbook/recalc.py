@@ -28,6 +28,8 @@ formula is data that selects closures from a fixed table, or is refused.
 
 from __future__ import annotations
 
+import contextlib
+import gc
 import math
 import numbers
 import os
@@ -50,6 +52,21 @@ _AGGREGATES = {"SUM", "MIN", "MAX", "AVERAGE", "PRODUCT", "SUMSQ", "COUNT", "COU
                "SUMPRODUCT", "AND", "OR", "XOR", "ROWS", "COLUMNS"}
 _RANGE_ARGS = {"INDEX": {0}, "MATCH": {1}, "VLOOKUP": {1}, "HLOOKUP": {1}}
 _RUNTIME_REFERENCES = {"INDIRECT", "OFFSET"}
+
+
+@contextlib.contextmanager
+def _collector_paused():
+    """Pause the cyclic garbage collector: building and running ten thousands of closures
+    otherwise triggers full collections whose cost grows with the heap (quadratic overall).
+    Nothing built here forms reference cycles that need it."""
+    if not gc.isenabled():
+        yield
+        return
+    gc.disable()
+    try:
+        yield
+    finally:
+        gc.enable()
 
 
 class _CellFailure(Exception):
@@ -209,7 +226,7 @@ def check_functions(functions: Mapping[str, Callable]) -> dict:
 
 
 class _Formula:
-    __slots__ = ("sheet", "rc", "coord", "text", "node", "run", "area", "refs", "failure",
+    __slots__ = ("sheet", "rc", "coord", "text", "top", "run", "area", "refs", "failure",
                  "direct_call")
 
     def __init__(self, sheet, rc, text, area):
@@ -287,8 +304,9 @@ class Recalculator:
                 self._owner[(s.title, rc)] = idx
                 if area is not None:
                     self._claim_area(s, idx, rc, area)
-        self._compile_all()
-        self._order, self._dependants = self._sort()
+        with _collector_paused():
+            self._compile_all()
+            self._order, self._dependants = self._sort()
         self._position = {idx: k for k, idx in enumerate(self._order)}
         self._dirty = set(range(len(self._formulas)))
         self._results: dict[int, object] = {}
@@ -343,8 +361,8 @@ class Recalculator:
         for f in self._formulas:
             where = f"sheet {f.sheet!r}, cell {f.coord}"
             try:
-                f.node = parse(f.text)
-                f.run = self._compile(f.node, f, False)
+                node = parse(f.text)
+                f.run = self._compile(node, f, False)
             except FormulaSyntaxError as exc:
                 raise RecalcError(f"{where}: the formula cannot be read ({exc}); refusing the "
                                   f"workbook") from None
@@ -352,7 +370,7 @@ class Recalculator:
                 raise RecalcError(f"{where}: {exc}") from None
             except RecursionError:
                 raise RecalcError(f"{where}: the formula nests too deeply") from None
-            node = f.node
+            f.top = node[0]           # the tree itself is not kept: the closures are the formula
             if node[0] == "call" and node[1] in self._udfs:
                 f.direct_call = self._udfs[node[1]][0]
 
@@ -588,7 +606,7 @@ class Recalculator:
             f.failure = f"sheet {f.sheet!r}, cell {f.coord}: out of memory evaluating it"
             value = VALUE
         if f.area is None:
-            if value is None and f.node[0] in ("ref", "name"):
+            if value is None and f.top in ("ref", "name"):
                 value = 0.0
             store[f.rc] = value
             self._results[idx] = value
@@ -607,8 +625,9 @@ class Recalculator:
             todo = self._order
         else:
             todo = sorted(self._dirty, key=self._position.__getitem__)
-        for idx in todo:
-            self._run(idx)
+        with _collector_paused():
+            for idx in todo:
+                self._run(idx)
         self._dirty.clear()
 
     def _plain(self, v):
@@ -629,6 +648,10 @@ class Recalculator:
         for f in self._formulas:
             if f.failure:
                 raise RecalcError(f.failure)
+        with _collector_paused():
+            return self._values()
+
+    def _values(self):
         out = {}
         for f in self._formulas:
             store = self._stores[f.sheet]
