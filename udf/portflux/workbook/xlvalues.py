@@ -92,18 +92,25 @@ def first_error(values):
 
 
 def number_text(x: float) -> str:
-    """A number as Excel's General format writes it into text (15 significant digits).
+    """A number as Excel's General format writes it into text: up to 15 significant digits,
+    in decimal notation from 1E-9 up to 1E+15, otherwise as 1.2E-10 (the thresholds are from
+    memory of Excel's behaviour; LibreOffice agrees in decimal notation).
 
     >>> number_text(2.0), number_text(11.67), number_text(0.1 + 0.2), number_text(1e20)
     ('2', '11.67', '0.3', '1E+20')
+    >>> number_text(0.000012), number_text(-1.5e-10)
+    ('0.000012', '-1.5E-10')
     """
     if x == int(x) and abs(x) < 1e15:
         return str(int(x))
     s = f"{x:.15g}"
-    if "e" in s:
-        mant, exp = s.split("e")
-        return f"{mant}E{exp[0]}{exp[1:].lstrip('0') or '0'}"
-    return s
+    if "e" not in s:
+        return s
+    if 1e-9 <= abs(x) < 1e15:
+        digits = max(0, 15 - 1 - math.floor(math.log10(abs(x))))
+        return f"{x:.{digits}f}".rstrip("0").rstrip(".")
+    mant, exp = s.split("e")
+    return f"{mant}E{exp[0]}{exp[1:].lstrip('0').rjust(2, '0')}"
 
 
 def as_number(v):
