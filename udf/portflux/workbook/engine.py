@@ -40,7 +40,7 @@ from . import writeback
 from .atomic import write_atomically
 from .contain import CONTAINED, run_contained
 from .package import read_package
-from .recalc import Recalculator, check_functions
+from .recalc import Recalculator, check_functions, collector_paused
 from .safety import WorkbookFileError, read_workbook_bytes
 from .xlvalues import RecalcError
 from ..excel import ERROR_VALUES
@@ -93,7 +93,8 @@ def _same_file(a: str, b: str) -> bool:
 
 def _evaluate(data: bytes, name: str, functions):
     """Runs in the contained child: read, evaluate; plain results for the parent."""
-    package = read_package(data, name)
+    with collector_paused():
+        package = read_package(data, name)
     calc = Recalculator(None, functions, package=package)
     values = calc.evaluate()
     parts = {title: calc.sheet_part(title) for title in calc.sheets}
@@ -186,7 +187,8 @@ def recalc_file(in_path, out_path, functions: Mapping[str, Callable], *,
                     part = writeback.keep_cached_values_on_load(part)
                 zout.writestr(info, part)
 
-    write_atomically(out_path, write)
+    with collector_paused():          # the XML trees of the check are large and acyclic
+        write_atomically(out_path, write)
     errors = {k: v for k, v in values.items() if isinstance(v, str) and v in ERROR_VALUES}
     if errors:
         logging.getLogger(__name__).info("%s: %d cell(s) show Excel errors, first %s",

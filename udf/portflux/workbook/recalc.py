@@ -44,7 +44,7 @@ from .xlvalues import (DIV0, NA, NAME, NUM, VALUE, Array, RecalcError, XlError, 
                        as_text, compare, error, fit)
 from ..excel import ERROR_VALUES
 
-__all__ = ["Recalculator", "check_functions"]
+__all__ = ["Recalculator", "check_functions", "collector_paused"]
 
 Key = tuple  # (sheet title, "A1")
 _SUFFIXES = (".xlsx", ".xlsm")
@@ -52,10 +52,18 @@ _AGGREGATES = {"SUM", "MIN", "MAX", "AVERAGE", "PRODUCT", "SUMSQ", "COUNT", "COU
                "SUMPRODUCT", "AND", "OR", "XOR", "ROWS", "COLUMNS"}
 _RANGE_ARGS = {"INDEX": {0}, "MATCH": {1}, "VLOOKUP": {1}, "HLOOKUP": {1}}
 _RUNTIME_REFERENCES = {"INDIRECT", "OFFSET"}
+_LOG_LIMIT = 100_000
+_FAST_AGGREGATES = {
+    "SUM": lambda xs: math.fsum(xs),
+    "MIN": lambda xs: min(xs) if xs else 0.0,
+    "MAX": lambda xs: max(xs) if xs else 0.0,
+    "AVERAGE": lambda xs: math.fsum(xs) / len(xs) if xs else DIV0,
+    "COUNT": lambda xs: float(len(xs)),
+}
 
 
 @contextlib.contextmanager
-def _collector_paused():
+def collector_paused():
     """Pause the cyclic garbage collector: building and running ten thousands of closures
     otherwise triggers full collections whose cost grows with the heap (quadratic overall).
     Nothing built here forms reference cycles that need it."""
@@ -67,6 +75,11 @@ def _collector_paused():
         yield
     finally:
         gc.enable()
+
+
+def _key(r: int, c: int) -> int:
+    """A cell's key in a sheet's value store: one int (hashes faster than a tuple)."""
+    return (r << 15) | c
 
 
 class _CellFailure(Exception):
@@ -287,7 +300,8 @@ class Recalculator:
         self.package = package
         self._sheets = {s.title: s for s in package.sheets}
         self._upper_titles = {t.upper(): t for t in self._sheets}
-        self._stores = {s.title: dict(s.cells.values) for s in package.sheets}
+        self._stores = {s.title: {_key(r, c): v for (r, c), v in s.cells.values.items()}
+                        for s in package.sheets}
         self._formulas: list[_Formula] = []
         self._owner: dict[tuple, int] = {}           # (title, (r, c)) -> formula index
         self._members: dict[tuple, tuple] = {}       # array member -> (index, i, j)
@@ -304,11 +318,14 @@ class Recalculator:
                 self._owner[(s.title, rc)] = idx
                 if area is not None:
                     self._claim_area(s, idx, rc, area)
-        with _collector_paused():
+        with collector_paused():
             self._compile_all()
             self._order, self._dependants = self._sort()
         self._position = {idx: k for k, idx in enumerate(self._order)}
         self._dirty = set(range(len(self._formulas)))
+        self._log: list = []              # (title, key) of cells written since the last full pass
+        self._logging = False
+        self._epoch = 0
         self._results: dict[int, object] = {}
 
     # -- layout --------------------------------------------------------------------------
@@ -333,7 +350,7 @@ class Recalculator:
                                       f"{coord_name(r, c)}, which holds data; refusing to "
                                       f"write over it (move the data or the formula)")
                 self._members[key] = (idx, r - r1, c - c1)
-                self._stores[s.title].pop((r, c), None)
+                self._stores[s.title].pop(_key(r, c), None)
 
     @property
     def sheets(self) -> tuple:
@@ -394,12 +411,12 @@ class Recalculator:
         f.refs.append((title, r1, c1, r2, c2))
         get = self._stores[title].get
         if is_cell and not as_range:
-            key = (r1, c1)
+            key = _key(r1, c1)
             return lambda: get(key)
         rows, cols = range(r1, r2 + 1), range(c1, c2 + 1)
 
         def area():
-            return Array(tuple(tuple(get((r, c)) for c in cols) for r in rows))
+            return Array(tuple(tuple(get(_key(r, c)) for c in cols) for r in rows))
         return area
 
     def _name(self, node, f, as_range):
@@ -494,6 +511,8 @@ class Recalculator:
         if len(args) < spec.min_args or (spec.max_args >= 0 and len(args) > spec.max_args):
             raise RecalcError(f"{name} takes {spec.min_args} to {spec.max_args} arguments, "
                               f"the formula gives {len(args)}")
+        if name in _FAST_AGGREGATES and args and all(a[0] == "ref" for a in args):
+            return self._fast_aggregate(name, args, f)
         ranged = _RANGE_ARGS.get(name, ())
         agg = name in _AGGREGATES
         argf = [self._compile(a, f, agg or k in ranged) for k, a in enumerate(args)]
@@ -523,6 +542,58 @@ class Recalculator:
                     return broadcast(call, values)
             return call(*values)
         return elem
+
+    def _fast_aggregate(self, name, args, f):
+        """SUM, MIN, MAX, AVERAGE or COUNT of references only: one flat gather of the cells.
+
+        Same rules as the general path (numbers count; text, logicals and blanks in references
+        are skipped; the first error propagates), without building the rows of an array.
+        """
+        getters = []
+        for node in args:
+            _, title, r1, c1, r2, c2, _ = node
+            title = self._sheet(title, f)
+            cells = self._sheets[title].cells
+            r2 = max(r1, min(cells.max_row, MAX_ROW)) if r2 is None else r2
+            c2 = max(c1, min(cells.max_col, MAX_COL)) if c2 is None else c2
+            f.refs.append((title, r1, c1, r2, c2))
+            keys = [_key(r, c) for r in range(r1, r2 + 1) for c in range(c1, c2 + 1)]
+            getters.append((title, keys))
+        reduce = _FAST_AGGREGATES[name]
+        stores = self._stores
+        flat = [(stores[title].get, key) for title, keys in getters for key in keys]
+        where = {}                       # (title, key) -> positions in the flat list
+        for j, (title, key) in enumerate((t, k) for t, keys in getters for k in keys):
+            where.setdefault((title, key), []).append(j)
+        state = {"epoch": -1, "seen": 0, "values": None, "odd": 0}
+
+        def gather():
+            values = [get(key) for get, key in flat]
+            state.update(epoch=self._epoch, seen=len(self._log), values=values,
+                         odd=sum(1 for v in values if type(v) is not float))
+            return values
+
+        def aggregate():
+            # Cells written since this aggregate last ran are patched into its cached list
+            # (the write log); a full evaluation or a long log starts it afresh.
+            if state["epoch"] != self._epoch:
+                values = gather()
+            else:
+                values, log = state["values"], self._log
+                for i in range(state["seen"], len(log)):
+                    for j in where.get(log[i], ()):
+                        old, new = values[j], stores[log[i][0]].get(log[i][1])
+                        state["odd"] += (type(new) is not float) - (type(old) is not float)
+                        values[j] = new
+                state["seen"] = len(log)
+            if state["odd"]:
+                nums = [v for v in values if type(v) is float]
+                for v in values:
+                    if type(v) is XlError:
+                        return v
+                return reduce(nums)
+            return reduce(values)
+        return aggregate
 
     # -- order ---------------------------------------------------------------------------
     def _sort(self):
@@ -608,24 +679,34 @@ class Recalculator:
         if f.area is None:
             if value is None and f.top in ("ref", "name"):
                 value = 0.0
-            store[f.rc] = value
+            key = _key(*f.rc)
+            store[key] = value
+            if self._logging:
+                self._log.append((f.sheet, key))
             self._results[idx] = value
             return
         r1, c1, r2, c2 = f.area
         grid = value if type(value) is Array else ((value,),)
         for r in range(r1, r2 + 1):
             for c in range(c1, c2 + 1):
-                store[(r, c)] = fit(grid, r - r1, c - c1)
+                key = _key(r, c)
+                store[key] = fit(grid, r - r1, c - c1)
+                if self._logging:
+                    self._log.append((f.sheet, key))
         self._results[idx] = grid
 
     def _update(self):
         if not self._dirty:
             return
-        if len(self._dirty) == len(self._formulas):
+        if len(self._dirty) == len(self._formulas) or len(self._log) > _LOG_LIMIT:
             todo = self._order
+            self._epoch += 1              # every cached aggregate gathers afresh
+            self._log.clear()
+            self._logging = False
         else:
             todo = sorted(self._dirty, key=self._position.__getitem__)
-        with _collector_paused():
+            self._logging = True
+        with collector_paused():
             for idx in todo:
                 self._run(idx)
         self._dirty.clear()
@@ -648,7 +729,7 @@ class Recalculator:
         for f in self._formulas:
             if f.failure:
                 raise RecalcError(f.failure)
-        with _collector_paused():
+        with collector_paused():
             return self._values()
 
     def _values(self):
@@ -656,12 +737,12 @@ class Recalculator:
         for f in self._formulas:
             store = self._stores[f.sheet]
             if f.area is None:
-                out[(f.sheet, f.coord)] = self._plain(store[f.rc])
+                out[(f.sheet, f.coord)] = self._plain(store[_key(*f.rc)])
                 continue
             r1, c1, r2, c2 = f.area
             for r in range(r1, r2 + 1):
                 for c in range(c1, c2 + 1):
-                    out[(f.sheet, coord_name(r, c))] = self._plain(store[(r, c)])
+                    out[(f.sheet, coord_name(r, c))] = self._plain(store[_key(r, c)])
         return out
 
     def _check_sheet(self, sheet):
@@ -702,9 +783,10 @@ class Recalculator:
                               f"{type(value).__name__} is not a number, text, logical or None")
         store = self._stores[sheet]
         if value is None:
-            store.pop(rc, None)
+            store.pop(_key(*rc), None)
         else:
-            store[rc] = value
+            store[_key(*rc)] = value
+        self._log.append((sheet, _key(*rc)))
         start = list(self._readers_cell.get((sheet, rc), ()))
         r, c = rc
         start += [idx for title, r1, c1, r2, c2, idx in self._readers_area
@@ -727,4 +809,4 @@ class Recalculator:
         idx = hit[0] if hit else self._owner.get((sheet, rc))
         if idx is not None and self._formulas[idx].failure:
             raise RecalcError(self._formulas[idx].failure)
-        return self._plain(self._stores[sheet].get(rc))
+        return self._plain(self._stores[sheet].get(_key(*rc)))
