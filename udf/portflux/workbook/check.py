@@ -44,13 +44,16 @@ def recalc(in_path, out_path, *, progress=False, values_only=False):
     """
     t0 = time.perf_counter()
     _say(progress, f"recalculating {in_path} ...")
-    try:     # the engine checks the file (zip/entity bombs, foreign functions) before reading
+    try:     # the engine checks the file (zip/entity bombs, duplicate parts) before reading it
         summary = recalc_file(in_path, out_path, worksheet_functions(), values_only=values_only)
     except RecalcError as e:
         raise WorkbookError(str(e)) from None
     _say(progress, f"  {summary.formula_cells} formulas, {summary.array_ranges} array ranges, "
                    f"{summary.cells_written} cells written in {time.perf_counter() - t0:.2f} s "
                    f"-> {out_path}")
+    if not summary.contained:
+        _say(progress, "  note: this system has no fork/resource (Windows), so the evaluation ran "
+                       "without memory and time limits")
     return summary
 
 

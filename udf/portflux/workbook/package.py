@@ -49,6 +49,7 @@ _CT_WORKSHEET = ("application/vnd.openxmlformats-officedocument.spreadsheetml.wo
 _BAD_TITLE = re.compile(r"[\[\]:*?/\\]")
 _COORD = re.compile(r"([A-Za-z]{1,3})([0-9]{1,7})")
 _MARKUP = re.compile(rb"<!--|<!\[CDATA\[|<\?")
+_COLUMNS: dict = {}
 
 
 def split_coord(coord: str) -> tuple[int, int]:
@@ -60,7 +61,11 @@ def split_coord(coord: str) -> tuple[int, int]:
     m = _COORD.fullmatch(coord)
     if m is None:
         raise ValueError(coord)
-    return int(m.group(2)), column_number(m.group(1))
+    letters = m.group(1)
+    col = _COLUMNS.get(letters)
+    if col is None:
+        col = _COLUMNS[letters] = column_number(letters)
+    return int(m.group(2)), col
 
 
 def coord_name(r: int, c: int) -> str:
@@ -177,18 +182,21 @@ def read_sheet_cells(data: bytes, where: str, strings=()) -> SheetCells:
                           f"readers understand differently; refusing it")
     root = _xml(data, where)
     out = SheetCells()
-    sheet_data = [el for el in root if _local(el.tag) == "sheetData"]
+    ns = root.tag[:root.tag.index("}") + 1] if root.tag.startswith("{") else ""
+    sheet_data = [el for el in root if el.tag == ns + "sheetData"]
     if len(sheet_data) != 1:
         raise RecalcError(f"{where}: the part has {len(sheet_data)} <sheetData> elements "
                           f"(expected one); refusing it")
     seen_rows = set()
     masters: dict[str, tuple] = {}
     dependents = []
+    row_tag, cell_tag = ns + "row", ns + "c"
+    kid_names = {ns + "f": "f", ns + "v": "v", ns + "is": "is"}
     for row in sheet_data[0]:
-        if _local(row.tag) != "row":
+        if row.tag != row_tag:
             raise RecalcError(f"{where}: unexpected <{_local(row.tag)}> inside <sheetData>")
         r_attr = row.get("r")
-        if r_attr is None or not r_attr.isdigit():
+        if r_attr is None or not (r_attr.isascii() and r_attr.isdigit()) or len(r_attr) > 7:
             raise RecalcError(f"{where}: a row has no valid 'r' (number) attribute; refusing "
                               f"the part")
         r = int(r_attr)
@@ -196,7 +204,7 @@ def read_sheet_cells(data: bytes, where: str, strings=()) -> SheetCells:
             raise RecalcError(f"{where}: row {r} is given twice; refusing the part")
         seen_rows.add(r)
         for c in row:
-            if _local(c.tag) != "c":
+            if c.tag != cell_tag:
                 if _local(c.tag) == "extLst":
                     continue
                 raise RecalcError(f"{where}, row {r}: unexpected <{_local(c.tag)}> in a row")
@@ -213,7 +221,7 @@ def read_sheet_cells(data: bytes, where: str, strings=()) -> SheetCells:
                 raise RecalcError(f"{where}: cell {coord} is given twice; refusing the part")
             kids = {}
             for ch in c:
-                tag = _local(ch.tag)
+                tag = kid_names.get(ch.tag, ch.tag)
                 if tag in kids:
                     raise RecalcError(f"{where}, cell {coord}: two <{tag}> elements; "
                                       f"refusing the part")
