@@ -527,3 +527,17 @@ def test_shared_formulas_are_expanded_as_excel_writes_them(tmp_path):
     assert summary.formula_cells == 3
     again = openpyxl.load_workbook(tmp_path / "out.xlsx", data_only=True)["Sheet"]
     assert [again[f"B{r}"].value for r in (1, 2, 3)] == [2.0, 4.0, 6.0]
+
+
+def test_a_write_back_that_touches_another_cell_is_caught_and_nothing_is_written(book, tmp_path,
+                                                                             monkeypatch):
+    real = writeback.patch_sheet_xml
+
+    def sloppy(xml, values, where, freeze=False):
+        return real(xml, values, where, freeze).replace(b"<v>3.5</v>", b"<v>9.5</v>", 1)
+
+    monkeypatch.setattr(writeback, "patch_sheet_xml", sloppy)
+    out = tmp_path / "out.xlsx"
+    with pytest.raises(RecalcError, match="internal error, writing values changed"):
+        recalc_file(book, str(out), FUNCS)
+    assert not out.exists()

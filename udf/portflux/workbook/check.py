@@ -16,13 +16,9 @@ import tempfile
 import time
 from dataclasses import dataclass
 
-import openpyxl
-
 from ..core import PortfluxError
 from . import worksheet_functions
-from .cases import INDEX_HEADER, INDEX_TOP
 from .engine import RecalcError, recalc_file
-from .template import CHECKS, build_template, shipped_template
 
 
 class WorkbookError(PortfluxError):
@@ -86,6 +82,10 @@ def _agree(value, expected, tol) -> tuple[bool, str]:
 
 def read_cases(path) -> list[CaseResult]:
     """Read the 'Check cases' index of a recalculated workbook (cached values)."""
+    import openpyxl     # imported here: `portflux recalc` does not need openpyxl or the template
+
+    from .cases import INDEX_HEADER, INDEX_TOP
+    from .template import CHECKS
     wb = openpyxl.load_workbook(path, data_only=True, read_only=True)
     try:
         if CHECKS not in wb.sheetnames:
@@ -117,6 +117,8 @@ def read_cases(path) -> list[CaseResult]:
 
 def check(path=None, *, progress=False) -> list[CaseResult]:
     """Recalculate a workbook (default: the shipped template) and evaluate its reference cases."""
+    from .template import build_template, shipped_template
+
     with tempfile.TemporaryDirectory(prefix="portflux-check-") as tmp:
         if path is None:
             path = shipped_template()

@@ -16,6 +16,7 @@ what a well-formed but enormous workbook can cost.
 
 from __future__ import annotations
 
+import gc
 import json
 import os
 import select
@@ -60,6 +61,9 @@ def _limit(kind, value):
 
 def _child(fn, write_fd, limits):
     status = 0
+    # The child lives for one evaluation and its memory is capped: the cyclic collector would
+    # only traverse the (large, mostly acyclic) formula structures again and again.
+    gc.disable()
     try:
         _limit(resource.RLIMIT_AS, _mapped_bytes() + int(limits["memory_bytes"]))
         used = resource.getrusage(resource.RUSAGE_SELF)

@@ -39,7 +39,7 @@ from typing import Callable, Mapping
 from . import writeback
 from .atomic import write_atomically
 from .contain import CONTAINED, run_contained
-from .package import read_package
+from .package import read_package, split_coord
 from .recalc import Recalculator, check_functions, collector_paused
 from .safety import WorkbookFileError, read_workbook_bytes
 from .xlvalues import RecalcError
@@ -91,15 +91,21 @@ def _same_file(a: str, b: str) -> bool:
         return False
 
 
-def _evaluate(data: bytes, name: str, functions):
-    """Runs in the contained child: read, evaluate; plain results for the parent."""
+def _evaluate(data: bytes, name: str, functions, freeze: bool):
+    """Runs in the contained child: read, evaluate; plain results for the parent, with a digest
+    of each sheet's unchanged cells for the check of the written file."""
     with collector_paused():
         package = read_package(data, name)
     calc = Recalculator(None, functions, package=package)
     values = calc.evaluate()
     parts = {title: calc.sheet_part(title) for title in calc.sheets}
+    written: dict = {}
+    for sheet, coord in values:
+        written.setdefault(sheet, set()).add(split_coord(coord))
+    digests = {s.part: writeback.cells_digest(s.cells, written.get(s.title, set()), freeze)
+               for s in package.sheets if s.title in written}
     return {"values": [[s, c, v] for (s, c), v in values.items()], "parts": parts,
-            "book_part": package.book_part, "strings": package.strings,
+            "book_part": package.book_part, "strings": package.strings, "digests": digests,
             "formulas": len(calc.formula_cells), "arrays": len(calc.array_ranges)}
 
 
@@ -157,7 +163,7 @@ def recalc_file(in_path, out_path, functions: Mapping[str, Callable], *,
     except WorkbookFileError as exc:
         raise RecalcError(str(exc)) from None
     name = os.path.basename(in_path)
-    got = run_contained(lambda: _evaluate(data, name, functions), in_path,
+    got = run_contained(lambda: _evaluate(data, name, functions, values_only), in_path,
                         **dict(limits or {}))
     values = {(s, c): v for s, c, v in got["values"]}
     parts, book_part, strings = got["parts"], got["book_part"], got["strings"]
@@ -180,8 +186,8 @@ def recalc_file(in_path, out_path, functions: Mapping[str, Callable], *,
                     where = f"{name}, sheet {titles[info.filename]!r}"
                     new = writeback.patch_sheet_xml(part, by_part[info.filename], where,
                                                     values_only)
-                    writeback.verify_patch(part, new, by_part[info.filename], where, strings,
-                                           values_only)
+                    writeback.verify_patch(got["digests"][info.filename], new,
+                                           by_part[info.filename], where, strings, values_only)
                     part = new
                 elif info.filename == book_part:
                     part = writeback.keep_cached_values_on_load(part)

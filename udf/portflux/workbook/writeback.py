@@ -11,6 +11,7 @@ and every other cell is unchanged and that each written cell holds the value eva
 
 from __future__ import annotations
 
+import hashlib
 import math
 import re
 from typing import Iterable, Mapping
@@ -19,7 +20,7 @@ from .package import coord_name, read_sheet_cells, split_coord
 from .xlvalues import RecalcError, XlError, error
 from ..excel import ERROR_VALUES
 
-__all__ = ["keep_cached_values_on_load", "patch_sheet_xml", "verify_patch"]
+__all__ = ["cells_digest", "keep_cached_values_on_load", "patch_sheet_xml", "verify_patch"]
 
 Scalar = float | str | bool | None
 _ILLEGAL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
@@ -247,25 +248,35 @@ def _same(a, b) -> bool:
     return type(a) is type(b) and a == b
 
 
-def verify_patch(before: bytes, after: bytes, values: Mapping[str, Scalar], where: str,
-                 strings=(), freeze: bool = False) -> None:
-    """Prove that ``after`` differs from ``before`` only in the cached values ``values``.
+def cells_digest(cells, written, freeze: bool = False) -> str:
+    """A digest of what writing values must leave unchanged in one sheet's cells.
 
-    Both parts are read with the package reader: every formula must be unchanged (gone for the
-    written cells when ``freeze``), every other cell must hold the same value, and each written
-    cell must hold what was evaluated. Raises :class:`RecalcError` otherwise (a writer fault).
+    ``written`` holds the ``(row, col)`` keys whose cached values are written: their values are
+    left out, and with ``freeze`` their formulas too. The evaluating process computes it from
+    the cells it read; :func:`verify_patch` from the written part, read again.
     """
-    old = read_sheet_cells(before, where, strings)
+    formulas = sorted((rc, t) for rc, t in cells.formulas.items()
+                      if not (freeze and rc in written))
+    values = sorted((rc, type(v).__name__, v) for rc, v in cells.values.items()
+                    if rc not in written)
+    arrays = [] if freeze else sorted(cells.arrays.items())
+    return hashlib.sha256(repr((formulas, values, arrays)).encode()).hexdigest()
+
+
+def verify_patch(digest: str, after: bytes, values: Mapping[str, Scalar], where: str,
+                 strings=(), freeze: bool = False) -> None:
+    """Prove that ``after`` differs from the part that was read only in the values written.
+
+    ``digest`` is :func:`cells_digest` of the part as read (before writing). ``after`` is read
+    with the package reader: every formula and every other cell must be unchanged (the digests
+    agree) and each written cell must hold what was evaluated. Raises :class:`RecalcError`
+    otherwise (a writer fault).
+    """
     new = read_sheet_cells(after, where, strings)
     written = {split_coord(c): v for c, v in values.items()}
-    expected_formulas = {rc: t for rc, t in old.formulas.items()
-                         if not (freeze and rc in written)}
-    if new.formulas != expected_formulas or (not freeze and new.arrays != old.arrays):
-        raise RecalcError(f"{where}: internal error, writing values changed a formula")
-    for rc, v in old.values.items():
-        if rc not in written and not _same(new.values.get(rc), v):
-            raise RecalcError(f"{where}: internal error, writing values changed cell "
-                              f"{coord_name(*rc)}")
+    if cells_digest(new, written, freeze) != digest:
+        raise RecalcError(f"{where}: internal error, writing values changed a formula or a "
+                          f"cell it should not touch")
     for rc, v in written.items():
         if rc in new.formulas:
             continue          # a formula cell's cached value is not part of its reading
