@@ -63,16 +63,15 @@ _SHEET = r"(?:'(?P<qs>(?:[^']|'')+)'|(?P<us>[A-Za-z_\u00a0-\uffff][\w.\u00a0-\uf
 _CELL = r"\$?[A-Za-z]{1,3}\$?[0-9]{1,7}"
 _REF_BODY = (rf"(?P<area>{_CELL}(?::{_CELL})?|\$?[A-Za-z]{{1,3}}:\$?[A-Za-z]{{1,3}}"
              rf"|\$?[0-9]{{1,7}}:\$?[0-9]{{1,7}})(?![\w.(!])")
-_TOKEN = re.compile(
-    r"(?P<ws>[ \t\r\n]+)"
+_TOKEN = re.compile(          # operators first: they are the most frequent tokens
+    r"(?P<op><>|<=|>=|[-+*/^&=<>%(),;{}])"
+    r"|(?P<ws>[ \t\r\n]+)"
     r'|(?P<str>"(?:[^"]|"")*")'
     r"|(?P<err>#NULL!|#DIV/0!|#VALUE!|#REF!|#NAME\?|#NUM!|#N/A|#GETTING_DATA)"
-    r"|(?P<func>(?:_xlfn\.|_xlws\.)*[A-Za-z_][A-Za-z0-9_.]*)\("
+    r"|(?P<func>(?i:_xlfn\.|_xlws\.)*[A-Za-z_][A-Za-z0-9_.]*)\("
     rf"|(?P<ref>(?:{_SHEET})?{_REF_BODY})"
     r"|(?P<num>(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)(?![\w.])"
-    r"|(?P<name>[A-Za-z_\\][\w.]*)(?![\w(!])"
-    r"|(?P<op><>|<=|>=|[-+*/^&=<>%(),;{}])",
-    re.IGNORECASE)
+    r"|(?P<name>[A-Za-z_\\][\w.]*)(?![\w(!])")
 
 _LEVELS = (("=", "<>", "<", ">", "<=", ">="), ("&",), ("+", "-"), ("*", "/"), ("^",))
 _LEVEL_OF = {op: k for k, ops in enumerate(_LEVELS) for op in ops}
@@ -135,21 +134,23 @@ def _ref_node(m):
 
 
 def _tokens(text: str):
-    pos, n = 0, len(text)
     out = []
-    while pos < n:
-        m = _TOKEN.match(text, pos)
-        if m is None:
-            raise FormulaSyntaxError(
-                f"cannot read the formula at character {pos + 1} ({text[pos:pos + 12]!r}...)")
-        kind = m.lastgroup
-        if kind in ("qs", "us", "area"):
-            kind = "ref"
+    append = out.append
+    pos = 0
+    for m in _TOKEN.finditer(text):
+        if m.start() != pos:
+            break
         pos = m.end()
+        kind = m.lastgroup
         if kind == "ws":
             continue
-        out.append((kind, m.group(kind), m))
-    out.append(("end", "", None))
+        if kind in ("qs", "us", "area"):
+            kind = "ref"
+        append((kind, m.group(kind), m))
+    if pos != len(text):
+        raise FormulaSyntaxError(
+            f"cannot read the formula at character {pos + 1} ({text[pos:pos + 12]!r}...)")
+    append(("end", "", None))
     return out
 
 
