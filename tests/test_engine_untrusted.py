@@ -302,6 +302,17 @@ def test_a_long_dependency_chain_is_evaluated_without_recursion(tmp_path):
     assert calc.value("Sheet", f"A{n}") == float(n + 9)
 
 
+def test_ranges_asking_for_billions_of_cells_are_refused(tmp_path):
+    path = book(tmp_path, {"A1": 1.0, "B1": "=SUM(A1:XFD1048576)"})
+    refused(path, "cell B1", "covers more than")
+    wb = openpyxl.Workbook()
+    wb.active["A1"] = ArrayFormula("A1:XFD1048576", "=1")
+    wb.save(tmp_path / "huge.xlsx")
+    refused(str(tmp_path / "huge.xlsx"), "cell A1", "covers more than")
+    whole = book(tmp_path, {"A1": 1.0, "A2": 2.0, "B1": "=SUM(A:A)"}, name="whole.xlsx")
+    assert Recalculator(whole, {}).value("Data", "B1") == 3.0
+
+
 def test_a_circular_reference_is_refused_naming_a_cell(tmp_path):
     path = book(tmp_path, {"A1": "=C1+1", "B1": "=A1", "C1": "=B1", "D1": 4.0})
     refused(path, "circular reference", "sheet 'Data', cell")

@@ -53,6 +53,10 @@ _AGGREGATES = {"SUM", "MIN", "MAX", "AVERAGE", "PRODUCT", "SUMSQ", "COUNT", "COU
 _RANGE_ARGS = {"INDEX": {0}, "MATCH": {1}, "VLOOKUP": {1}, "HLOOKUP": {1}}
 _RUNTIME_REFERENCES = {"INDIRECT", "OFFSET"}
 _LOG_LIMIT = 100_000
+#: Largest range a formula may name, and largest array-formula range, in cells (a hostile file
+#: could otherwise ask for all 17 billion cells of a sheet). Whole columns and rows (A:A, 3:3)
+#: are cut to the cells the sheet holds.
+MAX_RANGE_CELLS = 4_000_000
 _FAST_AGGREGATES = {
     "SUM": lambda xs: math.fsum(xs),
     "MIN": lambda xs: min(xs) if xs else 0.0,
@@ -75,6 +79,13 @@ def collector_paused():
         yield
     finally:
         gc.enable()
+
+
+def _check_size(r1, c1, r2, c2):
+    if (r2 - r1 + 1) * (c2 - c1 + 1) > MAX_RANGE_CELLS:
+        raise RecalcError(f"the range {coord_name(r1, c1)}:{coord_name(r2, c2)} covers more "
+                          f"than {MAX_RANGE_CELLS:,} cells; refer to whole columns (A:A) or to "
+                          f"the cells in use")
 
 
 def _key(r: int, c: int) -> int:
@@ -332,6 +343,9 @@ class Recalculator:
     def _claim_area(self, s, idx, rc, area):
         r1, c1, r2, c2 = area
         cells = s.cells
+        if (r2 - r1 + 1) * (c2 - c1 + 1) > MAX_RANGE_CELLS:
+            raise RecalcError(f"sheet {s.title!r}, cell {coord_name(*rc)}: the array formula's "
+                              f"range covers more than {MAX_RANGE_CELLS:,} cells; refusing it")
         anchor_cached = rc in cells.cached
         for r in range(r1, r2 + 1):
             for c in range(c1, c2 + 1):
@@ -408,6 +422,7 @@ class Recalculator:
             r2 = max(r1, min(cells.max_row, MAX_ROW))
         if c2 is None:
             c2 = max(c1, min(cells.max_col, MAX_COL))
+        _check_size(r1, c1, r2, c2)
         f.refs.append((title, r1, c1, r2, c2))
         get = self._stores[title].get
         if is_cell and not as_range:
@@ -556,6 +571,7 @@ class Recalculator:
             cells = self._sheets[title].cells
             r2 = max(r1, min(cells.max_row, MAX_ROW)) if r2 is None else r2
             c2 = max(c1, min(cells.max_col, MAX_COL)) if c2 is None else c2
+            _check_size(r1, c1, r2, c2)
             f.refs.append((title, r1, c1, r2, c2))
             keys = [_key(r, c) for r in range(r1, r2 + 1) for c in range(c1, c2 + 1)]
             getters.append((title, keys))
