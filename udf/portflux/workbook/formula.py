@@ -155,10 +155,7 @@ def _tokens(text: str):
 
 
 class _Parser:
-    def __init__(self, text: str):
-        self.toks = _tokens(text)
-        self.i = 0
-        self.depth = 0
+    """Recursive descent over a token list; references become ("tok", index) placeholders."""
 
     def peek_op(self):
         tok = self.toks[self.i]
@@ -211,7 +208,7 @@ class _Parser:
         if kind == "err":
             return ("err", m.group(0).upper())
         if kind == "ref":
-            return _ref_node(m)
+            return ("tok", self.i - 1)          # filled from each formula's own token
         if kind == "name":
             name = m.group(0).upper()
             if name in ("TRUE", "FALSE"):
@@ -299,18 +296,56 @@ def parse(text: str):
     ('call', 'SUM', (('ref', None, 1, 1, 3, 1, False), ('blank',), ('pct', ('num', 2.0))))
     >>> parse("=-2^2")
     ('ops', ('neg', ('num', 2.0)), (('^', ('num', 2.0)),))
+    >>> parse("=A1*2")[1], parse("=$B7*2")[1]      # one shape, each formula's own references
+    (('ref', None, 1, 1, 1, 1, True), ('ref', None, 7, 2, 7, 2, True))
     """
     if len(text) > MAX_LENGTH:
         raise FormulaSyntaxError(f"the formula is {len(text)} characters long, above Excel's "
                                  f"limit of {MAX_LENGTH}")
     body = text[1:] if text.startswith("=") else text
-    p = _Parser(body)
-    if p.toks[0][0] == "end":
+    toks = _tokens(body)
+    # Formulas filled down a column differ only in their references: the tree is parsed once
+    # per shape (the token stream with references masked) and its references are filled from
+    # each formula's own tokens.
+    key = tuple(t[1] if t[0] != "ref" else None for t in toks)
+    shape = _SHAPES.get(key)
+    if shape is None:
+        shape = _parse_tokens(toks)
+        if len(_SHAPES) >= _SHAPES_KEPT:
+            _SHAPES.clear()
+        _SHAPES[key] = shape
+    return _fill(shape, toks)
+
+
+_SHAPES: dict = {}
+_SHAPES_KEPT = 4096
+
+
+def _parse_tokens(toks):
+    p = _Parser.__new__(_Parser)
+    p.toks, p.i, p.depth = toks, 0, 0
+    if toks[0][0] == "end":
         raise FormulaSyntaxError("the formula is empty")
     node = p.expression()
     kind, text, _ = p.toks[p.i]
     if kind != "end":
         raise FormulaSyntaxError(f"unexpected {text!r} after the end of an expression")
+    return node
+
+
+def _fill(node, toks):
+    """A shape's tree with its ("tok", i) placeholders replaced by the references of ``toks``.
+
+    Recursive only as deep as the tree (at most :data:`MAX_DEPTH` nested calls)."""
+    tag = node[0]
+    if tag == "tok":
+        return _ref_node(toks[node[1]][2])
+    if tag == "call":
+        return ("call", node[1], tuple([_fill(a, toks) for a in node[2]]))
+    if tag == "ops":
+        return ("ops", _fill(node[1], toks), tuple([(op, _fill(x, toks)) for op, x in node[2]]))
+    if tag in ("neg", "pct"):
+        return (tag, _fill(node[1], toks))
     return node
 
 
