@@ -354,3 +354,25 @@ def test_the_engine_source_has_no_way_to_run_text_as_code(module):
     imported |= {n.module.split(".")[0] for n in ast.walk(tree)
                  if isinstance(n, ast.ImportFrom) and n.module}
     assert not imported & {"pickle", "marshal", "importlib", "pycel", "subprocess", "ctypes"}
+
+
+def test_a_sheet_hidden_in_an_extension_is_not_read_and_its_part_is_refused(tmp_path, marker):
+    path = book(tmp_path, {"A1": 1.0})
+    ghost = (f'<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main">'
+             f'<sheetData><row r="1"><c r="A1"><f>{python_payload(marker)}</f></c></row>'
+             f'</sheetData></worksheet>').replace("'", "&apos;").encode()
+    rel = (b'<Relationship Id="rIdGhost" Type="http://schemas.openxmlformats.org/officeDocument/'
+           b'2006/relationships/worksheet" Target="worksheets/ghost.xml"/>')
+
+    def change(name, data):
+        if name == "xl/workbook.xml":
+            return data.replace(b"</workbook>", b'<extLst><ext uri="x"><sheet name="Ghost" '
+                                b'sheetId="9" xmlns:r="http://schemas.openxmlformats.org/'
+                                b'officeDocument/2006/relationships" r:id="rIdGhost"/></ext>'
+                                b"</extLst></workbook>")
+        if name == "xl/_rels/workbook.xml.rels":
+            return data.replace(b"</Relationships>", rel + b"</Relationships>")
+        return data
+    bad = rewrite(path, tmp_path / "ghost.xlsx", change,
+                  extra=[("xl/worksheets/ghost.xml", ghost)])
+    refused(bad, "'xl/worksheets/ghost.xml' is linked as a worksheet but is not a sheet")

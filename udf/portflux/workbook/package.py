@@ -345,9 +345,13 @@ def read_package(data: bytes, where: str) -> Package:
         strings = _shared_strings(zf, book_part, rels, where)
         sheets, titles, parts = [], {}, set()
         local_ids = []
-        for el in book.iter():
-            if _local(el.tag) != "sheet":
-                continue
+        ns = book.tag[:book.tag.index("}") + 1] if book.tag.startswith("{") else ""
+
+        def listed(group, item):
+            # only <group><item/></group> directly under the workbook root, in its namespace:
+            # what Excel reads, not look-alikes nested in extensions
+            return [el for g in book if g.tag == ns + group for el in g if el.tag == ns + item]
+        for el in listed("sheets", "sheet"):
             title = el.get("name") or ""
             if not title or len(title) > 31 or _BAD_TITLE.search(title) or \
                     title.startswith("'") or title.endswith("'"):
@@ -392,9 +396,7 @@ def read_package(data: bytes, where: str) -> Package:
                 raise RecalcError(f"{where}: part {name!r} has a worksheet content type but is "
                                   f"not a worksheet of the workbook; refusing it")
         names = {}
-        for el in book.iter():
-            if _local(el.tag) != "definedName":
-                continue
+        for el in listed("definedNames", "definedName"):
             name = (el.get("name") or "").upper()
             scope = el.get("localSheetId")
             title = None
