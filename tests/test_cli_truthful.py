@@ -143,7 +143,7 @@ def test_engine_log_records_and_warnings_do_not_reach_the_terminal(tmp_path, cap
     real = check_module.recalc
 
     def noisy(*a, **k):
-        logging.getLogger("pycel.excelcompiler").warning("internal engine detail")
+        logging.getLogger("portflux.workbook.engine").warning("internal engine detail")
         warnings.warn("internal library warning")
         return real(*a, **k)
 
@@ -429,7 +429,6 @@ AST_REMOVED = textwrap.dedent("""
 """)
 
 
-@pytest.mark.xfail(strict=False, reason="pycel uses ast.Str; replaced in a parallel branch")
 def test_the_recalc_path_runs_without_the_ast_names_python_3_14_removed(tmp_path):
     # Python 3.14 removed ast.Str, ast.Num, ast.NameConstant, ast.Bytes and ast.Ellipsis
     # (deprecated since 3.8; "What's New In Python 3.14", Removed, ast).

@@ -20,7 +20,7 @@ try:
 except ImportError:
     sys.path.insert(0, os.path.join(os.path.dirname(__file__), "..", "udf"))
 
-from portflux.workbook import engine
+from portflux.workbook import engine, writeback
 from portflux.workbook.engine import RecalcError, Recalculator, recalc_file
 
 # Input data of the test workbook: (tag, mass flow, ux, uy)  -- invented.
@@ -458,7 +458,7 @@ def test_recalc_file_failure_leaves_previous_output_and_no_temp_file(
     def fail(*args, **kwargs):
         raise OSError("disk full (simulated)")
 
-    monkeypatch.setattr(engine, "_patch_sheet_xml", fail)
+    monkeypatch.setattr(writeback, "patch_sheet_xml", fail)
     with pytest.raises(OSError, match="simulated"):
         recalc_file(book, str(out), FUNCS)
     assert out.read_bytes() == b"previous result"
@@ -497,3 +497,47 @@ def test_index_of_a_multi_value_call_and_a_scalar_call_of_the_same_function(tmp_
     assert calc.value(ws.title, "A2") == 7.0
     with pytest.raises(RecalcError, match="A3: PFX_TEST_EITHER returns several values"):
         calc.value(ws.title, "A3")
+
+
+def test_shared_formulas_are_expanded_as_excel_writes_them(tmp_path):
+    # Excel stores a filled-down formula once (ECMA-376 Part 1, 18.3.1.40 f, shared formulas;
+    # from memory): the master holds the text and the range, the others only the index.
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    for r in (1, 2, 3):
+        ws[f"A{r}"] = float(r)
+    ws["B1"] = "=A1*2"
+    ws["B2"], ws["B3"] = "SHARED2", "SHARED3"
+    src = tmp_path / "plain.xlsx"
+    wb.save(src)
+    with zipfile.ZipFile(src) as z:
+        parts = {n: z.read(n) for n in z.namelist()}
+    xml = parts["xl/worksheets/sheet1.xml"]
+    xml = xml.replace(b"<f>A1*2</f>", b'<f t="shared" ref="B1:B3" si="0">A1*2</f>')
+    for r in (2, 3):
+        xml = re.sub(rb'<c r="B%d"[^>]*>.*?</c>' % r,
+                     b'<c r="B%d"><f t="shared" si="0"/></c>' % r, xml)
+    path = tmp_path / "shared.xlsx"
+    with zipfile.ZipFile(path, "w") as z:
+        for n, data in parts.items():
+            z.writestr(n, xml if n == "xl/worksheets/sheet1.xml" else data)
+    calc = Recalculator(path, {})
+    assert [calc.value("Sheet", f"B{r}") for r in (1, 2, 3)] == [2.0, 4.0, 6.0]
+    summary = recalc_file(path, tmp_path / "out.xlsx", {})
+    assert summary.formula_cells == 3
+    again = openpyxl.load_workbook(tmp_path / "out.xlsx", data_only=True)["Sheet"]
+    assert [again[f"B{r}"].value for r in (1, 2, 3)] == [2.0, 4.0, 6.0]
+
+
+def test_a_write_back_that_touches_another_cell_is_caught_and_nothing_is_written(book, tmp_path,
+                                                                             monkeypatch):
+    real = writeback.patch_sheet_xml
+
+    def sloppy(xml, values, where, freeze=False):
+        return real(xml, values, where, freeze).replace(b"<v>3.5</v>", b"<v>9.5</v>", 1)
+
+    monkeypatch.setattr(writeback, "patch_sheet_xml", sloppy)
+    out = tmp_path / "out.xlsx"
+    with pytest.raises(RecalcError, match="internal error, writing values changed"):
+        recalc_file(book, str(out), FUNCS)
+    assert not out.exists()

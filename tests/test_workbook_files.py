@@ -24,7 +24,7 @@ import portflux.cells as C
 from portflux.core import PortfluxError
 from portflux.workbook import engine, worksheet_functions
 from portflux.workbook.engine import RecalcError, Recalculator, recalc_file
-from portflux.workbook.safety import (LIMITS, WorkbookFileError, check_formula_functions,
+from portflux.workbook.safety import (LIMITS, WorkbookFileError,
                                       check_workbook_file)
 
 FUNCS = worksheet_functions()
@@ -387,11 +387,13 @@ def test_formula_text_is_never_run_as_python_or_shell(tmp_path, monkeypatch, pay
     assert not marker.exists(), "a formula ran Python or shell code"
 
 
-def test_the_formula_check_knows_excel_functions_and_registered_ones():
-    excel = {"SUM", "IF", "XLOOKUP"}.__contains__
-    ok = {("S", "A1"): "=IF(SUM(B1:B3)>0, PFX_POWER(C1:D4, 2), _xlfn.XLOOKUP(1, E1:E2, F1:F2))"}
-    assert check_formula_functions("b.xlsx", ok, {"pfx_power"}, excel) is None
-    with pytest.raises(WorkbookFileError, match=r"cell B2: the formula calls OPEN, which is "):
-        check_formula_functions("b.xlsx", {("S", "B2"): '=SUM(1)+open("x")'}, set(), excel)
-    with pytest.raises(WorkbookFileError, match=r"cell C3: the formula cannot be read"):
-        check_formula_functions("b.xlsx", {("S", "C3"): "=cmd|' /C calc'!A0"}, set(), excel)
+def test_the_engine_knows_excel_functions_and_registered_ones_and_refuses_others(tmp_path):
+    ok = build_book(tmp_path / "ok.xlsx",
+                    {"N1": '=IF(SUM(J1:J2)>0, PFX_POWER(A1:G4, 2), _xlfn.IFNA(1, 2))'})
+    assert Recalculator(ok, FUNCS).value("Ports", "N1") == pytest.approx(
+        RHO * AREA * (V - 2.0) ** 2 * 2.0)          # White, Fluid Mechanics, sec. 3.4 (from memory)
+    for coord, text, fragment in (("B9", '=SUM(1)+open("x")', "calls OPEN, which is neither"),
+                                  ("C9", "=cmd|' /C calc'!A0", "cannot be read")):
+        bad = build_book(tmp_path / f"bad_{coord}.xlsx", {coord: text})
+        with pytest.raises(RecalcError, match=rf"cell {coord}: .*{fragment}"):
+            Recalculator(bad, FUNCS)

@@ -6,7 +6,7 @@
 # installs the current checkout (working tree, committed or not) into a venv inside the chroot and
 # runs the demo, `template`, `recalc` and `check` there. Exit status: 0 when all steps succeed,
 # 1 when one of them fails, 2 when the chroot or the install could not be made. The install
-# ignores the package's requires-python (which excludes 3.14 while it does not work there): the
+# ignores the package's requires-python (3.14 was excluded while the engine did not work there); the
 # point is to find out whether it does.
 #
 # Usage (as root, on a Debian/Ubuntu host with network access to deb.debian.org and a package index):

@@ -28,6 +28,9 @@ median of each figure beside its target:
    absent) cold (load + first evaluation) and warm (one input changed, the CV speed), beside
    the same sheet with every ``PFX_`` call replaced by native arithmetic in the same engine.
 
+5. **engine vs LibreOffice** -- native-formula sheets of 10,000 and 50,000 formulas: whole-file
+   recalculation against LibreOffice, linearity, and edit latency (:mod:`portflux.bench_engine`).
+
 ``--quick`` runs everything with tiny sizes and one or two repetitions (CI: the benchmark
 cannot rot). Timings are never asserted anywhere: machines are shared and noisy.
 
@@ -507,8 +510,15 @@ def bench_recalc(quick):
     return rows
 
 
+def bench_engine(quick):
+    """5: the formula engine against LibreOffice (see :mod:`portflux.bench_engine`)."""
+    from . import bench_engine as E
+
+    return E.run(_figure, quick)
+
+
 # --------------------------------------------------------------------------------------------
-BENCHMARKS = (bench_balance, bench_table, bench_import, bench_recalc)
+BENCHMARKS = (bench_balance, bench_table, bench_import, bench_recalc, bench_engine)
 
 
 def run(quick=False) -> list[dict]:

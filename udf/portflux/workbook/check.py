@@ -16,13 +16,9 @@ import tempfile
 import time
 from dataclasses import dataclass
 
-import openpyxl
-
 from ..core import PortfluxError
 from . import worksheet_functions
-from .cases import INDEX_HEADER, INDEX_TOP
 from .engine import RecalcError, recalc_file
-from .template import CHECKS, build_template, shipped_template
 
 
 class WorkbookError(PortfluxError):
@@ -44,13 +40,16 @@ def recalc(in_path, out_path, *, progress=False, values_only=False):
     """
     t0 = time.perf_counter()
     _say(progress, f"recalculating {in_path} ...")
-    try:     # the engine checks the file (zip/entity bombs, foreign functions) before reading
+    try:     # the engine checks the file (zip/entity bombs, duplicate parts) before reading it
         summary = recalc_file(in_path, out_path, worksheet_functions(), values_only=values_only)
     except RecalcError as e:
         raise WorkbookError(str(e)) from None
     _say(progress, f"  {summary.formula_cells} formulas, {summary.array_ranges} array ranges, "
                    f"{summary.cells_written} cells written in {time.perf_counter() - t0:.2f} s "
                    f"-> {out_path}")
+    if not summary.contained:
+        _say(progress, "  note: this system has no fork/resource (Windows), so the evaluation ran "
+                       "without memory and time limits")
     return summary
 
 
@@ -83,6 +82,10 @@ def _agree(value, expected, tol) -> tuple[bool, str]:
 
 def read_cases(path) -> list[CaseResult]:
     """Read the 'Check cases' index of a recalculated workbook (cached values)."""
+    import openpyxl     # imported here: `portflux recalc` does not need openpyxl or the template
+
+    from .cases import INDEX_HEADER, INDEX_TOP
+    from .template import CHECKS
     wb = openpyxl.load_workbook(path, data_only=True, read_only=True)
     try:
         if CHECKS not in wb.sheetnames:
@@ -114,6 +117,8 @@ def read_cases(path) -> list[CaseResult]:
 
 def check(path=None, *, progress=False) -> list[CaseResult]:
     """Recalculate a workbook (default: the shipped template) and evaluate its reference cases."""
+    from .template import build_template, shipped_template
+
     with tempfile.TemporaryDirectory(prefix="portflux-check-") as tmp:
         if path is None:
             path = shipped_template()

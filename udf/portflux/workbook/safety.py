@@ -32,6 +32,7 @@ not an .xlsx workbook (not a zip archive)
 
 from __future__ import annotations
 
+import io
 import os
 import struct
 import zipfile
@@ -43,7 +44,7 @@ from xml.etree.ElementTree import ParseError
 
 from ..core.errors import PortfluxError
 
-__all__ = ["LIMITS", "WorkbookFileError", "check_formula_functions", "check_workbook_file"]
+__all__ = ["LIMITS", "WorkbookFileError", "check_workbook_file", "read_workbook_bytes"]
 
 #: Default limits (bytes unless stated). A workbook beyond one is refused with a message naming it.
 LIMITS = {
@@ -212,6 +213,17 @@ def check_workbook_file(path, **limits) -> None:
     belongs to the prolog). The ratio limit 100 follows Apache POI's default minimum inflate ratio
     0.01 (from memory).
     """
+    read_workbook_bytes(path, **limits)
+
+
+def read_workbook_bytes(path, **limits) -> bytes:
+    """The bytes of a workbook file, read once, after every check of :func:`check_workbook_file`.
+
+    The checks run on these bytes, not on the file again, so a reader of the returned bytes
+    sees exactly what was checked. Besides the checks above, a package that holds two entries
+    of one name (or of names equal but for case: OPC part names ignore case) is refused, since
+    zip readers differ in which copy they take.
+    """
     unknown = set(limits) - set(LIMITS)
     if unknown:
         raise TypeError(f"unknown limit(s): {', '.join(sorted(unknown))}")
@@ -227,11 +239,17 @@ def check_workbook_file(path, **limits) -> None:
         raise WorkbookFileError(path, f"the file is {_mib(size)}, above the limit "
                                       f"{_mib(lim['max_file_bytes'])}")
     try:
-        with open(path, "rb") as f:
-            head = f.read(4)
-            found = _directory_size(f, size) if size >= 22 else None
+        with open(path, "rb") as fh:
+            data = fh.read(size + 1)          # the size was checked above
     except OSError as e:
         raise WorkbookFileError(path, f"cannot be read ({e.strerror or e})") from None
+    if len(data) > lim["max_file_bytes"]:
+        raise WorkbookFileError(path, f"the file grew beyond the limit "
+                                      f"{_mib(lim['max_file_bytes'])} while being read")
+    size = len(data)
+    f = io.BytesIO(data)
+    head = data[:4]
+    found = _directory_size(f, size) if size >= 22 else None
     if found is None:
         if head.startswith(b"PK\x03\x04"):
             raise WorkbookFileError(path, "not an .xlsx workbook (not a zip archive: the end of "
@@ -249,7 +267,7 @@ def check_workbook_file(path, **limits) -> None:
         raise WorkbookFileError(path, f"the zip directory is {_mib(cd_size)}, above the limit "
                                       f"{_mib(lim['max_directory_bytes'])}")
     try:
-        zf = zipfile.ZipFile(path)
+        zf = zipfile.ZipFile(io.BytesIO(data))
     except (zipfile.BadZipFile, OSError, EOFError, ValueError, struct.error) as e:
         raise WorkbookFileError(path, f"not an .xlsx workbook (not a zip archive: {e})") from None
     with zf:
@@ -274,6 +292,15 @@ def check_workbook_file(path, **limits) -> None:
                     raise WorkbookFileError(path, f"part {info.filename!r} is compressed "
                                                   f"{ratio:.0f}:1, above the limit "
                                                   f"{lim['max_ratio']:g}:1 (zip bomb?)")
+        seen = {}
+        for info in infos:
+            folded = info.filename.replace("\\", "/").lower()
+            if folded in seen:
+                raise WorkbookFileError(path, f"the package holds two entries named "
+                                              f"{seen[folded]!r} and {info.filename!r}; zip "
+                                              f"readers differ in which one they read, so the "
+                                              f"workbook is refused")
+            seen[folded] = info.filename
         names = {i.filename for i in infos}
         missing = [p for p in REQUIRED_PARTS if p not in names]
         if missing:
@@ -282,68 +309,7 @@ def check_workbook_file(path, **limits) -> None:
         for info in infos:
             if not info.is_dir():
                 _scan_part(zf, info, path, lim)
-
-
-def check_formula_functions(path, formulas, allowed, is_excel_function) -> None:
-    """Refuse formulas that call a function that is neither Excel's own nor a registered one.
-
-    The formula engine (pycel) translates a formula into Python and runs it in a namespace that
-    still holds Python's built-ins, so a workbook formula such as ``=EVAL("...")`` or
-    ``=OPEN("x", "w")`` would reach Python's ``eval`` or ``open``. Every function a formula
-    names must therefore be an Excel worksheet function or one of ``allowed``; a formula the
-    tokenizer cannot read (a DDE link such as ``=cmd|' /C calc'!A0``) is refused too.
-
-    Parameters
-    ----------
-    path : str or os.PathLike
-        The workbook, for the message.
-    formulas : mapping
-        ``{(sheet, cell): formula text}`` (the text with or without its leading "=").
-    allowed : iterable of str
-        Names of the registered worksheet functions (any case).
-    is_excel_function : callable
-        ``name -> bool``: True for Excel's own worksheet functions (the engine passes
-        ``lambda n: pycel.lib.function_info.func_status_msg(n)[0]``).
-
-    Raises
-    ------
-    WorkbookFileError
-        Naming the sheet, the cell and the function.
-
-    >>> check_formula_functions("b.xlsx", {("S", "A1"): "=SUM(B1:B3)+PFX_POWER(C1:D4, 2)"},
-    ...                         {"PFX_POWER"}, lambda n: n == "SUM")
-    >>> try:
-    ...     check_formula_functions("b.xlsx", {("S", "A2"): '=EVAL("1")'}, {"PFX_POWER"},
-    ...                             lambda n: n == "SUM")
-    ... except WorkbookFileError as e:
-    ...     print(e)
-    b.xlsx: sheet 'S', cell A2: the formula calls EVAL, which is neither an Excel function nor \
-a registered worksheet function; refusing to evaluate the workbook
-    """
-    from openpyxl.formula.tokenizer import Token, Tokenizer
-
-    allowed = {a.upper() for a in allowed}
-    for (sheet, cell), text in formulas.items():
-        text = text if text.startswith("=") else "=" + text
-        try:
-            items = Tokenizer(text).items
-        except Exception as e:  # noqa: BLE001 - openpyxl raises TokenizerError and others
-            raise WorkbookFileError(path, f"sheet {sheet!r}, cell {cell}: the formula cannot be "
-                                          f"read ({type(e).__name__}); refusing to evaluate the "
-                                          f"workbook") from None
-        for tok in items:
-            if tok.type != Token.FUNC or tok.subtype != Token.OPEN:
-                continue
-            name = tok.value[:-1].upper()
-            for prefix in ("_XLFN._XLWS.", "_XLFN.", "_XLWS."):
-                if name.startswith(prefix):
-                    name = name[len(prefix):]
-            if name in allowed or is_excel_function(name):
-                continue
-            raise WorkbookFileError(path, f"sheet {sheet!r}, cell {cell}: the formula calls "
-                                          f"{name}, which is neither an Excel function nor a "
-                                          f"registered worksheet function; refusing to evaluate "
-                                          f"the workbook")
+    return data
 
 
 def check_output_path(in_path, out_path) -> None:
@@ -361,13 +327,9 @@ def check_output_path(in_path, out_path) -> None:
     b.ods: the output must keep the input's extension '.xlsx'
     """
     in_path, out_path = os.fspath(in_path), os.fspath(out_path)
-    same = os.path.realpath(in_path) == os.path.realpath(out_path)
-    if not same:
-        try:
-            same = os.path.samefile(in_path, out_path)
-        except OSError:
-            same = False
-    if same:
+    from .output import same_file
+
+    if same_file(in_path, out_path):
         raise WorkbookFileError(out_path, "refusing to write over the input workbook; choose "
                                           "another output path")
     in_ext = os.path.splitext(in_path)[1].lower()

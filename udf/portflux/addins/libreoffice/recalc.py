@@ -101,10 +101,9 @@ def check_formulas(path) -> tuple[int, int]:
     """
     import zipfile
 
-    from pycel.lib.function_info import func_status_msg
-
     from ... import cells
-    from ...workbook.safety import check_formula_functions
+    from ...workbook.formula import FormulaSyntaxError, calls, parse
+    from ...workbook.recalc import refusal_of_call
 
     name = os.path.basename(os.fspath(path))
     with zipfile.ZipFile(path) as z:
@@ -115,11 +114,20 @@ def check_formulas(path) -> tuple[int, int]:
                     f"{part!r}); refusing to evaluate it in LibreOffice (use the embedded "
                     f"engine)")
     formulas, arrays, names = _formulas(path)
-    check_formula_functions(path, formulas, cells.PUBLIC, lambda n: bool(func_status_msg(n)[0]))
-    for (sheet, cell), text in formulas.items():
+    for (sheet, cell), text in formulas.items():     # what reaches outside, in LibreOffice
         _refuse_outside_reach(text, f"{name}: sheet {sheet!r}, cell {cell}")
     for n, text in names.items():
         _refuse_outside_reach(text, f"{name}: defined name {n!r}")
+    for (sheet, cell), text in formulas.items():     # the embedded engine's rule and words
+        try:
+            called = calls(parse(text))
+        except FormulaSyntaxError as e:
+            raise LibreOfficeRecalcError(f"sheet {sheet!r}, cell {cell}: {e}") from None
+        for f in called:
+            why = refusal_of_call(f.removeprefix("_XLFN.").removeprefix("_XLWS."),
+                                  cells.PUBLIC)
+            if why:
+                raise LibreOfficeRecalcError(f"sheet {sheet!r}, cell {cell}: {why}")
     return len(formulas), arrays
 
 

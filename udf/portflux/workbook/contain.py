@@ -1,0 +1,168 @@
+"""Run one evaluation in a child process with bounded memory, CPU time and wall-clock time.
+
+On POSIX systems :func:`run_contained` forks a child, lowers its address-space limit
+(``RLIMIT_AS``: what the parent already maps plus :data:`DEFAULT_LIMITS` ``memory_bytes``) and its
+CPU-time limit (``RLIMIT_CPU``), runs the function there and sends its result back through a pipe
+as JSON (plain data only: the parent never unpickles what a child that read a hostile file
+sends). The parent waits at most ``wall_seconds`` and kills the child after that. A child
+that runs out of memory, exceeds its CPU time, dies or is killed becomes a :class:`RecalcError`
+naming the workbook; a Python traceback never reaches the user.
+
+Where ``os.fork`` or :mod:`resource` is missing (Windows), the function runs in the calling
+process without these limits; :data:`CONTAINED` says which, and ``portflux recalc`` states it.
+The formula interpreter itself never runs workbook content as code either way; the limits bound
+what a well-formed but enormous workbook can cost.
+"""
+
+from __future__ import annotations
+
+import gc
+import json
+import os
+import select
+import signal
+import sys
+import time
+
+from .xlvalues import RecalcError
+
+try:
+    import resource
+except ImportError:       # Windows
+    resource = None
+
+__all__ = ["CONTAINED", "DEFAULT_LIMITS", "run_contained"]
+
+#: True where evaluations run in a limited child process (POSIX with fork and resource).
+CONTAINED = resource is not None and hasattr(os, "fork")
+
+#: Default bounds of one contained evaluation.
+DEFAULT_LIMITS = {
+    "memory_bytes": 4 * 2**30,     # address space beyond what the parent already maps
+    "cpu_seconds": 600,            # CPU time of the child
+    "wall_seconds": 900.0,         # elapsed time before the child is killed
+}
+
+
+def _mapped_bytes() -> int:
+    try:
+        with open("/proc/self/statm") as fh:
+            return int(fh.read().split()[0]) * os.sysconf("SC_PAGE_SIZE")
+    except (OSError, ValueError, IndexError, AttributeError):
+        return 0
+
+
+def _limit(kind, value):
+    soft, hard = resource.getrlimit(kind)
+    if hard != resource.RLIM_INFINITY:
+        value = min(value, hard)
+    resource.setrlimit(kind, (value, hard))
+
+
+def _child(fn, write_fd, limits):
+    status = 0
+    # The child lives for one evaluation and its memory is capped: the cyclic collector would
+    # only traverse the (large, mostly acyclic) formula structures again and again.
+    gc.disable()
+    try:
+        _limit(resource.RLIMIT_AS, _mapped_bytes() + int(limits["memory_bytes"]))
+        used = resource.getrusage(resource.RUSAGE_SELF)
+        _limit(resource.RLIMIT_CPU, int(used.ru_utime + used.ru_stime) +
+               int(limits["cpu_seconds"]))
+        try:
+            payload = ("ok", fn())
+        except RecalcError as exc:
+            payload = ("refused", str(exc))
+        except MemoryError:
+            payload = ("memory", None)
+        except RecursionError:
+            payload = ("recursion", None)
+        except BaseException as exc:  # noqa: BLE001 - reported to the parent, never shown raw
+            payload = ("fault", f"{type(exc).__name__}: {exc}")
+        try:
+            data = json.dumps(payload, allow_nan=False).encode()
+        except MemoryError:
+            data = json.dumps(["memory", None]).encode()
+        except (TypeError, ValueError) as exc:
+            data = json.dumps(["fault", f"result is not plain data ({exc})"]).encode()
+        view = memoryview(data)
+        while view:
+            n = os.write(write_fd, view)
+            view = view[n:]
+    except BaseException:  # noqa: BLE001
+        status = 1
+    finally:
+        os._exit(status)
+
+
+def run_contained(fn, what: str, **limits):
+    """``fn()`` evaluated in a limited child process; its result (plain JSON data: dicts with
+    text keys, lists, text, numbers, logicals, None; tuples come back as lists).
+
+    ``what`` names the workbook in messages. Keyword overrides of :data:`DEFAULT_LIMITS`.
+
+    >>> run_contained(lambda: 6 * 7, "a test")
+    42
+    """
+    unknown = set(limits) - set(DEFAULT_LIMITS)
+    if unknown:
+        raise TypeError(f"unknown limit(s): {', '.join(sorted(unknown))}")
+    lim = {**DEFAULT_LIMITS, **limits}
+    if not CONTAINED:
+        return fn()
+    read_fd, write_fd = os.pipe()
+    sys.stdout.flush()
+    sys.stderr.flush()
+    pid = os.fork()
+    if pid == 0:                                       # child
+        os.close(read_fd)
+        _child(fn, write_fd, lim)
+    os.close(write_fd)
+    chunks = []
+    deadline = time.monotonic() + float(lim["wall_seconds"])
+    timed_out = False
+    try:
+        while True:
+            left = deadline - time.monotonic()
+            if left <= 0:
+                timed_out = True
+                break
+            ready, _, _ = select.select([read_fd], [], [], min(left, 1.0))
+            if not ready:
+                continue
+            chunk = os.read(read_fd, 1 << 20)
+            if not chunk:
+                break
+            chunks.append(chunk)
+    finally:
+        os.close(read_fd)
+        if timed_out:
+            try:
+                os.kill(pid, signal.SIGKILL)
+            except ProcessLookupError:
+                pass
+        _, status = os.waitpid(pid, 0)
+    if timed_out:
+        raise RecalcError(f"{what}: the recalculation took longer than "
+                          f"{lim['wall_seconds']:g} s and was stopped")
+    if not chunks:
+        sig = os.WTERMSIG(status) if os.WIFSIGNALED(status) else None
+        why = ("it exceeded its CPU time limit" if sig == signal.SIGXCPU else
+               f"it was ended by signal {sig}" if sig else "it ended without a result")
+        raise RecalcError(f"{what}: the recalculation stopped: {why} (limits: "
+                          f"{lim['memory_bytes'] / 2**30:g} GiB memory, {lim['cpu_seconds']} s "
+                          f"CPU)")
+    try:
+        kind, value = json.loads(b"".join(chunks))
+    except (ValueError, TypeError):
+        raise RecalcError(f"{what}: the recalculation sent an unreadable result") from None
+    if kind == "ok":
+        return value
+    if kind == "refused":
+        raise RecalcError(value)
+    if kind == "memory":
+        raise RecalcError(f"{what}: the recalculation needs more than the memory limit of "
+                          f"{lim['memory_bytes'] / 2**30:g} GiB; refusing the workbook")
+    if kind == "recursion":
+        raise RecalcError(f"{what}: the recalculation nests too deeply; refusing the workbook")
+    raise RecalcError(f"{what}: internal error during the recalculation ({value})")
