@@ -16,7 +16,6 @@ import os
 import sys
 
 from portflux.workbook.fill import Scenario, fill
-from portflux.workbook.template import build_template
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 
@@ -59,13 +58,9 @@ SCENARIOS = {
 
 
 def main(folder=HERE) -> int:
-    import tempfile
-
-    with tempfile.TemporaryDirectory() as tmp:
-        template = build_template(os.path.join(tmp, "template.xlsx"))
-        for name, sc in SCENARIOS.items():
-            path = fill(template, os.path.join(folder, name), sc)
-            print(f"wrote {path}")
+    for name, sc in SCENARIOS.items():      # built afresh from the generator (charts kept)
+        path = fill(None, os.path.join(folder, name), sc)
+        print(f"wrote {path}")
     return 0
 
 

@@ -1,4 +1,4 @@
-"""Command line: ``portflux demo | recalc | check | template | bench``."""
+"""Command line: ``portflux demo | recalc | check | template | report | bench``."""
 
 from __future__ import annotations
 
@@ -100,6 +100,14 @@ def cmd_template(args) -> int:
     return 0
 
 
+def cmd_report(args) -> int:
+    from .workbook.report import write_report
+
+    path = write_report(args.input, args.output, paper=args.paper, progress=not args.quiet)
+    print(f"report written: {path}")
+    return 0
+
+
 def cmd_bench(args) -> int:
     from . import bench
 
@@ -132,6 +140,13 @@ def build_parser() -> argparse.ArgumentParser:
     t = sub.add_parser("template", help="write the template workbook")
     t.add_argument("path", nargs="?", help="file or folder (default: ./portflux_template.xlsx)")
     t.set_defaults(func=cmd_template)
+    rp = sub.add_parser("report", help="write the workbook's one-page 'Report' sheet as a PDF "
+                                       "(through LibreOffice)")
+    rp.add_argument("input", help="workbook made from the template (never modified)")
+    rp.add_argument("-o", "--output", required=True, help="PDF to write")
+    rp.add_argument("--paper", choices=("a4", "letter"), default="a4", help="paper size")
+    rp.add_argument("-q", "--quiet", action="store_true", help="no progress messages")
+    rp.set_defaults(func=cmd_report)
     b = sub.add_parser("bench", help="measure speed against a bare numpy baseline")
     b.add_argument("--quick", action="store_true", help="tiny sizes (seconds), as CI runs it")
     b.set_defaults(func=cmd_bench)
