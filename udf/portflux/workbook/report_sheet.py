@@ -171,7 +171,8 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
     rr += 1
     put(ws, 1, rr, "warnings", font=BOLD)
     for i in range(3):
-        formula(ws, 2, rr + i, f"={C(p['warnings'][i])}")
+        w = C(p["warnings"][i])
+        formula(ws, 2, rr + i, f'=IF({w}="","",{w})')
         _merge(ws, rr + i, 2, NCOL)
     rr += 4
 
