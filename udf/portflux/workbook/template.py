@@ -104,7 +104,7 @@ class RawSheet:
     def __init__(self, ws):
         self.ws = ws
         self.row = 2
-        self.blocks = {}           #: name -> raw range (for the range test)
+        self.blocks = {}           #: name -> (function, array range), for the range test
         put(ws, 1, 1, "Array formulas of the shown result blocks (do not edit; the shown blocks "
                       "read these cells)", font=BOLD)
 
@@ -539,6 +539,8 @@ def _speed_sweep(wb, lay: Layout):
     nrow, ncols = LARGEST["PFX_SPEEDTABLE"]
     put(ws, 3, top - 1, "Speed table (one call)", font=BOLD)
     array(ws, 3, top, nrow, ncols, f"=PFX_SPEEDTABLE({P},{speeds},{direc},{U},{S})", fmt=NUMBER)
+    raw.blocks["speed table"] = ("PFX_SPEEDTABLE",      # exact size: shown as it is
+                                 rng(3, top, 2 + ncols, top + nrow - 1, SWEEP))
     for j, f in ((0, SPEED), (8, RATIO), (9, "0")):
         for k in range(nrow):
             ws.cell(row=top + k, column=3 + j).number_format = f
