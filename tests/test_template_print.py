@@ -7,6 +7,7 @@ footers ("sheet name ... page x of y"), which the template's print set-up writes
 skip, saying why, when ``soffice`` is not on the PATH."""
 
 import os
+import re
 import shutil
 import subprocess
 import zipfile
@@ -62,7 +63,16 @@ def test_each_sheet_prints_on_its_planned_pages(tmp_path, paper):
         report._set_paper(str(frozen), "letter")
         with zipfile.ZipFile(frozen) as z:
             assert b'paperSize="1"' in z.read("xl/worksheets/sheet1.xml")
-    assert _pages_per_sheet(_render(frozen, tmp_path)) == PAGES
+    pdf = _render(frozen, tmp_path)
+    assert _pages_per_sheet(pdf) == PAGES
+    text = subprocess.run([PDFTOTEXT, "-layout", str(pdf), "-"], capture_output=True,
+                          text=True, check=True).stdout
+    # the template's vane: support force x = -1477.10 N, power 11816.81 W (values of
+    # PFX_SUPPORT / PFX_POWER); shown with one decimal from 100 up, the sign kept, and no
+    # float noise in exponent form anywhere
+    assert "-1,477.1" in text and "11,816.8" in text
+    shown = [p for p in text.split("\f") if T.CHECKS not in p]   # tolerances there are 1E-12
+    assert not any(re.search(r"\dE-\d\d", p) for p in shown)
 
 
 @needs_lo

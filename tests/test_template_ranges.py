@@ -192,3 +192,18 @@ def test_velocity_triangle_shows_the_first_outlet_by_default(probed):
     assert ws[typed].value in (None, "")
     shown = ws.cell(row=ws[typed].row, column=ws[typed].column - 3).value
     assert shown == 2          # the template's port 2 ('vane exit') is its first outlet
+
+
+def test_results_carry_number_formats_and_inputs_keep_what_was_typed():
+    from portflux.workbook.drawing import NUMBER, RATIO
+
+    wb = openpyxl.load_workbook(COMMITTED)
+    ws = wb[T.CV]
+    lay = T.layout()
+    c, r, n, k = T.RELVEL_AT
+    for row in ws.iter_rows(min_row=r + 1, max_row=r + n - 1, min_col=c + 1, max_col=c + k - 1):
+        assert all(x.number_format == NUMBER for x in row)
+    assert ws[lay.panel["jet"].replace("$", "")].number_format == RATIO
+    for ref in (lay.ports.ref, lay.settings_ref):
+        for row in ws[ref.replace("$", "")]:
+            assert all(x.number_format == "General" for x in row), ref

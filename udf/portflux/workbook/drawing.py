@@ -13,7 +13,10 @@ from dataclasses import dataclass
 from openpyxl.chart.data_source import StrData, StrRef, StrVal
 from openpyxl.chart.text import Text
 from openpyxl.chart.title import Title
+from openpyxl.formatting.rule import Rule
 from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
+from openpyxl.styles.differential import DifferentialStyle
+from openpyxl.styles.numbers import NumberFormat
 from openpyxl.utils import get_column_letter
 from openpyxl.worksheet.formula import ArrayFormula
 
@@ -31,12 +34,15 @@ BOX = Border(left=THIN, right=THIN, top=THIN, bottom=THIN)
 END_LINE = Border(bottom=Side(style="medium", color="808080"))
 WRAP = Alignment(wrap_text=True, vertical="top")
 
-# Number formats of computed cells. The rule (documented in DEVELOPERS.md): magnitudes of 100 and
-# more with one decimal and thousands separators, smaller ones with three decimals — at least four
-# significant figures for every value of 1 or more; values below the round-off of their block are
-# set to 0 by the block's display formula, so no 3.4E-15 ever shows. Ratios (efficiencies) to
-# three decimals. Inputs keep the General format: what the user typed.
-NUMBER = "[>=100]#,##0.0;[<=-100]-#,##0.0;0.000"
+# Number formats of computed cells. The rule (documented in DEVELOPERS.md): three decimals below
+# a magnitude of 100, one decimal with thousands separators from 100 up (a conditional format,
+# :func:`big_numbers`) — at least four significant figures for every value of 1 or more. Values
+# below the round-off of their block are set to 0 by the block's display formula, so no 3.4E-15
+# ever shows. Ratios (efficiencies) to three decimals. Inputs keep the General format: what the
+# user typed. (A number format with [>=100] conditions loses the minus sign of its last section in
+# LibreOffice, so the magnitude switch is a conditional format.)
+NUMBER = "#,##0.000;-#,##0.000"
+LARGE = "#,##0.0;-#,##0.0"
 RATIO = "0.000"
 SPEED = "0.000"
 
@@ -176,6 +182,14 @@ def end_of_range(ws, c1, c2, r, text):
         put(ws, c2 + 1, r, text, font=Font(italic=True, color="808080", size=9))
 
 
+def big_numbers(ws, ref: str) -> None:
+    """Show numbers of 100 and more in ``ref`` (computed cells only) with one decimal."""
+    first = ref.replace("$", "").split(":")[0]
+    ws.conditional_formatting.add(ref.replace("$", ""), Rule(
+        type="expression", formula=[f"ABS({first})>=100"],
+        dxf=DifferentialStyle(numFmt=NumberFormat(numFmtId=200, formatCode=LARGE))))
+
+
 def print_setup(ws, area, *, landscape, title_rows=None, fit_height=0, paper="A4",
                 page_count=True):
     """Print area, orientation, fit to the page width, repeated header rows and a header and
@@ -213,7 +227,7 @@ def widths(ws, spec: dict):
         ws.column_dimensions[k if isinstance(k, str) else get_column_letter(k)].width = w
 
 
-__all__ = ["BIG_FONT", "BOLD", "BOX", "HEAD_FILL", "INPUT_FILL", "ITALIC", "NUMBER",
+__all__ = ["BIG_FONT", "BOLD", "BOX", "HEAD_FILL", "INPUT_FILL", "ITALIC", "LARGE", "NUMBER",
            "OUTPUT_FILL", "PANEL_FILL", "PortBlock", "RATIO", "RED_BOLD", "SPEED", "TITLE_FONT",
-           "WRAP", "array", "cell", "cv_row", "end_of_range", "formula", "port_table",
+           "WRAP", "array", "big_numbers", "cell", "cv_row", "end_of_range", "formula", "port_table",
            "print_setup", "put", "q", "rng", "settings_block", "title_from", "widths"]

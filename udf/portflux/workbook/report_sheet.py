@@ -16,7 +16,7 @@ from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
 
 from ..cautions import CAUTION_LINES
 from .drawing import (BOLD, HEAD_FILL, INPUT_FILL, ITALIC, NUMBER, RATIO,
-                      RED_BOLD, TITLE_FONT, cell, formula, print_setup, put, q, rng, title_from,
+                      RED_BOLD, TITLE_FONT, big_numbers, cell, formula, print_setup, put, q, rng, title_from,
                       widths)
 
 REPORT = "Report"
@@ -128,6 +128,7 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
         for j, c in enumerate(cs):
             formula(ws, 2 + j, rr, f"={C(c)}", fmt=NUMBER, font=BOLD)
         formula(ws, 6, rr, f'=IFERROR(MID({fl},18,LEN({fl})-18),"")')
+    big_numbers(ws, rng(2, r0 + 2, 5, r0 + 3))
     rr = r0 + 4
     put(ws, 1, rr, "RESERVED: support moments", font=BOLD)
     put(ws, 1, rr + 1, "RESERVED: factored design load", font=BOLD)
@@ -144,7 +145,7 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
         put(ws, 1, rr, name, font=BOLD)
         formula(ws, 2, rr, f, fmt=fmt, font=BOLD)
         formula(ws, 3, rr, unit)
-        if name.startswith("propulsive"):      # its value may be an 'n/a: ...' explanation
+        if "efficiency" in name:               # its value may be an 'n/a: ...' explanation
             ws.cell(row=rr, column=3).value = None
             formula(ws, 2, rr, f'=IF(ISNUMBER({f[1:]}),{f[1:]},"-")', fmt=fmt, font=BOLD)
             formula(ws, 4, rr, f'=IF(ISNUMBER({f[1:]}),"",{f[1:]})', font=ITALIC)
@@ -155,6 +156,7 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
     S = lambda ref: f"{q(sweep_sheet)}!{ref}"    # noqa: E731
     bc, br = best.split("$")[1], int(best.split("$")[2])
     lab = f"{q(sweep_sheet)}!${chr(ord(bc) - 1)}${br}"
+    big_numbers(ws, rng(2, r0 + 6, 2, rr))
     put(ws, 1, rr, "best speed (maximum power)", font=BOLD)
     formula(ws, 2, rr, f"={S(best)}", fmt=NUMBER, font=BOLD)
     formula(ws, 3, rr, f'=IFERROR(MID({lab},25,LEN({lab})-25),"")')
@@ -177,10 +179,10 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
     rr += 4
 
     # chart ---------------------------------------------------------------------------------
-    put(ws, 1, rr, "Power and force on the body against CV speed (sheet 'Speed sweep')",
+    put(ws, 1, rr, "Force on the body and power against CV speed (sheet 'Speed sweep')",
         font=BOLD)
     cells["chart_row"] = rr + 1
-    _power_chart(ws, lay, sweep_sheet, cell(1, rr + 1, absolute=False))
+    _sweep_charts(ws, lay, sweep_sheet, rr + 1)
     rr += 17
 
     # verdict and cautions ------------------------------------------------------------------
@@ -209,23 +211,30 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
     return cells
 
 
-def _power_chart(ws, lay, sweep_sheet, anchor):
-    """Power and force on the body along the motion against speed, from the sweep table."""
+def _sweep_charts(ws, lay, sweep_sheet, row):
+    """Two small charts from the sweep table: force on the body (x, y) and power, against speed."""
     sw = lay.sweep_cells
     top = sw["table_top"]
     src = ws.parent[sweep_sheet]
     last = top + 41
     xs = Reference(src, min_col=3, min_row=top + 1, max_row=last)
-    ch = ScatterChart()
-    ch.title = None
-    ch.style = 13
     cu = lay.chart_units
-    ch.x_axis.title = title_from(cell(3, top, sweep_sheet), f"speed [{cu.label('velocity')}]")
-    ch.y_axis.title = title_from(cell(10, top, sweep_sheet), f"power to body [{cu.label('power')}]")
-    ch.series.append(Series(Reference(src, min_col=10, min_row=top, max_row=last), xs,
-                            title_from_data=True))
-    ch.x_axis.delete = False
-    ch.y_axis.delete = False
-    ch.legend.position = "b"
-    ch.height, ch.width = 7.5, 17
-    ws.add_chart(ch, anchor)
+    xt = title_from(cell(3, top, sweep_sheet), f"speed [{cu.label('velocity')}]")
+    plots = (((7, 8), title_from(sw["force_title"], f"force on body [{cu.label('force')}]"), 1),
+             ((10,), title_from(cell(10, top, sweep_sheet),
+                                f"power to body [{cu.label('power')}]"), 6))
+    for cols, yt, col in plots:
+        ch = ScatterChart()
+        ch.title = None
+        ch.style = 13
+        ch.x_axis.title, ch.y_axis.title = xt, yt
+        for c in cols:
+            ch.series.append(Series(Reference(src, min_col=c, min_row=top, max_row=last), xs,
+                                    title_from_data=True))
+        ch.x_axis.delete = False
+        ch.y_axis.delete = False
+        ch.x_axis.tickLblPos = ch.y_axis.tickLblPos = "low"
+        ch.x_axis.number_format = ch.y_axis.number_format = "General"
+        ch.legend.position = "b"
+        ch.height, ch.width = 7.5, 9.3
+        ws.add_chart(ch, cell(col, row, absolute=False))

@@ -49,7 +49,7 @@ from . import cases, cases_closures
 from .drawing import (BIG_FONT, BOLD, INPUT_FILL, ITALIC, NUMBER, OUTPUT_FILL,
                       PANEL_FILL, RATIO, RED_BOLD, SPEED, TITLE_FONT, array, cell, cv_row,
                       end_of_range, formula, port_table, print_setup, put, q, rng,
-                      settings_block, title_from, widths)
+                      settings_block, title_from, widths, big_numbers)
 from .report_sheet import REPORT, draw_report
 
 TEMPLATE_NAME = "portflux_template.xlsx"
@@ -132,6 +132,9 @@ class RawSheet:
                                              f"FALSE)")
         ws.cell(row=r0 + 2, column=fc, value=f"=1E-9*MAX({rng(hc, r0 + 1, hc + cols - 1, r0 + rows)})")
         flag, th = cell(fc, r0 + 1, RAW), cell(fc, r0 + 2, RAW)
+        spots = [where(i, j) for i in range(rows) for j in range(cols)]
+        big_numbers(shown, rng(min(c for c, _ in spots), min(r for _, r in spots),
+                               max(c for c, _ in spots), max(r for _, r in spots)))
         for i in range(rows):
             for j in range(cols):
                 c, r = where(i, j)
@@ -289,7 +292,10 @@ def _control_volume(wb, lay: Layout):
     lay.cv_cells = tuple(cell(c, CV_TOP + 1) for c in range(2, 6))
     put(ws, 1, UNITS_ROW, "output units", font=BOLD)
     put(ws, 2, UNITS_ROW, "SI", fill=INPUT_FILL)
-    put(ws, 3, UNITS_ROW, "SI, US, or e.g. 'US; force=kN'")
+    for c in (3, 4):
+        put(ws, c, UNITS_ROW, None, fill=INPUT_FILL)
+    ws.merge_cells(start_row=UNITS_ROW, end_row=UNITS_ROW, start_column=2, end_column=4)
+    put(ws, 5, UNITS_ROW, "SI, US, or e.g. 'US; force=kN; power=kW'", font=ITALIC)
     lay.units_cell = cell(2, UNITS_ROW)
     U = lay.units_cell
     S = settings_block(ws, 1, SETTINGS_TOP, CV_SETTINGS, spare=SPARE_SETTINGS)
@@ -346,6 +352,7 @@ def _control_volume(wb, lay: Layout):
     label(r + 3, "mass imbalance (out - in), relative, status")
     raw.show("imbalance", "PFX_IMBALANCE", f"=PFX_IMBALANCE({args},,{Uq},{Sq})", ws,
              _block_at(8, r + 3), fmts={1: "General"})
+    big_numbers(ws, rng(11, r + 1, 11, r + 2))
     label(r + 4, "power delivered to the body")
     formula(ws, 8, r + 4, f"=PFX_POWER({args},{Uq},{Sq})", fmt=NUMBER)
     label(r + 5, "jet efficiency")
@@ -403,6 +410,7 @@ def _results_panel(ws, lay, ncol):
     put(ws, left, 5, "power to body", fill=PANEL_FILL, font=BOLD)
     ws.merge_cells(start_row=5, end_row=5, start_column=left, end_column=left + 1)
     put(ws, left + 2, 5, f"={p['power']}", fill=PANEL_FILL, font=BIG_FONT, fmt=NUMBER)
+    big_numbers(ws, rng(left + 2, 3, left + 5, 5))
     put(ws, left + 3, 5, f'=IFERROR(MID({p["power_label"]},16,LEN({p["power_label"]})-16),"")',
         font=ITALIC)
     fl = p["force_label"]
@@ -462,6 +470,7 @@ def _velocity_triangle(ws, left, top, table_top, lay=None):
             formula(ws, pc, rr, f"={cell(left + cx, src)}", fmt=NUMBER)
             formula(ws, pc + 1, rr, f"={cell(left + cy, src)}", fmt=NUMBER)
     vals = rng(left + 2, base + 1, left + 5, base + 3)
+    big_numbers(ws, vals)
     fr = pts + 7
     put(ws, pc, fr, "equal-scale frame", font=ITALIC)
     m = cell(pc + 2, fr)
@@ -497,10 +506,14 @@ def _velocity_triangle(ws, left, top, table_top, lay=None):
     s.graphicalProperties.line.noFill = True
     ch.series.append(s)
     _axes_visible(ch)
-    ch.height = ch.width = 9
+    for ax in (ch.x_axis, ch.y_axis):          # labels at the edge, plain numbers
+        ax.tickLblPos = "low"
+        ax.number_format = "General"
+    ch.height = ch.width = 9.5
     ch.legend.position = "b"
+    # a square plot area: with the frame series both axes get the same range, so equal scales
     ch.plot_area.layout = ChartLayout(manualLayout=ManualLayout(
-        layoutTarget="inner", xMode="edge", yMode="edge", x=0.17, y=0.12, w=0.72, h=0.6))
+        layoutTarget="inner", xMode="edge", yMode="edge", x=0.2, y=0.12, w=0.6, h=0.6))
     ws.add_chart(ch, cell(left, pts, absolute=False))
 
 
@@ -541,6 +554,7 @@ def _speed_sweep(wb, lay: Layout):
     array(ws, 3, top, nrow, ncols, f"=PFX_SPEEDTABLE({P},{speeds},{direc},{U},{S})", fmt=NUMBER)
     raw.blocks["speed table"] = ("PFX_SPEEDTABLE",      # exact size: shown as it is
                                  rng(3, top, 2 + ncols, top + nrow - 1, SWEEP))
+    big_numbers(ws, rng(4, top + 1, 10, top + nrow - 1))
     for j, f in ((0, SPEED), (8, RATIO), (9, "0")):
         for k in range(nrow):
             ws.cell(row=top + k, column=3 + j).number_format = f
@@ -605,7 +619,7 @@ def _speed_sweep(wb, lay: Layout):
           title_from(cell(10, top, SWEEP), f"power to body [{cu.label('power')}]"),
           (10,), cell(bl, stop + 28, absolute=False), point=(bl + 1, btop + 1, bl + 1, btop + 2))
     lay.sweep_cells.update(best=best, power_header=cell(10, top), speed_header=cell(3, top),
-                           table_top=top)
+                           table_top=top, force_title=cell(bl + 1, stop + 8, SWEEP))
     print_setup(ws, rng(1, 1, bl + 7, max(last, stop + 45)), landscape=True, title_rows="1:2",
                 fit_height=1)
 
