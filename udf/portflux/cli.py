@@ -10,12 +10,6 @@ import tempfile
 from .cautions import CAUTION
 
 
-def _template_source(tmp: str) -> str:
-    from .workbook.template import build_template, shipped_template
-
-    return shipped_template() or build_template(os.path.join(tmp, "portflux_template.xlsx"))
-
-
 def _block(path, sheet, at) -> list[tuple]:
     """Cached values of a (column, row, rows, columns) block of a recalculated workbook."""
     import openpyxl
@@ -39,7 +33,7 @@ def cmd_demo(args) -> int:
     out = args.output or os.path.join(tempfile.mkdtemp(prefix="portflux-demo-"),
                                       "portflux-demo.xlsx")
     with tempfile.TemporaryDirectory(prefix="portflux-fill-") as tmp:
-        filled = fill(_template_source(tmp), os.path.join(tmp, "demo-input.xlsx"), sc)
+        filled = fill(None, os.path.join(tmp, "demo-input.xlsx"), sc)   # fresh, charts kept
         recalc(filled, out, progress=True)
     print(sc.title)
     print("=" * len(sc.title))
