@@ -40,6 +40,7 @@ from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.chart.layout import Layout as ChartLayout, ManualLayout
 from openpyxl.chart.shapes import GraphicalProperties
 from openpyxl.styles import Alignment
+from openpyxl.worksheet.formula import ArrayFormula
 from openpyxl.utils import get_column_letter
 
 from .. import __version__
@@ -120,17 +121,14 @@ class RawSheet:
         put(ws, 1, r0, name, font=ITALIC)
         ref = array(ws, 2, r0 + 1, rows, cols, text)
         self.blocks[name] = (function, rng(2, r0 + 1, 1 + cols, r0 + rows, RAW))
-        hc = cols + 3                           # |value| helper block, then flag and threshold
-        for i in range(rows):
-            for j in range(cols):
-                x = cell(2 + j, r0 + 1 + i, absolute=False)
-                ws.cell(row=r0 + 1 + i, column=hc + j,
-                        value=f"=IF(ISNUMBER({x}),ABS({x}),0)")
+        block = rng(2, r0 + 1, 1 + cols, r0 + rows)
         first, last = cell(2, r0 + 1), cell(1 + cols, r0 + rows)
-        fc = hc + cols + 1
+        fc = cols + 3                           # flag and round-off threshold beside the block
         ws.cell(row=r0 + 1, column=fc, value=f"=IFERROR(AND(ISTEXT({first}),{first}={last}),"
                                              f"FALSE)")
-        ws.cell(row=r0 + 2, column=fc, value=f"=1E-9*MAX({rng(hc, r0 + 1, hc + cols - 1, r0 + rows)})")
+        ref1 = cell(fc, r0 + 2, absolute=False)
+        ws[ref1] = ArrayFormula(f"{ref1}:{ref1}",
+                                f"=1E-9*MAX(IF(ISNUMBER({block}),ABS({block}),0))")
         flag, th = cell(fc, r0 + 1, RAW), cell(fc, r0 + 2, RAW)
         spots = [where(i, j) for i in range(rows) for j in range(cols)]
         big_numbers(shown, rng(min(c for c, _ in spots), min(r for _, r in spots),
