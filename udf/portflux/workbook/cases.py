@@ -22,6 +22,8 @@ from .drawing import (BOLD, HEAD_FILL, INPUT_FILL, OUTPUT_FILL, TITLE_FONT, cell
                       port_table, put, settings_block)
 
 INDEX_TOP = 4
+#: Output and expected values: six decimals (the comparison itself uses full precision).
+CHECK_FORMAT = "#,##0.000000;-#,##0.000000"
 INDEX_HEADER = ("case", "function", "output", "expected", "tolerance", "result", "source")
 BLOCKS_TOP = 60
 BLOCK_WIDTH = 10
@@ -269,9 +271,9 @@ def write_cases(ws, parts=PARTS):
         r = INDEX_TOP + 1 + i
         put(ws, 1, r, c.name)
         put(ws, 2, r, c.function)
-        put(ws, 3, r, c.output, fill=OUTPUT_FILL)
+        put(ws, 3, r, c.output, fill=OUTPUT_FILL, fmt=CHECK_FORMAT)
         put(ws, 4, r, c.expected, fill=OUTPUT_FILL if str(c.expected).startswith("=")
-             else INPUT_FILL)
+             else INPUT_FILL, fmt=CHECK_FORMAT)
         out, exp = cell(3, r, absolute=False), cell(4, r, absolute=False)
         if c.tolerance is None:
             put(ws, 5, r, "text")

@@ -98,10 +98,10 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
     put(ws, 1, r + 1, "CV velocity x, y, z", font=BOLD)
     for j, c in enumerate((cvx, cvy, cvz, cvu)):
         formula(ws, 2 + j, r + 1, f"={C(c)}", fmt="General")
-    put(ws, 6, r + 1, "output units", font=BOLD)
+    put(ws, 6, r + 1, "units", font=BOLD)
     formula(ws, 7, r + 1, f"={C(lay.units_cell)}")
     _merge(ws, r + 1, 7, NCOL)
-    put(ws, 1, r + 2, "settings", font=BOLD)
+    put(ws, 1, r + 2, "settings", font=BOLD).alignment = Alignment(vertical="top")
     s_rows = lay.settings_ref.replace("$", "").split(":")
     first = int("".join(ch for ch in s_rows[0] if ch.isdigit())) + 1
     last = int("".join(ch for ch in s_rows[1] if ch.isdigit()))

@@ -577,7 +577,7 @@ def _speed_sweep(wb, lay: Layout):
         font=BOLD)
     raw.show("speed at force", "PFX_SPEEDATFORCE",
              f'=PFX_SPEEDATFORCE({P},{Sh(force)},{Sh(low)},{Sh(high)},"along",{Sh(direc)},'
-             f'{Sh(U)},{S})', ws, _block_at(sl, stop))
+             f'{Sh(U)},{S})', ws, _block_at(sl, stop), row_fmts={3: "0"})
     # axis titles with units, read from the speed table's header
     put(ws, bl, stop + 8, "chart axis titles", font=ITALIC)
     formula(ws, bl + 1, stop + 8, f'=IFERROR("force on body ["&MID({cell(7, top)},18,'
