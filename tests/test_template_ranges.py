@@ -140,6 +140,7 @@ def probed(tmp_path_factory):
     # the same template with a slip_angle typed on the first row below the settings range
     s_last = T.SETTINGS_TOP + T.SETTINGS_ROWS
     ws["A" + str(s_last + 1)], ws["B" + str(s_last + 1)] = "slip_angle", 30.0
+    ws["A" + str(T.PORTS_TOP + 2 + T.MAX_PORTS)] = "port 11"       # first row below the ports
     src2 = tmp / "stray.xlsx"
     wb.save(src2)
     out2 = tmp / "stray_out.xlsx"
@@ -177,12 +178,13 @@ def test_round_off_shows_as_zero_and_no_shown_cell_holds_an_error(probed):
     assert ws[lay.panel["body"][2].replace("$", "")].value == 0     # force z: exactly 0
 
 
-def test_a_setting_typed_below_the_settings_range_is_flagged(probed):
+def test_input_typed_just_below_the_settings_or_the_ports_is_flagged(probed):
     clean, _, stray = probed[0], None, probed[2]
     lay = T.layout()
     at = lay.input_check.replace("$", "")
     assert clean[at].value in (None, "")
     assert "below the settings" in stray[at].value and "spare row" in stray[at].value
+    assert "below the port table" in stray[at].value
 
 
 def test_velocity_triangle_shows_the_first_outlet_by_default(probed):

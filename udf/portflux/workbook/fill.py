@@ -17,6 +17,7 @@ from .. import spec
 from ..core import InputError
 from . import template as T
 from .drawing import cell
+from .report_sheet import REPORT, TITLE_FIELDS
 
 
 @dataclass
@@ -33,6 +34,7 @@ class Scenario:
     triangle_port: int | None = None               #: port of the velocity triangle (None:
     #: the first outlet)
     note: str = ""
+    report: dict = field(default_factory=dict)     #: Report title block: project, case, ...
 
 
 def _cell_name(ref: str) -> str:
@@ -107,6 +109,12 @@ def apply(wb, sc: Scenario, lay) -> None:
             raise InputError(f"unknown sweep input {name!r}; the template has "
                              f"{', '.join(T.SWEEP_INPUTS)}", argument="sweep")
         sw[_cell_name(lay.sweep_cells[name])] = value
+    rep = wb[REPORT]
+    for name, value in sc.report.items():
+        if name not in TITLE_FIELDS:
+            raise InputError(f"unknown report field {name!r}; the template has "
+                             f"{', '.join(TITLE_FIELDS)}", argument="report")
+        rep[_cell_name(lay.report_cells[name])] = value
     if sc.title:
         ws["A1"] = sc.title
     if sc.note:
