@@ -92,7 +92,8 @@ def write_report(in_path, out_path, *, paper="a4", soffice=None, progress=False)
         raise ReportError(f"{out_path}: folder {out_dir} does not exist")
     exe = find_soffice(soffice)
     with tempfile.TemporaryDirectory(prefix="portflux-report-") as tmp:
-        frozen = os.path.join(tmp, "report.xlsx")
+        stem = os.path.splitext(os.path.basename(in_path))[0] or "report"
+        frozen = os.path.join(tmp, stem + ".xlsx")     # the page header shows the file name
         recalc(in_path, frozen, progress=progress, values_only=True)
         if not _first_sheet_is_report(frozen):
             raise ReportError(f"{in_path}: the first sheet is not {REPORT!r}; make the workbook "
@@ -108,7 +109,7 @@ def write_report(in_path, out_path, *, paper="a4", soffice=None, progress=False)
         except subprocess.TimeoutExpired:
             raise ReportError(f"LibreOffice did not finish rendering within {TIMEOUT} s") \
                 from None
-        pdf = os.path.join(tmp, "report.pdf")
+        pdf = os.path.join(tmp, stem + ".pdf")
         if done.returncode != 0 or not os.path.isfile(pdf):
             tail = (done.stderr or done.stdout or "").strip().splitlines()[-3:]
             raise ReportError("LibreOffice could not render the report: "

@@ -131,7 +131,7 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
     big_numbers(ws, rng(2, r0 + 2, 5, r0 + 3))
     rr = r0 + 4
     put(ws, 1, rr, "RESERVED: support moments", font=BOLD)
-    put(ws, 1, rr + 1, "RESERVED: factored design load", font=BOLD)
+    put(ws, 1, rr + 1, "RESERVED: factored load", font=BOLD)
     for k in (rr, rr + 1):
         for c in range(2, 7):
             put(ws, c, k, None, fill=RESERVED_FILL)
