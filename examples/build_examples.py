@@ -16,12 +16,12 @@ import os
 import sys
 
 from portflux.workbook.fill import Scenario, fill
-from portflux.workbook.template import build_template
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 
 SCENARIOS = {
     "carriage_vane.xlsx": Scenario(
+        report=dict(project="portflux examples (invented)", case="carriage vane at 11 m/s", revision="A"),
         title="Example: water jet on a deflector riding a test carriage (invented)",
         ports=(("port", "role", "frame", "area", "density", "speed", "angle", "closure"),
                (None, None, None, "cm^2", "kg/m^3", "m/s", "deg", None),
@@ -33,6 +33,7 @@ SCENARIOS = {
         note="Invented example: 12 cm^2 jet at 42 m/s, carriage at 11 m/s, 160 deg frictionless "
              "deflector. The speed sweep finds the best carriage speed (V/3)."),
     "bucket_wheel.xlsx": Scenario(
+        report=dict(project="portflux examples (invented)", case="bucket wheel at 36 m/s", revision="A"),
         title="Example: bucket wheel (vane train) swept over wheel speed (invented)",
         ports=(("port", "role", "frame", "area", "density", "speed", "angle", "closure", "loss"),
                (None, None, None, "mm^2", "kg/m^3", "m/s", "deg", None, None),
@@ -45,6 +46,7 @@ SCENARIOS = {
         note="Invented example: 50 mm jet at 75 m/s on a wheel of 168 deg buckets that lose 4 % "
              "of the relative speed. Best bucket speed near V/2."),
     "waterjet_craft.xlsx": Scenario(
+        report=dict(project="portflux examples (invented)", case="water-jet craft at 40 ft/s", revision="A"),
         title="Example: water-jet craft at cruise (invented)",
         ports=(("port", "role", "frame", "speed", "angle", "nx", "mass_flow"),
                (None, None, None, "ft/s", "deg", None, "slug/s"),
@@ -59,13 +61,9 @@ SCENARIOS = {
 
 
 def main(folder=HERE) -> int:
-    import tempfile
-
-    with tempfile.TemporaryDirectory() as tmp:
-        template = build_template(os.path.join(tmp, "template.xlsx"))
-        for name, sc in SCENARIOS.items():
-            path = fill(template, os.path.join(folder, name), sc)
-            print(f"wrote {path}")
+    for name, sc in SCENARIOS.items():      # built afresh from the generator (charts kept)
+        path = fill(None, os.path.join(folder, name), sc)
+        print(f"wrote {path}")
     return 0
 
 

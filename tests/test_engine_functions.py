@@ -61,6 +61,11 @@ FORMULAS = [
     "=VLOOKUP(35,C1:D4,2)", "=VLOOKUP(\"x\",B1:D4,2,FALSE)", "=VLOOKUP(\"b?cket*\",B1:D4,3,0)",
     "=HLOOKUP(20,C1:C4,1,FALSE)", "=ROWS(C1:D4)", "=COLUMNS(C1:D4)", "=ROWS(A1)",
     "=SUM(INDEX(C1:D4,0,2))",
+    # conditional counts and sums
+    '=COUNTIF(C1:C4,">=20")', "=COUNTIF(C1:C4,30)", '=COUNTIF(B1:B4,"bucket*")',
+    '=COUNTIF(B1:B4,"<>vane")', '=COUNTIF(B1:B4,"?ane")', '=COUNTIF(A1:A7,"")',
+    '=COUNTIF(A1:A7,"<>")', '=COUNTIF(B1:B4,"<m")', '=SUMIF(C1:C4,">15",D1:D4)',
+    '=SUMIF(C1:C4,"<>20")', '=SUMIF(B1:B4,"*e*",C1:C4)',
 ]
 
 # Where LibreOffice differs from Excel, Excel's documented value (Microsoft support, the help

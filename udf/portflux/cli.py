@@ -1,4 +1,4 @@
-"""Command line: ``portflux demo | recalc | check | template | bench | libreoffice``.
+"""Command line: ``portflux demo | recalc | check | template | report | bench | libreoffice``.
 
 Exit codes: 0 ok, 1 reference cases FAILed or cells hold messages/errors, 2 usage or a file
 that cannot be read, is refused or cannot be written, 3 an internal fault (a bug).
@@ -42,7 +42,7 @@ def cmd_demo(args) -> int:
     out = args.output or os.path.join(tempfile.mkdtemp(prefix="portflux-demo-"),
                                       "portflux-demo.xlsx")
     with tempfile.TemporaryDirectory(prefix="portflux-fill-") as tmp:
-        filled = fill(_template_source(tmp), os.path.join(tmp, "demo-input.xlsx"), sc)
+        filled = fill(None, os.path.join(tmp, "demo-input.xlsx"), sc)   # fresh, charts kept
         _recalc_into(filled, out, quiet=False, label="the demo scenario")
     print(sc.title)
     print("=" * len(sc.title))
@@ -197,6 +197,14 @@ def cmd_template(args) -> int:
     return 0
 
 
+def cmd_report(args) -> int:
+    from .workbook.report import write_report
+
+    path = write_report(args.input, args.output, paper=args.paper, progress=not args.quiet)
+    print(f"report written: {path}")
+    return 0
+
+
 def cmd_bench(args) -> int:
     from . import bench
 
@@ -233,6 +241,13 @@ def build_parser() -> argparse.ArgumentParser:
     t.add_argument("path", nargs="?", help="file or folder (default: ./portflux_template.xlsx)")
     t.add_argument("-f", "--force", action="store_true", help="replace an existing file")
     t.set_defaults(func=cmd_template)
+    rp = sub.add_parser("report", help="write the workbook's one-page 'Report' sheet as a PDF "
+                                       "(through LibreOffice)")
+    rp.add_argument("input", help="workbook made from the template (never modified)")
+    rp.add_argument("-o", "--output", required=True, help="PDF to write")
+    rp.add_argument("--paper", choices=("a4", "letter"), default="a4", help="paper size")
+    rp.add_argument("-q", "--quiet", action="store_true", help="no progress messages")
+    rp.set_defaults(func=cmd_report)
     b = sub.add_parser("bench", help="measure speed against a bare numpy baseline")
     b.add_argument("--quick", action="store_true", help="tiny sizes (seconds), as CI runs it")
     b.set_defaults(func=cmd_bench)

@@ -15,14 +15,15 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from openpyxl.styles import Font
-
-from .. import __version__
 from openpyxl.utils import get_column_letter
 
-from .template import (BOLD, HEAD_FILL, INPUT_FILL, OUTPUT_FILL, TITLE_FONT, _cv_row, _put,
-                       _port_table, _settings, cell)
+from .. import __version__
+from .drawing import (BOLD, HEAD_FILL, INPUT_FILL, OUTPUT_FILL, TITLE_FONT, cell, cv_row,
+                      port_table, put, settings_block)
 
 INDEX_TOP = 4
+#: Output and expected values: six decimals (the comparison itself uses full precision).
+CHECK_FORMAT = "#,##0.000000;-#,##0.000000"
 INDEX_HEADER = ("case", "function", "output", "expected", "tolerance", "result", "source")
 BLOCKS_TOP = 60
 BLOCK_WIDTH = 10
@@ -60,22 +61,22 @@ class Sheet:
 
     def block(self, title, columns, units, rows, cv, cv_unit, settings=None, extra=None):
         ws, left = self.ws, self.col
-        _put(ws, left, BLOCKS_TOP, title, font=BOLD)
-        t = _port_table(ws, left, BLOCKS_TOP + 1, columns, units, rows)
+        put(ws, left, BLOCKS_TOP, title, font=BOLD)
+        t = port_table(ws, left, BLOCKS_TOP + 1, columns, units, rows)
         r = BLOCKS_TOP + 3 + len(rows) + 1
-        cvref = _cv_row(ws, left, r, cv, cv_unit)
+        cvref = cv_row(ws, left, r, cv, cv_unit)
         cvx = cell(left + 1, r + 1)
         r += 3
         sref = None
         extras = {}
         if settings:
-            sref = _settings(ws, left, r, settings)
+            sref = settings_block(ws, left, r, settings)
             extras.update({name: cell(left + 1, r + 1 + i)
                            for i, (name, _, _) in enumerate(settings)})
             r += len(settings) + 2
         for name, value in (extra or ()):
-            _put(ws, left, r, name, font=BOLD)
-            _put(ws, left + 1, r, value, fill=INPUT_FILL)
+            put(ws, left, r, name, font=BOLD)
+            put(ws, left + 1, r, value, fill=INPUT_FILL)
             extras[name] = cell(left + 1, r)
             r += 1
         self.col += max(len(columns), 5) + 1
@@ -85,11 +86,13 @@ class Sheet:
         self.cases.append(Case(*args))
 
 
-def _cos(c):
+def cos_deg(c):
+    """Spreadsheet text of the cosine of an angle cell in degrees: ``COS(RADIANS(c))``."""
     return f"COS(RADIANS({c}))"
 
 
-def _sin(c):
+def sin_deg(c):
+    """Spreadsheet text of the sine of an angle cell in degrees: ``SIN(RADIANS(c))``."""
     return f"SIN(RADIANS({c}))"
 
 
@@ -115,35 +118,35 @@ def _vane_cases(s: Sheet):
           f'=INDEX(PFX_RELVEL({P},{cv},"nozzle"),1,1)', f"={V}-{U}", 1e-12,
           "Galilean velocity addition; " + WHITE)
     s.add("relative velocity of every port (exit, y)", "PFX_RELVELS",
-          f"=INDEX(PFX_RELVELS({P},{cv}),2,2)", f"={w2}*{_sin(th)}", 1e-12, TRADE)
+          f"=INDEX(PFX_RELVELS({P},{cv}),2,2)", f"={w2}*{sin_deg(th)}", 1e-12, TRADE)
     s.add("absolute velocity from relative (exit, x)", "PFX_ABSVEL",
-          f"=INDEX(PFX_ABSVEL({P},{cv}),2,1)", f"={U}+{w2}*{_cos(th)}", 1e-12,
+          f"=INDEX(PFX_ABSVEL({P},{cv}),2,1)", f"={U}+{w2}*{cos_deg(th)}", 1e-12,
           "Galilean velocity addition; " + WHITE)
     s.add("single-vane intercepted mass flow -rho A (V - U)", "PFX_MASSFLOWS",
           f"=INDEX(PFX_MASSFLOWS({P},{cv}),1,1)", f"=-{rho}*{A}*({V}-{U})", 1e-12, WHITE)
     s.add("mass balance status", "PFX_IMBALANCE", f"=INDEX(PFX_IMBALANCE({P},{cv}),1,3)",
           "ok", None, TRADE)
     s.add("support force x = -rho A (V-U)^2 (1 - cos th)", "PFX_SUPPORT",
-          f"=INDEX(PFX_SUPPORT({P},{cv}),1,1)", f"=-{flux}*(1-{_cos(th)})", 1e-12, WHITE)
+          f"=INDEX(PFX_SUPPORT({P},{cv}),1,1)", f"=-{flux}*(1-{cos_deg(th)})", 1e-12, WHITE)
     s.add("force on body x = rho A (V-U)^2 (1 - cos th)", "PFX_BODYFORCE",
-          f"=INDEX(PFX_BODYFORCE({P},{cv}),1,1)", f"={flux}*(1-{_cos(th)})", 1e-12, WHITE)
+          f"=INDEX(PFX_BODYFORCE({P},{cv}),1,1)", f"={flux}*(1-{cos_deg(th)})", 1e-12, WHITE)
     s.add("force on body y = -rho A (V-U)^2 sin th (axis argument)", "PFX_BODYFORCE",
-          f'=PFX_BODYFORCE({P},{cv},"y")', f"=-{flux}*{_sin(th)}", 1e-12, WHITE)
+          f'=PFX_BODYFORCE({P},{cv},"y")', f"=-{flux}*{sin_deg(th)}", 1e-12, WHITE)
     s.add("power = F_x U", "PFX_POWER", f"=PFX_POWER({P},{cv})",
-          f"={flux}*(1-{_cos(th)})*{U}", 1e-12, WHITE)
+          f"={flux}*(1-{cos_deg(th)})*{U}", 1e-12, WHITE)
     s.add("jet efficiency at U = V/3: (8/27)(1 - cos th)", "PFX_EFFICIENCY",
-          f'=PFX_EFFICIENCY({P},{cv},"jet")', f"=8/27*(1-{_cos(th)})", 1e-12,
+          f'=PFX_EFFICIENCY({P},{cv},"jet")', f"=8/27*(1-{cos_deg(th)})", 1e-12,
           "P_max = (4/27) rho A V^3 (1 - cos th) over the jet flux rho A V^3 / 2; " + WHITE)
-    s.add("summary block: force on body x", "PFX_SUMMARY",
-          f'=VLOOKUP("force on body x [N]",PFX_SUMMARY({P},{cv}),2,FALSE)',
-          f"={flux}*(1-{_cos(th)})", 1e-12, WHITE)
-    s.add("about block: version", "PFX_ABOUT", '=VLOOKUP("portflux",PFX_ABOUT(),2,FALSE)',
+    s.add("summary block: force on body x (row 16)", "PFX_SUMMARY",
+          f"=INDEX(PFX_SUMMARY({P},{cv}),16,2)",
+          f"={flux}*(1-{cos_deg(th)})", 1e-12, WHITE)
+    s.add("about block: version", "PFX_ABOUT", "=INDEX(PFX_ABOUT(),2,2)",
           __version__, None, "the installed package's version (common practice, no source)")
     s.add("column catalogue: US unit of area", "PFX_COLUMNS",
-          '=VLOOKUP("area",PFX_COLUMNS("US"),3,FALSE)', "ft^2", None,
+          '=INDEX(PFX_COLUMNS("US"),5,3)', "ft^2", None,
           "US customary area unit, NIST SP 811 Appendix B (square foot)")
     s.add("settings catalogue: gz is an acceleration", "PFX_SETTINGS",
-          '=VLOOKUP("gz",PFX_SETTINGS(),2,FALSE)', "acceleration", None, TRADE)
+          "=INDEX(PFX_SETTINGS(),5,2)", "acceleration", None, TRADE)
 
     # The same vane, outrun by the body: U = 40 m/s > V.
     t2, cv2, U2, _, _ = s.block("B. the body outruns the jet", VANE_COLS, VANE_SI,
@@ -167,7 +170,7 @@ def _us_vane_cases(s: Sheet):
                               ("exit", "out", "rel", 0.05, 1.94, 60.0, 150.0)),
                              (20.0, 0.0, 0.0), "ft/s")
     rho, A, V, th = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"), t.at(1, "angle")
-    f = f"{rho}*{A}*({V}-{U})^2*(1-{_cos(th)})"
+    f = f"{rho}*{A}*({V}-{U})^2*(1-{cos_deg(th)})"
     s.add("force on body x in lbf (slug ft/s^2 = lbf)", "PFX_BODYFORCE",
           f'=PFX_BODYFORCE({t.ref},{cv},"x","US")', f"={f}", 1e-9, WHITE + "; " + NIST)
     s.add("force on body x in N = lbf x 4.4482216152605", "PFX_BODYFORCE",
@@ -245,45 +248,47 @@ def _statics_cases(s: Sheet):
           "g_n = 9.80665 m/s^2, NIST SP 330 (3rd CGPM, 1901); statics (" + TRADE + ")")
 
 
-def write_cases(ws):
-    """Write the index table and every input block on the 'Check cases' sheet."""
-    _put(ws, 1, 1, "Reference cases: every worksheet function against a published closed "
+#: The parts of this module, in sheet order (each adds its blocks and cases to a Sheet).
+PARTS = (_vane_cases, _us_vane_cases, _frame_cases, _propulsion_cases, _statics_cases)
+
+
+def write_cases(ws, parts=PARTS):
+    """Write the index table and every input block of ``parts`` on the 'Check cases' sheet."""
+    put(ws, 1, 1, "Reference cases: every worksheet function against a published closed "
                    "form", font=TITLE_FONT)
-    _put(ws, 1, 2, "The expected value of each case is a native formula on the inputs of its "
+    put(ws, 1, 2, "The expected value of each case is a native formula on the inputs of its "
                    "block (below, from row " + str(BLOCKS_TOP) + "). 'portflux check' "
                    "recalculates this sheet and reports every case.")
     s = Sheet(ws)
-    for part in (_vane_cases, _us_vane_cases, _frame_cases, _propulsion_cases, _statics_cases):
+    for part in parts:
         part(s)
-    from .cases_closures import closure_cases
-
-    closure_cases(s)
     widths = (46, 16, 14, 14, 10, 8, 90)
     for j, h in enumerate(INDEX_HEADER):
-        _put(ws, 1 + j, INDEX_TOP, h, fill=HEAD_FILL, font=BOLD)
+        put(ws, 1 + j, INDEX_TOP, h, fill=HEAD_FILL, font=BOLD)
         ws.column_dimensions[get_column_letter(1 + j)].width = max(
             widths[j], ws.column_dimensions[get_column_letter(1 + j)].width or 0)
     for i, c in enumerate(s.cases):
         r = INDEX_TOP + 1 + i
-        _put(ws, 1, r, c.name)
-        _put(ws, 2, r, c.function)
-        _put(ws, 3, r, c.output, fill=OUTPUT_FILL)
-        _put(ws, 4, r, c.expected, fill=OUTPUT_FILL if str(c.expected).startswith("=")
-             else INPUT_FILL)
+        put(ws, 1, r, c.name)
+        put(ws, 2, r, c.function)
+        put(ws, 3, r, c.output, fill=OUTPUT_FILL, fmt=CHECK_FORMAT)
+        put(ws, 4, r, c.expected, fill=OUTPUT_FILL if str(c.expected).startswith("=")
+             else INPUT_FILL, fmt=CHECK_FORMAT)
         out, exp = cell(3, r, absolute=False), cell(4, r, absolute=False)
         if c.tolerance is None:
-            _put(ws, 5, r, "text")
+            put(ws, 5, r, "text")
             verdict = f'=IF({out}={exp},"PASS","FAIL")'
         else:
-            _put(ws, 5, r, c.tolerance, fill=INPUT_FILL)
+            put(ws, 5, r, c.tolerance, fill=INPUT_FILL)
             tol = cell(5, r, absolute=False)
             verdict = (f'=IF(AND(ISNUMBER({out}),ISNUMBER({exp})),'
                        f'IF(ABS({out}-{exp})<={tol}*MAX(1,ABS({exp})),"PASS","FAIL"),"FAIL")')
-        _put(ws, 6, r, verdict, fill=OUTPUT_FILL, font=Font(bold=True))
-        _put(ws, 7, r, c.source)
+        put(ws, 6, r, verdict, fill=OUTPUT_FILL, font=Font(bold=True))
+        put(ws, 7, r, c.source)
     if len(s.cases) + INDEX_TOP + 2 > BLOCKS_TOP:
         raise AssertionError("reference-case index runs into the input blocks; raise BLOCKS_TOP")
     return s.cases
 
 
-__all__ = ["INDEX_HEADER", "INDEX_TOP", "Case", "write_cases"]
+__all__ = ["INDEX_HEADER", "INDEX_TOP", "PARTS", "Case", "Sheet", "cos_deg", "sin_deg",
+           "write_cases"]

@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from .cases import PLATE, TRADE, WHEEL, WHITE, _cos
-from .template import _put, rng
+from .cases import PLATE, TRADE, WHEEL, WHITE, cos_deg
+from .drawing import put, rng
 
 COLS = ("port", "role", "frame", "area", "density", "speed", "angle", "closure", "loss",
         "height")
@@ -12,10 +12,10 @@ UNITS = (None, None, None, "m^2", "kg/m^3", "m/s", "deg", None, None, "m")
 
 def _speeds(s, left, top, values):
     """A speeds column led by its unit cell; ``values`` are formulas or numbers."""
-    _put(s.ws, left, top - 1, "speeds", font=None)
-    _put(s.ws, left, top, "m/s")
+    put(s.ws, left, top - 1, "speeds", font=None)
+    put(s.ws, left, top, "m/s")
     for i, v in enumerate(values):
-        _put(s.ws, left, top + 1 + i, v)
+        put(s.ws, left, top + 1 + i, v)
     return rng(left, top, left, top + len(values))
 
 
@@ -33,7 +33,7 @@ def closure_cases(s) -> None:
     rho, A, V, th = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"), t.at(1, "angle")
     F, lo, hi = ex["force to find [N]"], ex["low [m/s]"], ex["high [m/s]"]
     sp = _speeds(s, left + 8, 78, (0.0, f"={V}/3", f"=2*{V}/3", f"=1.2*{V}"))
-    pmax = f"4/27*{rho}*{A}*{V}^3*(1-{_cos(th)})"
+    pmax = f"4/27*{rho}*{A}*{V}^3*(1-{cos_deg(th)})"
     P = t.ref
     s.add("speed table: power at U = V/3 is (4/27) rho A V^3 (1 - cos th)", "PFX_SPEEDTABLE",
           f"=INDEX(PFX_SPEEDTABLE({P},{sp}),3,8)", f"={pmax}", 1e-12, WHITE)
@@ -45,7 +45,7 @@ def closure_cases(s) -> None:
           f"=INDEX(PFX_BESTSPEED({P},{lo},{hi}),3,2)", f"={pmax}", 1e-9, WHITE)
     s.add("speed at which F_x falls to F: U = V - sqrt(F / (rho A (1 - cos th)))",
           "PFX_SPEEDATFORCE", f'=INDEX(PFX_SPEEDATFORCE({P},{F},{lo},{hi},"x"),2,2)',
-          f"={V}-SQRT({F}/({rho}*{A}*(1-{_cos(th)})))", 1e-6, WHITE)
+          f"={V}-SQRT({F}/({rho}*{A}*(1-{cos_deg(th)})))", 1e-6, WHITE)
 
     # I. Invented bucket wheel: the same jet, 165 deg buckets, a vane train.
     t, cv, _, sref, ex = s.block("I. bucket wheel (vane train)", COLS, UNITS,
@@ -60,7 +60,7 @@ def closure_cases(s) -> None:
     s.add("best speed of a bucket wheel is V/2", "PFX_BESTSPEED",
           f"=INDEX(PFX_BESTSPEED({t.ref},{lo},{hi},,,{sref}),2,2)", f"={V}/2", 1e-6, WHEEL)
     s.add("ideal bucket-wheel efficiency (1 - cos beta)/2", "PFX_BESTSPEED",
-          f"=INDEX(PFX_BESTSPEED({t.ref},{lo},{hi},,,{sref}),4,2)", f"=(1-{_cos(b)})/2", 1e-9,
+          f"=INDEX(PFX_BESTSPEED({t.ref},{lo},{hi},,,{sref}),4,2)", f"=(1-{cos_deg(b)})/2", 1e-9,
           WHEEL)
     rho, A = t.at(0, "density"), t.at(0, "area")
     s.add("vane train intercepts the full nozzle flow rho A V", "PFX_MASSFLOWS",
@@ -76,7 +76,7 @@ def closure_cases(s) -> None:
     th, k = t.at(1, "angle"), t.at(1, "loss")
     s.add("loss vane: F_x = rho A (V-U)^2 (1 - (1-k) cos th)", "PFX_BODYFORCE",
           f'=PFX_BODYFORCE({t.ref},{cv},"x")',
-          f"={rho}*{A}*({V}-{U})^2*(1-(1-{k})*{_cos(th)})", 1e-12,
+          f"={rho}*{A}*({V}-{U})^2*(1-(1-{k})*{cos_deg(th)})", 1e-12,
           WHITE + "; relative speed reduced by the loss fraction (" + TRADE + ")")
 
     # K. Invented: a jet striking a fixed frictionless flat plate (the x axis) at 60 degrees.
@@ -109,3 +109,7 @@ def closure_cases(s) -> None:
     s.add("Bernoulli outlet: w_out^2 = w_in^2 - 2 g h", "PFX_RELVELS",
           f"=INDEX(PFX_RELVELS({t.ref},{cv},,,{sref}),2,2)", f"=SQRT({w1}^2-2*9.80665*{h})",
           1e-12, "Bernoulli equation along a streamline in the moving frame; " + WHITE)
+
+
+#: The parts of this module, in sheet order (see :data:`.cases.PARTS`).
+PARTS = (closure_cases,)

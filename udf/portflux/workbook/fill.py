@@ -16,6 +16,8 @@ import openpyxl
 from .. import spec
 from ..core import InputError
 from . import template as T
+from .drawing import cell
+from .report_sheet import REPORT, TITLE_FIELDS
 
 
 @dataclass
@@ -29,8 +31,10 @@ class Scenario:
     units: str = "SI"                  #: output units of the results
     settings: dict = field(default_factory=dict)   #: name -> (value, unit)
     sweep: dict = field(default_factory=dict)      #: low, high, unit, direction, force, units
-    triangle_port: int = 1                         #: port number of the velocity triangle
+    triangle_port: int | None = None               #: port of the velocity triangle (None:
+    #: the first outlet)
     note: str = ""
+    report: dict = field(default_factory=dict)     #: Report title block: project, case, ...
 
 
 def _cell_name(ref: str) -> str:
@@ -40,15 +44,26 @@ def _cell_name(ref: str) -> str:
 def fill(template_path, out_path, sc: Scenario) -> str:
     """Write a copy of the template with the scenario's inputs; returns ``out_path``.
 
-    The template file is only read. The copy is saved to a temporary file next to ``out_path``
-    and renamed into place.
+    ``template_path`` None builds the template afresh (charts included, their cached axis
+    titles in the scenario's output units); a path reads that template file (openpyxl keeps its
+    cells, styles and print set-up but drops charts). The template file is only read. The copy is
+    saved to a temporary file next to ``out_path`` and renamed into place.
     """
-    template_path, out_path = os.fspath(template_path), os.fspath(out_path)
-    if os.path.abspath(template_path) == os.path.abspath(out_path):
-        raise InputError("refusing to write over the template; choose another output path",
-                         argument="output")
-    lay = T.layout()
-    wb = openpyxl.load_workbook(template_path)
+    out_path = os.fspath(out_path)
+    if template_path is None:
+        wb = T.build_workbook(units=sc.units)
+    else:
+        template_path = os.fspath(template_path)
+        if os.path.abspath(template_path) == os.path.abspath(out_path):
+            raise InputError("refusing to write over the template; choose another output path",
+                             argument="output")
+        wb = openpyxl.load_workbook(template_path)
+    apply(wb, sc, T.layout())
+    return T.save_atomic(wb, out_path)
+
+
+def apply(wb, sc: Scenario, lay) -> None:
+    """Write the scenario's inputs into the template workbook ``wb`` (laid out as ``lay``)."""
     ws = wb[T.CV]
     header, units, *rows = sc.ports
     if len(rows) > T.MAX_PORTS:
@@ -73,22 +88,34 @@ def fill(template_path, out_path, sc: Scenario) -> str:
     for ref, v in zip(lay.cv_cells, (*sc.cv_velocity, sc.cv_unit)):
         ws[_cell_name(ref)] = v
     ws[_cell_name(lay.units_cell)] = sc.units
-    ws[_cell_name(lay.triangle_cell)] = sc.triangle_port
+    if sc.triangle_port is not None:
+        ws[_cell_name(lay.triangle_cell)] = sc.triangle_port
+    spare = iter(range(len(lay.settings_cells) + 1, T.SETTINGS_ROWS + 1))
     for name, (value, unit) in sc.settings.items():
-        if name not in lay.settings_cells:
-            raise InputError(f"unknown setting {name!r}; the template has "
-                             f"{', '.join(lay.settings_cells)}", argument="settings")
-        vref, uref = lay.settings_cells[name]
+        if name in lay.settings_cells:
+            vref, uref = lay.settings_cells[name]
+        else:                                          # a setting of its own: a spare row
+            r = next(spare, None)
+            if r is None:
+                raise InputError(f"no spare settings row left for {name!r} (the template has "
+                                 f"{T.SETTINGS_ROWS} rows)", argument="settings")
+            ws.cell(row=T.SETTINGS_TOP + r, column=1).value = name
+            vref, uref = (cell(c, T.SETTINGS_TOP + r) for c in (2, 3))
         ws[_cell_name(vref)] = value
         ws[_cell_name(uref)] = unit
     sw = wb[T.SWEEP]
     for name, value in sc.sweep.items():
-        if name not in lay.sweep_cells:
+        if name not in lay.sweep_cells or name not in T.SWEEP_INPUTS:
             raise InputError(f"unknown sweep input {name!r}; the template has "
-                             f"{', '.join(lay.sweep_cells)}", argument="sweep")
+                             f"{', '.join(T.SWEEP_INPUTS)}", argument="sweep")
         sw[_cell_name(lay.sweep_cells[name])] = value
+    rep = wb[REPORT]
+    for name, value in sc.report.items():
+        if name not in TITLE_FIELDS:
+            raise InputError(f"unknown report field {name!r}; the template has "
+                             f"{', '.join(TITLE_FIELDS)}", argument="report")
+        rep[_cell_name(lay.report_cells[name])] = value
     if sc.title:
         ws["A1"] = sc.title
     if sc.note:
-        ws["A3"] = sc.note
-    return T.save_atomic(wb, out_path)
+        ws.cell(row=T.NOTE_ROW, column=1).value = sc.note

@@ -41,11 +41,15 @@ from typing import Callable, Iterator
 
 from ..core import PortfluxError
 
-#: errno values that mean "the disk (or the user's quota) is full".
-DISK_FULL = frozenset(e for e in (getattr(errno, "ENOSPC", None), getattr(errno, "EDQUOT", None))
-                      if e is not None)
+try:
+    _EDQUOT = errno.EDQUOT           # not defined on every platform (Windows)
+except AttributeError:
+    _EDQUOT = None
 
-_HANDLED = tuple(getattr(signal, n) for n in ("SIGTERM", "SIGINT") if hasattr(signal, n))
+#: errno values that mean "the disk (or the user's quota) is full".
+DISK_FULL = frozenset(e for e in (errno.ENOSPC, _EDQUOT) if e is not None)
+
+_HANDLED = (signal.SIGTERM, signal.SIGINT)    # both exist on every platform Python runs on
 _umask_lock = threading.Lock()
 
 
@@ -60,7 +64,7 @@ class Terminated(BaseException):
     every ``finally`` on the way out runs (so temporary files are removed).
     """
 
-    def __init__(self, signum: int = getattr(signal, "SIGTERM", 15)):
+    def __init__(self, signum: int = signal.SIGTERM):
         super().__init__(signum)
         self.signum = signum
 
@@ -85,7 +89,7 @@ def explain(exc: OSError, path) -> str:
     """
     path = os.fspath(path)
     if exc.errno in DISK_FULL:
-        what = "the disk quota is exceeded" if exc.errno == getattr(errno, "EDQUOT", None) \
+        what = "the disk quota is exceeded" if exc.errno == _EDQUOT \
             else "the disk is full (no space left on device)"
         return f"{path}: {what}; nothing was written. Free some space or choose another folder."
     if exc.errno in (errno.EACCES, errno.EPERM, errno.EROFS):

@@ -50,7 +50,8 @@ Key = tuple  # (sheet title, "A1")
 _SUFFIXES = (".xlsx", ".xlsm")
 _AGGREGATES = {"SUM", "MIN", "MAX", "AVERAGE", "PRODUCT", "SUMSQ", "COUNT", "COUNTA",
                "SUMPRODUCT", "AND", "OR", "XOR", "ROWS", "COLUMNS"}
-_RANGE_ARGS = {"INDEX": {0}, "MATCH": {1}, "VLOOKUP": {1}, "HLOOKUP": {1}}
+_RANGE_ARGS = {"INDEX": {0}, "MATCH": {1}, "VLOOKUP": {1}, "HLOOKUP": {1}, "COUNTIF": {0},
+               "SUMIF": {0, 2}}
 _RUNTIME_REFERENCES = {"INDIRECT", "OFFSET"}
 _LOG_LIMIT = 100_000
 #: Largest range a formula may name, and largest array-formula range, in cells (a hostile file

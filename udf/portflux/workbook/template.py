@@ -2,184 +2,161 @@
 
 Sheets (all names are ours):
 
+``Report``
+    One printable page a reviewer signs: title block (yellow inputs; portflux version and an
+    input checksum by formula), the inputs, the key results, a power chart, the reference-case
+    verdict and the cautions (built by :mod:`.report`).
 ``About``
     What the workbook computes, the sign conventions, the assumptions and the cautions.
 ``Control volume``
-    The port table (header row, unit row, up to :data:`MAX_PORTS` ports), the CV velocity with its
-    unit, settings and output units (input cells, yellow), and the results of the worksheet
-    functions (computed cells, grey): summary block, per-port tables, forces, power, efficiencies,
-    frame cross-check, warnings, and the velocity triangle of the first port (chart).
+    A results panel (top right), the port table (up to :data:`MAX_PORTS` ports), the CV velocity,
+    output units and settings (yellow inputs, with a visible end of each range and a check of
+    anything typed just outside it), and the results: summary, per-port tables, forces, power,
+    efficiencies, frame cross-check, warnings, and the velocity triangle of the first outlet.
 ``Speed sweep``
-    A table of CV speeds recalculated in one call, charts of force and power against speed, and the
-    optimum speed marked.
+    A table of CV speeds recalculated in one call, the best speed and the speed at a force, and
+    charts of force and power against speed with the optimum marked.
 ``Check cases``
-    Reference cases covering every worksheet function: inputs, the function's output, the expected
-    value from a published formula written as a native formula on the sheet inputs, the tolerance,
-    PASS/FAIL and the source.
+    Reference cases covering every worksheet function (see :mod:`.cases`).
+``Raw results`` (hidden)
+    Every multi-cell result as an array formula sized to its function's largest answer. The
+    sheets above show these blocks through plain formulas that turn the padding past the result
+    into blank text (so SUM and SUMPRODUCT over a shown block work), show a one-value answer (an
+    error note, a single warning) once instead of repeated through the range, and set values below
+    the round-off of their block to 0.
 
-Every multi-cell result is stored as an array formula over its full range (a plain formula would
-be opened by current Excel with implicit intersection and show only its first value). No macros:
-plain .xlsx. The build is deterministic, so a test can compare the committed file with a fresh
-build cell by cell.
+No macros: plain .xlsx. The build is deterministic, so a test can compare the committed file with
+a fresh build cell by cell.
 """
 
 from __future__ import annotations
 
 import os
-import tempfile
 from dataclasses import dataclass, field
 
 from openpyxl import Workbook
 from openpyxl.chart import Reference, ScatterChart, Series
-from openpyxl.formatting.rule import FormulaRule
-from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
-from openpyxl.utils import get_column_letter
+from openpyxl.chart.layout import Layout as ChartLayout, ManualLayout
+from openpyxl.chart.shapes import GraphicalProperties
+from openpyxl.styles import Alignment
 from openpyxl.worksheet.formula import ArrayFormula
+from openpyxl.utils import get_column_letter
 
 from .. import __version__
 from ..cautions import CAUTION_LINES
+from ..units import UnitSystem
+from . import cases, cases_closures
+from .drawing import (BIG_FONT, BOLD, INPUT_FILL, ITALIC, NUMBER, OUTPUT_FILL,
+                      PANEL_FILL, RATIO, RED_BOLD, SPEED, TITLE_FONT, array, cell, cv_row,
+                      end_of_range, formula, port_table, print_setup, put, q, rng,
+                      settings_block, title_from, widths, big_numbers)
+from .report_sheet import REPORT, draw_report
 
 TEMPLATE_NAME = "portflux_template.xlsx"
 MAX_PORTS = 10
 SWEEP_POINTS = 41
-WARNING_ROWS = 6
-SUMMARY_AT = (1, 31, 23, 2)        #: (column, row, rows, columns) of the summary block
-BEST_AT = (16, 11, 5, 2)           #: the same for the best-speed block on the sweep sheet
-RELVEL_AT = (4, 31, 11, 4)         #: relative velocities of every port (header + ports)
-MASSFLOW_AT = (14, 31, 11, 2)      #: mass flows of every port (header + ports)
+SPARE_SETTINGS = 4                 #: empty settings rows for the user's own settings
+WARNING_ROWS = MAX_PORTS + 4       #: one per port, no contact, imbalance and closure notes
 
-INPUT_FILL = PatternFill("solid", fgColor="FFF2CC")      # pale yellow: cells users fill
-OUTPUT_FILL = PatternFill("solid", fgColor="EDEDED")     # grey: computed by portflux
-HEAD_FILL = PatternFill("solid", fgColor="D9E1F2")
-TITLE_FONT = Font(bold=True, size=14)
-BOLD = Font(bold=True)
-THIN = Side(style="thin", color="BFBFBF")
-BOX = Border(left=THIN, right=THIN, top=THIN, bottom=THIN)
-WRAP = Alignment(wrap_text=True, vertical="top")
+#: Largest answer of each multi-cell function as the template calls it: (rows, columns).
+#: tests/test_template_ranges.py evaluates every function on the template's inputs and on its
+#: worst case and compares with these sizes.
+LARGEST = {
+    "PFX_SUMMARY": (23, 2),
+    "PFX_RELVELS": (MAX_PORTS + 1, 4),
+    "PFX_ABSVEL": (MAX_PORTS + 1, 4),
+    "PFX_MASSFLOWS": (MAX_PORTS + 1, 2),
+    "PFX_IMBALANCE": (1, 3),
+    "PFX_SUPPORT": (1, 3),
+    "PFX_BODYFORCE": (1, 3),
+    "PFX_FRAMECHECK": (5, 4),
+    "PFX_WARNINGS": (WARNING_ROWS, 1),
+    "PFX_SPEEDTABLE": (SWEEP_POINTS + 1, 10),
+    "PFX_BESTSPEED": (8, 2),
+    "PFX_SPEEDATFORCE": (7, 2),
+}
+
+# Where shown blocks sit: (column, row, rows, columns). cli.py and the tests read these.
+SUMMARY_AT = (1, 44, 23, 2)        #: summary block (label | value) on 'Control volume'
+RELVEL_AT = (4, 44, MAX_PORTS + 1, 4)     #: relative velocities of every port (header + ports)
+ABSVEL_AT = (9, 44, MAX_PORTS + 1, 4)     #: absolute velocities
+MASSFLOW_AT = (14, 44, MAX_PORTS + 1, 2)  #: mass flows of every port (header + ports)
+BEST_AT = (15, 12, 8, 2)           #: best-speed block on 'Speed sweep'
+SPEEDFORCE_AT = (15, 23, 7, 2)     #: speed-at-force block on 'Speed sweep'
 
 CV = "Control volume"
 SWEEP = "Speed sweep"
 CHECKS = "Check cases"
 ABOUT = "About"
+RAW = "Raw results"
+
+NOTE_ROW = 5                       #: a scenario's note (merged over two rows)
+PORTS_TOP = 9                      #: header row of the port table (units below, then ports)
+CV_TOP = 23                        #: header row of the CV velocity
+UNITS_ROW = 26
+SETTINGS_TOP = 28
+SWEEP_INPUTS = ("low", "high", "unit", "direction", "force", "units")
 
 
+class RawSheet:
+    """The hidden sheet of array formulas; :meth:`show` draws a block's shown copy."""
 
-def q(sheet: str) -> str:
-    """Quoted sheet name for references: 'Control volume'."""
-    return "'" + sheet.replace("'", "''") + "'"
+    def __init__(self, ws):
+        self.ws = ws
+        self.row = 2
+        self.blocks = {}           #: name -> (function, array range), for the range test
+        put(ws, 1, 1, "Array formulas of the shown result blocks (do not edit; the shown blocks "
+                      "read these cells)", font=BOLD)
 
+    def show(self, name, function, text, shown, where, fmt=NUMBER, fmts=None, row_fmts=None):
+        """Place ``text`` as an array formula of LARGEST[function] on this sheet, and plain
+        formulas on sheet ``shown`` at ``where(i, j) -> (column, row)``; returns the raw range.
 
-def rng(c1: int, r1: int, c2: int, r2: int, sheet: str | None = None, absolute=True) -> str:
-    """A1-style range from 1-based column/row numbers."""
-    d = "$" if absolute else ""
-    a = f"{d}{get_column_letter(c1)}{d}{r1}:{d}{get_column_letter(c2)}{d}{r2}"
-    return f"{q(sheet)}!{a}" if sheet else a
-
-
-def cell(c: int, r: int, sheet: str | None = None, absolute=True) -> str:
-    d = "$" if absolute else ""
-    a = f"{d}{get_column_letter(c)}{d}{r}"
-    return f"{q(sheet)}!{a}" if sheet else a
-
-
-def _put(ws, c, r, value, *, fill=None, font=None, fmt=None, wrap=False):
-    x = ws.cell(row=r, column=c, value=value)
-    if fill is not None:
-        x.fill = fill
-        x.border = BOX
-    if font is not None:
-        x.font = font
-    if fmt:
-        x.number_format = fmt
-    if wrap:
-        x.alignment = WRAP
-    return x
-
-
-def _array(ws, c, r, rows, cols, formula):
-    """An array formula over rows x cols starting at (c, r), grey; the #N/A that Excel shows
-    where the range is larger than the result (rows past the last port) is greyed out."""
-    ref = rng(c, r, c + cols - 1, r + rows - 1, absolute=False)
-    ws.cell(row=r, column=c).value = ArrayFormula(ref, formula)
-    if rows * cols > 1:
-        ws.conditional_formatting.add(ref, FormulaRule(
-            formula=[f"ISNA({cell(c, r, absolute=False)})"], font=Font(color="BFBFBF")))
-    for i in range(rows):
-        for j in range(cols):
-            x = ws.cell(row=r + i, column=c + j)
-            x.fill = OUTPUT_FILL
-            x.border = BOX
-    return ref
-
-
-def _formula(ws, c, r, formula, fmt=None):
-    return _put(ws, c, r, formula, fill=OUTPUT_FILL, fmt=fmt)
-
-
-@dataclass
-class PortBlock:
-    """Where a port table sits on a sheet: its range and the cell of each (row, column)."""
-
-    sheet: str
-    top: int
-    left: int
-    columns: tuple
-    nrows: int
-
-    @property
-    def ref(self) -> str:
-        return rng(self.left, self.top, self.left + len(self.columns) - 1,
-                   self.top + 1 + self.nrows)
-
-    def at(self, port_row: int, column: str, sheet=False) -> str:
-        """Cell of port ``port_row`` (0-based) in ``column``."""
-        c = self.left + self.columns.index(column)
-        return cell(c, self.top + 2 + port_row, self.sheet if sheet else None)
+        A shown cell is blank text past the answer (the #N/A padding), the answer's only value
+        once when the function gave one value (repeated through the range by the spreadsheet),
+        and 0 for a number below 1e-9 of the block's largest magnitude (round-off)."""
+        rows, cols = LARGEST[function]
+        ws, r0 = self.ws, self.row
+        put(ws, 1, r0, name, font=ITALIC)
+        ref = array(ws, 2, r0 + 1, rows, cols, text)
+        self.blocks[name] = (function, rng(2, r0 + 1, 1 + cols, r0 + rows, RAW))
+        block = rng(2, r0 + 1, 1 + cols, r0 + rows)
+        first, last = cell(2, r0 + 1), cell(1 + cols, r0 + rows)
+        fc = cols + 3                           # flag and round-off threshold beside the block
+        # &"" on both sides: LibreOffice compares the texts of an add-in's block wrongly
+        # (they are not in the document's string pool); a text made by & is.
+        ws.cell(row=r0 + 1, column=fc, value=f'=IFERROR(AND(ISTEXT({first}),{first}&""={last}&""),'
+                                             f'FALSE)')
+        ref1 = cell(fc, r0 + 2, absolute=False)
+        ws[ref1] = ArrayFormula(f"{ref1}:{ref1}",
+                                f"=1E-9*MAX(IF(ISNUMBER({block}),ABS({block}),0))")
+        flag, th = cell(fc, r0 + 1, RAW), cell(fc, r0 + 2, RAW)
+        spots = [where(i, j) for i in range(rows) for j in range(cols)]
+        big_numbers(shown, rng(min(c for c, _ in spots), min(r for _, r in spots),
+                               max(c for c, _ in spots), max(r for _, r in spots)))
+        for i in range(rows):
+            for j in range(cols):
+                c, r = where(i, j)
+                x = cell(2 + j, r0 + 1 + i, RAW)
+                if i == 0 and j == 0:
+                    f = f'=IFERROR({x},"")'
+                else:
+                    f = (f'=IF({flag},"",IFERROR(IF(ISNUMBER({x}),IF(ABS({x})<{th},0,{x}),'
+                         f'{x}),""))')
+                k = (row_fmts or {}).get(i) if j else None
+                k = k or (fmts or {}).get(j, fmt)
+                formula(shown, c, r, f, fmt=k)
+        self.row = r0 + rows + 2
+        return ref
 
 
-def _port_table(ws, left, top, columns, units, rows, nrows=None, fill_blank=True):
-    """Write header, unit row and port rows; input cells yellow. Returns a PortBlock."""
-    nrows = nrows or len(rows)
-    for j, (name, unit) in enumerate(zip(columns, units)):
-        _put(ws, left + j, top, name, fill=HEAD_FILL, font=BOLD)
-        _put(ws, left + j, top + 1, unit, fill=INPUT_FILL, font=Font(italic=True))
-    for i in range(nrows):
-        row = rows[i] if i < len(rows) else (None,) * len(columns)
-        for j, v in enumerate(row):
-            if v is not None or fill_blank:
-                _put(ws, left + j, top + 2 + i, v, fill=INPUT_FILL)
-    return PortBlock(ws.title, top, left, tuple(columns), nrows)
+def _block_at(c, r):
+    return lambda i, j: (c + j, r + i)
 
 
-def _cv_row(ws, left, top, v, unit, label="CV velocity"):
-    """Label, x y z and unit cells (one row under a small header). Returns the range."""
-    for j, h in enumerate(("", "x", "y", "z", "unit")):
-        if h:
-            _put(ws, left + j, top, h, font=BOLD)
-    _put(ws, left, top + 1, label, font=BOLD)
-    for j, x in enumerate(v):
-        _put(ws, left + 1 + j, top + 1, x, fill=INPUT_FILL)
-    _put(ws, left + 4, top + 1, unit, fill=INPUT_FILL)
-    return rng(left + 1, top + 1, left + 4, top + 1)
-
-
-def _settings(ws, left, top, rows):
-    """Settings block: header row + name | value | unit rows. Returns the range."""
-    for j, h in enumerate(("setting", "value", "unit")):
-        _put(ws, left + j, top, h, fill=HEAD_FILL, font=BOLD)
-    for i, (name, value, unit) in enumerate(rows):
-        _put(ws, left, top + 1 + i, name, font=BOLD)
-        _put(ws, left + 1, top + 1 + i, value, fill=INPUT_FILL)
-        _put(ws, left + 2, top + 1 + i, unit, fill=INPUT_FILL)
-    return rng(left, top, left + 2, top + len(rows))
-
-
-# ------------------------------------------------------------------------------------------
-# The sheets
-# ------------------------------------------------------------------------------------------
 def _about(wb):
     ws = wb.create_sheet(ABOUT)
-    ws.column_dimensions["A"].width = 120
+    ws.column_dimensions["A"].width = 88
     lines = [
         (f"portflux {__version__} — control volume moving at constant velocity", TITLE_FONT),
         ("", None),
@@ -218,17 +195,22 @@ def _about(wb):
         ("Yellow cells are inputs; grey cells are computed by portflux worksheet functions "
          "(PFX_...). Row 2 of every port table holds the unit of each column (pint unit strings "
          "such as ft^2, slug/ft^3, ft/s, psi; blank = SI default, angles in degrees). Multi-cell "
-         "results are array formulas: rows past the last port show #N/A, which is normal.", None),
+         "results are computed on the hidden sheet 'Raw results' and shown as plain cells: rows past "
+         "the last port are blank, so SUM and SUMPRODUCT over a shown block work. The 'Report' "
+         "sheet prints the calculation on one page ('portflux report IN.xlsx -o OUT.pdf').", None),
         ("Without Excel: 'portflux recalc IN.xlsx -o OUT.xlsx' recalculates the workbook; "
          "'portflux check' runs the reference cases of the 'Check cases' sheet.", None),
         ("", None),
-        ("CAUTIONS", Font(bold=True, color="C00000")),
+        ("CAUTIONS", RED_BOLD),
     ] + [(t, None) for t in CAUTION_LINES]
     for i, (text, font) in enumerate(lines, start=1):
-        _put(ws, 1, i, text or None, font=font, wrap=True)
-    _put(ws, 1, len(lines) + 2, "Colour key:", font=BOLD)
-    _put(ws, 1, len(lines) + 3, "input (you fill it)", fill=INPUT_FILL)
-    _put(ws, 1, len(lines) + 4, "computed by portflux", fill=OUTPUT_FILL)
+        put(ws, 1, i, text or None, font=font, wrap=True)
+        if text and len(text) > 80:         # wrapped text: set the height (no overlapping lines)
+            ws.row_dimensions[i].height = 15 * (len(text) // 80 + 1)
+    put(ws, 1, len(lines) + 2, "Colour key:", font=BOLD)
+    put(ws, 1, len(lines) + 3, "input (you fill it)", fill=INPUT_FILL)
+    put(ws, 1, len(lines) + 4, "computed by portflux", fill=OUTPUT_FILL)
+    print_setup(ws, rng(1, 1, 1, len(lines) + 4), landscape=False, fit_height=1)
 
 
 #: Default port table of the template: an invented vane on a carriage, SI units.
@@ -246,93 +228,215 @@ CV_ROWS = (
 CV_SETTINGS = (("fluid_mass", 0.0, "kg"), ("gx", 0.0, "m/s^2"), ("gy", 0.0, "m/s^2"),
                ("gz", -9.80665, "m/s^2"), ("tolerance", 0.001, None), ("intercept", "single",
                                                                         None))
+SETTINGS_ROWS = len(CV_SETTINGS) + SPARE_SETTINGS   #: rows of the settings range (then spare)
 
 
 @dataclass
 class Layout:
-    """Input cells of the 'Control volume' sheet that the demo and tests fill."""
+    """Input cells of the template that the demo, the report and the tests read or fill."""
 
-    ports: PortBlock = None
+    ports: object = None                                 # PortBlock of the port table
     cv_cells: tuple = ()          # (x, y, z, unit) cells
     units_cell: str = ""
     settings_cells: dict = field(default_factory=dict)   # name -> (value cell, unit cell)
+    settings_ref: str = ""                               # the settings range (spare rows too)
     sweep_cells: dict = field(default_factory=dict)      # low, high, unit, direction, force
     triangle_cell: str = ""                              # port number of the velocity triangle
+    input_check: str = ""                                # cell: text typed outside a range
+    panel: dict = field(default_factory=dict)            # result name -> cell(s) on CV
+    report_cells: dict = field(default_factory=dict)     # title-block name -> cell on Report
+    raw: object = None                                   # RawSheet
+    chart_units: object = None     # UnitSystem of the charts' cached axis titles
+
+
+def _input_check(ws, lay, nports_cols):
+    """A cell that warns when something is typed just outside an input range (it would be
+    silently ignored): the row below the port table, the column right of it, the row below the
+    settings."""
+    top, n = PORTS_TOP, MAX_PORTS
+    below = rng(1, top + 2 + n, nports_cols, top + 3 + n)
+    right = rng(nports_cols + 1, top, nports_cols + 1, top + 1 + n)
+    s_last = SETTINGS_TOP + len(CV_SETTINGS) + SPARE_SETTINGS
+    under = rng(1, s_last + 1, 3, s_last + 2)
+    msgs = ((below, f"something is typed below the port table (rows {top + 2 + n}-{top + 3 + n})"
+                    f"; the functions read rows {top + 2}-{top + 1 + n} only: move it up"),
+            (right, f"something is typed right of the port table (column "
+                    f"{get_column_letter(nports_cols + 1)}); it is not read"),
+            (under, f"something is typed below the settings (rows {s_last + 1}-{s_last + 2}); "
+                    f"the functions read rows {SETTINGS_TOP + 1}-{s_last} only: use a spare row"))
+    parts = [f'IF(SUMPRODUCT(LEN({r}))>0,"{m}; ","")' for r, m in msgs]
+    text = "=" + "&".join(parts)
+    return text
 
 
 def _control_volume(wb, lay: Layout):
     ws = wb.create_sheet(CV)
-    ws.column_dimensions["A"].width = 16
-    for c in range(2, 18):
-        ws.column_dimensions[get_column_letter(c)].width = 13
-    ws.column_dimensions["D"].width = 34
-    _put(ws, 1, 1, "Control volume moving at constant velocity", font=TITLE_FONT)
-    _put(ws, 1, 2, "Yellow: inputs. Grey: computed by portflux. Units in row 6 (pint unit "
-                   "strings; blank = SI default, angles in degrees). See the About sheet for "
-                   "sign conventions and cautions.")
-    _put(ws, 1, 4, f"Port table (up to {MAX_PORTS} ports; leave unused columns blank)", font=BOLD)
-    lay.ports = _port_table(ws, 1, 5, CV_COLUMNS, CV_UNITS, CV_ROWS, nrows=MAX_PORTS)
+    raw = lay.raw
+    ncol = len(CV_COLUMNS)
+    widths(ws, {1: 30, **{c: 9.5 for c in range(2, ncol + 2)}})
+    put(ws, 1, 1, "Control volume moving at constant velocity", font=TITLE_FONT)
+    put(ws, 1, 2, "Yellow: inputs. Grey: computed by portflux. Units in row "
+                  f"{PORTS_TOP + 1} (pint unit strings; blank = SI default, angles in degrees).")
+    put(ws, 1, 3, "Sign conventions and cautions: sheet 'About'. Printable page: sheet 'Report'.")
+    ws.merge_cells(start_row=NOTE_ROW, end_row=NOTE_ROW + 1, start_column=1, end_column=14)
+    ws.cell(row=NOTE_ROW, column=1).alignment = Alignment(wrap_text=True, vertical="top")
+    put(ws, 1, PORTS_TOP - 1, f"Port table: rows {PORTS_TOP + 2}-{PORTS_TOP + 1 + MAX_PORTS} "
+                              f"(up to {MAX_PORTS} ports), columns A-{get_column_letter(ncol)}; "
+                              f"leave unused cells blank. Nothing below the line or right of "
+                              f"the table is read.", font=BOLD)
+    lay.ports = port_table(ws, 1, PORTS_TOP, CV_COLUMNS, CV_UNITS, CV_ROWS, nrows=MAX_PORTS)
+    end_of_range(ws, 1, ncol, PORTS_TOP + 1 + MAX_PORTS, None)
     P = lay.ports.ref
-    cv = _cv_row(ws, 1, 17, (8.0, 0.0, 0.0), "m/s")
-    lay.cv_cells = tuple(cell(c, 18) for c in range(2, 6))
-    _put(ws, 1, 20, "output units", font=BOLD)
-    _put(ws, 2, 20, "SI", fill=INPUT_FILL)
-    _put(ws, 3, 20, "SI, US, or e.g. 'US; force=kN'")
-    lay.units_cell = cell(2, 20)
+    cv = cv_row(ws, 1, CV_TOP, (8.0, 0.0, 0.0), "m/s")
+    lay.cv_cells = tuple(cell(c, CV_TOP + 1) for c in range(2, 6))
+    put(ws, 1, UNITS_ROW, "output units", font=BOLD)
+    put(ws, 2, UNITS_ROW, "SI", fill=INPUT_FILL)
+    for c in (3, 4):
+        put(ws, c, UNITS_ROW, None, fill=INPUT_FILL)
+    ws.merge_cells(start_row=UNITS_ROW, end_row=UNITS_ROW, start_column=2, end_column=4)
+    put(ws, 5, UNITS_ROW, "SI, US, or e.g. 'US; force=kN; power=kW'", font=ITALIC)
+    lay.units_cell = cell(2, UNITS_ROW)
     U = lay.units_cell
-    S = _settings(ws, 1, 22, CV_SETTINGS)
-    lay.settings_cells = {name: (cell(2, 23 + i), cell(3, 23 + i))
+    S = settings_block(ws, 1, SETTINGS_TOP, CV_SETTINGS, spare=SPARE_SETTINGS)
+    lay.settings_ref = S
+    s_last = SETTINGS_TOP + len(CV_SETTINGS) + SPARE_SETTINGS
+    end_of_range(ws, 1, 3, s_last, f"end of the settings (rows {SETTINGS_TOP + 1}-{s_last}; "
+                                   f"type your own in the spare yellow rows)")
+    put(ws, 5, SETTINGS_TOP, "settings: name | value | unit (see PFX_SETTINGS() for every name; "
+                             "slip_angle may repeat)", font=ITALIC)
+    lay.settings_cells = {name: (cell(2, SETTINGS_TOP + 1 + i), cell(3, SETTINGS_TOP + 1 + i))
                           for i, (name, _, _) in enumerate(CV_SETTINGS)}
-    args = f"{P},{cv}"
+    args = f"{q(CV)}!{P},{q(CV)}!{cv}"
+    Uq, Sq = f"{q(CV)}!{U}", f"{q(CV)}!{S}"
 
-    sc, top, sr, scols = SUMMARY_AT
-    _put(ws, sc, top - 1, "Summary", font=BOLD)
-    _array(ws, sc, top, sr, scols, f"=PFX_SUMMARY({args},{U},{S})")
-    ws.column_dimensions["A"].width = 34
+    # --- results, shown from the hidden raw sheet --------------------------------------------
+    top = SUMMARY_AT[1]
+    put(ws, 1, top - 2, "Results", font=TITLE_FONT)
+    put(ws, 1, top - 1, "Summary", font=BOLD)
+    raw.show("summary", "PFX_SUMMARY", f"=PFX_SUMMARY({args},{Uq},{Sq})", ws,
+             _block_at(1, top), row_fmts={4: "0", 9: "General", 10: "General", 19: RATIO,
+                                          21: "0"})
+    for i in range(LARGEST["PFX_SUMMARY"][0]):
+        ws.merge_cells(start_row=top + i, end_row=top + i, start_column=2, end_column=3)
+    put(ws, 4, top - 1, "Relative velocity w = V - V_cv of every port", font=BOLD)
+    raw.show("relative velocities", "PFX_RELVELS", f"=PFX_RELVELS({args},{Uq},TRUE)", ws,
+             _block_at(4, top))
+    put(ws, 9, top - 1, "Absolute velocity V", font=BOLD)
+    raw.show("absolute velocities", "PFX_ABSVEL", f"=PFX_ABSVEL({args},{Uq},TRUE)", ws,
+             _block_at(9, top))
+    put(ws, 14, top - 1, "Mass flow (+ out)", font=BOLD)
+    raw.show("mass flows", "PFX_MASSFLOWS", f"=PFX_MASSFLOWS({args},{Uq},TRUE,{Sq})", ws,
+             _block_at(14, top))
 
-    n = MAX_PORTS + 1
-    _put(ws, 4, top - 1, "Relative velocity w = V - V_cv of every port", font=BOLD)
-    assert RELVEL_AT == (4, top, n, 4) and MASSFLOW_AT == (14, top, n, 2)
-    _array(ws, 4, top, n, 4, f"=PFX_RELVELS({args},{U},TRUE)")
-    _put(ws, 9, top - 1, "Absolute velocity V", font=BOLD)
-    _array(ws, 9, top, n, 4, f"=PFX_ABSVEL({args},{U},TRUE)")
-    _put(ws, 14, top - 1, "Mass flow (+ out)", font=BOLD)
-    _array(ws, 14, top, n, 2, f"=PFX_MASSFLOWS({args},{U},TRUE,{S})")
+    r = top + MAX_PORTS + 2                     # forces block under the per-port tables
+    lab = 4                                     # labels in D (merged D:G), values in H..K
+    for j, h in enumerate(("x", "y", "z", "resultant")):
+        put(ws, 8 + j, r, h, font=BOLD, align="center")
+    put(ws, 12, r, "(units as in the Summary)", font=ITALIC)
 
-    r = top + n + 1                                            # 43
-    _put(ws, 4, r, "mass imbalance: sum, relative, status", font=BOLD)
-    _array(ws, 5, r, 1, 3, f"=PFX_IMBALANCE({args},,{U},{S})")
-    for j, h in enumerate(("x", "y", "z")):
-        _put(ws, 5 + j, r + 2, h, font=BOLD)
-    _put(ws, 8, r + 2, "(force unit as in the Summary)")
-    _put(ws, 4, r + 3, "support force on the fluid R (solid -> fluid)", font=BOLD)
-    _array(ws, 5, r + 3, 1, 3, f"=PFX_SUPPORT({args},,{U},{S})")
-    _put(ws, 4, r + 4, "force on the body -R (fluid -> body)", font=BOLD)
-    _array(ws, 5, r + 4, 1, 3, f"=PFX_BODYFORCE({args},,{U},{S})")
-    _put(ws, 4, r + 6, "power delivered to the body", font=BOLD)
-    _formula(ws, 5, r + 6, f"=PFX_POWER({args},{U},{S})")
-    _put(ws, 4, r + 7, "jet efficiency", font=BOLD)
-    _formula(ws, 5, r + 7, f'=PFX_EFFICIENCY({args},"jet",{S},{U})')
-    _put(ws, 4, r + 8, "propulsive efficiency", font=BOLD)
-    _formula(ws, 5, r + 8, f'=PFX_EFFICIENCY({args},"propulsive",{S},{U})')
+    def label(row, text):
+        put(ws, lab, row, text, font=BOLD)
+        ws.merge_cells(start_row=row, end_row=row, start_column=lab, end_column=lab + 3)
 
-    r2 = r + 10                                                 # 53
-    _put(ws, 4, r2, "Frame cross-check", font=BOLD)
-    _array(ws, 4, r2 + 1, 5, 4, f"=PFX_FRAMECHECK({args},{U},{S})")
-    _put(ws, 4, r2 + 7, "Warnings", font=BOLD)
-    _array(ws, 4, r2 + 8, WARNING_ROWS, 1, f"=PFX_WARNINGS({args},{S})")
+    label(r + 1, "force on the body -R (fluid on body)")
+    raw.show("force on body", "PFX_BODYFORCE", f"=PFX_BODYFORCE({args},,{Uq},{Sq})", ws,
+             _block_at(8, r + 1))
+    label(r + 2, "support force R (solid on fluid)")
+    raw.show("support force", "PFX_SUPPORT", f"=PFX_SUPPORT({args},,{Uq},{Sq})", ws,
+             _block_at(8, r + 2))
+    for rr in (r + 1, r + 2):
+        x, y, z = (cell(8 + j, rr) for j in range(3))
+        formula(ws, 11, rr, f'=IF(AND(ISNUMBER({x}),ISNUMBER({y}),ISNUMBER({z})),'
+                            f'SQRT({x}^2+{y}^2+{z}^2),"")', fmt=NUMBER)
+    label(r + 3, "mass imbalance (out - in), relative, status")
+    raw.show("imbalance", "PFX_IMBALANCE", f"=PFX_IMBALANCE({args},,{Uq},{Sq})", ws,
+             _block_at(8, r + 3), fmts={1: "General"})
+    big_numbers(ws, rng(11, r + 1, 11, r + 2))
+    label(r + 4, "power delivered to the body")
+    formula(ws, 8, r + 4, f"=PFX_POWER({args},{Uq},{Sq})", fmt=NUMBER)
+    label(r + 5, "jet efficiency")
+    formula(ws, 8, r + 5, f'=PFX_EFFICIENCY({args},"jet",{Sq},{Uq})', fmt=RATIO)
+    label(r + 6, "propulsive efficiency")
+    formula(ws, 8, r + 6, f'=PFX_EFFICIENCY({args},"propulsive",{Sq},{Uq})', fmt=RATIO)
+    body, sup = (cell(8 + j, r + 1) for j in range(4)), (cell(8 + j, r + 2) for j in range(4))
+    lay.panel = dict(body=tuple(body), support=tuple(sup), power=cell(8, r + 4),
+                     jet=cell(8, r + 5), propulsive=cell(8, r + 6), status=cell(10, r + 3),
+                     force_label=cell(1, top + 15), power_label=cell(1, top + 18),
+                     summary_top=top)
 
-    _velocity_triangle(ws, 10, r, top, lay)
+    r2 = r + 8
+    put(ws, lab, r2, "Frame cross-check (sum mdot V - sum mdot w = V_cv x imbalance)", font=BOLD)
+    raw.show("frame check", "PFX_FRAMECHECK", f"=PFX_FRAMECHECK({args},{Uq},{Sq})", ws,
+             lambda i, j: (lab if j == 0 else 7 + j, r2 + 1 + i))
+    for i in range(5):
+        ws.merge_cells(start_row=r2 + 1 + i, end_row=r2 + 1 + i, start_column=lab,
+                       end_column=lab + 3)
+    rw = max(r2 + 7, top + LARGEST["PFX_SUMMARY"][0] + 1)
+    put(ws, 1, rw, "Warnings (each listed once; 'none' when there is nothing to say)",
+        font=BOLD)
+    put(ws, 1, rw + 1, "input check", font=BOLD)
+    lay.input_check = cell(2, rw + 1)
+    formula(ws, 2, rw + 1, _input_check(ws, lay, ncol), font=RED_BOLD)
+    ws.merge_cells(start_row=rw + 1, end_row=rw + 1, start_column=2, end_column=12)
+    raw.show("warnings", "PFX_WARNINGS", f"=PFX_WARNINGS({args},{Sq})", ws,
+             _block_at(1, rw + 2))
+    for i in range(WARNING_ROWS):
+        ws.merge_cells(start_row=rw + 2 + i, end_row=rw + 2 + i, start_column=1,
+                       end_column=12)
+    last = rw + 1 + WARNING_ROWS
+    lay.panel["warnings"] = tuple(cell(1, rw + 2 + i) for i in range(WARNING_ROWS))
+
+    _results_panel(ws, lay, ncol)
+    _velocity_triangle(ws, 17, top - 1, top, lay)
+    print_setup(ws, rng(1, 1, ncol, last), landscape=True, title_rows="1:3", fit_height=1)
+    return last
+
+
+def _results_panel(ws, lay, ncol):
+    """Force on the body and at the support, power and status at the top right, large type."""
+    left = ncol - 6                                   # P..V for 22 port columns
+    p = lay.panel
+    put(ws, left, 1, "RESULTS (output units)", font=BIG_FONT)
+    for j, h in enumerate(("x", "y", "z", "resultant")):
+        put(ws, left + 2 + j, 2, h, font=BOLD, align="center")
+    rows = (("force on body", p["body"]), ("support force R", p["support"]))
+    for i, (name, cells) in enumerate(rows):
+        rr = 3 + i
+        put(ws, left, rr, name, fill=PANEL_FILL, font=BOLD)
+        ws.merge_cells(start_row=rr, end_row=rr, start_column=left, end_column=left + 1)
+        for j, c in enumerate(cells):
+            put(ws, left + 2 + j, rr, f"={c}", fill=PANEL_FILL, font=BIG_FONT, fmt=NUMBER)
+    put(ws, left, 5, "power to body", fill=PANEL_FILL, font=BOLD)
+    ws.merge_cells(start_row=5, end_row=5, start_column=left, end_column=left + 1)
+    put(ws, left + 2, 5, f"={p['power']}", fill=PANEL_FILL, font=BIG_FONT, fmt=NUMBER)
+    big_numbers(ws, rng(left + 2, 3, left + 5, 5))
+    put(ws, left + 3, 5, f'=IFERROR(MID({p["power_label"]},16,LEN({p["power_label"]})-16),"")',
+        font=ITALIC)
+    fl = p["force_label"]
+    put(ws, left, 2, f'=IFERROR("unit: "&MID({fl},18,LEN({fl})-18),"")', font=ITALIC)
+    ws.merge_cells(start_row=2, end_row=2, start_column=left, end_column=left + 1)
+    put(ws, left, 6, "status", fill=PANEL_FILL, font=BOLD)
+    ws.merge_cells(start_row=6, end_row=6, start_column=left, end_column=left + 1)
+    put(ws, left + 2, 6, f"={p['status']}", fill=PANEL_FILL, font=BIG_FONT)
+    ws.merge_cells(start_row=6, end_row=6, start_column=left + 2, end_column=ncol)
+    put(ws, left, 7, f'=IF({lay.input_check}="","",{lay.input_check})', font=RED_BOLD)
 
 
 def _velocity_triangle(ws, left, top, table_top, lay=None):
-    """Velocity triangle of one port (default the first): V, V_cv and w in the output units,
-    and a chart. The port number is an input cell beside the table."""
-    _put(ws, left, top, "Velocity triangle (x, y in output units) of port number", font=BOLD)
-    _put(ws, left + 4, top, 1, fill=INPUT_FILL)
-    k = cell(left + 4, top)
+    """Velocity triangle of one port (default: the first outlet): V, V_cv and w in the output
+    units, and a chart with equal axis scales. The port number is an input cell."""
+    put(ws, left, top, "Velocity triangle (x, y in the output velocity unit)", font=BOLD)
+    put(ws, left + 3, top + 1, "port (blank: first outlet)", font=ITALIC)
+    put(ws, left + 5, top + 1, None, fill=INPUT_FILL)
+    typed = cell(left + 5, top + 1)
     if lay is not None:
-        lay.triangle_cell = k
+        lay.triangle_cell = typed
+    roles = rng(lay.ports.left + 1, lay.ports.top + 2, lay.ports.left + 1,
+                lay.ports.top + 1 + MAX_PORTS)
+    put(ws, left, top + 1, "port shown", font=BOLD)
+    formula(ws, left + 2, top + 1, f'=IF(ISNUMBER({typed}),{typed},'
+                                   f'IFERROR(MATCH("out",{roles},0),1))')
+    k = cell(left + 2, top + 1)
     rows_w = (table_top + 1, table_top + MAX_PORTS)
 
     def pick(col):   # the chosen port's value in a per-port result column
@@ -340,99 +444,154 @@ def _velocity_triangle(ws, left, top, table_top, lay=None):
 
     w = (pick(5), pick(6))        # wx, wy of the relative-velocity table
     v = (pick(10), pick(11))      # Vx, Vy of the absolute-velocity table
-    rows = (("vector", "x start", "y start", "x end", "y end"),
-            ("V (absolute)", "=0", "=0", f"={v[0]}", f"={v[1]}"),
+    head = ("vector", "x start", "y start", "x end", "y end")
+    w, v = [[f"IFERROR({e}+0,0)" for e in pair] for pair in (w, v)]   # a blank port is 0
+    rows = (("V (absolute)", "=0", "=0", f"={v[0]}", f"={v[1]}"),
             ("V_cv", "=0", "=0", f"={v[0]}-{w[0]}", f"={v[1]}-{w[1]}"),
             ("w (relative)", f"={v[0]}-{w[0]}", f"={v[1]}-{w[1]}", f"={v[0]}", f"={v[1]}"))
+    base = top + 2
+    put(ws, left, base, head[0], font=BOLD)
     for i, row in enumerate(rows):
-        for j, x in enumerate(row):
-            if i == 0 or j == 0:
-                _put(ws, left + j, top + 1 + i, x, font=BOLD)
-            else:
-                _formula(ws, left + j, top + 1 + i, x)
-    # chart data: each vector as two points (start, end) in its own two rows
-    base = top + 6
-    _put(ws, left, base, "chart points", font=BOLD)
-    for k in range(3):
-        src = top + 2 + k
-        for p, (cx, cy) in enumerate(((1, 2), (3, 4))):
-            rr = base + 1 + 2 * k + p
-            _formula(ws, left + 1, rr, f"={cell(left + cx, src)}")
-            _formula(ws, left + 2, rr, f"={cell(left + cy, src)}")
-            _put(ws, left, rr, rows[1 + k][0] if p == 0 else None)
+        put(ws, left, base + 1 + i, row[0], font=BOLD)
+        ws.merge_cells(start_row=base + 1 + i, end_row=base + 1 + i, start_column=left,
+                       end_column=left + 1)
+        for j, x in enumerate(row[1:]):
+            formula(ws, left + 2 + j, base + 1 + i, x, fmt=NUMBER)
+    for j, h in enumerate(head[1:]):
+        put(ws, left + 2 + j, base, h, font=BOLD)
+    # chart points: each vector as two points (start, end); a square frame (-M..M) for equal scales
+    pts, pc = base + 5, left + 7          # chart points right of the chart, columns X and Y
+    put(ws, pc, pts, "chart points (x, y)", font=ITALIC)
+    for kk in range(3):
+        src = base + 1 + kk
+        for p, (cx, cy) in enumerate(((2, 3), (4, 5))):
+            rr = pts + 1 + 2 * kk + p
+            formula(ws, pc, rr, f"={cell(left + cx, src)}", fmt=NUMBER)
+            formula(ws, pc + 1, rr, f"={cell(left + cy, src)}", fmt=NUMBER)
+    vals = rng(left + 2, base + 1, left + 5, base + 3)
+    big_numbers(ws, vals)
+    fr = pts + 7
+    put(ws, pc, fr, "equal-scale frame", font=ITALIC)
+    m = cell(pc + 2, fr)
+    formula(ws, pc + 2, fr, f"=1.05*MAX(1E-9,ABS(MAX({vals})),ABS(MIN({vals})))", fmt=NUMBER)
+    formula(ws, pc, fr + 1, f"=0-{m}", fmt=NUMBER)
+    formula(ws, pc + 1, fr + 1, f"=0-{m}", fmt=NUMBER)
+    formula(ws, pc, fr + 2, f"={m}", fmt=NUMBER)
+    formula(ws, pc + 1, fr + 2, f"={m}", fmt=NUMBER)
+    fr += 1
     ch = ScatterChart()
     ch.title = "Velocity triangle"
     ch.style = 13
-    ch.x_axis.title = "x"
-    ch.y_axis.title = "y"
-    for k in range(3):
-        r0 = base + 1 + 2 * k
-        xs = Reference(ws, min_col=left + 1, min_row=r0, max_row=r0 + 1)
-        ys = Reference(ws, min_col=left + 2, min_row=r0, max_row=r0 + 1)
-        s = Series(ys, xs, title=rows[1 + k][0])
+    vel = lay.chart_units.label("velocity")
+    hdr = cell(5, table_top)                  # 'wx [unit]' of the relative-velocity table
+    for j, axis in enumerate("xy"):
+        formula(ws, pc + j, base, f'=IFERROR("{axis}"&MID({hdr},3,LEN({hdr})-2),"{axis}")')
+    ch.x_axis.title = title_from(cell(pc, base, CV), f"x [{vel}]")
+    ch.y_axis.title = title_from(cell(pc + 1, base, CV), f"y [{vel}]")
+    colours = ("1F4E79", "7F7F7F", "C00000")
+    for kk in range(3):
+        r0 = pts + 1 + 2 * kk
+        xs = Reference(ws, min_col=pc, min_row=r0, max_row=r0 + 1)
+        ys = Reference(ws, min_col=pc + 1, min_row=r0, max_row=r0 + 1)
+        s = Series(ys, xs, title=rows[kk][0])
         s.marker.symbol = "triangle"
+        s.graphicalProperties.line.solidFill = colours[kk]
+        s.graphicalProperties.line.width = 28575
         ch.series.append(s)
-    ch.height, ch.width = 8, 12
-    ws.add_chart(ch, cell(left, base + 8, absolute=False))
+    xs = Reference(ws, min_col=pc, min_row=fr, max_row=fr + 1)
+    ys = Reference(ws, min_col=pc + 1, min_row=fr, max_row=fr + 1)
+    s = Series(ys, xs, title="frame")
+    s.marker.symbol = "none"
+    s.graphicalProperties.line.noFill = True
+    ch.series.append(s)
+    _axes_visible(ch)
+    for ax in (ch.x_axis, ch.y_axis):          # labels at the edge, plain numbers
+        ax.tickLblPos = "low"
+        ax.number_format = "General"
+    ch.height = ch.width = 9.5
+    ch.legend.position = "b"
+    # a square plot area: with the frame series both axes get the same range, so equal scales
+    ch.plot_area.layout = ChartLayout(manualLayout=ManualLayout(
+        layoutTarget="inner", xMode="edge", yMode="edge", x=0.2, y=0.12, w=0.6, h=0.6))
+    ws.add_chart(ch, cell(left, pts, absolute=False))
+
+
+def _axes_visible(ch):
+    """openpyxl hides the axes by default (delete=True); show them."""
+    ch.x_axis.delete = False
+    ch.y_axis.delete = False
 
 
 def _speed_sweep(wb, lay: Layout):
     ws = wb.create_sheet(SWEEP)
-    ws.column_dimensions["A"].width = 14
-    for c in range(2, 20):
-        ws.column_dimensions[get_column_letter(c)].width = 13
-    _put(ws, 1, 1, "Speed sweep: the control volume of sheet 'Control volume' over a table of "
-                   "speeds", font=TITLE_FONT)
-    _put(ws, 1, 2, "The port table, settings and closures of 'Control volume' are used at every "
-                   "speed (closures are re-applied at each speed).")
+    raw = lay.raw
+    widths(ws, {1: 16, 2: 12, **{c: 11 for c in range(3, 13)}, 13: 7, 14: 2, 15: 36, 16: 14})
+    put(ws, 1, 1, "Speed sweep: the control volume of sheet 'Control volume' over a table of "
+                  "speeds", font=TITLE_FONT)
+    put(ws, 1, 2, "The port table, settings and closures of 'Control volume' are used at every "
+                  "speed (closures are re-applied at each speed).")
     labels = (("lowest speed", 0.0), ("highest speed", 25.0), ("speed unit", "m/s"),
               ("direction [deg]", 0.0), ("force to find", 500.0), ("output units", "SI"))
     for i, (name, value) in enumerate(labels):
-        _put(ws, 1, 3 + i, name, font=BOLD)
-        _put(ws, 2, 3 + i, value, fill=INPUT_FILL)
+        put(ws, 1, 3 + i, name, font=BOLD)
+        put(ws, 2, 3 + i, value, fill=INPUT_FILL)
     low, high, unit, direc, force, U = (cell(2, 3 + i) for i in range(6))
     lay.sweep_cells = dict(low=low, high=high, unit=unit, direction=direc, force=force, units=U)
-    _put(ws, 3, 7, "force on the body along the direction, in the output force unit")
+    put(ws, 3, 7, "force on the body along the direction, in the output force unit")
     P = f"{q(CV)}!{lay.ports.ref}"
-    S = rng(1, 22, 3, 22 + len(CV_SETTINGS), CV)
+    S = f"{q(CV)}!{lay.settings_ref}"
+    Sh = lambda c: f"{q(SWEEP)}!{c}"      # noqa: E731  (raw-sheet formulas name this sheet)
 
     top = 11
-    _put(ws, 1, top - 1, "speeds", font=BOLD)
-    _formula(ws, 1, top, f"={unit}")
+    put(ws, 1, top - 1, "speeds", font=BOLD)
+    formula(ws, 1, top, f"={unit}")
     for k in range(SWEEP_POINTS):
-        _formula(ws, 1, top + 1 + k, f"={low}+{k}*({high}-{low})/{SWEEP_POINTS - 1}",
-                 fmt="0.000")
+        formula(ws, 1, top + 1 + k, f"={low}+{k}*({high}-{low})/{SWEEP_POINTS - 1}", fmt=SPEED)
     speeds = rng(1, top, 1, top + SWEEP_POINTS)
-    ncols = 11
-    _put(ws, 3, top - 1, "Speed table (one call)", font=BOLD)
-    _array(ws, 3, top, SWEEP_POINTS + 1, ncols,
-           f"=PFX_SPEEDTABLE({P},{speeds},{direc},{U},{S})")
-    _put(ws, 3 + ncols, top - 1, "optimum", font=BOLD)
+    nrow, ncols = LARGEST["PFX_SPEEDTABLE"]
+    put(ws, 3, top - 1, "Speed table (one call)", font=BOLD)
+    array(ws, 3, top, nrow, ncols, f"=PFX_SPEEDTABLE({P},{speeds},{direc},{U},{S})", fmt=NUMBER)
+    raw.blocks["speed table"] = ("PFX_SPEEDTABLE",      # exact size: shown as it is
+                                 rng(3, top, 2 + ncols, top + nrow - 1, SWEEP))
+    big_numbers(ws, rng(4, top + 1, 10, top + nrow - 1))
+    for j, f in ((0, SPEED), (8, RATIO), (9, "0")):
+        for k in range(nrow):
+            ws.cell(row=top + k, column=3 + j).number_format = f
+    for j in range(ncols):
+        ws.cell(row=top, column=3 + j).alignment = Alignment(wrap_text=True, vertical="top")
+    ws.row_dimensions[top].height = 45
+    put(ws, 3 + ncols, top - 1, "optimum", font=BOLD)
 
-    # best speed and the speed at a given force
-    bl, btop, brows, bcols = BEST_AT
-    assert bl == 3 + ncols + 2 and btop == top
-    _put(ws, bl, top - 1, "Speed of maximum power", font=BOLD)
-    lo_u, hi_u = f"{low}", f"{high}"
-    _array(ws, bl, top, brows, bcols, f"=PFX_BESTSPEED({P},{lo_u},{hi_u},{direc},{U},{S})")
-    best = cell(bl + 1, top + 1)
+    bl, btop, brows, _ = BEST_AT
+    put(ws, bl, btop - 1, "Speed of maximum power", font=BOLD)
+    raw.show("best speed", "PFX_BESTSPEED",
+             f"=PFX_BESTSPEED({P},{Sh(low)},{Sh(high)},{Sh(direc)},{Sh(U)},{S})", ws,
+             _block_at(bl, btop))
+    best = cell(bl + 1, btop + 1)
     for k in range(SWEEP_POINTS):
         r = top + 1 + k
-        _formula(ws, 3 + ncols, r,
-                 f'=IF(ABS({cell(3, r)}-{best})<=({high}-{low})/{2 * (SWEEP_POINTS - 1)},'
-                 f'"<- best","")')
-    _put(ws, bl, top + 7, "Speed at which the force on the body falls to the given value",
-         font=BOLD)
-    _array(ws, bl, top + 8, 4, 2,
-           f'=PFX_SPEEDATFORCE({P},{force},{lo_u},{hi_u},"along",{direc},{U},{S})')
-
+        formula(ws, 3 + ncols, r,
+                f'=IF(ISNUMBER({best}),IF(ABS({cell(3, r)}-{best})<=({high}-{low})/'
+                f'{2 * (SWEEP_POINTS - 1)},"<- best",""),"")')
+    sl, stop, _, _ = SPEEDFORCE_AT
+    put(ws, sl, stop - 1, "Speed at which the force on the body falls to the given value",
+        font=BOLD)
+    raw.show("speed at force", "PFX_SPEEDATFORCE",
+             f'=PFX_SPEEDATFORCE({P},{Sh(force)},{Sh(low)},{Sh(high)},"along",{Sh(direc)},'
+             f'{Sh(U)},{S})', ws, _block_at(sl, stop), row_fmts={3: "0"})
+    # axis titles with units, read from the speed table's header
+    put(ws, bl, stop + 8, "chart axis titles", font=ITALIC)
+    formula(ws, bl + 1, stop + 8, f'=IFERROR("force on body ["&MID({cell(7, top)},18,'
+                                  f'LEN({cell(7, top)})-18)&"]","force on body")')
     last = top + SWEEP_POINTS
     xs = Reference(ws, min_col=3, min_row=top + 1, max_row=last)
+    cu = lay.chart_units
+    xt = title_from(cell(3, top, SWEEP), f"speed [{cu.label('velocity')}]")
 
     def chart(title, ytitle, cols, anchor, point=None):
         ch = ScatterChart()
         ch.title, ch.style = title, 13
-        ch.x_axis.title, ch.y_axis.title = "CV speed", ytitle
+        ch.x_axis.title, ch.y_axis.title = xt, ytitle
         for c in cols:
             ys = Reference(ws, min_col=c, min_row=top, max_row=last)
             ch.series.append(Series(ys, xs, title_from_data=True))
@@ -440,38 +599,69 @@ def _speed_sweep(wb, lay: Layout):
             px = Reference(ws, min_col=point[0], min_row=point[1], max_row=point[1])
             py = Reference(ws, min_col=point[2], min_row=point[3], max_row=point[3])
             s = Series(py, px, title="optimum")
-            s.marker.symbol, s.marker.size = "diamond", 10
+            s.marker.symbol, s.marker.size = "diamond", 11
+            s.marker.graphicalProperties = GraphicalProperties(solidFill="C00000")
+            s.marker.graphicalProperties.line.solidFill = "C00000"
             s.graphicalProperties.line.noFill = True
             ch.series.append(s)
-        ch.height, ch.width = 9, 16
+        _axes_visible(ch)
+        ch.height, ch.width = 8.5, 15
+        ch.legend.position = "b"
         ws.add_chart(ch, anchor)
+        return ch
 
-    chart("Force on the body against speed", "force", (7, 8, 9),
-          cell(bl, top + 14, absolute=False))
-    chart("Power delivered to the body against speed", "power", (10,),
-          cell(bl, top + 33, absolute=False), point=(bl + 1, top + 1, bl + 1, top + 2))
+    chart("Force on the body against speed",
+          title_from(cell(bl + 1, stop + 8, SWEEP), f"force on body [{cu.label('force')}]"),
+          (7, 8, 9),
+          cell(bl, stop + 10, absolute=False))
+    chart("Power delivered to the body against speed",
+          title_from(cell(10, top, SWEEP), f"power to body [{cu.label('power')}]"),
+          (10,), cell(bl, stop + 28, absolute=False), point=(bl + 1, btop + 1, bl + 1, btop + 2))
+    lay.sweep_cells.update(best=best, power_header=cell(10, top), speed_header=cell(3, top),
+                           table_top=top, force_title=cell(bl + 1, stop + 8, SWEEP))
+    print_setup(ws, rng(1, 1, bl + 7, max(last, stop + 45)), landscape=True, title_rows="1:2",
+                fit_height=1)
 
 
-# ------------------------------------------------------------------------------------------
-# Reference cases
-# ------------------------------------------------------------------------------------------
 def _checks(wb):
-    from .cases import write_cases
-
     ws = wb.create_sheet(CHECKS)
-    write_cases(ws)
+    found = cases.write_cases(ws, cases.PARTS + cases_closures.PARTS)
+    last = cases.INDEX_TOP + len(found)
+    print_setup(ws, rng(1, 1, len(cases.INDEX_HEADER), last), landscape=True,
+                title_rows=f"{cases.INDEX_TOP}:{cases.INDEX_TOP}")
+    for c in range(cases.INDEX_TOP + 1, last + 1):
+        ws.cell(row=c, column=1).alignment = Alignment(wrap_text=True, vertical="top")
+        ws.cell(row=c, column=7).alignment = Alignment(wrap_text=True, vertical="top")
+    return found
 
 
-def build_workbook() -> Workbook:
-    """The template as an openpyxl Workbook (deterministic)."""
+def _assemble(lay: Layout, units=None) -> Workbook:
+    lay.chart_units = UnitSystem(units)
     wb = Workbook()
     wb.remove(wb.active)
-    lay = Layout()
+    report_ws = wb.create_sheet(REPORT)
     _about(wb)
+    raw_ws = wb.create_sheet(RAW)
+    raw_ws.sheet_state = "hidden"
+    lay.raw = RawSheet(raw_ws)
     _control_volume(wb, lay)
     _speed_sweep(wb, lay)
-    _checks(wb)
-    wb.active = 1
+    found = _checks(wb)
+    wb.move_sheet(RAW, offset=len(wb.sheetnames) - 1 - wb.sheetnames.index(RAW))
+    lay.report_cells = draw_report(report_ws, lay, CV, SWEEP, CHECKS, cases.INDEX_TOP,
+                                   len(found), MAX_PORTS)
+    return wb
+
+
+def build_workbook(units=None) -> Workbook:
+    """The template as an openpyxl Workbook (deterministic).
+
+    ``units`` (an output-units text such as "US") only sets the text the charts' axis titles
+    show before a spreadsheet re-reads their cells; :func:`.fill.fill` passes the scenario's."""
+    wb = _assemble(Layout(), units)
+    wb.active = wb.sheetnames.index(CV)
+    for ws in wb.worksheets:
+        ws.sheet_view.tabSelected = ws.title == CV
     wb.properties.creator = "portflux"
     wb.properties.title = "portflux template"
     return wb
@@ -480,10 +670,7 @@ def build_workbook() -> Workbook:
 def layout() -> Layout:
     """Where the inputs of the template sit (built without writing a file)."""
     lay = Layout()
-    wb = Workbook()
-    wb.remove(wb.active)
-    _control_volume(wb, lay)
-    _speed_sweep(wb, lay)
+    _assemble(lay)
     return lay
 
 
@@ -500,20 +687,17 @@ def build_template(path) -> str:
 
 
 def save_atomic(wb, path) -> str:
-    """Save an openpyxl workbook to a temporary file beside ``path``, then rename it into place
-    (a reader never sees a half-written file; a failure leaves no partial file)."""
-    path = os.fspath(path)
-    folder = os.path.dirname(os.path.abspath(path))
-    fd, tmp = tempfile.mkstemp(dir=folder, prefix=".portflux-", suffix=".xlsx")
-    os.close(fd)
-    try:
-        wb.save(tmp)
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
-    return path
+    """Save an openpyxl workbook atomically (:func:`portflux.workbook.output.write_atomic`): a
+    reader never sees a half-written file, a failure (a full disk) leaves no partial file. The
+    workbook is serialised in memory first, so no half-written zip is left open on a failure."""
+    import io
+
+    from .output import write_atomic
+
+    buf = io.BytesIO()
+    wb.save(buf)
+    data = buf.getvalue()
+    return write_atomic(os.fspath(path), lambda f: f.write(data))
 
 
 def shipped_template() -> str | None:

@@ -26,8 +26,9 @@ from dataclasses import dataclass
 from decimal import ROUND_DOWN, ROUND_HALF_UP, ROUND_UP, Decimal
 from typing import Callable
 
+from ..excel import ERROR_VALUES
 from .xlvalues import (DIV0, NA, NUM, REF, VALUE, Array, XlError, as_bool, as_number, as_text,
-                       compare, first_error)
+                       compare, error, first_error)
 
 __all__ = ["FUNCTIONS", "Function", "broadcast"]
 
@@ -567,6 +568,95 @@ def _lookup(vertical):
     return call
 
 
+_CRITERION_OPS = ("<=", ">=", "<>", "<", ">", "=")
+
+
+def _criterion(crit):
+    """The cell test of a COUNTIF/SUMIF criterion, as Excel's help for COUNTIF describes it
+    (from memory): a number or logical matches equal values; a text may start with =, <>, <, >,
+    <= or >=; its operand is a number (compared with numbers), TRUE/FALSE, an error value, or a
+    text compared without regard to case, with * ? ~ wildcards for = and <>. An empty operand
+    matches blank cells ("=" or "") or non-blank cells ("<>").
+
+    >>> [_criterion(">=2")(v) for v in (1.0, 2.0, "3", None)]
+    [False, True, False, False]
+    >>> [_criterion("pa*")(v) for v in ("PASS", "FAIL", 1.0)]
+    [True, False, False]
+    """
+    if type(crit) is XlError:
+        return lambda v: type(v) is XlError and v == crit
+    if crit is None:
+        crit = 0.0
+    if type(crit) is float or type(crit) is bool:
+        kind = type(crit)
+        return lambda v: type(v) is kind and v == crit
+    text = str(crit)
+    op = next((o for o in _CRITERION_OPS if text.startswith(o)), "")
+    operand = text[len(op):]
+    negate = op == "<>"
+    if operand == "":
+        if op == "<>":
+            return lambda v: not (v is None or v == "")
+        if op == "=":
+            return lambda v: v is None
+        if op:
+            return lambda v: False
+        return lambda v: v is None or v == ""
+    number = as_number(operand) if operand.strip() == operand else VALUE
+    if type(number) is float:
+        value = number
+    elif operand.upper() in ("TRUE", "FALSE"):
+        value = operand.upper() == "TRUE"
+    elif operand.upper() in ERROR_VALUES:
+        value = error(operand.upper())
+    else:
+        value = operand
+    if op in ("", "=", "<>"):
+        if type(value) is str:
+            pat = _wildcard(value) or re.compile(re.escape(value), re.S | re.I)
+            hit = lambda v: type(v) is str and type(v) is not XlError \
+                and pat.fullmatch(v) is not None  # noqa: E731
+        else:
+            kind = type(value)
+            hit = lambda v: type(v) is kind and v == value  # noqa: E731
+        return (lambda v: not hit(v)) if negate else hit
+    kind = type(value)
+    sign = {"<": (-1,), "<=": (-1, 0), ">": (1,), ">=": (1, 0)}[op]
+
+    def ordered(v):
+        if type(v) is not kind or v is None:
+            return False
+        c = compare(v, value)
+        return type(c) is not XlError and c in sign
+    return ordered
+
+
+def _cells(a):
+    return [v for row in _grid(a) for v in row]
+
+
+def _countif(values, crit):
+    test = _criterion(crit)
+    return float(sum(1 for v in _cells(values) if test(v)))
+
+
+def _sumif(values, crit, addends=None):
+    test = _criterion(crit)
+    g = _grid(values)
+    h = g if addends is None else _grid(addends)
+    total = 0.0
+    for i, row in enumerate(g):         # the addends are read in the shape of the range
+        for j, v in enumerate(row):
+            if not test(v):
+                continue
+            x = h[i][j] if i < len(h) and j < len(h[0]) else None
+            if type(x) is XlError:
+                return x
+            if type(x) is float:
+                total += x
+    return _finite(total)
+
+
 def _na():
     return NA
 
@@ -601,6 +691,7 @@ _RANGE = {
     "AVERAGE": _agg(lambda xs: math.fsum(xs) / len(xs), DIV0),
     "PRODUCT": _agg(math.prod), "SUMSQ": _agg(lambda xs: math.fsum(x * x for x in xs)),
     "COUNT": _count, "COUNTA": _counta, "SUMPRODUCT": _sumproduct,
+    "COUNTIF": _countif, "SUMIF": _sumif,
     "AND": _and, "OR": _or, "XOR": _xor,
     "INDEX": _index, "MATCH": _match, "VLOOKUP": _lookup(True), "HLOOKUP": _lookup(False),
     "ROWS": _rows, "COLUMNS": _columns, "NA": _na, "PI": _pi,
@@ -613,7 +704,7 @@ _ARITY = {
     "RIGHT": (1, 2), "MID": (3, 3), "CONCATENATE": (1, 255), "EXACT": (2, 2), "REPT": (2, 2),
     "SUM": (1, 255), "MIN": (1, 255), "MAX": (1, 255), "AVERAGE": (1, 255),
     "PRODUCT": (1, 255), "SUMSQ": (1, 255), "COUNT": (1, 255), "COUNTA": (1, 255),
-    "SUMPRODUCT": (1, 255), "AND": (1, 255), "OR": (1, 255), "XOR": (1, 255),
+    "SUMPRODUCT": (1, 255), "COUNTIF": (2, 2), "SUMIF": (2, 3), "AND": (1, 255), "OR": (1, 255), "XOR": (1, 255),
     "INDEX": (2, 3), "MATCH": (2, 3), "VLOOKUP": (3, 4), "HLOOKUP": (3, 4), "NA": (0, 0),
     "PI": (0, 0), "TRUE": (0, 0), "FALSE": (0, 0), "IF": (1, 3), "IFERROR": (2, 2),
     "IFNA": (2, 2), "CHOOSE": (2, 255),
