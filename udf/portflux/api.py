@@ -23,8 +23,8 @@ import numpy as np
 from . import spec
 from . import units as U
 from .core import STANDARD_GRAVITY, Balance, InputError, balance
-from .core.balance import DEFAULT_IMBALANCE_TOL
-from .core.closures import balance_closed
+from .core import DEFAULT_IMBALANCE_TOL
+from .core import balance_closed
 from .core.geometry import direction
 
 

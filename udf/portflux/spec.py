@@ -17,7 +17,7 @@ import numpy as np
 from . import units as U
 from .excel import ERROR_VALUES, is_blank, shown  # noqa: F401  (re-exported)
 from .core import InputError, Ports, polar_velocity
-from .core.closures import Closures
+from .core import Closures
 
 EXCEL_ERRORS = ERROR_VALUES
 

@@ -32,7 +32,7 @@ from .. import spec
 from .. import units as U
 from ..core import (FREE, LOSS, SOLVE, STANDARD_GRAVITY, Balance, ClosedBalance, Closures,
                     InputError, OutsideScopeError, balance, balance_closed, polar_velocity)
-from ..core.balance import DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN
+from ..core import DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN
 from ._grid import (CellError, blank_row, describe, error_value, freeze, is_blank, number,
                     one_cell, rows, trim)
 
