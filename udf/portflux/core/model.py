@@ -298,6 +298,22 @@ class Model:
         if closures is not None:
             self._compile_closures(ports, closures, float(np.linalg.norm(g)))
         self.flow_rows = np.flatnonzero(self.flow)
+        self.beta_one = bool(np.all(self.beta == 1.0))
+        self.loads_any = bool(np.any(self.p_total != 0.0) or np.any(self.weight != 0.0))
+        self._compile_jets(ports)
+
+    def _compile_jets(self, ports):
+        """Split the jet kinetic-energy flux into a constant (absolute inlets with computed
+        flow: rho A max(-V.n, 0) |V|^2 / 2) and the rows evaluated per CV velocity."""
+        steady = self.is_in & ~self.given & (self.a == 1.0)
+        vn = np.einsum("ij,ij->i", ports.velocity, self.N)
+        v2 = np.einsum("ij,ij->i", ports.velocity, ports.velocity)
+        self.jet_const = float(np.sum(0.5 * self.rho_a0[steady] * np.maximum(-vn[steady], 0.0)
+                                      * v2[steady]))
+        En = self.En if self.cl.size else np.zeros(self.n)
+        never = (self.given & (ports.mass_flow >= 0.0) & ~self.train) | (
+            self.closed & (En >= 0.0) & ~self.given)
+        self.jet_rows = np.flatnonzero(~steady & ~never)
 
     def _compile_closures(self, ports, c: Closures, gmag):
         cl = self.cl
@@ -316,6 +332,7 @@ class Model:
                 qc[m] = 2.0 * (ports.p_gauge[k] / rho_s - ports.p_gauge[j] / rho_o) + 2.0 * gmag * (
                     ports.height[k] - ports.height[j])
         self.qc = qc
+        self.bernoulli = bool(np.any(qc != 0.0))
         self.flow = c.unknown | ~np.isnan(c.share)
         self.unk = np.flatnonzero(c.unknown)
         self.shr = np.flatnonzero(~np.isnan(c.share))
@@ -339,18 +356,31 @@ class Model:
         Reference: Bernoulli's equation along a streamline in the steady (CV) frame, White,
         *Fluid Mechanics*, sec. 3.5 (from memory).
         """
-        VT = np.ascontiguousarray(np.asarray(v_cv, dtype=float).T)
-        src = self.src if self.cl.size else np.zeros(0, np.intp)
-        s2 = np.zeros((src.size, VT.shape[1]))
+        return self._closure_speeds(np.ascontiguousarray(np.asarray(v_cv, dtype=float).T))
+
+    def _closure_speeds(self, VT):
+        m = VT.shape[1]
+        if not self.cl.size:
+            return np.zeros((0, m)), np.zeros((0, m), bool)
+        src = self.src
+        s2 = np.zeros((src.size, m))
         for c in range(3):                     # |w_src|^2 component by component (no cancelling)
-            wc = self.W0[src, c, None] - self.a[src, None] * VT[c]
-            s2 += wc * wc
-        if not src.size:
-            return s2, s2.astype(bool)
-        lin = self.qa[:, None] * s2
-        rad = lin + self.qc[:, None]
-        rad = np.where(np.abs(rad) <= 1e-12 * (lin + np.abs(self.qc)[:, None]), 0.0, rad)
-        return np.sqrt(np.maximum(rad, 0.0)), rad < 0.0
+            w0 = self.W0[src, c, None]
+            if VT[c].any():
+                wc = w0 - self.a[src, None] * VT[c]
+                wc *= wc
+                s2 += wc
+            else:
+                s2 += w0 * w0
+        rad = s2
+        rad *= self.qa[:, None]
+        if self.bernoulli:                     # c != 0: clip round-off, flag negative values
+            lin = rad.copy()
+            rad += self.qc[:, None]
+            rad = np.where(np.abs(rad) <= 1e-12 * (lin + np.abs(self.qc)[:, None]), 0.0, rad)
+            bad = rad < 0.0
+            return np.sqrt(np.maximum(rad, 0.0)), bad
+        return np.sqrt(rad), np.zeros(rad.shape, bool)
 
     def evaluate(self, v_cv, want=ALL, unreachable=FLAG) -> dict:
         """Evaluate the model at CV velocities ``v_cv`` (m, 3) [m/s]; a dict of SI arrays.
@@ -386,7 +416,24 @@ class Model:
         Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
         """
         V = np.asarray(v_cv, dtype=float)
-        VT = np.ascontiguousarray(V.T)                        # (3, m)
+        return self.evaluate_columns(np.ascontiguousarray(V.reshape(-1, 3).T), want,
+                                     unreachable)
+
+    def evaluate_columns(self, VT, want=ALL, unreachable=FLAG, dest=None) -> dict:
+        """:meth:`evaluate` on CV velocities given as columns ``VT`` (3, m) [m/s].
+
+        ``dest`` may hold preallocated arrays for ``support_force`` and ``force_on_body``
+        (3, m), ``power`` and ``jet_efficiency`` (m,): those results are written there (a
+        speed table's output columns, with no copy).
+
+        >>> p = Ports.build(area=[1e-3, 1e-3], density=1000.0, role=["in", "out"],
+        ...                 velocity=[[20.0, 0, 0], [0, 20.0, 0]])
+        >>> Model(p).evaluate_columns(np.zeros((3, 1)))["force_on_body"].ravel().tolist()
+        [400.0, -400.0, 0.0]
+
+        Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
+        """
+        dest = dest or {}
         m = VT.shape[1]
         n = self.n
         out = {}
@@ -395,7 +442,7 @@ class Model:
         cl = self.cl
         q = bad = None
         if cl.size:
-            q, bad = self.closure_speeds(V)                   # (k, m)
+            q, bad = self._closure_speeds(VT)                 # (k, m)
             wn[cl] = q * self.En[cl, None]
         # -- mass flows -----------------------------------------------------------------------
         mdot = self.rho_a0[:, None] * wn
@@ -439,38 +486,56 @@ class Model:
             j = int(cl[int(np.argmax(bad[:, at]))])
             raise InputError(f"Bernoulli closure: the outlet cannot be reached from inlet "
                              f"{self.ports.names[self.closures.source[j]]!r} at CV velocity "
-                             f"{np.round(V[at], 9).tolist()} m/s (the outlet's pressure and "
+                             f"{np.round(VT[:, at], 9).tolist()} m/s (the outlet's pressure and "
                              f"height head exceed the inlet's total head in the moving frame)",
                              port=j, field="closure")
         imbalance = mdot.sum(axis=0)
         with np.errstate(divide="ignore", invalid="ignore"):
-            imbalance_rel = np.where(inflow > 0, imbalance / inflow,
-                                     np.where(imbalance == 0, 0.0, np.inf * np.sign(imbalance)))
+            imbalance_rel = imbalance / inflow
+        dry = inflow <= 0.0                             # no inflow: 0, or +-inf if imbalanced
+        if dry.any():
+            imb = imbalance[dry]
+            imbalance_rel[dry] = np.where(imb == 0, 0.0, np.copysign(np.inf, imb))
         out.update(mass_flow=mdot, inflow=inflow, imbalance=imbalance,
                    imbalance_rel=imbalance_rel, balanced=np.abs(imbalance_rel) <= self.tol,
                    outflow=np.maximum(mdot, 0.0).sum(axis=0), no_contact=no_contact,
                    contact=contact, valid=~any_bad)
         # -- forces: sum_i beta mdot w_i = W0^T k - V (a . k) + E^T (k q) ---------------------
-        kb = self.beta[:, None] * mdot
-        mom = self._sum_w(kb, VT, q, self.a)
+        active = [c for c in range(3) if VT[c].any()]  # components of V_cv not all zero
+        kb = mdot if self.beta_one else self.beta[:, None] * mdot
+        support = self._sum_w(kb, VT, q, self.a, dest.get("support_force"), active)
         touching = ~no_contact
-        weight = self.weight[:, None] * touching
-        support = mom - self.p_total[:, None] * touching - weight
-        support += 0.0
-        out.update(support_force=support, force_on_body=-support + 0.0, weight=weight)
+        if self.loads_any:                              # pressure and weight act in contact
+            support -= (self.p_total + self.weight)[:, None] * touching
+        support += 0.0                                  # no negative zeros in outputs
+        body = np.subtract(0.0, support, out=dest.get("force_on_body"))   # (0 - 0 = +0)
+        out.update(support_force=support, force_on_body=body)
+        if PORTS in want:
+            out["weight"] = self.weight[:, None] * touching
         if want & {POWER, JET, WAKE}:
-            out["power"] = -(support * VT).sum(axis=0) + 0.0
-        if want & {JET, WAKE}:
+            power = dest.get("power")
+            power = np.zeros(m) if power is None else power
+            if active:
+                np.multiply(body[active[0]], VT[active[0]], out=power)
+                for c in active[1:]:
+                    power += body[c] * VT[c]
+                power += 0.0
+            else:
+                power.fill(0.0)
+            out["power"] = power
+        if JET in want:
+            jet_ke = self._jet_ke(VT, q, wn, nV, mdot)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                eff = np.divide(out["power"], jet_ke, out=dest.get("jet_efficiency"))
+            if np.ndim(jet_ke) == 0:
+                if not jet_ke > 0:
+                    eff.fill(np.nan)
+            else:
+                np.copyto(eff, np.nan, where=~(jet_ke > 0))
+            out["jet_efficiency"] = eff
+            out["jet_ke_flux"] = np.broadcast_to(jet_ke, (m,))
+        if want & {WAKE}:
             v2 = self._v_abs2(VT, q)
-            if JET in want:
-                vn = wn + nV
-                jet_flow = np.where(self.given[:, None], np.maximum(-mdot, 0.0),
-                                    np.where(self.is_in[:, None] | (wn < 0.0),
-                                             self.rho_a0[:, None] * np.maximum(-vn, 0.0), 0.0))
-                jet_ke = 0.5 * (jet_flow * v2).sum(axis=0)
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    out["jet_efficiency"] = np.where(jet_ke > 0, out["power"] / jet_ke, np.nan)
-                out["jet_ke_flux"] = jet_ke
             if WAKE in want:
                 ke_net = 0.5 * (mdot * v2).sum(axis=0)
                 power = out["power"]
@@ -484,6 +549,7 @@ class Model:
             out["flux_relative"] = self._sum_w(mdot, VT, q, self.a)
             out["flux_absolute"] = self._sum_w(mdot, VT, q, -self.b)
         if PORTS in want:
+            V = VT.T
             w = self.W0[None] - self.a[None, :, None] * V[:, None, :]
             if cl.size:
                 w[:, cl] = q.T[..., None] * self.E[cl]
@@ -509,12 +575,33 @@ class Model:
             _blank(out, any_bad)
         return out
 
-    def _sum_w(self, k, VT, q, a):
-        """sum_i k_i (W0_i - a_i V + q_i E_i) over ports, shape (3, m)."""
-        s = self.W0.T @ k - VT * (a @ k)
+    def _sum_w(self, k, VT, q, a, out=None, active=(0, 1, 2)):
+        """sum_i k_i (W0_i - a_i V + q_i E_i) over ports, shape (3, m) (``active``: the
+        components of V that are not all zero)."""
+        s = np.matmul(self.W0.T, k, out=out)
+        if active:
+            ak = a @ k
+            for c in active:
+                s[c] -= VT[c] * ak
         if q is not None:
             s += self.E[self.cl].T @ (k[self.cl] * q)
         return s
+
+    def _jet_ke(self, VT, q, wn, nV, mdot):
+        """Absolute kinetic-energy flux [W] of the incoming jets: sum over ports that may bring
+        a jet in of (1/2) mdot_abs |V|^2, mdot_abs = rho A max(-V.n, 0) (computed flow, a
+        declared inlet or a port whose relative flow enters) or max(-mdot, 0) (given flow).
+        Absolute inlets with computed flow give a constant, found once at compile time."""
+        rows = self.jet_rows
+        if not rows.size:
+            return self.jet_const
+        v2 = self._v_abs2(VT, q)[rows]
+        given = self.given[rows, None]
+        vn = wn[rows] + nV[rows]
+        flow = np.where(given, np.maximum(-mdot[rows], 0.0),
+                        np.where(self.is_in[rows, None] | (wn[rows] < 0.0),
+                                 self.rho_a0[rows, None] * np.maximum(-vn, 0.0), 0.0))
+        return self.jet_const + 0.5 * (flow * v2).sum(axis=0)
 
     def _v_abs2(self, VT, q):
         """|v_abs|^2 (n, m) with v_abs = W0 + b V + q E."""

@@ -161,11 +161,14 @@ def table(model: Model, speeds, d, chunk=CHUNK) -> SpeedTable:
                 valid=np.empty(m, dtype=bool))
     for start in range(0, m, chunk):          # chunks of many speeds, bounded memory
         sl = slice(start, min(start + chunk, m))
-        r = model.evaluate(speeds[sl, None] * d, TABLE)
-        support[:, sl] = r["support_force"]
-        body[:, sl] = r["force_on_body"]
-        for key, a in cols.items():
-            a[sl] = r[key]
+        dest = dict(support_force=support[:, sl], force_on_body=body[:, sl],
+                    power=cols["power"][sl], jet_efficiency=cols["jet_efficiency"][sl])
+        r = model.evaluate_columns(d[:, None] * speeds[sl], TABLE, dest=dest)
+        for key, a in dest.items():           # written in place (a copy only if not)
+            if r[key] is not a:
+                a[...] = r[key]
+        for key in ("inflow", "contact", "balanced", "valid"):
+            cols[key][sl] = r[key]
     return SpeedTable(speed=speeds.copy(), direction=d, support_force=support.T,
                       force_on_body=body.T, **cols)
 
