@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 
-from .. import __version__, spec
+from .. import __version__, problem
 from ..cautions import CAUTION
 from ._grid import CellError, describe, error_value, flag, is_number, one_cell, scalar_text
 from ._inputs import SETTINGS, evaluate, evaluate_closed, tolerance, unit_system
@@ -96,7 +96,7 @@ def about():
 def columns(units=None):
     us = unit_system(units)
     out = [["column", "aliases", "default unit", "meaning"]]
-    for c in spec.COLUMNS.values():
+    for c in problem.COLUMNS.values():
         unit = "(text)" if c.kind is None else us.label(c.kind)
         out.append([c.key, ", ".join(c.aliases), unit, c.help])
     return out
@@ -211,7 +211,7 @@ def summary(ports, cv_velocity, units=None, settings=None):
     out = [["quantity [unit]", "value"]]
     out += [[f"CV velocity {c} [{lab('velocity')}]", _value(x)] for c, x in zip("xyz", vel)]
     out += [
-        ["ports", t.data.n],
+        ["ports", t.n],
         ["intercept", b.intercept],
         [f"mass inflow [{m}]", _value(us.out(b.inflow, "mass_flow"))],
         [f"mass outflow [{m}]", _value(us.out(b.outflow, "mass_flow"))],
@@ -239,7 +239,7 @@ def split(ports, cv_velocity, units=None, settings=None):
     """Per-port flows of a (solved) split: mass flow, fraction of the inflow, stream area."""
     us = unit_system(units)
     t, b, cb = evaluate_closed(ports, cv_velocity, settings)
-    pt = t.data
+    pt = t
     p = pt.ports
     mdot = np.asarray(b.mass_flow, dtype=float)
     inflow = float(b.inflow)

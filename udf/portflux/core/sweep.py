@@ -61,6 +61,29 @@ class SpeedTable:
         return out
 
 
+def compiled(ports, closures=None, **options) -> Model:
+    """``ports`` itself when it is a compiled :class:`Model` (then ``closures`` and the options
+    must be left at their defaults), else the model of ``ports``, ``closures`` and options.
+
+    >>> p = Ports.build(area=1e-3, density=1000.0, role=["in", "out"],
+    ...                 velocity=[[20.0, 0, 0], [0, 20.0, 0]])
+    >>> m = Model(p)
+    >>> compiled(m) is m, isinstance(compiled(p), Model)
+    (True, True)
+
+    Reference: common practice, no source.
+    """
+    if not isinstance(ports, Model):
+        return Model(ports, closures, **options)
+    default = dict(intercept=SINGLE, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_GRAVITY),
+                   tol=DEFAULT_IMBALANCE_TOL)
+    if closures is not None or any(np.any(np.asarray(v) != np.asarray(default[k]))
+                                   for k, v in options.items()):
+        raise InputError("a compiled model carries its closures and options; give them when "
+                         "compiling it", argument="closures")
+    return ports
+
+
 def _unit(direction):
     d = np.asarray(direction, dtype=float)
     if d.shape != (3,) or not np.all(np.isfinite(d)):
@@ -86,8 +109,8 @@ def speed_table(ports: Ports, speeds, direction, *, closures: Closures | None = 
 
     Parameters
     ----------
-    ports : Ports
-        The ports (SI).
+    ports : Ports or Model
+        The ports (SI), or a compiled :class:`Model` (closures and options then come with it).
     speeds : array_like (m,)
         CV speeds U [m/s] along ``direction`` (negative: against it).
     direction : array_like (3,)
@@ -137,8 +160,8 @@ def speed_table(ports: Ports, speeds, direction, *, closures: Closures | None = 
     chunk = int(chunk)
     if chunk < 1:
         raise InputError(f"must be >= 1 (got {chunk})", argument="chunk")
-    model = Model(ports, closures, intercept=intercept, fluid_mass=fluid_mass,
-                  gravity=gravity, tol=tol)
+    model = compiled(ports, closures, intercept=intercept, fluid_mass=fluid_mass,
+                     gravity=gravity, tol=tol)
     return table(model, u, d, chunk)
 
 
@@ -314,7 +337,8 @@ def best_speed(ports: Ports, bracket, direction, *, closures: Closures | None = 
     n = _samples(samples)
     xtol = 1e-10 * (abs(lo) + abs(hi)) + 1e-12 if xtol is None else float(xtol)
     d = _unit(direction)
-    model = Model(ports, closures, intercept=intercept, fluid_mass=fluid_mass, gravity=gravity)
+    model = compiled(ports, closures, intercept=intercept, fluid_mass=fluid_mass,
+                     gravity=gravity)
     s = np.linspace(lo, hi, n)
     t = table(model, s, d)
     p = np.where(np.isfinite(t.power), t.power, -np.inf)
@@ -437,7 +461,8 @@ def speed_at_force(ports: Ports, value, bracket, direction, *, component=ALONG,
         raise InputError(f"must be a finite force (got {value!r})", argument="value")
     xtol = 1e-10 * (abs(lo) + abs(hi)) + 1e-12 if xtol is None else float(xtol)
     d = _unit(direction)
-    model = Model(ports, closures, intercept=intercept, fluid_mass=fluid_mass, gravity=gravity)
+    model = compiled(ports, closures, intercept=intercept, fluid_mass=fluid_mass,
+                     gravity=gravity)
     _component(table(model, np.array([lo]), d), component)   # validate early
 
     def residual(x):
