@@ -86,6 +86,13 @@ _HEADERS = {}   # header text as typed -> column key (resolved once per spelling
 def resolve_header(text) -> str:
     """Column key for a header cell: case-insensitive, spaces and underscores ignored.
 
+    Parameters
+    ----------
+    text : str
+        The header as typed.
+
+    Reference: common practice, no source (column names of this package).
+
     >>> resolve_header("Mass Flow"), resolve_header("P_GAUGE"), resolve_header("rho")
     ('mass_flow', 'p_gauge', 'density')
     """

@@ -1,5 +1,6 @@
 """Speed tables and optimum speeds from the worksheet: parsing the speed arguments, calling
-:mod:`portflux.core.sweep` once per call on the compiled model of :func:`portflux.problem.build_problem`, and building the spilled blocks.
+:mod:`portflux.core.sweep` once per call on the compiled model of
+:func:`portflux.problem.build_problem`, and building the spilled blocks.
 
 A speed table may hold a million speeds. The range is turned into one numpy array in one call
 (a type check over the flat cells, then ``numpy.array``), the engine evaluates every speed in
@@ -19,7 +20,7 @@ import numpy as np
 
 from .. import units as U
 from ..core import InputError, OutsideScopeError, best_speed, speed_at_force, speed_table
-from ._functions import _value
+from ._functions import cell_value
 from ._grid import (CellError, describe, error_value, freeze, is_blank, is_number, number, rows,
                     scalar_text, trim)
 from ._inputs import render, setup, unit_system
@@ -37,7 +38,7 @@ COMPONENTS = ("x", "y", "z", "along", "magnitude")
 
 
 @contextmanager
-def _no_gc():
+def no_gc():
     """Pause the cyclic garbage collector while building many small lists (restored after)."""
     was = gc.isenabled()
     gc.disable()
@@ -273,7 +274,7 @@ def speedtable(ports, speeds, direction=None, units=None, settings=None):
     met[~blank] = r.valid
     head = [f"speed [{us.label('velocity')}]"] + [
         f"{name} [{us.label(kind)}]" for name, kind in TABLE_COLUMNS] + ["contact [1/0]"]
-    with _no_gc():
+    with no_gc():
         body = out.tolist()
         for i in np.flatnonzero(blank).tolist():
             body[i] = [""] * width
@@ -309,7 +310,7 @@ def bestspeed(ports, low, high, direction=None, units=None, settings=None):
     pb = setup(ports, settings)
     best = _engine(best_speed, pb.table, pb.model, (lo, hi), d)
     v, p, f, e = (us.label(k) for k in ("velocity", "power", "force", "ratio"))
-    show = lambda x: _value(us.out(x, "velocity"))   # noqa: E731
+    show = lambda x: cell_value(us.out(x, "velocity"))   # noqa: E731
     if best.delivers:
         at = _engine(speed_table, pb.table, pb.model, [best.speed], d)
         if best.edge:
@@ -318,18 +319,18 @@ def bestspeed(ports, low, high, direction=None, units=None, settings=None):
                     f"widen it {beyond} {show(best.speed):g} {v} to look further")
         else:
             note = "maximum inside the bracket"
-        speed, drag = show(best.speed), _value(us.out(_along(at)[0], "force"))
-        eff = _value(us.out(best.efficiency, "ratio"), na="n/a: no jet enters the CV")
+        speed, drag = show(best.speed), cell_value(us.out(_along(at)[0], "force"))
+        eff = cell_value(us.out(best.efficiency, "ratio"), na="n/a: no jet enters the CV")
     else:
         note = (f"no power delivered: the fluid delivers no positive power to the body for "
                 f"speeds {show(lo):g} to {show(hi):g} {v} (largest "
-                f"{_value(us.out(best.power, 'power')):.6g} {p})")
+                f"{cell_value(us.out(best.power, 'power')):.6g} {p})")
         speed = drag = eff = "n/a: no power delivered"
     note += _unmet(pb, d, lo, hi, us)
     return [
         ["quantity [unit]", "value"],
         [f"speed of maximum power [{v}]", speed],
-        [f"power to body [{p}]", _value(us.out(best.power, "power")) if best.delivers else
+        [f"power to body [{p}]", cell_value(us.out(best.power, "power")) if best.delivers else
          "n/a: no power delivered"],
         [f"jet efficiency [{e}]", eff],
         [f"force on body along the motion [{f}]", drag],
@@ -383,10 +384,10 @@ def speedatforce(ports, value, low, high, component=None, direction=None, units=
     note += _unmet(pb, d, lo, hi, us)
     return [
         ["quantity [unit]", "value"],
-        [f"speed [{v}]", _value(us.out(r.speed, "velocity"))],
-        [f"force on body, {comp} [{f}]", _value(us.out(r.force, "force"))],
+        [f"speed [{v}]", cell_value(us.out(r.speed, "velocity"))],
+        [f"force on body, {comp} [{f}]", cell_value(us.out(r.force, "force"))],
         ["crossings in the bracket", int(r.crossings)],
-        [f"bracket low [{v}]", _value(us.out(lo, "velocity"))],
-        [f"bracket high [{v}]", _value(us.out(hi, "velocity"))],
+        [f"bracket low [{v}]", cell_value(us.out(lo, "velocity"))],
+        [f"bracket high [{v}]", cell_value(us.out(hi, "velocity"))],
         ["note", note],
     ]

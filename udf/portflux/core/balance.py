@@ -12,8 +12,8 @@ V_cv, with steady flow seen from the CV, gives (e.g. F. M. White, *Fluid Mechani
 R is the support force the solid exerts on the fluid; the force on the body is -R; p_i is gauge
 pressure (the atmosphere acts everywhere else); m g is the weight of the fluid inside the CV.
 The physics lives once, in :class:`portflux.core.model.Model`; the functions here are its
-drivers. Everything broadcasts over many CV velocities at once: pass ``v_cv`` of shape (m, 3) and every
-result gains a leading axis of length m.
+drivers. Everything broadcasts over many CV velocities at once: pass ``v_cv`` of shape (m, 3)
+and every result gains a leading axis of length m.
 """
 
 from __future__ import annotations
@@ -73,6 +73,8 @@ def absolute_velocity(w, v_cv):
     --------
     >>> absolute_velocity([18.0, 0.0, 0.0], [12.0, 0.0, 0.0]).tolist()
     [30.0, 0.0, 0.0]
+
+    Reference: Galilean velocity addition; White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
     return np.asarray(w, dtype=float) + np.asarray(v_cv, dtype=float)
 
@@ -106,7 +108,8 @@ def balance(ports: Ports, v_cv, *, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_
         "train": a vane train (bucket wheel) intercepts the nozzle's full absolute flow
         rho A (V.n); all flows are scaled by that ratio, relative velocities are unchanged.
     cv_acceleration : array_like (3,), optional
-        Must be zero or absent: accelerating CVs are outside the steady inertial form.
+        CV acceleration [m/s^2]: must be zero or absent (accelerating CVs are outside the
+        steady inertial form).
     Returns
     -------
     Balance

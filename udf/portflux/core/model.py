@@ -347,6 +347,13 @@ class Model:
 
         .. math:: q^2 = a \\,|\\vec w_{src}|^2 + c
 
+        Parameters
+        ----------
+        v_cv : array_like (m, 3)
+            CV velocities [m/s].
+
+        Examples
+        --------
         >>> p = Ports.build(area=[1e-3, 1e-3], density=998.0, role=["in", "out"],
         ...                 velocity=[[12.0, 0, 0], [0, 1.0, 0]], height=[0.0, 2.0])
         >>> q, bad = Model(p, Closures.build(p, ["", "bernoulli"])).closure_speeds([[0.0, 0, 0]])
@@ -422,9 +429,19 @@ class Model:
     def evaluate_columns(self, VT, want=ALL, unreachable=FLAG, dest=None) -> dict:
         """:meth:`evaluate` on CV velocities given as columns ``VT`` (3, m) [m/s].
 
-        ``dest`` may hold preallocated arrays for ``support_force`` and ``force_on_body``
-        (3, m), ``power`` and ``jet_efficiency`` (m,): those results are written there (a
-        speed table's output columns, with no copy).
+        Parameters
+        ----------
+        VT : ndarray (3, m)
+            CV velocities as columns [m/s].
+        want, unreachable
+            As in :meth:`evaluate`.
+        dest : dict, optional
+            Preallocated arrays for ``support_force`` and ``force_on_body`` (3, m) [N],
+            ``power`` (m,) [W] and ``jet_efficiency`` (m,) [-]: those results are written there
+            (a speed table's output columns, with no copy).
+
+        Examples
+        --------
 
         >>> p = Ports.build(area=[1e-3, 1e-3], density=1000.0, role=["in", "out"],
         ...                 velocity=[[20.0, 0, 0], [0, 20.0, 0]])
@@ -677,9 +694,19 @@ class Model:
 
     # -- drivers' helpers ----------------------------------------------------------------------
     def balance(self, v_cv, *, unreachable=RAISE, closed=False):
-        """The full :class:`Balance` (or :class:`ClosedBalance` with ``closed=True``) at CV
-        velocities ``v_cv`` of shape (3,) or (..., 3) [m/s].
+        """The full :class:`Balance` (or :class:`ClosedBalance` with ``closed=True``).
 
+        Parameters
+        ----------
+        v_cv : array_like (3,) or (..., 3)
+            CV velocity or velocities [m/s].
+        unreachable : {"raise", "flag"}
+            What an unreachable Bernoulli outlet does (see :meth:`evaluate`).
+        closed : bool
+            Return the :class:`ClosedBalance` (closure speeds, stream areas) around it.
+
+        Examples
+        --------
         >>> p = Ports.build(area=[1e-3, 1e-3], density=1000.0, role=["in", "out"],
         ...                 velocity=[[20.0, 0, 0], [0, 20.0, 0]])
         >>> Model(p).balance([0.0, 0, 0]).force_on_body.tolist()     # rho A V^2 (1, -1, 0)
