@@ -298,6 +298,17 @@ class Model:
         if closures is not None:
             self._compile_closures(ports, closures, float(np.linalg.norm(g)))
         self.flow_rows = np.flatnonzero(self.flow)
+        self.aN = self.a[:, None] * self.N
+        self.w0_rows = [np.flatnonzero(self.W0[:, c] != 0.0) for c in range(3)]
+        # rows whose flow may be negative: declared inlets (outside a train, never positive)
+        # and the rest that are not surely >= 0 (closed outlets along their normal, given
+        # outflows); solved and shared flows are added after the split
+        En = self.En if self.cl.size else np.zeros(n)
+        surely_pos = ((self.given & (ports.mass_flow >= 0.0)) | (self.closed & (En >= 0.0))
+                      | self.flow)
+        inlet = self.is_in & ~self.train
+        self.in_rows = np.flatnonzero(inlet)
+        self.neg_rows = np.flatnonzero(~inlet & (~surely_pos | self.train))
         self.beta_one = bool(np.all(self.beta == 1.0))
         self.loads_any = bool(np.any(self.p_total != 0.0) or np.any(self.weight != 0.0))
         self._compile_jets(ports)
@@ -370,17 +381,27 @@ class Model:
         if not self.cl.size:
             return np.zeros((0, m)), np.zeros((0, m), bool)
         src = self.src
-        s2 = np.zeros((src.size, m))
-        for c in range(3):                     # |w_src|^2 component by component (no cancelling)
+        s2 = None                              # |w_src|^2 component by component (no cancelling)
+        const = np.zeros((src.size, 1))
+        for c in range(3):
             w0 = self.W0[src, c, None]
-            if VT[c].any():
-                wc = w0 - self.a[src, None] * VT[c]
+            if VT[c].any() and self.a[src].any():
+                wc = np.multiply(VT[c], -self.a[src, None])
+                wc += w0
                 wc *= wc
-                s2 += wc
+                if s2 is None:
+                    s2 = wc
+                else:
+                    s2 += wc
             else:
-                s2 += w0 * w0
+                const += w0 * w0
+        if s2 is None:
+            s2 = np.broadcast_to(const, (src.size, m)).copy()
+        elif const.any():
+            s2 += const
         rad = s2
-        rad *= self.qa[:, None]
+        if np.any(self.qa != 1.0):
+            rad *= self.qa[:, None]
         if self.bernoulli:                     # c != 0: clip round-off, flag negative values
             lin = rad.copy()
             rad += self.qc[:, None]
@@ -454,8 +475,8 @@ class Model:
         m = VT.shape[1]
         n = self.n
         out = {}
-        nV = self.N @ VT                                      # n_i . V      (n, m)
-        wn = self.W0n[:, None] - self.a[:, None] * nV         # w_i . n_i
+        wn = self.aN @ VT                                     # w_i . n_i = W0.n - a n.V
+        np.subtract(self.W0n[:, None], wn, out=wn)
         cl = self.cl
         q = bad = None
         if cl.size:
@@ -472,9 +493,9 @@ class Model:
         if self.train:
             k = self.k
             with np.errstate(divide="ignore", invalid="ignore"):
-                scale = np.where(wn[k] < 0, (wn[k] + nV[k]) / wn[k], 0.0)
+                scale = np.where(wn[k] < 0, (wn[k] + self.N[k] @ VT) / wn[k], 0.0)
             mdot *= scale
-        inflow = -np.minimum(mdot, 0.0).sum(axis=0)
+        inflow = self._inflow(mdot)
         # No contact: the body outruns every jet. Either every declared inlet is outrun and no
         # port without a declared role brings fluid in (an outlet typed in the absolute frame
         # may then show a spurious inflow: it has no fluid to carry), or some inlet is outrun
@@ -515,8 +536,9 @@ class Model:
             imbalance_rel[dry] = np.where(imb == 0, 0.0, np.copysign(np.inf, imb))
         out.update(mass_flow=mdot, inflow=inflow, imbalance=imbalance,
                    imbalance_rel=imbalance_rel, balanced=np.abs(imbalance_rel) <= self.tol,
-                   outflow=np.maximum(mdot, 0.0).sum(axis=0), no_contact=no_contact,
-                   contact=contact, valid=~any_bad)
+                   no_contact=no_contact, contact=contact, valid=~any_bad)
+        if PORTS in want:
+            out["outflow"] = np.maximum(mdot, 0.0).sum(axis=0)
         # -- forces: sum_i beta mdot w_i = W0^T k - V (a . k) + E^T (k q) ---------------------
         active = [c for c in range(3) if VT[c].any()]  # components of V_cv not all zero
         kb = mdot if self.beta_one else self.beta[:, None] * mdot
@@ -541,7 +563,7 @@ class Model:
                 power.fill(0.0)
             out["power"] = power
         if JET in want:
-            jet_ke = self._jet_ke(VT, q, wn, nV, mdot)
+            jet_ke = self._jet_ke(VT, q, wn, mdot)
             with np.errstate(divide="ignore", invalid="ignore"):
                 eff = np.divide(out["power"], jet_ke, out=dest.get("jet_efficiency"))
             if np.ndim(jet_ke) == 0:
@@ -595,16 +617,48 @@ class Model:
     def _sum_w(self, k, VT, q, a, out=None, active=(0, 1, 2)):
         """sum_i k_i (W0_i - a_i V + q_i E_i) over ports, shape (3, m) (``active``: the
         components of V that are not all zero)."""
-        s = np.matmul(self.W0.T, k, out=out)
-        if active:
-            ak = a @ k
+        m = k.shape[1]
+        ak = a @ k if active else None
+        if m < 512:                                   # few speeds: matrix products
+            s = np.matmul(self.W0.T, k, out=out)
             for c in active:
                 s[c] -= VT[c] * ak
-        if q is not None:
-            s += self.E[self.cl].T @ (k[self.cl] * q)
+            if q is not None:
+                s += self.E[self.cl].T @ (k[self.cl] * q)
+            return s
+        s = np.empty((3, m)) if out is None else out  # many: a pass per non-zero coefficient
+        kq = None if q is None else k[self.cl] * q
+        for c in range(3):
+            rows = self.w0_rows[c]
+            if rows.size:
+                np.multiply(k[rows[0]], self.W0[rows[0], c], out=s[c])
+                for i in rows[1:]:
+                    s[c] += self.W0[i, c] * k[i]
+            else:
+                s[c].fill(0.0)
+            if c in active:
+                s[c] -= VT[c] * ak
+            if kq is not None:
+                for t, j in enumerate(self.cl):
+                    if self.E[j, c] != 0.0:
+                        s[c] += self.E[j, c] * kq[t]
         return s
 
-    def _jet_ke(self, VT, q, wn, nV, mdot):
+    def _inflow(self, mdot):
+        """Total inflow -sum min(mdot, 0) [kg/s] over the rows that can carry one (declared
+        inlets outside a train never carry a positive flow: their flow itself)."""
+        rows, inlets = self.neg_rows, self.in_rows
+        if not rows.size and not inlets.size:
+            return np.zeros(mdot.shape[1])
+        acc = None
+        if inlets.size:
+            acc = -mdot[inlets[0]] if inlets.size == 1 else -mdot[inlets].sum(axis=0)
+        if rows.size:
+            part = np.minimum(mdot[rows], 0.0).sum(axis=0)
+            acc = -part if acc is None else acc - part
+        return acc + 0.0
+
+    def _jet_ke(self, VT, q, wn, mdot):
         """Absolute kinetic-energy flux [W] of the incoming jets: sum over ports that may bring
         a jet in of (1/2) mdot_abs |V|^2, mdot_abs = rho A max(-V.n, 0) (computed flow, a
         declared inlet or a port whose relative flow enters) or max(-mdot, 0) (given flow).
@@ -614,7 +668,7 @@ class Model:
             return self.jet_const
         v2 = self._v_abs2(VT, q)[rows]
         given = self.given[rows, None]
-        vn = wn[rows] + nV[rows]
+        vn = wn[rows] + self.N[rows] @ VT
         flow = np.where(given, np.maximum(-mdot[rows], 0.0),
                         np.where(self.is_in[rows, None] | (wn[rows] < 0.0),
                                  self.rho_a0[rows, None] * np.maximum(-vn, 0.0), 0.0))
