@@ -443,14 +443,24 @@ def evaluate_closed(ports, cv, settings_raw=None, tol=None, *, kinematic=False
     return value
 
 
+@lru_cache(maxsize=256, typed=True)
+def _setup(pkey, skey):
+    try:
+        return True, _problem(_table(pkey), _settings(skey))
+    except CellError as e:
+        return False, str(e)
+
+
 def setup(ports, settings_raw=None) -> Problem:
-    """The compiled problem of a port table (cached parse) and settings, for the speed
-    functions."""
-    skey = _settings_key(settings_raw)
-    return _problem(_table(freeze(ports)), _settings(skey))
+    """The compiled problem of a port table and settings, for the speed functions (cached: a
+    sheet of speed functions on one table compiles its model once)."""
+    ok, value = _setup(freeze(ports), _settings_key(settings_raw))
+    if not ok:
+        raise CellError(value)
+    return value
 
 
 def clear_caches():
     """Forget every parsed table and balance (tests; a long-running sheet never needs it)."""
-    for f in (_table, _cv, _settings, _unit_system, _units_of, _evaluate):
+    for f in (_table, _cv, _settings, _unit_system, _units_of, _evaluate, _setup):
         f.cache_clear()

@@ -376,7 +376,7 @@ class Model:
         """
         return self._closure_speeds(np.ascontiguousarray(np.asarray(v_cv, dtype=float).T))
 
-    def _closure_speeds(self, VT):
+    def _closure_speeds(self, VT, active=(0, 1, 2)):
         m = VT.shape[1]
         if not self.cl.size:
             return np.zeros((0, m)), np.zeros((0, m), bool)
@@ -385,7 +385,7 @@ class Model:
         const = np.zeros((src.size, 1))
         for c in range(3):
             w0 = self.W0[src, c, None]
-            if VT[c].any() and self.a[src].any():
+            if c in active and self.a[src].any():
                 wc = np.multiply(VT[c], -self.a[src, None])
                 wc += w0
                 wc *= wc
@@ -475,12 +475,13 @@ class Model:
         m = VT.shape[1]
         n = self.n
         out = {}
+        active = [c for c in range(3) if VT[c].any()]  # components of V_cv not all zero
         wn = self.aN @ VT                                     # w_i . n_i = W0.n - a n.V
         np.subtract(self.W0n[:, None], wn, out=wn)
         cl = self.cl
         q = bad = None
         if cl.size:
-            q, bad = self._closure_speeds(VT)                 # (k, m)
+            q, bad = self._closure_speeds(VT, active)         # (k, m)
             wn[cl] = q * self.En[cl, None]
         # -- mass flows -----------------------------------------------------------------------
         mdot = self.rho_a0[:, None] * wn
@@ -495,7 +496,7 @@ class Model:
             with np.errstate(divide="ignore", invalid="ignore"):
                 scale = np.where(wn[k] < 0, (wn[k] + self.N[k] @ VT) / wn[k], 0.0)
             mdot *= scale
-        inflow = self._inflow(mdot)
+        inflow = self._inflow(mdot, dest.get("inflow"))
         # No contact: the body outruns every jet. Either every declared inlet is outrun and no
         # port without a declared role brings fluid in (an outlet typed in the absolute frame
         # may then show a spurious inflow: it has no fluid to carry), or some inlet is outrun
@@ -540,7 +541,6 @@ class Model:
         if PORTS in want:
             out["outflow"] = np.maximum(mdot, 0.0).sum(axis=0)
         # -- forces: sum_i beta mdot w_i = W0^T k - V (a . k) + E^T (k q) ---------------------
-        active = [c for c in range(3) if VT[c].any()]  # components of V_cv not all zero
         kb = mdot if self.beta_one else self.beta[:, None] * mdot
         support = self._sum_w(kb, VT, q, self.a, dest.get("support_force"), active)
         touching = ~no_contact
@@ -644,19 +644,20 @@ class Model:
                         s[c] += self.E[j, c] * kq[t]
         return s
 
-    def _inflow(self, mdot):
+    def _inflow(self, mdot, out=None):
         """Total inflow -sum min(mdot, 0) [kg/s] over the rows that can carry one (declared
         inlets outside a train never carry a positive flow: their flow itself)."""
         rows, inlets = self.neg_rows, self.in_rows
-        if not rows.size and not inlets.size:
-            return np.zeros(mdot.shape[1])
-        acc = None
+        acc = np.zeros(mdot.shape[1]) if out is None else out
         if inlets.size:
-            acc = -mdot[inlets[0]] if inlets.size == 1 else -mdot[inlets].sum(axis=0)
+            np.subtract(0.0, mdot[inlets[0]], out=acc)       # (0 - 0 = +0)
+            for i in inlets[1:]:
+                acc -= mdot[i]
+        else:
+            acc.fill(0.0)
         if rows.size:
-            part = np.minimum(mdot[rows], 0.0).sum(axis=0)
-            acc = -part if acc is None else acc - part
-        return acc + 0.0
+            acc -= np.minimum(mdot[rows], 0.0).sum(axis=0)
+        return acc
 
     def _jet_ke(self, VT, q, wn, mdot):
         """Absolute kinetic-energy flux [W] of the incoming jets: sum over ports that may bring

@@ -185,12 +185,16 @@ def table(model: Model, speeds, d, chunk=CHUNK) -> SpeedTable:
     for start in range(0, m, chunk):          # chunks of many speeds, bounded memory
         sl = slice(start, min(start + chunk, m))
         dest = dict(support_force=support[:, sl], force_on_body=body[:, sl],
-                    power=cols["power"][sl], jet_efficiency=cols["jet_efficiency"][sl])
-        r = model.evaluate_columns(d[:, None] * speeds[sl], TABLE, dest=dest)
+                    power=cols["power"][sl], jet_efficiency=cols["jet_efficiency"][sl],
+                    inflow=cols["inflow"][sl])
+        VT = np.zeros((3, sl.stop - sl.start))  # V_cv = U d as columns (zero rows left lazy)
+        for c in np.flatnonzero(d):
+            np.multiply(speeds[sl], d[c], out=VT[c])
+        r = model.evaluate_columns(VT, TABLE, dest=dest)
         for key, a in dest.items():           # written in place (a copy only if not)
             if r[key] is not a:
                 a[...] = r[key]
-        for key in ("inflow", "contact", "balanced", "valid"):
+        for key in ("contact", "balanced", "valid"):
             cols[key][sl] = r[key]
     return SpeedTable(speed=speeds.copy(), direction=d, support_force=support.T,
                       force_on_body=body.T, **cols)
