@@ -31,8 +31,6 @@ Adding a per-port quantity (e.g. a position r_i for moments) means one more coef
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
-
 import numpy as np
 
 from .closures import BERNOULLI, LOSS, Closures  # noqa: F401  (Closures: doctests)
@@ -79,45 +77,97 @@ def cv_velocities(v_cv) -> np.ndarray:
     return v
 
 
-@dataclass(frozen=True, eq=False)
+#: Balance fields computed only when read, by the quantity group that holds them.
+_ON_DEMAND = {"power": POWER, "jet_ke_flux": JET, "jet_efficiency": JET, "ke_flux_net": WAKE,
+              "propulsive_efficiency": WAKE, "flux_absolute": FRAME, "flux_relative": FRAME,
+              "frame_difference": FRAME, "w": PORTS, "v_abs": PORTS, "momentum_flux": PORTS,
+              "inlet_outflow": PORTS, "outlet_inflow": PORTS, "outflow": PORTS,
+              "weight": PORTS, "notes": CLOSURE, "closure_speed": CLOSURE,
+              "unreachable": CLOSURE, "reversed_flow": CLOSURE, "stream_area": CLOSURE}
+
+
 class Balance:
     """Result of a balance: per-port arrays and CV totals, all SI.
 
     Shapes use ``...`` for the leading axes of ``v_cv`` (none for one CV velocity) and ``n`` for
     the ports. Sign conventions are explicit in the names: ``support_force`` acts on the fluid
-    (from the solid), ``force_on_body`` = -``support_force`` acts on the moving body.
+    (from the solid), ``force_on_body`` = -``support_force`` acts on the moving body. Flows,
+    forces and the mass balance are computed with the balance; the other quantities (power,
+    efficiencies, per-port vectors, the frame cross-check) when first read.
+
+    Attributes
+    ----------
+    v_cv : (..., 3) CV velocity [m/s]
+    w, v_abs : (..., n, 3) relative and absolute velocity [m/s]
+    mass_flow : (..., n) signed mass flow, + out [kg/s]
+    inflow, outflow : (...) total mass inflow and outflow [kg/s] (>= 0)
+    imbalance : (...) sum of mass flows [kg/s]; imbalance_rel: imbalance / inflow [-]
+    balanced : (...) |imbalance_rel| <= tol
+    momentum_flux : (..., n, 3) beta mdot w per port [N]
+    pressure_force : (n, 3) -p A n on the fluid [N]; weight: (..., 3) of the fluid [N]
+    support_force : (..., 3) force of the solid on the fluid, R [N]
+    force_on_body : (..., 3) force of the fluid on the body, -R [N]
+    power : (...) power delivered to the body F_body . V_cv [W]
+    jet_ke_flux : (...) absolute kinetic-energy flux of incoming jets [W]
+    ke_flux_net : (...) net outflow of absolute kinetic energy [W]
+    jet_efficiency : (...) power / jet_ke_flux [-] (NaN without a jet)
+    propulsive_efficiency : (...) power / (power + ke_flux_net) [-] (NaN if n/a)
+    flux_absolute, flux_relative : (..., 3) sum mdot V and sum mdot w [N]
+    frame_difference : (..., 3) flux_absolute - flux_relative [N]
+    frame_expected : (..., 3) V_cv * imbalance [N]
+    inlet_outflow : (..., n) declared inlet whose relative flow leaves
+    outlet_inflow : (..., n) declared outlet whose relative flow enters
+    no_contact : (...) body outruns every jet: no flow, no force
+    intercept : "single" vane or vane "train"; tolerance: relative imbalance tolerance [-]
+    notes : extra notes from closures and solvers
     """
 
-    ports: Ports
-    v_cv: np.ndarray                 #: (..., 3) CV velocity [m/s]
-    w: np.ndarray                    #: (..., n, 3) relative velocity [m/s]
-    v_abs: np.ndarray                #: (..., n, 3) absolute velocity [m/s]
-    mass_flow: np.ndarray            #: (..., n) signed mass flow, + out [kg/s]
-    inflow: np.ndarray               #: (...) total mass inflow [kg/s] (>= 0)
-    outflow: np.ndarray              #: (...) total mass outflow [kg/s] (>= 0)
-    imbalance: np.ndarray            #: (...) sum of mass flows [kg/s]
-    imbalance_rel: np.ndarray        #: (...) imbalance / inflow [-]
-    balanced: np.ndarray             #: (...) |imbalance_rel| <= tol
-    momentum_flux: np.ndarray        #: (..., n, 3) beta mdot w per port [N]
-    pressure_force: np.ndarray       #: (n, 3) -p A n on the fluid [N]
-    weight: np.ndarray               #: (..., 3) weight of the fluid in the CV [N]
-    support_force: np.ndarray        #: (..., 3) force of the solid on the fluid, R [N]
-    force_on_body: np.ndarray        #: (..., 3) force of the fluid on the body, -R [N]
-    power: np.ndarray                #: (...) power delivered to the body F_body . V_cv [W]
-    jet_ke_flux: np.ndarray          #: (...) absolute kinetic-energy flux of incoming jets [W]
-    ke_flux_net: np.ndarray          #: (...) net outflow of absolute kinetic energy [W]
-    jet_efficiency: np.ndarray       #: (...) power / jet_ke_flux [-] (NaN without a jet)
-    propulsive_efficiency: np.ndarray  #: (...) power / (power + ke_flux_net) [-] (NaN if n/a)
-    flux_absolute: np.ndarray        #: (..., 3) sum mdot V [N]
-    flux_relative: np.ndarray        #: (..., 3) sum mdot w [N]
-    frame_difference: np.ndarray     #: (..., 3) flux_absolute - flux_relative [N]
-    frame_expected: np.ndarray       #: (..., 3) V_cv * imbalance [N]
-    inlet_outflow: np.ndarray        #: (..., n) declared inlet whose relative flow leaves
-    outlet_inflow: np.ndarray        #: (..., n) declared outlet whose relative flow enters
-    no_contact: np.ndarray           #: (...) body outruns every jet: no flow, no force
-    intercept: str = SINGLE          #: "single" vane or vane "train"
-    tolerance: float = DEFAULT_IMBALANCE_TOL  #: relative imbalance tolerance [-]
-    notes: tuple = field(default=())  #: extra notes from closures and solvers
+    def __init__(self, model, v, r):
+        self.ports, self.v_cv = model.ports, v
+        self.intercept, self.tolerance = model.intercept, model.tol
+        self.pressure_force = model.pressure_force
+        self._model, self._r, self._lead = model, r, v.shape[:-1]
+        self._fill(("mass_flow", "inflow", "imbalance", "imbalance_rel", "balanced",
+                    "support_force", "force_on_body", "no_contact"))
+        imb = np.asarray(r.get("unblanked_imbalance", r["imbalance"])).reshape(self._lead)
+        self.frame_expected = v * imb[..., None]
+
+    def _shape(self, key, a):
+        lead, n = self._lead, self._model.n
+        a = np.asarray(a)
+        if a.ndim == 1:                             # (m,) -> lead (scalar for one velocity)
+            a = a.reshape(lead)
+            return a.item() if a.ndim == 0 else a
+        if a.ndim == 3:                             # (m, n, 3) -> (..., n, 3)
+            return a.reshape(lead + (n, 3))
+        rows = 3 if key in ("support_force", "force_on_body", "weight", "flux_absolute",
+                            "flux_relative") else n
+        return np.ascontiguousarray(a.T).reshape(lead + (rows,))
+
+    def _fill(self, keys):
+        for key in keys:
+            self.__dict__[key] = self._shape(key, self._r[key])
+
+    def __getattr__(self, name):
+        group = _ON_DEMAND.get(name)
+        if group is None or name.startswith("_"):
+            raise AttributeError(name)
+        r = self._r
+        if group not in r.setdefault("groups", set()):
+            flat = self.v_cv.reshape(-1, 3)
+            more = self._model.evaluate(flat, {group}, FLAG)
+            for key, value in more.items():
+                r.setdefault(key, value)
+            r["groups"].add(group)
+        if group == CLOSURE:
+            self.__dict__["notes"] = tuple(self._model.notes(r))
+            self._fill(("closure_speed", "unreachable", "reversed_flow", "stream_area"))
+        elif group == FRAME:
+            self._fill(("flux_absolute", "flux_relative"))
+            self.frame_difference = self.flux_absolute - self.flux_relative
+        else:
+            self._fill([k for k, g in _ON_DEMAND.items() if g == group and k in r])
+        return self.__dict__[name]
 
     @property
     def status(self):
@@ -147,22 +197,26 @@ class Balance:
         return out
 
 
-@dataclass(frozen=True, eq=False)
 class ClosedBalance:
-    """A :class:`Balance` plus what the closures found.
+    """A :class:`Balance` plus what the closures found (read when first asked for).
 
     Attributes of the balance (``force_on_body``, ``power``, ...) are readable directly.
+
+    Attributes
+    ----------
+    balance : Balance
+    closure_speed : (..., n) relative speed set by a closure [m/s] (NaN: given)
+    unreachable : (..., n) Bernoulli outlet cannot be reached (in contact)
+    reversed_flow : (..., n) solved or shared outlet flow comes out inward
+    stream_area : (..., n) area implied by a solved/shared flow [m^2] (for a vane train, that
+        of the whole train's intercepted flow)
     """
 
-    balance: Balance               #: the balance with closed speeds and solved flows
-    closure_speed: np.ndarray      #: (..., n) relative speed set by a closure [m/s] (NaN: given)
-    unreachable: np.ndarray        #: (..., n) Bernoulli outlet cannot be reached (in contact)
-    reversed_flow: np.ndarray      #: (..., n) solved or shared outlet flow comes out inward
-    stream_area: np.ndarray        #: (..., n) area implied by a solved/shared flow [m^2]
-    #: (for a vane train, that of the whole train's intercepted flow)
+    def __init__(self, balance: Balance):
+        self.balance = balance
 
     def __getattr__(self, name):
-        if name == "balance":
+        if name == "balance" or name.startswith("_"):
             raise AttributeError(name)
         return getattr(self.balance, name)
 
@@ -770,56 +824,23 @@ class Model:
         Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
         """
         v = cv_velocities(v_cv)
-        lead = v.shape[:-1]
-        r = self.evaluate(v.reshape(-1, 3), ALL, unreachable)
-        n = self.n
+        r = self.evaluate(v.reshape(-1, 3), frozenset(), unreachable)
+        r["groups"] = set()
+        b = Balance(self, v, r)
+        return ClosedBalance(b) if closed else b
 
-        def s(a):                                   # (m,) -> lead (scalar for one velocity)
-            a = a.reshape(lead)
-            return a.item() if a.ndim == 0 else a
-
-        def v3(a):                                  # (3, m) -> (..., 3)
-            return np.ascontiguousarray(a.T).reshape(lead + (3,))
-
-        def pn(a):                                  # (n, m) -> (..., n)
-            return np.ascontiguousarray(a.T).reshape(lead + (n,))
-
-        def pn3(a):                                 # (m, n, 3) -> (..., n, 3)
-            return a.reshape(lead + (n, 3))
-
-        imb = r["imbalance"].reshape(lead)
+    def notes(self, r) -> list:
+        """Notes on the closures of an evaluation ``r`` holding the "closure" group."""
         notes = []
-        if self.closures is not None:
-            rev = r["reversed_flow"].any(axis=1)
-            for j in np.flatnonzero(rev):
-                notes.append(f"port {self.ports.names[j]}: the conditions give an inward flow at "
-                             f"this outlet; the declared split is not physical here")
-            for j in np.flatnonzero(r["unreachable"].any(axis=1)):
-                notes.append(f"port {self.ports.names[j]}: Bernoulli outlet cannot be reached "
-                             f"at some CV velocities; results there are NaN")
-        fa, fr = v3(r["flux_absolute"]), v3(r["flux_relative"])
-        b = Balance(
-            ports=self.ports, v_cv=v, w=pn3(r["w"]), v_abs=pn3(r["v_abs"]),
-            mass_flow=pn(r["mass_flow"]), inflow=s(r["inflow"]), outflow=s(r["outflow"]),
-            imbalance=s(r["imbalance"]), imbalance_rel=s(r["imbalance_rel"]),
-            balanced=s(r["balanced"]), momentum_flux=pn3(r["momentum_flux"]),
-            pressure_force=self.pressure_force, weight=v3(r["weight"]),
-            support_force=v3(r["support_force"]), force_on_body=v3(r["force_on_body"]),
-            power=s(r["power"]), jet_ke_flux=s(r["jet_ke_flux"]),
-            ke_flux_net=s(r["ke_flux_net"]), jet_efficiency=s(r["jet_efficiency"]),
-            propulsive_efficiency=s(r["propulsive_efficiency"]), flux_absolute=fa,
-            flux_relative=fr, frame_difference=fa - fr,
-            frame_expected=v * (r["unblanked_imbalance"].reshape(lead)[..., None]
-                                if "unblanked_imbalance" in r else imb[..., None]),
-            inlet_outflow=pn(r["inlet_outflow"]), outlet_inflow=pn(r["outlet_inflow"]),
-            no_contact=s(r["no_contact"]), intercept=self.intercept, tolerance=self.tol,
-            notes=tuple(notes))
-        if not closed:
-            return b
-        return ClosedBalance(balance=b, closure_speed=pn(r["closure_speed"]),
-                             unreachable=pn(r["unreachable"]),
-                             reversed_flow=pn(r["reversed_flow"]),
-                             stream_area=pn(r["stream_area"]))
+        if self.closures is None:
+            return notes
+        for j in np.flatnonzero(r["reversed_flow"].any(axis=1)):
+            notes.append(f"port {self.ports.names[j]}: the conditions give an inward flow at "
+                         f"this outlet; the declared split is not physical here")
+        for j in np.flatnonzero(r["unreachable"].any(axis=1)):
+            notes.append(f"port {self.ports.names[j]}: Bernoulli outlet cannot be reached "
+                         f"at some CV velocities; results there are NaN")
+        return notes
 
 
 #: Results set to NaN where a Bernoulli outlet cannot be reached (by their trailing shape).
