@@ -319,13 +319,13 @@ def bestspeed(ports, low, high, direction=None, units=None, settings=None):
                     f"widen it {beyond} {show(best.speed):g} {v} to look further")
         else:
             note = "maximum inside the bracket"
-        speed, drag = show(best.speed), cell_value(us.out(_along(at)[0], "force"))
+        speed, along = show(best.speed), cell_value(us.out(_along(at)[0], "force"))
         eff = cell_value(us.out(best.efficiency, "ratio"), na="n/a: no jet enters the CV")
     else:
         note = (f"no power delivered: the fluid delivers no positive power to the body for "
                 f"speeds {show(lo):g} to {show(hi):g} {v} (largest "
                 f"{cell_value(us.out(best.power, 'power')):.6g} {p})")
-        speed = drag = eff = "n/a: no power delivered"
+        speed = along = eff = "n/a: no power delivered"
     note += _unmet(pb, d, lo, hi, us)
     return [
         ["quantity [unit]", "value"],
@@ -333,7 +333,7 @@ def bestspeed(ports, low, high, direction=None, units=None, settings=None):
         [f"power to body [{p}]", cell_value(us.out(best.power, "power")) if best.delivers else
          "n/a: no power delivered"],
         [f"jet efficiency [{e}]", eff],
-        [f"force on body along the motion [{f}]", drag],
+        [f"force on body along the motion [{f}]", along],
         [f"bracket low [{v}]", show(lo)],
         [f"bracket high [{v}]", show(hi)],
         ["note", note],

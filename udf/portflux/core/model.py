@@ -467,14 +467,15 @@ class Model:
     def evaluate(self, v_cv, want=ALL, unreachable=FLAG) -> dict:
         """Evaluate the model at CV velocities ``v_cv`` (m, 3) [m/s]; a dict of SI arrays.
 
-        Always present: ``mass_flow`` (n, m) [kg/s], ``inflow``, ``outflow``, ``imbalance``
-        [kg/s], ``imbalance_rel`` [-], ``balanced``, ``no_contact``, ``contact``, ``valid`` (m,),
-        ``support_force``, ``force_on_body``, ``weight`` (3, m) [N]. With ``want`` holding
-        "power": ``power`` (m,) [W]; "jet": ``jet_ke_flux`` [W], ``jet_efficiency`` [-];
-        "wake": ``ke_flux_net`` [W], ``propulsive_efficiency`` [-]; "frame": ``flux_absolute``,
+        Always present: ``mass_flow`` (n, m) [kg/s], ``inflow``, ``imbalance`` [kg/s],
+        ``imbalance_rel`` [-], ``balanced``, ``no_contact``, ``contact``, ``valid`` (m,),
+        ``support_force``, ``force_on_body`` (3, m) [N]. With ``want`` holding "power":
+        ``power`` (m,) [W]; "jet": ``jet_ke_flux`` [W], ``jet_efficiency`` [-]; "wake":
+        ``ke_flux_net`` [W], ``propulsive_efficiency`` [-]; "frame": ``flux_absolute``,
         ``flux_relative`` (3, m) [N]; "ports": ``w``, ``v_abs``, ``momentum_flux`` (m, n, 3),
-        ``inlet_outflow``, ``outlet_inflow`` (n, m); "closure": ``closure_speed`` (n, m)
-        [m/s], ``unreachable``, ``reversed_flow`` (n, m), ``stream_area`` (n, m) [m^2].
+        ``inlet_outflow``, ``outlet_inflow`` (n, m), ``outflow`` (m,) [kg/s], ``weight``
+        (3, m) [N]; "closure": ``closure_speed`` (n, m) [m/s], ``unreachable``,
+        ``reversed_flow`` (n, m), ``stream_area`` (n, m) [m^2].
         Results at CV velocities where a Bernoulli outlet cannot be reached are NaN
         (``valid`` False); ``unreachable="raise"`` raises :class:`InputError` instead.
 
