@@ -111,19 +111,6 @@ def upward(keep):
     return bad
 
 
-def test_no_upward_import_outside_the_workbook():
-    bad = upward(lambda a, b: not is_workbook(a, b))
-    assert not bad, "\n".join(bad)
-
-
-@pytest.mark.xfail(strict=False, reason=WORKBOOK)
-def test_no_upward_import_in_the_workbook_and_demo_does_not_import_it():
-    bad = upward(lambda a, b: is_workbook(a, b))
-    bad += [f"{a}:{line} imports {b}" for a, b, _, line in EDGES
-            if part(a) == "demo" and part(b) == "workbook"]
-    assert not bad, "\n".join(bad)
-
-
 def cycles(keep):
     graph = {}
     for a, b, _, _ in EDGES:
@@ -153,17 +140,6 @@ def is_parent(a: str, b: str) -> bool:
     return b.startswith(a + ".")
 
 
-def test_no_import_circle_outside_the_workbook():
-    found = cycles(lambda a, b: not is_workbook(a, b) and not is_parent(b, a))
-    assert not found, "\n".join(found)
-
-
-@pytest.mark.xfail(strict=False, reason=WORKBOOK)
-def test_no_import_circle_in_the_workbook():
-    found = cycles(lambda a, b: is_workbook(a, b) and not is_parent(b, a))
-    assert not found, "\n".join(found)
-
-
 def private(keep):
     bad = []
     for a, b, what, line in EDGES:
@@ -180,15 +156,41 @@ def private(keep):
     return bad
 
 
-def test_no_private_name_imported_across_modules_outside_the_workbook():
-    bad = private(lambda a, b: not is_workbook(a, b))
-    assert not bad, "\n".join(bad)
+def demo_imports_workbook(keep):
+    return [f"{a}:{line} imports {b}" for a, b, _, line in EDGES
+            if keep(a, b) and part(a) == "demo" and part(b) == "workbook"]
 
 
-@pytest.mark.xfail(strict=False, reason=WORKBOOK)
-def test_no_private_name_imported_across_modules_in_the_workbook():
-    bad = private(lambda a, b: is_workbook(a, b))
-    assert not bad, "\n".join(bad)
+def outside(a, b):
+    return not is_workbook(a, b)
+
+
+def inside(a, b):
+    return is_workbook(a, b)
+
+
+def no_parent(keep):
+    return lambda a, b: keep(a, b) and not is_parent(b, a)
+
+
+RULES = {"upward import": upward, "import circle": lambda keep: cycles(no_parent(keep)),
+         "private name": private, "demo importing workbook": demo_imports_workbook}
+XFAIL_WORKBOOK = pytest.mark.xfail(strict=False, reason=WORKBOOK)
+
+
+#: Rules the workbook package breaks today (its split is another branch's work).
+PENDING_IN_WORKBOOK = ("import circle", "private name", "demo importing workbook")
+
+
+@pytest.mark.parametrize("rule, scope", [
+    pytest.param(rule, scope, id=f"{name}-{rule}",
+                 marks=XFAIL_WORKBOOK if scope is inside and rule in PENDING_IN_WORKBOOK
+                 else ())
+    for rule in sorted(RULES) for name, scope in (("outside-workbook", outside),
+                                                   ("workbook", inside))])
+def test_imports_follow_the_layers(rule, scope):
+    bad = RULES[rule](scope)
+    assert not bad, f"{rule}:\n" + "\n".join(bad)
 
 
 def test_the_walker_sees_the_imports_it_checks():
