@@ -539,7 +539,7 @@ class Model:
             q, bad = self._closure_speeds(VT, active)         # (k, m)
             wn[cl] = q * self.En[cl, None]
         # -- mass flows -----------------------------------------------------------------------
-        mdot = self.rho_a0[:, None] * wn
+        mdot = np.multiply(wn, self.rho_a0[:, None])
         if self.given.any():
             mdot[self.given] = self.m_given[self.given, None]
         if self.flow.any():
@@ -565,8 +565,8 @@ class Model:
             all_out = np.zeros(m, bool)
         no_contact = all_out | ((inflow == 0.0) & some_out)
         if no_contact.any():
-            mdot[:, no_contact] = 0.0
-            inflow[no_contact] = 0.0
+            np.copyto(mdot, 0.0, where=no_contact)
+            np.copyto(inflow, 0.0, where=no_contact)
         contact = ~no_contact & (inflow > 0.0)
         if bad is not None:
             bad &= contact
@@ -682,7 +682,7 @@ class Model:
                 s += self.E[self.cl].T @ (k[self.cl] * q)
             return s
         s = np.empty((3, m)) if out is None else out  # many: a pass per non-zero coefficient
-        kq = None if q is None else k[self.cl] * q
+        kq = None if q is None else [k[j] * q[t] for t, j in enumerate(self.cl)]
         for c in range(3):
             rows = self.w0_rows[c]
             if rows.size:
