@@ -143,7 +143,7 @@ def text(v, port: int, col: str) -> str:
     raise InputError(f"expected text, got {shown(v)}", port=port, field=col)
 
 
-@dataclass
+@dataclass(eq=False)
 class PortTable:
     """A port table converted to SI: the core :class:`Ports`, the closure columns, and the
     headers as the user typed them (for messages)."""

@@ -403,7 +403,8 @@ def _evaluate(pkey, ckey, skey, tol, kinematic=False):
     try:
         t = _table(pkey)
         v = _cv(ckey)
-        pb = _problem(t, _settings(skey), tol, kinematic)
+        _settings(skey)
+        pb = _compiled(t, skey, tol, kinematic)      # one model per table and settings
         try:
             cb = pb.model.balance(v, closed=True)
         except InputError as e:
@@ -444,23 +445,31 @@ def evaluate_closed(ports, cv, settings_raw=None, tol=None, *, kinematic=False
 
 
 @lru_cache(maxsize=256, typed=True)
-def _setup(pkey, skey):
+def _compile(t: PortTable, skey, tol, kinematic):
     try:
-        return True, _problem(_table(pkey), _settings(skey))
+        return True, _problem(t, _settings(skey), tol, kinematic)
     except CellError as e:
         return False, str(e)
 
 
-def setup(ports, settings_raw=None) -> Problem:
-    """The compiled problem of a port table and settings, for the speed functions (cached: a
-    sheet of speed functions on one table compiles its model once)."""
-    ok, value = _setup(freeze(ports), _settings_key(settings_raw))
+def _compiled(t: PortTable, skey, tol=None, kinematic=False) -> Problem:
+    """The compiled problem of a parsed table (keyed by the cached table object itself) under
+    the settings ``skey``: a sheet evaluating one table at many CV velocities compiles once."""
+    ok, value = _compile(t, skey, tol, kinematic)
     if not ok:
         raise CellError(value)
     return value
 
 
+def setup(ports, settings_raw=None) -> Problem:
+    """The compiled problem of a port table and settings, for the speed functions (cached)."""
+    skey = _settings_key(settings_raw)
+    t = _table(freeze(ports))
+    _settings(skey)
+    return _compiled(t, skey)
+
+
 def clear_caches():
     """Forget every parsed table and balance (tests; a long-running sheet never needs it)."""
-    for f in (_table, _cv, _settings, _unit_system, _units_of, _evaluate, _setup):
+    for f in (_table, _cv, _settings, _unit_system, _units_of, _evaluate, _compile):
         f.cache_clear()
