@@ -36,7 +36,7 @@ def fresh_caches():
 @pytest.fixture
 def small_budgets():
     """Every parse cache limited to 2 MiB for the test, restored after."""
-    caches = [I._table.cache, I._cv.cache, I._settings.cache, I._evaluate.cache]
+    caches = [I._table.cache, I._cv.cache, I._settings.cache, I._evaluate.cache, I._compile.cache]
     old = [c.max_bytes for c in caches]
     for c in caches:
         c.max_bytes = 2 * 2 ** 20

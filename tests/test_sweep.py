@@ -65,7 +65,7 @@ def test_speed_table_columns_and_direction_are_normalised():
     assert set(cols) >= {"speed", "force_on_body_x", "support_force_z", "power",
                          "jet_efficiency", "inflow", "contact"}
     np.testing.assert_array_equal(cols["force_on_body_x"], -cols["support_force_x"])
-    np.testing.assert_allclose(t.drag, t.force_on_body[:, 0])
+    np.testing.assert_allclose(t.force_along, t.force_on_body[:, 0])
 
 
 def test_speed_table_without_closures_uses_the_ports_as_typed():

@@ -2,16 +2,23 @@
 
 Layers (one direction of dependency)::
 
-    core  <-  units  <-  spec  <-  cells  <-  workbook  <-  cli
-    (numpy, SI)  (pint)   (column schema)  (worksheet functions)
+    core  <-  units  <-  problem  <-  (api, cells)  <-  workbook  <-  cli
+    (numpy, SI)  (pint)  (rows -> compiled model)  (Python API, worksheet functions)
 
 The Python API for scripts and notebooks lives in :mod:`portflux.api` and is re-exported here
 lazily, so that ``import portflux.cells`` (what Excel waits for on its first call) stays cheap.
+Its public surface is :data:`__all__` (tested in ``tests/test_public_surface.py``).
 """
 
 __version__ = "0.1.0"
 
-_API = {"solve", "PortRow", "ControlVolumeResult", "ureg"}
+#: The Python API re-exported from :mod:`portflux.api` (and :mod:`portflux.core` result types).
+_API = ("solve", "speed_table", "best_speed", "speed_at_force", "problem", "ureg",
+        "ControlVolumeResult", "SpeedTableResult", "format_report")
+_CORE = ("Balance", "BestSpeed", "ForceSpeed", "InputError", "Model", "OutsideScopeError",
+         "Ports", "SpeedTable")
+
+__all__ = ["__version__", *_API, *_CORE]
 
 
 def __getattr__(name):  # lazy re-export of the Python API (PEP 562)
@@ -19,4 +26,12 @@ def __getattr__(name):  # lazy re-export of the Python API (PEP 562)
         from . import api
 
         return getattr(api, name)
+    if name in _CORE:
+        from . import core
+
+        return getattr(core, name)
     raise AttributeError(f"module 'portflux' has no attribute {name!r}")
+
+
+def __dir__():
+    return sorted(set(globals()) | set(__all__))

@@ -20,16 +20,27 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import spec
+from . import problem as P
 from . import units as U
-from .core import STANDARD_GRAVITY, Balance, InputError, balance
-from .core.balance import DEFAULT_IMBALANCE_TOL
-from .core.closures import balance_closed
+from .core import (DEFAULT_IMBALANCE_TOL, STANDARD_GRAVITY, Balance, BestSpeed, ForceSpeed,
+                   InputError, SpeedTable)
+from .core import best_speed as _core_best_speed
+from .core import speed_at_force as _core_speed_at_force
+from .core import speed_table as _core_speed_table
 from .core.geometry import direction
+
+__all__ = ["ControlVolumeResult", "SpeedTableResult", "best_speed", "cv_velocity_si",
+           "format_report", "problem", "solve", "speed_at_force", "speed_table", "ureg"]
 
 
 def ureg():
-    """The shared pint unit registry (built on first call)."""
+    """The shared pint unit registry (built on first call).
+
+    >>> round(ureg()("1 ft").to("m").magnitude, 12)
+    0.3048
+
+    Reference: NIST SP 811, appendix B (1 ft = 0.3048 m exactly).
+    """
     return U.registry()
 
 
@@ -48,7 +59,22 @@ def _columns(ports) -> dict:
 
 
 def cv_velocity_si(cv_velocity, cv_unit="m/s"):
-    """CV velocity [m/s] from a speed along +x, a 3-vector, or a stack (m, 3), in ``cv_unit``."""
+    """CV velocity [m/s] from a speed along +x, a 3-vector, or a stack (m, 3), in ``cv_unit``.
+
+    Parameters
+    ----------
+    cv_velocity : float or array_like (3,) or (m, 3)
+        CV velocity [cv_unit].
+    cv_unit : str
+        Its unit (pint string).
+
+    Examples
+    --------
+    >>> cv_velocity_si(10.0, "ft/s").round(4).tolist()
+    [3.048, 0.0, 0.0]
+
+    Reference: NIST SP 811, appendix B (1 ft = 0.3048 m exactly).
+    """
     v = np.asarray(cv_velocity, dtype=float)
     if v.ndim == 0:
         v = np.array([float(v), 0.0, 0.0])
@@ -58,11 +84,79 @@ def cv_velocity_si(cv_velocity, cv_unit="m/s"):
     return U.to_si(v, cv_unit, "velocity")
 
 
+def _slip(slip_angles, slip_directions):
+    """No-force directions [-] from in-plane angles [deg] and 3-D vectors (any length)."""
+    out = []
+    if slip_angles is not None and len(slip_angles):
+        out.extend(direction(np.radians(np.asarray(slip_angles, dtype=float))).reshape(-1, 3))
+    if slip_directions is not None and len(slip_directions):
+        d = np.asarray(slip_directions, dtype=float)
+        out.extend(d.reshape(-1, 3) if d.shape[-1:] == (3,) else [d])
+    return tuple(tuple(float(x) for x in v) for v in out)
+
+
+def problem(ports, *, units=None, fluid_mass=0.0, mass_unit="kg",
+            gravity=(0.0, 0.0, -STANDARD_GRAVITY), gravity_unit="m/s^2",
+            tolerance=DEFAULT_IMBALANCE_TOL, intercept="single", slip_angles=(),
+            slip_directions=()) -> P.Problem:
+    """Port rows, units, closures and settings built into a compiled problem (SI inside).
+
+    Parameters
+    ----------
+    ports : list of dict or dict of lists
+        Port rows keyed by column name (see :data:`portflux.problem.COLUMNS`), or columns.
+    units : dict, optional
+        Column -> unit string for the inputs (blank/missing: SI, angles in degrees).
+    fluid_mass : float
+        Mass of fluid inside the CV [mass_unit], whose weight the support carries.
+    mass_unit : str
+        Unit of ``fluid_mass``.
+    gravity : array_like (3,)
+        Gravity vector [gravity_unit]; default (0, 0, -9.80665) m/s^2.
+    gravity_unit : str
+        Unit of ``gravity``.
+    tolerance : float
+        Relative mass-imbalance tolerance [-].
+    intercept : {"single", "train"}
+        Single vane or vane train (bucket wheel).
+    slip_angles : sequence of float
+        In-plane directions [deg] along which the body carries no force (frictionless surface):
+        one condition each for outlets whose flow is solved (closure ``solve``).
+    slip_directions : array_like (k, 3)
+        Further no-force directions as 3-D vectors [-] (any length), e.g. the tangent of a
+        plate tilted out of the x-y plane.
+
+    Returns
+    -------
+    portflux.problem.Problem
+
+    Examples
+    --------
+    >>> pb = problem([{"role": "in", "area": 1e-3, "density": 1000.0, "vx": 20.0},
+    ...               {"role": "out", "area": 1e-3, "density": 1000.0, "vy": 20.0}])
+    >>> pb.model.balance([0.0, 0, 0]).force_on_body.tolist()     # rho A V^2 (1, -1, 0)
+    [400.0, -400.0, 0.0]
+
+    Reference: common practice, no source (input handling of this package).
+    """
+    table = P.build(_columns(ports), units)
+    settings = P.Settings(
+        fluid_mass=float(U.to_si(fluid_mass, mass_unit, "mass")),
+        gravity=tuple(U.to_si(np.asarray(gravity, float), gravity_unit, "acceleration")),
+        tolerance=tolerance, intercept=intercept, no_force=_slip(slip_angles, slip_directions))
+    try:
+        return P.build_problem(table, settings)
+    except InputError as e:
+        if e.argument == "no_force":
+            raise InputError(e.message, argument="slip_angles / slip_directions") from None
+        raise
+
+
 @dataclass(frozen=True, eq=False)
 class ControlVolumeResult:
     """A solved control volume: the SI :class:`~portflux.core.Balance` plus unit helpers."""
 
-    table: spec.PortTable
+    table: P.PortTable
     balance: Balance
 
     def __getattr__(self, name):  # delegate SI arrays (force_on_body, power, ...) to Balance
@@ -83,33 +177,30 @@ class ControlVolumeResult:
         return format_report(self.balance, U.UnitSystem(units))
 
 
-def solve(ports, cv_velocity, *, units=None, cv_unit="m/s", fluid_mass=0.0, mass_unit="kg",
-          gravity=(0.0, 0.0, -STANDARD_GRAVITY), gravity_unit="m/s^2",
-          tolerance=DEFAULT_IMBALANCE_TOL, intercept="single",
-          slip_angles=()) -> ControlVolumeResult:
+def solve(ports, cv_velocity, *, units=None, cv_unit="m/s", **settings) -> ControlVolumeResult:
     """Solve the steady balance of a CV moving at constant velocity.
+
+    .. math::
+
+        \\vec w_i = \\vec V_i - \\vec V_{cv}, \\qquad
+        \\dot m_i = \\rho_i (\\vec w_i \\cdot \\hat n_i) A_i, \\qquad
+        \\vec F_{body} = -\\sum_i \\beta_i \\dot m_i \\vec w_i - \\sum_i p_i A_i \\hat n_i
+        + m \\vec g
 
     Parameters
     ----------
     ports : list of dict or dict of lists
-        Port rows keyed by column name (see :data:`portflux.spec.COLUMNS`), or columns.
+        Port rows keyed by column name (see :data:`portflux.problem.COLUMNS`), or columns.
     cv_velocity : float or array_like (3,) or (m, 3)
         CV velocity [cv_unit]; a float is a speed along +x.
     units : dict, optional
         Column -> unit string for the inputs (blank/missing: SI, angles in degrees).
     cv_unit : str
         Unit of ``cv_velocity``.
-    fluid_mass : float
-        Mass of fluid inside the CV [mass_unit], whose weight the support carries.
-    gravity : array_like (3,)
-        Gravity vector [gravity_unit]; default (0, 0, -9.80665) m/s^2.
-    tolerance : float
-        Relative mass-imbalance tolerance [-].
-    intercept : {"single", "train"}
-        Single vane or vane train (bucket wheel).
-    slip_angles : sequence of float
-        In-plane directions [deg] along which the body carries no force (frictionless surface):
-        one condition each for outlets whose flow is solved (closure ``solve``).
+    **settings
+        ``fluid_mass`` [mass_unit], ``mass_unit``, ``gravity`` [gravity_unit],
+        ``gravity_unit``, ``tolerance`` [-], ``intercept`` ("single"/"train"),
+        ``slip_angles`` [deg], ``slip_directions`` [-]: as in :func:`problem`.
 
     Returns
     -------
@@ -117,20 +208,189 @@ def solve(ports, cv_velocity, *, units=None, cv_unit="m/s", fluid_mass=0.0, mass
 
     The closure columns (closure, loss, source, share, height) are applied: outlet speeds from
     their source inlet, unknown outlet flows from continuity and the no-force conditions.
+
+    Examples
+    --------
+    >>> r = solve([{"role": "in", "area": 1e-3, "density": 1000.0, "vx": 20.0},
+    ...            {"role": "out", "area": 1e-3, "density": 1000.0, "vy": 20.0}], 0.0)
+    >>> r.force_on_body.tolist(), r.status      # rho A V^2 (1, -1, 0): a 90-degree bend
+    ([400.0, -400.0, 0.0], 'ok')
+
+    Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
-    table = spec.build(_columns(ports), units, closures=True)
+    pb = problem(ports, units=units, **settings)
     v = cv_velocity_si(cv_velocity, cv_unit)
-    m = U.to_si(fluid_mass, mass_unit, "mass")
-    g = U.to_si(np.asarray(gravity, float), gravity_unit, "acceleration")
-    nf = direction(np.radians(np.asarray(slip_angles, dtype=float))) if len(slip_angles) else None
-    closures = spec.build_closures(table, nf)
-    if closures is None and nf is not None:
-        raise InputError(f"{len(nf)} no-force direction(s) given but no outlet flow is unknown: "
-                         f"mark outlets 'solve'", argument="slip_angles")
-    opts = dict(fluid_mass=m, gravity=g, tol=tolerance, intercept=intercept)
-    if closures is None:
-        return ControlVolumeResult(table, balance(table.ports, v, **opts))
-    return ControlVolumeResult(table, balance_closed(table.ports, closures, v, **opts).balance)
+    return ControlVolumeResult(pb.table, pb.model.balance(v))
+
+
+@dataclass(frozen=True, eq=False)
+class SpeedTableResult:
+    """A speed table (SI arrays of :class:`~portflux.core.SpeedTable`) with unit helpers."""
+
+    table: SpeedTable
+
+    def __getattr__(self, name):  # delegate SI arrays (speed, force_on_body, ...) to the table
+        if name == "table":
+            raise AttributeError(name)
+        return getattr(self.table, name)
+
+    def columns(self, units=None) -> dict:
+        """The columns as 1-D arrays in an output unit system ("SI", "US", "US; force=kN").
+
+        >>> t = speed_table([{"role": "in", "area": 1e-3, "density": 1000.0, "vx": 20.0},
+        ...                  {"role": "out", "area": 1e-3, "density": 1000.0, "angle": 90.0,
+        ...                   "closure": "free"}], [0.0, 10.0], speed_unit="m/s")
+        >>> t.columns("SI; force=kN")["force_on_body_x"].tolist()   # rho A (V - U)^2
+        [0.4, 0.1]
+
+        Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
+        """
+        us = U.UnitSystem(units)
+        kinds = {"speed": "velocity", "power": "power", "jet_efficiency": "ratio",
+                 "inflow": "mass_flow"}
+        out = {}
+        for key, a in self.table.columns().items():
+            kind = "force" if key.startswith(("support_force", "force_on_body")) else kinds.get(
+                key)
+            out[key] = us.out(a, kind) if kind else a
+        return out
+
+
+def speed_table(ports, speeds, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", units=None,
+                **settings) -> SpeedTableResult:
+    """Forces, power and efficiency at each of many CV speeds along one direction.
+
+    .. math:: \\vec V_{cv} = U \\hat d, \\qquad P(U) = \\vec F_{body}(U) \\cdot U \\hat d
+
+    Parameters
+    ----------
+    ports : list of dict or dict of lists
+        Port rows (see :func:`solve`).
+    speeds : array_like (m,)
+        CV speeds U [speed_unit] along ``direction``.
+    direction : array_like (3,)
+        Direction of motion d [-] (any length).
+    speed_unit : str
+        Unit of ``speeds``.
+    units : dict, optional
+        Column -> unit string of the port rows.
+    **settings
+        As in :func:`problem`.
+
+    Returns
+    -------
+    SpeedTableResult
+
+    Examples
+    --------
+    A 40 m/s water jet on a 150-degree frictionless vane (invented numbers):
+
+    >>> rows = [{"role": "in", "area": 2e-4, "density": 998.0, "speed": 40.0},
+    ...         {"role": "out", "closure": "free", "angle": 150.0, "area": 2e-4,
+    ...          "density": 998.0}]
+    >>> speed_table(rows, [0.0, 10.0, 40.0]).force_on_body[:, 0].round(3).tolist()
+    [595.934, 335.213, 0.0]
+
+    Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
+    """
+    pb = problem(ports, units=units, **settings)
+    u = U.to_si(np.asarray(speeds, dtype=float), speed_unit, "velocity")
+    return SpeedTableResult(_core_speed_table(pb.model, u, direction))
+
+
+def best_speed(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", units=None,
+               **settings) -> BestSpeed:
+    """Speed of maximum power delivered to the body within a bracket of speeds.
+
+    .. math:: U^* = \\arg\\max_{U_{lo} \\le U \\le U_{hi}} \\vec F_{body}(U) \\cdot U \\hat d
+
+    Parameters
+    ----------
+    ports : list of dict or dict of lists
+        Port rows (see :func:`solve`).
+    bracket : (float, float)
+        Lowest and highest speed [speed_unit].
+    direction : array_like (3,)
+        Direction of motion d [-].
+    speed_unit : str
+        Unit of ``bracket``; the result is in SI (m/s, W).
+    units : dict, optional
+        Column -> unit string of the port rows.
+    **settings
+        As in :func:`problem`.
+
+    Returns
+    -------
+    portflux.core.BestSpeed
+        SI: speed [m/s], power [W], efficiency [-].
+
+    Examples
+    --------
+    A single vane is best at a third of the jet speed:
+
+    >>> rows = [{"role": "in", "area": 2e-4, "density": 998.0, "speed": 30.0},
+    ...         {"role": "out", "closure": "free", "angle": 180.0, "area": 2e-4,
+    ...          "density": 998.0}]
+    >>> round(best_speed(rows, (0.0, 30.0)).speed, 6)
+    10.0
+
+    Reference: single moving vane, optimum U = V/3, White, *Fluid Mechanics*, ch. 3 (from
+    memory).
+    """
+    pb = problem(ports, units=units, **settings)
+    lo, hi = (float(U.to_si(float(x), speed_unit, "velocity")) for x in bracket)
+    return _core_best_speed(pb.model, (lo, hi), direction)
+
+
+def speed_at_force(ports, value, bracket, *, component="along", force_unit="N",
+                   direction=(1.0, 0.0, 0.0), speed_unit="m/s", units=None,
+                   **settings) -> ForceSpeed:
+    """Lowest speed in a bracket at which a force-on-body component reaches a value.
+
+    .. math:: F(U^*) = F_{target}
+
+    Parameters
+    ----------
+    ports : list of dict or dict of lists
+        Port rows (see :func:`solve`).
+    value : float
+        Target force [force_unit].
+    bracket : (float, float)
+        Lowest and highest speed [speed_unit].
+    component : {"x", "y", "z", "along", "magnitude"}
+        Which force on the body.
+    force_unit : str
+        Unit of ``value``; the result is in SI (m/s, N).
+    direction : array_like (3,)
+        Direction of motion d [-].
+    speed_unit : str
+        Unit of ``bracket``.
+    units : dict, optional
+        Column -> unit string of the port rows.
+    **settings
+        As in :func:`problem`.
+
+    Returns
+    -------
+    portflux.core.ForceSpeed
+
+    Examples
+    --------
+    The vane of :func:`best_speed` carries rho A (V-U)^2 (1 - cos 180) = 100 N at
+    U = 30 - sqrt(100 / (2 rho A)):
+
+    >>> rows = [{"role": "in", "area": 2e-4, "density": 998.0, "speed": 30.0},
+    ...         {"role": "out", "closure": "free", "angle": 180.0, "area": 2e-4,
+    ...          "density": 998.0}]
+    >>> round(speed_at_force(rows, 100.0, (0.0, 30.0)).speed, 6)
+    14.172777
+
+    Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
+    """
+    pb = problem(ports, units=units, **settings)
+    lo, hi = (float(U.to_si(float(x), speed_unit, "velocity")) for x in bracket)
+    target = float(U.to_si(float(value), force_unit, "force"))
+    return _core_speed_at_force(pb.model, target, (lo, hi), direction, component=component)
 
 
 def _fmt(x) -> str:
@@ -143,7 +403,24 @@ def _fmt(x) -> str:
 
 
 def format_report(b: Balance, us: U.UnitSystem) -> str:
-    """Plain-text report of one balance (one CV velocity) in the units of ``us``."""
+    """Plain-text report of one balance (one CV velocity) in the units of ``us``.
+
+    Parameters
+    ----------
+    b : Balance
+        A balance at one CV velocity (SI).
+    us : UnitSystem
+        Output units.
+
+    Examples
+    --------
+    >>> r = solve([{"role": "in", "area": 1e-3, "density": 1000.0, "vx": 20.0},
+    ...            {"role": "out", "area": 1e-3, "density": 1000.0, "vy": 20.0}], 0.0)
+    >>> format_report(r.balance, U.UnitSystem("SI")).splitlines()[0]
+    'Control-volume velocity V_cv [m/s]: (0, 0, 0)'
+
+    Reference: common practice, no source (report layout of this package).
+    """
     if np.ndim(b.power) != 0:
         raise InputError("a text report needs one CV velocity", argument="cv_velocity")
     vel, mf, f, pw = (us.label(k) for k in ("velocity", "mass_flow", "force", "power"))

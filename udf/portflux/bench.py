@@ -88,11 +88,47 @@ def _per_call(fn, reps, inner, setup=None):
     return max(t_all - t_setup, 0.0)
 
 
+def interleaved(cases, rounds):
+    """Median time [s] per call of each case, timed A B C A B C ... in ``rounds`` rounds.
+
+    ``cases`` maps a name to ``(fn, inner, setup)``: each round times ``inner`` calls of ``fn``
+    (``setup()`` before each call, untimed: its own time, measured in the same round, is
+    subtracted). Interleaving puts every case under the same machine drift, so the ratios of
+    these medians are fair on a shared, noisy machine (common practice, no source).
+
+    >>> t = interleaved({"a": (lambda: None, 10, None), "b": (lambda: sum(range(50)), 10,
+    ...                  None)}, 3)
+    >>> sorted(t), all(v >= 0 for v in t.values())
+    (['a', 'b'], True)
+    """
+    times = {name: [] for name in cases}
+    for _ in range(rounds):
+        for name, (fn, inner, setup) in cases.items():
+            gc.collect()
+            if setup is None:
+                t0 = time.perf_counter()
+                for _ in range(inner):
+                    fn()
+                times[name].append((time.perf_counter() - t0) / inner)
+                continue
+            t0 = time.perf_counter()
+            for _ in range(inner):
+                setup()
+                fn()
+            t_all = time.perf_counter() - t0
+            t0 = time.perf_counter()
+            for _ in range(inner):
+                setup()
+            t_setup = time.perf_counter() - t0
+            times[name].append(max(t_all - t_setup, 0.0) / inner)
+    return {name: statistics.median(v) for name, v in times.items()}
+
+
 def _gc_paused(active=True):
     """The collector pause PFX_SPEEDTABLE uses while building rows (or no pause)."""
-    from .cells._speeds import _no_gc
+    from .cells import no_gc
 
-    return _no_gc() if active else contextlib.nullcontext()
+    return no_gc() if active else contextlib.nullcontext()
 
 
 def _peak_mib(fn):
@@ -182,6 +218,25 @@ def bare_balance(si, v_cv):
     return (-support / _LBF).tolist()
 
 
+#: Fixed column order of the benchmark grid and the factors to SI of its unit row (NIST SP 811,
+#: B.8: 1 ft = 0.3048 m, 1 slug/ft^3 = 515.378818 kg/m^3, 1 psi = 6894.757293168361 Pa).
+_GRID_FACTORS = (_FT ** 2, _SLUG_FT3, _FT, _FT, _FT, 6894.757293168361, 1.0)
+
+
+def bare_grid_balance(grid, cv):
+    """Force on the body [lbf] of a raw grid read by a bare script: fixed columns (port, role,
+    area, density, vx, vy, vz, p_gauge, beta), fixed factors, role-based normals, then the
+    balance formulas in numpy (what a hand-written sheet macro would do, without checks)."""
+    body = grid[2:]
+    a = np.array([r[2:9] for r in body], dtype=float) * _GRID_FACTORS
+    role = np.array([-1.0 if r[1] == "in" else 1.0 for r in body])
+    vel = a[:, 2:5]
+    normal = role[:, None] * vel / np.sqrt((vel * vel).sum(axis=1))[:, None]
+    si = dict(area=a[:, 0], rho=a[:, 1], vel=vel, normal=normal, p=a[:, 5], beta=a[:, 6],
+              role=role)
+    return bare_balance(si, np.array(cv[:3], dtype=float) * _FT)
+
+
 def bench_balance(quick):
     from . import cells
 
@@ -195,30 +250,40 @@ def bench_balance(quick):
     if isinstance(got, str) or not np.allclose(got[0], ref, rtol=1e-9, atol=1e-9):
         raise RuntimeError(f"benchmark 1: worksheet function and baseline disagree: {got} vs "
                            f"{ref}")
-    t_bare = _per_call(lambda: bare_balance(si, v_si), reps, inner)
-    t_cold = _per_call(lambda: cells.PFX_BODYFORCE(grid, cv, None, "US"), reps,
-                       max(inner // 4, 1), setup=cells.clear_caches)
+    parsed = bare_grid_balance(grid, cv)
+    if not np.allclose(parsed, ref, rtol=1e-9, atol=1e-9):
+        raise RuntimeError(f"benchmark 1: bare grid script and baseline disagree: {parsed} vs "
+                           f"{ref}")
     from . import units
 
     def clear_all():
         cells.clear_caches()
         units._factor.cache_clear()
-    t_first = _per_call(lambda: cells.PFX_BODYFORCE(grid, cv, None, "US"), reps,
-                        max(inner // 20, 1), setup=clear_all)
-    cells.PFX_BODYFORCE(grid, cv, None, "US")
-    t_warm = _per_call(lambda: cells.PFX_BODYFORCE(grid, cv, None, "US"), reps, inner)
+
+    cold = lambda: cells.PFX_BODYFORCE(grid, cv, None, "US")   # noqa: E731
+    t = interleaved({
+        "bare": (lambda: bare_balance(si, v_si), inner, None),
+        "grid": (lambda: bare_grid_balance(grid, cv), inner, None),
+        "cold": (cold, max(inner // 4, 1), cells.clear_caches),
+        "first": (cold, max(inner // 20, 1), clear_all),
+        "warm": (cold, inner, None),
+    }, reps)
     b = "1 balance"
     return [
-        _figure(b, "bare numpy, 10 ports, SI arrays", t_bare * 1e6, "us"),
-        _figure(b, "PFX_BODYFORCE cold (cells caches cleared)", t_cold * 1e6, "us",
-                note="grid parsed, ports built, balance run; unit factors stay cached"),
-        _figure(b, "PFX_BODYFORCE warm (cache hit)", t_warm * 1e6, "us"),
-        _figure(b, "PFX_BODYFORCE, unit factors cleared too", t_first * 1e6, "us",
+        _figure(b, "bare numpy, 10 ports, SI arrays", t["bare"] * 1e6, "us"),
+        _figure(b, "bare script: grid parsed, fixed columns and factors", t["grid"] * 1e6, "us",
+                note="the baseline of the target"),
+        _figure(b, "PFX_BODYFORCE cold (cells caches cleared)", t["cold"] * 1e6, "us",
+                note="grid parsed, ports built, model compiled and run; unit factors stay cached"),
+        _figure(b, "PFX_BODYFORCE warm (cache hit)", t["warm"] * 1e6, "us"),
+        _figure(b, "PFX_BODYFORCE, unit factors cleared too", t["first"] * 1e6, "us",
                 note="first use of each unit in a process (pint parses it)"),
-        _figure(b, "ratio cold / bare (recalc, changed input)", t_cold / t_bare, "x", "<= 3",
-                3.0, note="the target applies here: a changed input is a cache miss"),
-        _figure(b, "ratio warm / bare (same input again)", t_warm / t_bare, "x", "<= 3", 3.0,
-                applies=False, note="cache hit; shown for comparison"),
+        _figure(b, "ratio cold / bare grid script (changed input)", t["cold"] / t["grid"], "x",
+                "<= 5", 5.0, note="the target applies here: a changed input is a cache miss"),
+        _figure(b, "ratio cold / bare SI arrays", t["cold"] / t["bare"], "x",
+                note="informational: parsing and checks included on one side only"),
+        _figure(b, "ratio warm / bare grid script (same input again)", t["warm"] / t["grid"],
+                "x", note="cache hit; shown for comparison"),
     ]
 
 
@@ -309,11 +374,17 @@ def bench_table(quick):
             raise RuntimeError(f"benchmark 2: PFX_SPEEDTABLE says {got}")
         np.testing.assert_allclose([r[4] for r in got[1:]], ref[3], rtol=1e-9, atol=1e-6)
 
-    t_bare = _median_time(lambda: bare_table(u), max(reps, 3))
-    t_core = _median_time(core, reps)
-    t_bare_e = _median_time(bare_e2e, reps)
-    t_bare_gc = _median_time(lambda: bare_e2e(pause_gc=False), reps)
-    t_core_e = _median_time(core_e2e, reps)
+    u100 = np.linspace(-10.0, 45.0, 100)
+    cases = {"bare": (lambda: bare_table(u), 1, None), "core": (core, 1, None),
+             "bare100": (lambda: bare_table(u100), 200, None),
+             "core100": (lambda: speed_table(p, u100, x, closures=c), 200, None)}
+    cases.update({"bare_e": (bare_e2e, 1, None), "core_e": (core_e2e, 1, None),
+                  "bare_gc": (lambda: bare_e2e(pause_gc=False), 1, None)})
+    if have_cells:
+        cases["sheet"] = (sheet, 1, None)
+    tm = interleaved(cases, max(reps, 3))
+    t_bare, t_core = tm["bare"], tm["core"]
+    t_bare_e, t_core_e, t_bare_gc = tm["bare_e"], tm["core_e"], tm["bare_gc"]
     out_mib = sum(a.nbytes for a in ref) / 2 ** 20
     core_mib = sum(a.nbytes for a in (t.speed, t.support_force, t.force_on_body, t.power,
                                        t.jet_efficiency, t.inflow, t.contact, t.balanced,
@@ -324,7 +395,11 @@ def bench_table(quick):
     rows = [
         _figure(b, "bare numpy closed form (9 columns)", t_bare * 1e3, "ms"),
         _figure(b, "core.speed_table, 'free' closure", t_core * 1e3, "ms"),
-        _figure(b, "ratio core / bare, compute only", t_core / t_bare, "x", "<= 1.5", 1.5),
+        _figure(b, "ratio core / bare, compute only", t_core / t_bare, "x", "<= 1.3", 1.3),
+        _figure(b, "100 speeds: bare numpy closed form", tm["bare100"] * 1e6, "us"),
+        _figure(b, "100 speeds: core.speed_table", tm["core100"] * 1e6, "us",
+                note="fixed cost of one table: compile the model, one chunk"),
+        _figure(b, "100 speeds: ratio core / bare", tm["core100"] / tm["bare100"], "x"),
         _figure(b, "bare numpy + asarray(tuple) + tolist", t_bare_e * 1e3, "ms",
                 note="gc paused while the row lists are built"),
         _figure(b, "the same, garbage collector running", t_bare_gc * 1e3, "ms",
@@ -335,7 +410,7 @@ def bench_table(quick):
                      "gc paused"),
     ]
     if have_cells:
-        t_sheet = _median_time(sheet, reps)
+        t_sheet = tm["sheet"]
         rows += [
             _figure(b, "PFX_SPEEDTABLE (tuple in, row lists out)", t_sheet * 1e3, "ms"),
             _figure(b, "ratio PFX_SPEEDTABLE / bare, end to end", t_sheet / t_bare_e, "x",

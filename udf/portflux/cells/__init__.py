@@ -32,6 +32,7 @@ from . import _functions as F
 from . import _speeds as S
 from ._grid import CellError
 from ._inputs import clear_caches
+from ._speeds import no_gc  # noqa: F401  (the collector pause, shared with the benchmark)
 from ..core import PortfluxError
 from ..excel import bounded_message
 
@@ -122,6 +123,10 @@ def PFX_ABOUT():
 
     >>> PFX_ABOUT()[1][0]
     'portflux'
+
+    No equation: a listing of the version, conventions and cautions.
+
+    Source: common practice, no source (sign conventions of this package, DEVELOPERS.md).
     """
     return _guarded("PFX_ABOUT", F.about)
 
@@ -139,6 +144,10 @@ def PFX_COLUMNS(units=None):
 
     >>> [r[2] for r in PFX_COLUMNS("US") if r[0] in ("area", "vx")]
     ['ft^2', 'ft/s']
+
+    No equation: a listing of the port-table columns.
+
+    Source: common practice, no source (input layout of this package).
     """
     return _guarded("PFX_COLUMNS", F.columns, units)
 
@@ -151,6 +160,10 @@ def PFX_SETTINGS():
     >>> [r[0] for r in PFX_SETTINGS()[1:]]
     ['fluid_mass', 'gx', 'gy', 'gz', 'tolerance', 'intercept', 'slip_angle', 'slip_x', \
 'slip_y', 'slip_z', 'ax', 'ay', 'az']
+
+    No equation: a listing of the settings names.
+
+    Source: common practice, no source (input layout of this package).
     """
     return _guarded("PFX_SETTINGS", F.settings_names)
 
@@ -213,6 +226,8 @@ def PFX_RELVELS(ports, cv_velocity, units=None, labels=False, settings=None):
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
     >>> PFX_RELVELS(t, 12.0, "SI", True)[0]
     ['port', 'wx [m/s]', 'wy [m/s]', 'wz [m/s]']
+
+    Source: Galilean velocity addition; White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
     return _guarded("PFX_RELVELS", F.relvels, ports, cv_velocity, units, labels, settings)
 
@@ -230,6 +245,9 @@ def PFX_ABSVEL(ports, cv_velocity, units=None, labels=False, settings=None):
     ...      ("out", "rel", 0.01, 1000.0, 18.0, "out"))
     >>> PFX_ABSVEL(t, 12.0)                    # 18 + 12 m/s
     [[30.0, 0.0, 0.0]]
+
+    Source: Galilean velocity addition, V = w + V_cv; White, *Fluid Mechanics*, sec. 3.4
+    (from memory).
     """
     return _guarded("PFX_ABSVEL", F.absvels, ports, cv_velocity, units, labels, settings)
 
@@ -255,6 +273,9 @@ def PFX_MASSFLOWS(ports, cv_velocity, units=None, labels=False, settings=None):
     ...      ("a", 100.0, 1000.0, 30.0, "in"))
     >>> PFX_MASSFLOWS(t, 12.0)                 # -1000 * 0.01 * (30 - 12) kg/s
     [[-180.0]]
+
+    Source: mass flow through a port carried by the relative velocity; White, *Fluid
+    Mechanics*, sec. 3.3 (from memory).
     """
     return _guarded("PFX_MASSFLOWS", F.massflows, ports, cv_velocity, units, labels, settings)
 
@@ -279,6 +300,11 @@ def PFX_IMBALANCE(ports, cv_velocity, tolerance=None, units=None, settings=None)
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 31.0, "out"))
     >>> PFX_IMBALANCE(t, 0.0)
     [[10.0, 0.03333333333333333, 'imbalance']]
+
+    Equation: imbalance = sum_i mdot_i, relative = imbalance / inflow.
+
+    Source: steady continuity for a control volume; White, *Fluid Mechanics*, sec. 3.3 (from
+    memory).
     """
     return _guarded("PFX_IMBALANCE", F.imbalance, ports, cv_velocity, tolerance, units, settings)
 
@@ -345,6 +371,9 @@ def PFX_POWER(ports, cv_velocity, units=None, settings=None):
     ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
     >>> round(PFX_POWER(t, 10.0, "SI; power=kW"), 6)     # 798.4 N * 10 m/s
     7.984
+
+    Source: power of a force on a body moving at V_cv; White, *Fluid Mechanics*, sec. 3.4
+    (from memory).
     """
     return _guarded("PFX_POWER", F.power, ports, cv_velocity, units, settings)
 
@@ -368,6 +397,11 @@ def PFX_EFFICIENCY(ports, cv_velocity, kind=None, settings=None, units=None):
     ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
     >>> round(PFX_EFFICIENCY(t, 10.0), 6)   # 7984 W / (0.5 * 998 * 0.002 * 30^3 W)
     0.296296
+
+    Equations: eta_jet = P / sum(1/2 mdot_abs |V|^2) over incoming jets; eta_prop = P / (P +
+    net kinetic-energy outflow).
+
+    Source: White, *Fluid Mechanics*, sec. 3.4 and ch. 11 (propulsive efficiency; from memory).
     """
     return _guarded("PFX_EFFICIENCY", F.efficiency, ports, cv_velocity, kind, settings, units)
 
@@ -388,6 +422,11 @@ def PFX_FRAMECHECK(ports, cv_velocity, units=None, settings=None):
     >>> [r[0] for r in PFX_FRAMECHECK(t, 10.0)]
     ['quantity [N]', 'sum mdot V (absolute frame)', 'sum mdot w (relative frame)', \
 'difference (absolute - relative)', 'V_cv x mass imbalance']
+
+    Equation: sum mdot V = sum mdot w + V_cv sum mdot.
+
+    Source: Galilean velocity addition summed over the ports; White, *Fluid Mechanics*, sec. 3.4
+    (from memory).
     """
     return _guarded("PFX_FRAMECHECK", F.framecheck, ports, cv_velocity, units, settings)
 
@@ -402,6 +441,10 @@ def PFX_WARNINGS(ports, cv_velocity, settings=None):
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
     >>> PFX_WARNINGS(t, 10.0)
     'none'
+
+    No equation: the warnings of the balance, one per row.
+
+    Source: common practice, no source (warning rules of this package, DEVELOPERS.md).
     """
     return _guarded("PFX_WARNINGS", F.warnings, ports, cv_velocity, settings)
 
@@ -417,6 +460,11 @@ def PFX_SUMMARY(ports, cv_velocity, units=None, settings=None):
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
     >>> dict(PFX_SUMMARY(t, 10.0)[1:])["status"]
     'ok'
+
+    Equations: w = V - V_cv, mdot = rho (w . n) A, R = sum beta mdot w + sum p A n - m g,
+    F_body = -R, P = F_body . V_cv.
+
+    Source: White, *Fluid Mechanics*, sec. 3.4, moving control volume (from memory).
     """
     return _guarded("PFX_SUMMARY", F.summary, ports, cv_velocity, units, settings)
 

@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 
-from .. import __version__, spec
+from .. import __version__, problem
 from ..cautions import CAUTION
 from ._grid import CellError, describe, error_value, flag, is_number, one_cell, scalar_text
 from ._inputs import SETTINGS, evaluate, evaluate_closed, tolerance, unit_system
@@ -19,7 +19,8 @@ from ._inputs import SETTINGS, evaluate, evaluate_closed, tolerance, unit_system
 AXES = {"x": 0, "y": 1, "z": 2, "1": 0, "2": 1, "3": 2}
 
 
-def _value(x, na="n/a"):
+def cell_value(x, na="n/a"):
+    """A cell value of a float: "n/a" text for NaN, "n/a (infinite)" for an infinity."""
     x = float(x)
     if math.isnan(x):
         return na
@@ -29,7 +30,7 @@ def _value(x, na="n/a"):
 
 
 def _matrix(a) -> list:
-    return [[_value(x) for x in row] for row in np.atleast_2d(a)]
+    return [[cell_value(x) for x in row] for row in np.atleast_2d(a)]
 
 
 def _labelled(body: list, columns: list, names, show: bool) -> list:
@@ -49,7 +50,7 @@ def _axis(raw):
 
 def _vector(vec, raw_axis):
     k = _axis(raw_axis)
-    return _matrix(vec) if k is None else _value(vec[k])
+    return _matrix(vec) if k is None else cell_value(vec[k])
 
 
 def _port_index(table, raw) -> int:
@@ -96,7 +97,7 @@ def about():
 def columns(units=None):
     us = unit_system(units)
     out = [["column", "aliases", "default unit", "meaning"]]
-    for c in spec.COLUMNS.values():
+    for c in problem.COLUMNS.values():
         unit = "(text)" if c.kind is None else us.label(c.kind)
         out.append([c.key, ", ".join(c.aliases), unit, c.help])
     return out
@@ -134,15 +135,15 @@ def massflows(ports, cv_velocity, units=None, labels=False, settings=None):
     show = flag(labels, "labels")
     us = unit_system(units)
     t, b = evaluate(ports, cv_velocity, settings)
-    body = [[_value(x)] for x in us.out(b.mass_flow, "mass_flow")]
+    body = [[cell_value(x)] for x in us.out(b.mass_flow, "mass_flow")]
     return _labelled(body, [f"mass flow [{us.label('mass_flow')}] (+ out)"], t.names, show)
 
 
 def imbalance(ports, cv_velocity, tol=None, units=None, settings=None):
     us = unit_system(units)
     _, b = evaluate(ports, cv_velocity, settings, tolerance(tol))
-    return [[_value(us.out(b.imbalance, "mass_flow")),
-             _value(b.imbalance_rel, na="n/a: no inflow"), str(b.status)]]
+    return [[cell_value(us.out(b.imbalance, "mass_flow")),
+             cell_value(b.imbalance_rel, na="n/a: no inflow"), str(b.status)]]
 
 
 def support(ports, cv_velocity, axis=None, units=None, settings=None):
@@ -160,7 +161,7 @@ def bodyforce(ports, cv_velocity, axis=None, units=None, settings=None):
 def power(ports, cv_velocity, units=None, settings=None):
     us = unit_system(units)
     _, b = evaluate(ports, cv_velocity, settings)
-    return _value(us.out(b.power, "power"))
+    return cell_value(us.out(b.power, "power"))
 
 
 _EFFICIENCY = {
@@ -177,7 +178,7 @@ def efficiency(ports, cv_velocity, kind=None, settings=None, units=None):
     us = unit_system(units)
     _, b = evaluate(ports, cv_velocity, settings)
     attr, na = _EFFICIENCY[k]
-    return _value(us.out(getattr(b, attr), "ratio"), na=na)
+    return cell_value(us.out(getattr(b, attr), "ratio"), na=na)
 
 
 def framecheck(ports, cv_velocity, units=None, settings=None):
@@ -209,26 +210,26 @@ def summary(ports, cv_velocity, units=None, settings=None):
     f = lab("force")
     w = b.warnings()
     out = [["quantity [unit]", "value"]]
-    out += [[f"CV velocity {c} [{lab('velocity')}]", _value(x)] for c, x in zip("xyz", vel)]
+    out += [[f"CV velocity {c} [{lab('velocity')}]", cell_value(x)] for c, x in zip("xyz", vel)]
     out += [
-        ["ports", t.data.n],
+        ["ports", t.n],
         ["intercept", b.intercept],
-        [f"mass inflow [{m}]", _value(us.out(b.inflow, "mass_flow"))],
-        [f"mass outflow [{m}]", _value(us.out(b.outflow, "mass_flow"))],
-        [f"mass imbalance, out - in [{m}]", _value(us.out(b.imbalance, "mass_flow"))],
+        [f"mass inflow [{m}]", cell_value(us.out(b.inflow, "mass_flow"))],
+        [f"mass outflow [{m}]", cell_value(us.out(b.outflow, "mass_flow"))],
+        [f"mass imbalance, out - in [{m}]", cell_value(us.out(b.imbalance, "mass_flow"))],
         [f"relative imbalance [{lab('ratio')}]",
-         _value(us.out(b.imbalance_rel, "ratio"), na="n/a: no inflow")],
-        [f"imbalance tolerance [{lab('ratio')}]", _value(us.out(b.tolerance, "ratio"))],
+         cell_value(us.out(b.imbalance_rel, "ratio"), na="n/a: no inflow")],
+        [f"imbalance tolerance [{lab('ratio')}]", cell_value(us.out(b.tolerance, "ratio"))],
         ["status", str(b.status)],
     ]
-    out += [[f"support force on fluid {c} [{f}]", _value(x)] for c, x in zip("xyz", sup)]
-    out += [[f"force on body {c} [{f}]", _value(x)] for c, x in zip("xyz", body)]
+    out += [[f"support force on fluid {c} [{f}]", cell_value(x)] for c, x in zip("xyz", sup)]
+    out += [[f"force on body {c} [{f}]", cell_value(x)] for c, x in zip("xyz", body)]
     out += [
-        [f"power to body [{lab('power')}]", _value(us.out(b.power, "power"))],
+        [f"power to body [{lab('power')}]", cell_value(us.out(b.power, "power"))],
         [f"jet efficiency [{lab('ratio')}]",
-         _value(us.out(b.jet_efficiency, "ratio"), na=_EFFICIENCY["jet"][1])],
+         cell_value(us.out(b.jet_efficiency, "ratio"), na=_EFFICIENCY["jet"][1])],
         [f"propulsive efficiency [{lab('ratio')}]",
-         _value(us.out(b.propulsive_efficiency, "ratio"), na=_EFFICIENCY["propulsive"][1])],
+         cell_value(us.out(b.propulsive_efficiency, "ratio"), na=_EFFICIENCY["propulsive"][1])],
         ["warnings", len(w)],
         ["first warning", w[0] if w else "none"],
     ]
@@ -239,7 +240,7 @@ def split(ports, cv_velocity, units=None, settings=None):
     """Per-port flows of a (solved) split: mass flow, fraction of the inflow, stream area."""
     us = unit_system(units)
     t, b, cb = evaluate_closed(ports, cv_velocity, settings)
-    pt = t.data
+    pt = t
     p = pt.ports
     mdot = np.asarray(b.mass_flow, dtype=float)
     inflow = float(b.inflow)
@@ -268,8 +269,9 @@ def split(ports, cv_velocity, units=None, settings=None):
         else:
             area, basis, na = math.nan, "table", "n/a: not given (mass flow given)"
         frac = mdot[i] / inflow if inflow > 0 else math.nan
-        out.append([name, role, closure, _value(us.out(mdot[i], "mass_flow")),
-                    _value(us.out(frac, "ratio"), na="n/a: no inflow"),
-                    _value(us.out(speed[i], "velocity")), _value(us.out(area, "area"), na=na),
+        out.append([name, role, closure, cell_value(us.out(mdot[i], "mass_flow")),
+                    cell_value(us.out(frac, "ratio"), na="n/a: no inflow"),
+                    cell_value(us.out(speed[i], "velocity")),
+                    cell_value(us.out(area, "area"), na=na),
                     basis])
     return out

@@ -15,7 +15,7 @@ from itertools import chain
 
 import numpy as np
 
-from ..spec import EXCEL_ERRORS, is_blank, shown
+from ..excel import ERROR_VALUES as EXCEL_ERRORS, is_blank, shown
 
 _SEQUENCES = (list, tuple, np.ndarray)
 

@@ -2,7 +2,7 @@
 
 Layout of the port table (rows counted from the top of the selected range):
 
-* row 1: column names (keys or aliases of :data:`portflux.spec.COLUMNS`, any order, any case);
+* row 1: column names (keys or aliases of :data:`portflux.problem.COLUMNS`, any order, any case);
 * row 2: the unit of each column as a pint string (blank = the column's default unit; text
   columns take none);
 * rows 3...: one port per row.
@@ -11,9 +11,10 @@ Blank rows and columns after the table are ignored. A blank row *inside* the tab
 naming the row: per-port results spill one row per port next to the table, and a skipped row
 would shift every row below it against its port.
 
-The closure columns (closure, loss, source, share; height and p_gauge for a Bernoulli outlet)
-are applied through :func:`portflux.core.balance_closed`, with the no-force ("slip") directions
-of the settings range; a table without closures is balanced by :func:`portflux.core.balance`.
+The rows, the settings and the closure columns (closure, loss, source, share; height and p_gauge
+for a Bernoulli outlet) with the no-force ("slip") directions of the settings range are built
+into the compiled model by :func:`portflux.problem.build_problem`, the pipeline the Python API
+uses too; this module only reads the cells and places messages on the sheet.
 
 Every parse result (or its error message) is cached on the frozen raw argument, so a sheet with
 many functions on one table converts units and validates it once. pint is reached only through
@@ -27,12 +28,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .. import spec
+from .. import problem as P
 from .. import units as U
-from ..core import (FREE, LOSS, SOLVE, STANDARD_GRAVITY, Balance, ClosedBalance, Closures,
-                    InputError, OutsideScopeError, balance, balance_closed, polar_velocity)
-from ..core.balance import DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN
+from ..core import (DEFAULT_IMBALANCE_TOL, SINGLE, STANDARD_GRAVITY, TRAIN, Balance,
+                    ClosedBalance, InputError, OutsideScopeError, polar_velocity)
 from ..excel import bounded_message
+from ..problem import PortTable, Problem, Settings
 from ._memo import memory_lru
 from ._grid import (CellError, blank_row, describe, error_value, freeze, is_blank, number,
                     one_cell, rows, trim)
@@ -68,18 +69,6 @@ def _cached(maxsize):
 # --------------------------------------------------------------------------------------------
 # port table
 # --------------------------------------------------------------------------------------------
-@dataclass(frozen=True, eq=False)
-class Table:
-    """A parsed port table: SI data plus what messages need to point back at the sheet."""
-
-    data: spec.PortTable
-    headers: dict   #: column key -> header text as the user typed it
-
-    @property
-    def names(self) -> tuple:
-        return self.data.ports.names
-
-
 def _text_cell(v, where, expected):
     err = error_value(v)
     if err:
@@ -101,7 +90,7 @@ def _header(grid) -> tuple[dict, dict]:
             continue
         _text_cell(h, where, "a column name (text)")
         try:
-            key = spec.resolve_header(h)
+            key = P.resolve_header(h)
         except InputError as e:
             raise CellError(f"{where}: {e.message}") from None
         if key in cols:
@@ -119,7 +108,7 @@ def _unit_row(grid, cols, typed) -> dict:
         if is_blank(u):
             continue
         _text_cell(u, where, "a unit (text) or a blank cell")
-        if spec.COLUMNS[key].kind is None:
+        if P.COLUMNS[key].kind is None:
             raise CellError(f"{where}: a text column takes no unit (got {u.strip()!r}); leave the "
                             f"cell blank")
         units[key] = u.strip()
@@ -137,13 +126,13 @@ def _place(e: InputError, typed: dict) -> str:
     msg = e.message
     if field in typed:
         return f"{head}, {typed[field]}: {msg}"
-    if field in spec.COLUMNS:
+    if field in P.COLUMNS:
         return f"{head}, {field}: {msg} (the table has no {field} column)"
     return f"{head}, {field}: {msg}" if field else f"{head}: {msg}"
 
 
 @_cached(256)
-def _table(key) -> Table:
+def _table(key) -> PortTable:
     grid = trim(rows(key))
     if not grid:
         raise CellError(f"ports: the range is blank; {_TABLE_LAYOUT}")
@@ -162,13 +151,12 @@ def _table(key) -> Table:
                             f"are ignored only after the last port")
     table = {k: [r[j] for r in body] for k, j in cols.items()}
     try:
-        pt = spec.build(table, units, closures=True)
+        return P.build(table, units, headers=typed)
     except InputError as e:
         raise CellError(_place(e, typed)) from None
-    return Table(pt, typed)
 
 
-def port_table(raw) -> Table:
+def port_table(raw) -> PortTable:
     """The parsed port table of a ``ports`` argument (cached)."""
     return _table(freeze(raw))
 
@@ -225,15 +213,6 @@ def cv_velocity(raw) -> np.ndarray:
 # --------------------------------------------------------------------------------------------
 # settings
 # --------------------------------------------------------------------------------------------
-@dataclass(frozen=True)
-class Settings:
-    fluid_mass: float = 0.0                                 #: [kg]
-    gravity: tuple = (0.0, 0.0, -STANDARD_GRAVITY)          #: [m/s^2]
-    tolerance: float = DEFAULT_IMBALANCE_TOL                #: [-]
-    intercept: str = SINGLE
-    no_force: tuple = ()     #: unit directions (3-tuples) along which the support force is zero
-
-
 SETTINGS = {  # normalised name -> (name shown, quantity kind or None for text, help)
     "fluidmass": ("fluid_mass", "mass", "mass of fluid inside the CV (its weight is carried), "
                                         "default 0"),
@@ -402,7 +381,7 @@ def tolerance(raw):
 SLIP_ROWS = "slip_angle rows, slip_x/slip_y/slip_z"
 
 
-def _render(e: InputError, t: Table | None) -> str:
+def render(e: InputError, t: PortTable | None) -> str:
     """Message of an engine InputError, placed on the sheet (ports row / settings row)."""
     if e.argument == "no_force":
         return f"settings, no-force directions ({SLIP_ROWS}): {e.message}"
@@ -413,35 +392,13 @@ def _render(e: InputError, t: Table | None) -> str:
     return e.describe(lambda i: f"row {i + FIRST_PORT_ROW}")
 
 
-def closures_for(t: Table, s: Settings, *, kinematic=False) -> Closures | None:
-    """Closures of a parsed table under the settings' no-force directions (None: none used).
-
-    ``kinematic=True`` keeps only the speed rules ('solve' becomes its speed rule, shares and
-    no-force directions are dropped): what the velocity functions need, which never depend on the
-    flows. The full closures are still validated, except for the count of flow conditions.
-    """
-    pt = t.data
-    if not pt.uses_closures:
-        if s.no_force:
-            c = len(s.no_force)
-            raise CellError(f"settings, no-force directions ({SLIP_ROWS}): {c} no-force "
-                            f"direction(s) given but no outlet flow is unknown: {c} condition(s) "
-                            f"extra; mark outlets 'solve' in the closure column or drop the rows")
-        return None
+def _problem(t: PortTable, s: Settings, tol=None, kinematic=False) -> Problem:
     try:
-        try:
-            c = spec.build_closures(pt, s.no_force or None)
-        except InputError as e:
-            if not (kinematic and e.argument == "no_force"):
-                raise
-            c = None
-        if kinematic:
-            rules = [(LOSS if not math.isnan(k) else FREE) if r == SOLVE else r
-                     for r, k in zip(pt.closure, pt.loss)]
-            c = Closures.build(pt.ports, rules, loss=pt.loss, source=list(pt.source))
+        return P.build_problem(t, s, tolerance=tol, kinematic=kinematic)
     except InputError as e:
-        raise CellError(_render(e, t)) from None
-    return c
+        raise CellError(render(e, t)) from None
+    except OutsideScopeError as e:
+        raise CellError(str(e)) from None
 
 
 @memory_lru(512)
@@ -449,21 +406,13 @@ def _evaluate(pkey, ckey, skey, tol, kinematic=False):
     try:
         t = _table(pkey)
         v = _cv(ckey)
-        s = _settings(skey)
-        c = closures_for(t, s, kinematic=kinematic)
-        opts = dict(fluid_mass=s.fluid_mass, gravity=s.gravity,
-                    tol=s.tolerance if tol is None else tol, intercept=s.intercept)
+        _settings(skey)
+        pb = _compiled(t, skey, tol, kinematic)      # one model per table and settings
         try:
-            if c is None:
-                b, cb = balance(t.data.ports, v, **opts), None
-            else:
-                cb = balance_closed(t.data.ports, c, v, **opts)
-                b = cb.balance
+            cb = pb.model.balance(v, closed=True)
         except InputError as e:
-            raise CellError(_render(e, t)) from None
-        except OutsideScopeError as e:
-            raise CellError(str(e)) from None
-        return True, (t, b, cb)
+            raise CellError(render(e, t)) from None
+        return True, (t, cb.balance, cb if pb.closures is not None else None)
     except CellError as e:
         return False, str(e)
 
@@ -478,17 +427,19 @@ def _settings_key(settings_raw):
     return skey
 
 
-def evaluate(ports, cv, settings_raw=None, tol=None, *, kinematic=False) -> tuple[Table, Balance]:
+def evaluate(ports, cv, settings_raw=None, tol=None, *, kinematic=False
+             ) -> tuple[PortTable, Balance]:
     """Parse (cached) and balance (cached) one control volume, closures applied.
 
-    ``kinematic=True``: only the velocities are needed (see :func:`closures_for`).
+    ``kinematic=True``: only the velocities are needed (see
+    :func:`portflux.problem.closures_of`).
     """
     t, b, _ = evaluate_closed(ports, cv, settings_raw, tol, kinematic=kinematic)
     return t, b
 
 
 def evaluate_closed(ports, cv, settings_raw=None, tol=None, *, kinematic=False
-                    ) -> tuple[Table, Balance, ClosedBalance | None]:
+                    ) -> tuple[PortTable, Balance, ClosedBalance | None]:
     """As :func:`evaluate`, plus the :class:`ClosedBalance` (None when no closure is used)."""
     ok, value = _evaluate(freeze(ports), freeze(cv), _settings_key(settings_raw), tol, kinematic)
     if not ok:
@@ -496,15 +447,32 @@ def evaluate_closed(ports, cv, settings_raw=None, tol=None, *, kinematic=False
     return value
 
 
-def setup(ports, settings_raw=None) -> tuple[Table, Closures | None, Settings]:
-    """Parsed port table (cached), its closures and the settings, for the speed functions."""
+@memory_lru(256)
+def _compile(t: PortTable, skey, tol, kinematic):
+    try:
+        return True, _problem(t, _settings(skey), tol, kinematic)
+    except CellError as e:
+        return False, str(e)
+
+
+def _compiled(t: PortTable, skey, tol=None, kinematic=False) -> Problem:
+    """The compiled problem of a parsed table (keyed by the cached table object itself) under
+    the settings ``skey``: a sheet evaluating one table at many CV velocities compiles once."""
+    ok, value = _compile(t, skey, tol, kinematic)
+    if not ok:
+        raise CellError(value)
+    return value
+
+
+def setup(ports, settings_raw=None) -> Problem:
+    """The compiled problem of a port table and settings, for the speed functions (cached)."""
     skey = _settings_key(settings_raw)
     t = _table(freeze(ports))
-    s = _settings(skey)
-    return t, closures_for(t, s), s
+    _settings(skey)
+    return _compiled(t, skey)
 
 
 def clear_caches():
     """Forget every parsed table and balance (tests; a long-running sheet never needs it)."""
-    for f in (_table, _cv, _settings, _unit_system, _units_of, _evaluate):
+    for f in (_table, _cv, _settings, _unit_system, _units_of, _evaluate, _compile):
         f.cache_clear()

@@ -1,5 +1,6 @@
 """Speed tables and optimum speeds from the worksheet: parsing the speed arguments, calling
-:mod:`portflux.core.sweep` once per call, and building the spilled blocks.
+:mod:`portflux.core.sweep` once per call on the compiled model of
+:func:`portflux.problem.build_problem`, and building the spilled blocks.
 
 A speed table may hold a million speeds. The range is turned into one numpy array in one call
 (a type check over the flat cells, then ``numpy.array``), the engine evaluates every speed in
@@ -19,11 +20,11 @@ import numpy as np
 
 from .. import units as U
 from ..core import InputError, OutsideScopeError, best_speed, speed_at_force, speed_table
-from ._functions import _value
 from ..excel import shown
+from ._functions import cell_value
 from ._grid import (CellError, describe, error_value, freeze, is_blank, is_number, number, rows,
                     scalar_text, trim)
-from ._inputs import _render, setup, unit_system
+from ._inputs import render, setup, unit_system
 
 _SEQ = (list, tuple)
 _FAST_TYPES = {float, int, type(None)}
@@ -45,7 +46,7 @@ _LIMIT_TEXT = (f"a speed must be below the speed of light ({SPEED_LIMIT:.0f} m/s
 
 
 @contextmanager
-def _no_gc():
+def no_gc():
     """Pause the cyclic garbage collector while building many small lists (restored after)."""
     was = gc.isenabled()
     gc.disable()
@@ -239,17 +240,17 @@ def _engine(call, t, *args, **kw):
     except InputError as e:
         if e.argument == "bracket":
             raise CellError(f"low, high: {e.message}") from None
-        raise CellError(_render(e, t)) from None
+        raise CellError(render(e, t)) from None
     except OutsideScopeError as e:
         raise CellError(str(e)) from None
 
 
-def _unmet(t, d, lo, hi, opts, us, sample=None) -> str:
+def _unmet(pb, d, lo, hi, us, sample=None) -> str:
     """" ..." remark when a closure cannot be met at some speeds of the bracket ("" if none)."""
-    if opts["closures"] is None:
+    if pb.closures is None:
         return ""
     if sample is None:
-        sample = _engine(speed_table, t, t.data.ports, np.linspace(lo, hi, 257), d, **opts)
+        sample = _engine(speed_table, pb.table, pb.model, np.linspace(lo, hi, 257), d)
     bad = ~np.asarray(sample.valid)
     if not bad.any():
         return ""
@@ -259,22 +260,17 @@ def _unmet(t, d, lo, hi, opts, us, sample=None) -> str:
             f"(no result there)")
 
 
-def _options(c, s):
-    return dict(closures=c, intercept=s.intercept, fluid_mass=s.fluid_mass, gravity=s.gravity)
-
-
 # --------------------------------------------------------------------------------------------
 # worksheet bodies
 # --------------------------------------------------------------------------------------------
 def speedtable(ports, speeds, direction=None, units=None, settings=None):
     us = unit_system(units)
     d = parse_direction(direction)
-    t, c, s = setup(ports, settings)
+    pb = setup(ports, settings)
     u, _, _ = parse_speeds(speeds)
     blank = np.isnan(u)
     some_blank = bool(blank.any())
-    r = _engine(speed_table, t, t.data.ports, u[~blank] if some_blank else u, d,
-                tol=s.tolerance, **_options(c, s))
+    r = _engine(speed_table, pb.table, pb.model, u[~blank] if some_blank else u, d)
     width = 2 + len(TABLE_COLUMNS)
     out = np.zeros((u.size, width))
     rows_ = out[~blank] if some_blank else out
@@ -297,7 +293,7 @@ def speedtable(ports, speeds, direction=None, units=None, settings=None):
     met[~blank] = r.valid
     head = [f"speed [{us.label('velocity')}]"] + [
         f"{name} [{us.label(kind)}]" for name, kind in TABLE_COLUMNS] + ["contact [1/0]"]
-    with _no_gc():
+    with no_gc():
         body = out.tolist()
         for i in np.flatnonzero(blank).tolist():
             body[i] = [""] * width
@@ -330,34 +326,33 @@ def bestspeed(ports, low, high, direction=None, units=None, settings=None):
     us = unit_system(units)
     d = parse_direction(direction)
     lo, hi = _bracket(low, high)
-    t, c, s = setup(ports, settings)
-    opts = _options(c, s)
-    best = _engine(best_speed, t, t.data.ports, (lo, hi), d, **opts)
+    pb = setup(ports, settings)
+    best = _engine(best_speed, pb.table, pb.model, (lo, hi), d)
     v, p, f, e = (us.label(k) for k in ("velocity", "power", "force", "ratio"))
-    show = lambda x: _value(us.out(x, "velocity"))   # noqa: E731
+    show = lambda x: cell_value(us.out(x, "velocity"))   # noqa: E731
     if best.delivers:
-        at = _engine(speed_table, t, t.data.ports, [best.speed], d, **opts)
+        at = _engine(speed_table, pb.table, pb.model, [best.speed], d)
         if best.edge:
             beyond = "below" if best.edge == "low" else "beyond"
             note = (f"edge maximum: the power is largest at the {best.edge} end of the bracket; "
                     f"widen it {beyond} {show(best.speed):g} {v} to look further")
         else:
             note = "maximum inside the bracket"
-        speed, drag = show(best.speed), _value(us.out(_along(at)[0], "force"))
-        eff = _value(us.out(best.efficiency, "ratio"), na="n/a: no jet enters the CV")
+        speed, along = show(best.speed), cell_value(us.out(_along(at)[0], "force"))
+        eff = cell_value(us.out(best.efficiency, "ratio"), na="n/a: no jet enters the CV")
     else:
         note = (f"no power delivered: the fluid delivers no positive power to the body for "
                 f"speeds {show(lo):g} to {show(hi):g} {v} (largest "
-                f"{_value(us.out(best.power, 'power')):.6g} {p})")
-        speed = drag = eff = "n/a: no power delivered"
-    note += _unmet(t, d, lo, hi, opts, us)
+                f"{cell_value(us.out(best.power, 'power')):.6g} {p})")
+        speed = along = eff = "n/a: no power delivered"
+    note += _unmet(pb, d, lo, hi, us)
     return [
         ["quantity [unit]", "value"],
         [f"speed of maximum power [{v}]", speed],
-        [f"power to body [{p}]", _value(us.out(best.power, "power")) if best.delivers else
+        [f"power to body [{p}]", cell_value(us.out(best.power, "power")) if best.delivers else
          "n/a: no power delivered"],
         [f"jet efficiency [{e}]", eff],
-        [f"force on body along the motion [{f}]", drag],
+        [f"force on body along the motion [{f}]", along],
         [f"bracket low [{v}]", show(lo)],
         [f"bracket high [{v}]", show(hi)],
         ["note", note],
@@ -379,17 +374,17 @@ def speedatforce(ports, value, low, high, component=None, direction=None, units=
     d = parse_direction(direction)
     target, typed, funit = _number_and_unit(value, "value", "force", us.unit("force"))
     lo, hi = _bracket(low, high)
-    t, c, s = setup(ports, settings)
-    opts = _options(c, s)
+    pb = setup(ports, settings)
+    t = pb.table
     v, f = us.label("velocity"), us.label("force")
     try:
-        r = speed_at_force(t.data.ports, target, (lo, hi), d, component=comp, **opts)
+        r = speed_at_force(pb.model, target, (lo, hi), d, component=comp)
     except InputError as e:
         if e.argument == "bracket":
             raise CellError(f"low, high: {e.message}") from None
         if e.argument != "value":
-            raise CellError(_render(e, t)) from None
-        sample = _engine(speed_table, t, t.data.ports, np.linspace(lo, hi, 1025), d, **opts)
+            raise CellError(render(e, t)) from None
+        sample = _engine(speed_table, t, pb.model, np.linspace(lo, hi, 1025), d)
         fv = us.out(_component_values(sample, comp), "force")
         fv = fv[np.isfinite(fv)]
         if not fv.size:
@@ -399,19 +394,19 @@ def speedatforce(ports, value, low, high, component=None, direction=None, units=
         raise CellError(f"value: the force on the body ({comp}) runs from {fv.min():.6g} to "
                         f"{fv.max():.6g} {f} over speeds {us.out(lo, 'velocity'):g} to "
                         f"{us.out(hi, 'velocity'):g} {v} and never reaches {typed:g} {funit}"
-                        f"{_unmet(t, d, lo, hi, opts, us, sample)}; widen the bracket (low, "
+                        f"{_unmet(pb, d, lo, hi, us, sample)}; widen the bracket (low, "
                         f"high) or check the value") from None
     except OutsideScopeError as e:
         raise CellError(str(e)) from None
     note = (f"the force reaches {typed:g} {funit} {r.crossings} times in the bracket; this is "
             f"the lowest speed" if r.crossings > 1 else "single crossing in the bracket")
-    note += _unmet(t, d, lo, hi, opts, us)
+    note += _unmet(pb, d, lo, hi, us)
     return [
         ["quantity [unit]", "value"],
-        [f"speed [{v}]", _value(us.out(r.speed, "velocity"))],
-        [f"force on body, {comp} [{f}]", _value(us.out(r.force, "force"))],
+        [f"speed [{v}]", cell_value(us.out(r.speed, "velocity"))],
+        [f"force on body, {comp} [{f}]", cell_value(us.out(r.force, "force"))],
         ["crossings in the bracket", int(r.crossings)],
-        [f"bracket low [{v}]", _value(us.out(lo, "velocity"))],
-        [f"bracket high [{v}]", _value(us.out(hi, "velocity"))],
+        [f"bracket low [{v}]", cell_value(us.out(lo, "velocity"))],
+        [f"bracket high [{v}]", cell_value(us.out(hi, "velocity"))],
         ["note", note],
     ]

@@ -1,16 +1,22 @@
-"""Pure-numpy engine: SI floats and arrays in and out; no units, no I/O, no spreadsheet."""
+"""Pure-numpy engine: SI floats and arrays in and out; no units, no I/O, no spreadsheet.
 
-from .balance import (DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN, Balance, absolute_velocity, balance,
-                      relative_velocity)
-from .closures import (BERNOULLI, FREE, GIVEN, LOSS, SOLVE, ClosedBalance, Closures,
-                       balance_closed, closure_velocity, in_contact)
+The physics lives once, in :class:`Model` (:mod:`portflux.core.model`): ports, closures and
+options compiled once, evaluated on an (m, 3) array of CV velocities. :func:`balance`,
+:func:`balance_closed`, :func:`closure_velocity`, :func:`speed_table`, :func:`best_speed` and
+:func:`speed_at_force` are its drivers.
+"""
+
+from .balance import absolute_velocity, balance, balance_closed, closure_velocity, relative_velocity
+from .closures import BERNOULLI, FREE, GIVEN, LOSS, SOLVE, Closures
 from .errors import InputError, OutsideScopeError, PortfluxError
 from .geometry import STANDARD_GRAVITY, direction, polar_velocity
+from .model import (DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN, Balance, ClosedBalance, Model,
+                    in_contact)
 from .ports import IN, OUT, UNKNOWN, Ports, role_code
 from .sweep import BestSpeed, ForceSpeed, SpeedTable, best_speed, speed_at_force, speed_table
 
 __all__ = [
-    "Balance", "DEFAULT_IMBALANCE_TOL", "IN", "InputError", "OUT", "OutsideScopeError",
+    "Balance", "DEFAULT_IMBALANCE_TOL", "IN", "InputError", "Model", "OUT", "OutsideScopeError",
     "PortfluxError", "Ports", "SINGLE", "STANDARD_GRAVITY", "TRAIN", "UNKNOWN",
     "absolute_velocity", "balance", "direction", "polar_velocity", "relative_velocity",
     "role_code",

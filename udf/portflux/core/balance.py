@@ -11,24 +11,25 @@ V_cv, with steady flow seen from the CV, gives (e.g. F. M. White, *Fluid Mechani
 
 R is the support force the solid exerts on the fluid; the force on the body is -R; p_i is gauge
 pressure (the atmosphere acts everywhere else); m g is the weight of the fluid inside the CV.
-Everything here broadcasts over many CV velocities at once: pass ``v_cv`` of shape (m, 3) and every
-result gains a leading axis of length m.
+The physics lives once, in :class:`portflux.core.model.Model`; the functions here are its
+drivers. Everything broadcasts over many CV velocities at once: pass ``v_cv`` of shape (m, 3)
+and every result gains a leading axis of length m.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
-
 import numpy as np
 
-from .errors import InputError, OutsideScopeError
+from .closures import Closures
+from .errors import InputError
 from .geometry import STANDARD_GRAVITY
-from .ports import IN, OUT, Ports
+from .model import (DEFAULT_IMBALANCE_TOL, FLAG, RAISE, SINGLE, TRAIN, Balance, ClosedBalance,
+                    Model, cv_velocities, in_contact)
+from .ports import Ports
 
-DEFAULT_IMBALANCE_TOL = 1e-3
-"""Default relative mass-imbalance tolerance [-] (0.1 % of the inflow)."""
-
-SINGLE, TRAIN = "single", "train"
+__all__ = ["Balance", "ClosedBalance", "DEFAULT_IMBALANCE_TOL", "FLAG", "RAISE", "SINGLE",
+           "TRAIN", "absolute_velocity", "balance", "balance_closed", "closure_velocity",
+           "in_contact", "relative_velocity"]
 
 
 def relative_velocity(velocity, v_cv):
@@ -72,90 +73,14 @@ def absolute_velocity(w, v_cv):
     --------
     >>> absolute_velocity([18.0, 0.0, 0.0], [12.0, 0.0, 0.0]).tolist()
     [30.0, 0.0, 0.0]
+
+    Reference: Galilean velocity addition; White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
     return np.asarray(w, dtype=float) + np.asarray(v_cv, dtype=float)
 
 
-def _cv_velocity(v_cv):
-    v = np.asarray(v_cv, dtype=float)
-    if v.ndim == 0 or v.shape[-1] != 3:
-        raise InputError(f"must have 3 components (got shape {v.shape})", argument="cv_velocity")
-    if not np.all(np.isfinite(v)):
-        raise InputError("must be finite numbers", argument="cv_velocity")
-    return v
-
-
-@dataclass(frozen=True, eq=False)
-class Balance:
-    """Result of :func:`balance`: per-port arrays and CV totals, all SI.
-
-    Shapes use ``...`` for the leading axes of ``v_cv`` (none for one CV velocity) and ``n`` for
-    the ports. Sign conventions are explicit in the names: ``support_force`` acts on the fluid
-    (from the solid), ``force_on_body`` = -``support_force`` acts on the moving body.
-    """
-
-    ports: Ports
-    v_cv: np.ndarray                 #: (..., 3) CV velocity [m/s]
-    w: np.ndarray                    #: (..., n, 3) relative velocity [m/s]
-    v_abs: np.ndarray                #: (..., n, 3) absolute velocity [m/s]
-    mass_flow: np.ndarray            #: (..., n) signed mass flow, + out [kg/s]
-    inflow: np.ndarray               #: (...) total mass inflow [kg/s] (>= 0)
-    outflow: np.ndarray              #: (...) total mass outflow [kg/s] (>= 0)
-    imbalance: np.ndarray            #: (...) sum of mass flows [kg/s]
-    imbalance_rel: np.ndarray        #: (...) imbalance / inflow [-]
-    balanced: np.ndarray             #: (...) |imbalance_rel| <= tol
-    momentum_flux: np.ndarray        #: (..., n, 3) beta mdot w per port [N]
-    pressure_force: np.ndarray       #: (n, 3) or (..., n, 3) -p A n on the fluid [N]
-    weight: np.ndarray               #: (..., 3) weight of the fluid in the CV [N]
-    support_force: np.ndarray        #: (..., 3) force of the solid on the fluid, R [N]
-    force_on_body: np.ndarray        #: (..., 3) force of the fluid on the body, -R [N]
-    power: np.ndarray                #: (...) power delivered to the body F_body . V_cv [W]
-    jet_ke_flux: np.ndarray          #: (...) absolute kinetic-energy flux of incoming jets [W]
-    ke_flux_net: np.ndarray          #: (...) net outflow of absolute kinetic energy [W]
-    jet_efficiency: np.ndarray       #: (...) power / jet_ke_flux [-] (NaN without a jet)
-    propulsive_efficiency: np.ndarray  #: (...) power / (power + ke_flux_net) [-] (NaN if n/a)
-    flux_absolute: np.ndarray        #: (..., 3) sum mdot V [N]
-    flux_relative: np.ndarray        #: (..., 3) sum mdot w [N]
-    frame_difference: np.ndarray     #: (..., 3) flux_absolute - flux_relative [N]
-    frame_expected: np.ndarray       #: (..., 3) V_cv * imbalance [N]
-    inlet_outflow: np.ndarray        #: (..., n) declared inlet whose relative flow leaves
-    outlet_inflow: np.ndarray        #: (..., n) declared outlet whose relative flow enters
-    no_contact: np.ndarray           #: (...) body outruns every jet: no flow, no force
-    intercept: str = SINGLE          #: "single" vane or vane "train"
-    tolerance: float = DEFAULT_IMBALANCE_TOL  #: relative imbalance tolerance [-]
-    notes: tuple = field(default=())  #: extra notes from closures and solvers
-
-    @property
-    def status(self):
-        """One word per CV velocity: "no contact", "imbalance" or "ok" (array of str)."""
-        s = np.where(self.no_contact, "no contact", np.where(self.balanced, "ok", "imbalance"))
-        return s.item() if s.ndim == 0 else s
-
-    def warnings(self) -> list[str]:
-        """Plain-language warnings, naming ports by label (evaluated over all CV velocities)."""
-        out = []
-        names = self.ports.names
-        io = np.asarray(self.inlet_outflow).reshape(-1, self.ports.n).any(axis=0)
-        oi = np.asarray(self.outlet_inflow).reshape(-1, self.ports.n).any(axis=0)
-        for i in np.flatnonzero(io):
-            out.append(f"port {names[i]}: declared inlet but its relative flow leaves the CV "
-                       f"(the body outruns this jet); its mass flow is set to 0")
-        for i in np.flatnonzero(oi):
-            out.append(f"port {names[i]}: declared outlet but its relative flow enters the CV")
-        if np.any(self.no_contact):
-            out.append("no contact: no jet reaches the moving body; flows and forces are 0")
-        bad = ~np.asarray(self.balanced) & ~np.asarray(self.no_contact)
-        if np.any(bad):
-            worst = np.nanmax(np.abs(np.where(bad, self.imbalance_rel, 0.0)))
-            out.append(f"mass imbalance up to {worst:.3g} of the inflow exceeds the tolerance "
-                       f"{self.tolerance:g}")
-        out.extend(self.notes)
-        return out
-
-
 def balance(ports: Ports, v_cv, *, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_GRAVITY),
-            tol=DEFAULT_IMBALANCE_TOL, intercept=SINGLE, cv_acceleration=None,
-            mass_flow=None, w_override=None) -> Balance:
+            tol=DEFAULT_IMBALANCE_TOL, intercept=SINGLE, cv_acceleration=None) -> Balance:
     """Mass and momentum balance of a CV moving at constant velocity.
 
     .. math::
@@ -183,16 +108,8 @@ def balance(ports: Ports, v_cv, *, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_
         "train": a vane train (bucket wheel) intercepts the nozzle's full absolute flow
         rho A (V.n); all flows are scaled by that ratio, relative velocities are unchanged.
     cv_acceleration : array_like (3,), optional
-        Must be zero or absent: accelerating CVs are outside the steady inertial form.
-    mass_flow : array_like (..., n), optional
-        Signed mass flows [kg/s] that override those computed (used by the outlet closures);
-        NaN entries keep the port's own value.
-    w_override : array_like (..., n, 3), optional
-        Relative velocities w [m/s] that replace those of the ports (used by the outlet
-        closures, which set an outlet's relative speed at every CV velocity); a row holding a
-        NaN keeps the port's own. The absolute velocity of a replaced row is w + V_cv. Mass
-        flows that are computed follow the replaced w.
-
+        CV acceleration [m/s^2]: must be zero or absent (accelerating CVs are outside the
+        steady inertial form).
     Returns
     -------
     Balance
@@ -213,128 +130,126 @@ def balance(ports: Ports, v_cv, *, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_
     >>> round(float(b.power), 3)
     11976.0
 
-    The same vane with the outlet's relative velocity replaced (turned through 90 degrees only;
-    NaN keeps the inlet's own), rho A (V-U)^2 (1 - cos 90):
-
-    >>> wo = [[np.nan] * 3, [0.0, 20.0, 0.0]]
-    >>> round(float(balance(p, [10.0, 0, 0], w_override=wo).force_on_body[0]), 6)
-    798.4
-
     Reference: moving-vane result F_x = rho A (V-U)^2 (1 - cos theta), White, *Fluid Mechanics*,
     sec. 3.4 (from memory); Fox & McDonald, *Introduction to Fluid Mechanics*, ch. 4 (from memory).
     """
-    if cv_acceleration is not None and np.any(np.asarray(cv_acceleration, float) != 0.0):
-        raise OutsideScopeError(
-            "cv_acceleration: an accelerating control volume is outside the steady inertial "
-            "form; give a constant CV velocity (acceleration 0)")
-    if intercept not in (SINGLE, TRAIN):
-        raise InputError(f"must be 'single' or 'train' (got {intercept!r})", argument="intercept")
-    if not (np.isfinite(tol) and tol >= 0):
-        raise InputError(f"must be >= 0 (got {tol})", argument="tolerance")
-    fluid_mass = float(fluid_mass)
-    if not np.isfinite(fluid_mass) or fluid_mass < 0:
-        raise InputError(f"must be >= 0 (got {fluid_mass})", argument="fluid_mass")
-    g = np.asarray(gravity, dtype=float)
-    if g.shape != (3,) or not np.all(np.isfinite(g)):
-        raise InputError("must be 3 finite components", argument="gravity")
+    model = Model(ports, intercept=intercept, fluid_mass=fluid_mass, gravity=gravity, tol=tol,
+                  cv_acceleration=cv_acceleration)
+    return model.balance(v_cv)
 
-    v = _cv_velocity(v_cv)
-    vc = v[..., None, :]                                   # (..., 1, 3)
-    given_v = ports.velocity
-    rel = ports.relative[:, None]
-    w = np.where(rel, given_v, given_v - vc)               # (..., n, 3)
-    v_abs = np.where(rel, given_v + vc, given_v)
-    if w_override is not None:
-        wo = np.asarray(w_override, dtype=float)
-        try:
-            wo = np.broadcast_to(wo, np.broadcast_shapes(wo.shape, w.shape))
-        except ValueError:
-            raise InputError(f"must broadcast to shape {w.shape} (got {wo.shape})",
-                             argument="w_override") from None
-        keep = np.isnan(wo).any(axis=-1, keepdims=True)
-        w = np.where(keep, w, wo)
-        v_abs = np.where(keep, v_abs, wo + vc)
-    n_hat = ports.normal
-    wn = np.einsum("...ij,ij->...i", w, n_hat)              # (..., n)
-    vn = np.einsum("...ij,ij->...i", v_abs, n_hat)
 
-    with np.errstate(invalid="ignore"):
-        rho_a = ports.density * ports.area                 # NaN for given-flow ports
-    computed = rho_a * wn
-    given = ports.given_flow
-    mdot = np.where(given, ports.mass_flow, computed)
-    if mass_flow is not None:
-        mo = np.broadcast_to(np.asarray(mass_flow, dtype=float), mdot.shape)
-        mdot = np.where(np.isnan(mo), mdot, mo)
-    role = ports.role
-    inlet_outflow = (role == IN) & (wn > 0)
-    outlet_inflow = (role == OUT) & (wn < 0)
-    # A declared inlet that the body outruns carries nothing (never a negative intercept).
-    mdot = np.where(inlet_outflow & ~given, 0.0, mdot)
-    mdot = np.where((role == IN) & given & (wn > 0), 0.0, mdot)
+def closure_velocity(ports: Ports, closures: Closures, v_cv, *,
+                     gravity=(0.0, 0.0, -STANDARD_GRAVITY)):
+    """Relative velocity of every closed outlet at one or many CV velocities.
 
-    if intercept == TRAIN:
-        inlets = np.flatnonzero(role == IN)
-        if inlets.size != 1 or given[inlets[0]]:
-            raise InputError("a vane train needs exactly one declared inlet whose flow is "
-                             "computed from area, density and velocity", argument="intercept")
-        k = inlets[0]
-        with np.errstate(divide="ignore", invalid="ignore"):
-            scale = np.where(wn[..., k] < 0, vn[..., k] / wn[..., k], 0.0)
-        mdot = mdot * scale[..., None]
+    .. math::
 
-    inflow = -np.sum(np.minimum(mdot, 0.0), axis=-1)
-    # No contact: the body outruns every jet. Either every declared inlet is outrun and no port
-    # without a declared role brings fluid in (an outlet typed in the absolute frame may then
-    # show a spurious inflow: it has no fluid to carry), or some inlet is outrun and nothing
-    # enters at all. A CV at rest with zero flows is statics, not "no contact".
-    declared_in = role == IN
-    all_outrun = np.all(~declared_in | inlet_outflow, axis=-1) & bool(np.any(declared_in))
-    unroled_in = np.any((role == 0) & (mdot < 0), axis=-1)
-    no_contact = (all_outrun & ~unroled_in) | ((inflow == 0.0) & np.any(inlet_outflow, axis=-1))
-    mdot = np.where(no_contact[..., None], 0.0, mdot)
-    inflow = np.where(no_contact, 0.0, inflow)
-    outflow = np.sum(np.maximum(mdot, 0.0), axis=-1)
-    imbalance = np.sum(mdot, axis=-1)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        imbalance_rel = np.where(inflow > 0, imbalance / inflow,
-                                 np.where(imbalance == 0, 0.0, np.inf * np.sign(imbalance)))
-    balanced = np.abs(imbalance_rel) <= tol
+        |\\vec w_{out}|^2 = a\\,|\\vec w_{src}|^2 + c, \\qquad
+        \\vec w_{out} = |\\vec w_{out}|\\,\\hat e_{out}
 
-    mom = ports.beta[:, None] * mdot[..., None] * w
-    area0 = np.where(np.isnan(ports.area), 0.0, ports.area)
-    p_force = -(ports.p_gauge * area0)[:, None] * n_hat    # on the fluid
-    contact = ~no_contact[..., None]
-    weight = np.where(contact, fluid_mass * g, 0.0)
-    p_total = np.where(contact, p_force.sum(axis=0), 0.0)
-    support = mom.sum(axis=-2) - p_total - weight
-    body = -support
-    power = np.einsum("...i,...i->...", body, v)
+    with a = 1, c = 0 ("free"); a = (1-k)^2, c = 0 ("loss"); a = 1,
+    c = 2 (p_src/rho_src - p_out/rho_out) + 2 |g| (h_src - h_out) ("bernoulli").
 
-    flux_abs = np.sum(mdot[..., None] * v_abs, axis=-2)
-    flux_rel = np.sum(mdot[..., None] * w, axis=-2)
-    v2 = np.einsum("...ij,...ij->...i", v_abs, v_abs)
-    ke_net = np.sum(0.5 * mdot * v2, axis=-1)
-    jet_abs_flow = np.where(given, np.where(mdot < 0, -mdot, 0.0),
-                            np.where((role == IN) | (wn < 0), rho_a * np.maximum(-vn, 0.0), 0.0))
-    jet_abs_flow = np.where(np.isnan(jet_abs_flow), 0.0, jet_abs_flow)
-    jet_ke = np.sum(0.5 * jet_abs_flow * v2, axis=-1)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        jet_eff = np.where(jet_ke > 0, power / jet_ke, np.nan)
-        denom = power + ke_net
-        prop_eff = np.where((power > 0) & (denom > 1e-12 * np.maximum(power, 1.0)),
-                            power / denom, np.nan)
+    Parameters
+    ----------
+    ports : Ports
+        The ports (SI).
+    closures : Closures
+        Closures built for ``ports``.
+    v_cv : array_like (3,) or (..., 3)
+        CV velocity [m/s].
+    gravity : array_like (3,)
+        Gravity vector [m/s^2]; its magnitude enters the Bernoulli closure.
 
-    def out(a):
-        return a.item() if isinstance(a, np.ndarray) and a.ndim == 0 else a
+    Returns
+    -------
+    w : ndarray (..., n, 3)
+        Relative velocity [m/s] of closed outlets; NaN rows for the other ports.
+    unreachable : ndarray (..., n) of bool
+        True where a Bernoulli outlet cannot be reached (negative |w_out|^2); its w is then 0.
 
-    return Balance(
-        ports=ports, v_cv=v, w=w, v_abs=v_abs, mass_flow=mdot, inflow=out(inflow),
-        outflow=out(outflow), imbalance=out(imbalance), imbalance_rel=out(imbalance_rel),
-        balanced=out(balanced), momentum_flux=mom, pressure_force=p_force, weight=weight,
-        support_force=support, force_on_body=body, power=out(power), jet_ke_flux=out(jet_ke),
-        ke_flux_net=out(ke_net), jet_efficiency=out(jet_eff), propulsive_efficiency=out(prop_eff),
-        flux_absolute=flux_abs, flux_relative=flux_rel, frame_difference=flux_abs - flux_rel,
-        frame_expected=v * imbalance[..., None] if np.ndim(imbalance) else v * imbalance,
-        inlet_outflow=inlet_outflow, outlet_inflow=outlet_inflow, no_contact=out(no_contact),
-        intercept=intercept, tolerance=float(tol))
+    Examples
+    --------
+    A 12 m/s water jet rising 2 m to an outlet pointing along +y, the CV at rest:
+
+    >>> import numpy as np
+    >>> p = Ports.build(area=[1e-3, 1e-3], density=998.0, role=["in", "out"],
+    ...                 velocity=[[12.0, 0, 0], [0, 1.0, 0]], height=[0.0, 2.0])
+    >>> c = Closures.build(p, ["", "bernoulli"])
+    >>> w, bad = closure_velocity(p, c, [0.0, 0, 0])
+    >>> round(float(w[1, 1]), 6), bool(bad[1])     # sqrt(12^2 - 2 g 2)
+    (10.235888, False)
+
+    Reference: Bernoulli's equation along a streamline in the steady (CV) frame, e.g. White,
+    *Fluid Mechanics*, sec. 3.5 (from memory); the closures are common practice, no source.
+    """
+    v = cv_velocities(v_cv)
+    lead = v.shape[:-1]
+    q, bad = Model(ports, closures, gravity=gravity).closure_speeds(v.reshape(-1, 3))
+    w = np.full(lead + (ports.n, 3), np.nan)
+    unreachable = np.zeros(lead + (ports.n,), dtype=bool)
+    closed = np.flatnonzero(closures.closed)
+    if closed.size:
+        w[..., closed, :] = (q.T.reshape(lead + (closed.size, 1))
+                             * closures.direction[closed])
+        unreachable[..., closed] = bad.T.reshape(lead + (closed.size,))
+    return w, unreachable
+
+
+def balance_closed(ports: Ports, closures: Closures, v_cv, *, fluid_mass=0.0,
+                   gravity=(0.0, 0.0, -STANDARD_GRAVITY), tol=DEFAULT_IMBALANCE_TOL,
+                   intercept=SINGLE, unreachable=RAISE) -> ClosedBalance:
+    """Balance of a moving CV with outlet closures applied and unknown outlet flows solved.
+
+    .. math::
+
+        \\sum_i \\dot m_i = 0, \\qquad \\hat d_c \\cdot \\vec R = 0, \\qquad
+        \\dot m_k = s_k \\dot m_{in}, \\qquad
+        \\vec R = \\sum_i \\beta_i \\dot m_i \\vec w_i + \\sum_i p_i A_i \\hat n_i - m \\vec g
+
+    solved for the unknown outlet flows at every CV velocity (stacked linear solve), with every
+    closed outlet's w from :func:`closure_velocity`. With ``intercept="train"`` the system is
+    solved for the intercepted (scaled) flows of the whole train, so the conditions hold for the
+    reported forces.
+
+    Parameters
+    ----------
+    ports, closures, v_cv
+        The ports (SI), their closures and the CV velocity [m/s], as in
+        :func:`closure_velocity`.
+    fluid_mass, gravity, tol, intercept
+        As in :func:`portflux.core.balance.balance` ([kg], [m/s^2], [-], "single"/"train").
+    unreachable : {"raise", "flag"}
+        A Bernoulli outlet that cannot be reached at some CV velocity (while the jet is in
+        contact) raises :class:`InputError` ("raise") or leaves NaN results at that velocity and
+        sets ``unreachable`` ("flag").
+
+    Returns
+    -------
+    ClosedBalance
+
+    Examples
+    --------
+    A 25 m/s jet of 3 cm^2 meets a frictionless plate whose tangent makes 50 degrees with it
+    and splits into a forward and a backward stream:
+
+    >>> import numpy as np
+    >>> th = np.radians(50.0)
+    >>> t = [np.cos(th), np.sin(th), 0.0]
+    >>> p = Ports.build(area=[3e-4, 1.0, 1.0], density=998.0, role=["in", "out", "out"],
+    ...                 velocity=[[25.0, 0, 0], t, [-t[0], -t[1], 0.0]])
+    >>> c = Closures.build(p, ["", "solve", "solve"], no_force=t)
+    >>> r = balance_closed(p, c, [0.0, 0, 0])
+    >>> (r.mass_flow[1:] / r.inflow).round(6).tolist()     # (1 + cos th)/2, (1 - cos th)/2
+    [0.821394, 0.178606]
+    >>> round(float(r.force_on_body @ [-t[1], t[0], 0.0]), 4)   # -rho Q V sin th
+    -143.3461
+
+    Reference: inclined-plate split, F. M. White, *Fluid Mechanics*, ch. 3 (from memory).
+    """
+    if unreachable not in (RAISE, FLAG):
+        raise InputError(f"must be 'raise' or 'flag' (got {unreachable!r})",
+                         argument="unreachable")
+    model = Model(ports, closures, fluid_mass=fluid_mass, gravity=gravity, tol=tol,
+                  intercept=intercept)
+    return model.balance(v_cv, unreachable=unreachable, closed=True)

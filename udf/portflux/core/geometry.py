@@ -67,6 +67,8 @@ def polar_velocity(speed, angle, elevation=0.0):
     >>> import numpy as np
     >>> polar_velocity(10.0, np.pi / 3).round(6).tolist()
     [5.0, 8.660254, 0.0]
+
+    Reference: spherical-to-Cartesian components, common practice, no source.
     """
     return np.asarray(speed, dtype=float)[..., None] * direction(angle, elevation)
 

@@ -22,6 +22,13 @@ _ROLE_WORDS = {"in": IN, "inlet": IN, "out": OUT, "outlet": OUT, "": UNKNOWN}
 def role_code(word) -> int:
     """Map a role word to its code: ``"in"`` -> -1, ``"out"`` -> +1, blank -> 0.
 
+    Parameters
+    ----------
+    word : str or int or None
+        "in"/"inlet", "out"/"outlet", blank; or a code -1, 1, 0.
+
+    Reference: common practice, no source (input words of this package).
+
     >>> role_code("Inlet"), role_code("out"), role_code(None)
     (-1, 1, 0)
     """

@@ -14,14 +14,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .balance import DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN, balance
-from .closures import _SINGULAR, FLAG, Closures, balance_closed, in_contact
+from .closures import Closures
 from .errors import InputError
 from .geometry import STANDARD_GRAVITY
-from .ports import IN, OUT, Ports
-
-#: Speeds evaluated per chunk of a speed table (bounds the size of the (m, n, 3) intermediates).
-CHUNK = 2 ** 16
+from .model import CHUNK, DEFAULT_IMBALANCE_TOL, SINGLE, TABLE, Model
+from .ports import Ports
 
 #: Jet efficiency below which a power is round-off, not a delivered power [-].
 _NEGLIGIBLE = 1e-12
@@ -47,8 +44,9 @@ class SpeedTable:
     valid: np.ndarray            #: (m,) every closure met (False: Bernoulli outlet unreachable)
 
     @property
-    def drag(self) -> np.ndarray:
-        """(m,) force on the body along the direction of motion, F_body . d [N]."""
+    def force_along(self) -> np.ndarray:
+        """(m,) force on the body along the direction of motion, F_body . d [N] (a thrust
+        that drives the body where positive)."""
         return self.force_on_body @ self.direction
 
     def columns(self) -> dict:
@@ -61,6 +59,29 @@ class SpeedTable:
         for name in ("power", "jet_efficiency", "inflow", "contact", "balanced", "valid"):
             out[name] = getattr(self, name)
         return out
+
+
+def compiled(ports, closures=None, **options) -> Model:
+    """``ports`` itself when it is a compiled :class:`Model` (then ``closures`` and the options
+    must be left at their defaults), else the model of ``ports``, ``closures`` and options.
+
+    >>> p = Ports.build(area=1e-3, density=1000.0, role=["in", "out"],
+    ...                 velocity=[[20.0, 0, 0], [0, 20.0, 0]])
+    >>> m = Model(p)
+    >>> compiled(m) is m, isinstance(compiled(p), Model)
+    (True, True)
+
+    Reference: common practice, no source.
+    """
+    if not isinstance(ports, Model):
+        return Model(ports, closures, **options)
+    default = dict(intercept=SINGLE, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_GRAVITY),
+                   tol=DEFAULT_IMBALANCE_TOL)
+    if closures is not None or any(np.any(np.asarray(v) != np.asarray(default[k]))
+                                   for k, v in options.items()):
+        raise InputError("a compiled model carries its closures and options; give them when "
+                         "compiling it", argument="closures")
+    return ports
 
 
 def _unit(direction):
@@ -88,8 +109,8 @@ def speed_table(ports: Ports, speeds, direction, *, closures: Closures | None = 
 
     Parameters
     ----------
-    ports : Ports
-        The ports (SI).
+    ports : Ports or Model
+        The ports (SI), or a compiled :class:`Model` (closures and options then come with it).
     speeds : array_like (m,)
         CV speeds U [m/s] along ``direction`` (negative: against it).
     direction : array_like (3,)
@@ -139,642 +160,44 @@ def speed_table(ports: Ports, speeds, direction, *, closures: Closures | None = 
     chunk = int(chunk)
     if chunk < 1:
         raise InputError(f"must be >= 1 (got {chunk})", argument="chunk")
-    opts = dict(fluid_mass=fluid_mass, gravity=gravity, tol=tol, intercept=intercept)
-    if u.size >= _FAST_MIN:
-        return _table_fast(ports, u, d, closures, opts, chunk)
-    return _table_general(ports, u, d, closures, opts, chunk)
+    model = compiled(ports, closures, intercept=intercept, fluid_mass=fluid_mass,
+                     gravity=gravity, tol=tol)
+    return table(model, u, d, chunk)
 
 
-#: Tables of at least this many speeds take the specialised sweep (:class:`_Sweep`); shorter
-#: ones (the refinement steps of the optimum finders) the general balance directly.
-_FAST_MIN = 64
+def table(model: Model, speeds, d, chunk=CHUNK) -> SpeedTable:
+    """The speed table of a compiled :class:`Model` at speeds U [m/s] along the unit
+    direction ``d`` [-], evaluated in chunks of ``chunk`` speeds (bounded memory).
 
+    >>> p = Ports.build(area=[1e-3, 1e-3], density=1000.0, role=["in", "out"],
+    ...                 velocity=[[20.0, 0, 0], [0, 20.0, 0]], relative=[False, True])
+    >>> table(Model(p), np.array([0.0, 10.0]), np.array([1.0, 0, 0])).power.tolist()
+    [0.0, 1000.0]
 
-def _table(u, d, support, power, eff, inflow, contact, balanced, valid):
-    support += 0.0                           # in place: no negative zeros in outputs
-    power += 0.0
-    body = np.negative(support)
-    body += 0.0
-    return SpeedTable(speed=u.copy(), direction=d, support_force=support, force_on_body=body,
-                      power=power, jet_efficiency=eff, inflow=inflow, contact=contact,
-                      balanced=balanced, valid=valid)
-
-
-def _table_general(ports, u, d, closures, opts, chunk):
-    """Speed table through the general balance (:func:`balance` / :func:`balance_closed`)."""
-    m = u.size
-    support = np.empty((m, 3))
-    power = np.empty(m)
-    eff = np.empty(m)
-    inflow = np.empty(m)
-    contact = np.empty(m, dtype=bool)
-    balanced = np.empty(m, dtype=bool)
-    valid = np.ones(m, dtype=bool)
-    for start in range(0, m, chunk):         # chunks of many speeds, bounded memory
-        sl = slice(start, min(start + chunk, m))
-        v = u[sl, None] * d
-        if closures is None:
-            b = balance(ports, v, **opts)
-        else:
-            cb = balance_closed(ports, closures, v, unreachable=FLAG, **opts)
-            b = cb.balance
-            valid[sl] = cb.valid
-        support[sl] = b.support_force
-        power[sl] = b.power
-        eff[sl] = b.jet_efficiency
-        inflow[sl] = b.inflow
-        contact[sl] = in_contact(b)
-        balanced[sl] = b.balanced
-    return _table(u, d, support, power, eff, inflow, contact, balanced, valid)
-
-
-def _table_fast(ports, u, d, closures, opts, chunk):
-    """Speed table through :class:`_Sweep`; same results as :func:`_table_general`.
-
-    The first speed goes through the general path first, so bad options raise its messages;
-    a chunk whose split is singular is handed to the general path, which names the speed.
+    Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
-    m = u.size
-    _table_general(ports, u[:1], d, closures, opts, 1)
-    sweep = _Sweep(ports, closures, d, **opts)
-    cols = np.empty((3, m))                  # support force, one contiguous row per axis
+    m = speeds.size
+    support = np.empty((3, m))
     body = np.empty((3, m))
-    out = dict(support=cols, body=body, power=np.empty(m), eff=np.empty(m), inflow=np.empty(m),
-               contact=np.empty(m, dtype=bool), balanced=np.empty(m, dtype=bool),
-               valid=np.ones(m, dtype=bool))
-    for start in range(0, m, chunk):
+    cols = dict(power=np.empty(m), jet_efficiency=np.empty(m), inflow=np.empty(m),
+                contact=np.empty(m, dtype=bool), balanced=np.empty(m, dtype=bool),
+                valid=np.empty(m, dtype=bool))
+    for start in range(0, m, chunk):          # chunks of many speeds, bounded memory
         sl = slice(start, min(start + chunk, m))
-        if not sweep.chunk(u[sl], out, sl):
-            t = _table_general(ports, u[sl], d, closures, opts, chunk)
-            cols[:, sl] = t.support_force.T
-            body[:, sl] = t.force_on_body.T
-            for key, name in (("power", "power"), ("eff", "jet_efficiency"),
-                              ("inflow", "inflow"), ("contact", "contact"),
-                              ("balanced", "balanced"), ("valid", "valid")):
-                out[key][sl] = getattr(t, name)
-    return SpeedTable(speed=u.copy(), direction=d, support_force=cols.T, force_on_body=body.T,
-                      power=out["power"], jet_efficiency=out["eff"], inflow=out["inflow"],
-                      contact=out["contact"], balanced=out["balanced"], valid=out["valid"])
-
-# --------------------------------------------------------------------------------------------
-# the speed sweep, evaluated along its fixed direction
-# --------------------------------------------------------------------------------------------
-class _Sweep:
-    """The balance of :func:`portflux.core.closures.balance_closed` specialised to V_cv = s d.
-
-    Along a fixed direction every port's relative velocity is a fixed vector plus at most a
-    multiple of s (absolute ports: w = V - s d; relative ports: w = W) or a fixed direction
-    times the closure speed q(s) = sqrt(a |w_src(s)|^2 + c) (closed outlets); mass flows follow
-    from w . n row by row. Per-port coefficient vectors are built once here; :meth:`chunk`
-    then evaluates only the (n, m) and (m,) arrays each output needs, in place, without the
-    (m, n, 3) intermediates of the general balance. The operations are those of the general
-    path (same formulas, same clipping and flags) in a different order, so results agree to
-    round-off (tests/test_sweep_fastpath.py).
-    """
-
-    def __init__(self, ports: Ports, closures, d, intercept, fluid_mass, gravity, tol):
-        n = ports.n
-        g = np.asarray(gravity, dtype=float)
-        self.n, self.d, self.tol, self.train = n, d, float(tol), intercept == TRAIN
-        self.active = [c for c in range(3) if d[c] != 0.0]
-        closed = np.zeros(n, bool) if closures is None else closures.closed
-        rel = ports.relative & ~closed
-        absol = ~ports.relative & ~closed
-        nrm = ports.normal
-        vel = ports.velocity
-        self.closed, self.rel, self.absol = closed, rel, absol
-        self.given = ports.given_flow
-        self.is_in = ports.role == IN
-        self.is_out = ports.role == OUT
-        with np.errstate(invalid="ignore"):
-            rho_a = ports.density * ports.area
-        self.rho_a = rho_a
-        self.beta = ports.beta
-        # Mass flow of a row: rho A (w . n), or the given flow (rho_a0 = 0 there).
-        self.rho_a0 = np.where(self.given, 0.0, rho_a)
-        self.m_given = np.where(self.given, ports.mass_flow, 0.0)
-        # Constant parts of w . n and v . n; the s-dependent part of absolute rows is
-        # sum over active axes of (V_c - s d_c) n_c.
-        self.abs_rows = np.flatnonzero(absol)
-        self.const_wn = np.zeros(n)
-        idle = [c for c in range(3) if c not in self.active]
-        for c in idle:
-            self.const_wn[absol] += vel[absol, c] * nrm[absol, c]
-        self.const_wn[rel] = np.einsum("ij,ij->i", vel[rel], nrm[rel])
-        self.vn_abs = np.einsum("ij,ij->i", vel, nrm)          # v . n of absolute rows
-        self.v2_abs = np.einsum("ij,ij->i", vel, vel)          # |V|^2 of absolute rows
-        self.vel, self.nrm = vel, nrm
-        # Pressure force and weight (acting only while in contact).
-        area0 = np.where(np.isnan(ports.area), 0.0, ports.area)
-        p_force = -(ports.p_gauge * area0)[:, None] * nrm
-        self.p_total = p_force.sum(axis=0)
-        self.weight = float(fluid_mass) * g
-        # Closures: q_j = sqrt(a_j |w_src|^2 + c_j) along direction E_j.
-        self.cl_rows = np.flatnonzero(closed)
-        self.flow_rows = np.zeros(0, np.intp)
-        self.flow_mask = np.zeros(n, bool)
-        self.e_n = np.zeros(n)
-        if closures is not None:
-            self._closures(ports, closures, g)
-        # Rows that may carry a jet's absolute inflow (kinetic-energy flux of incoming jets).
-        may_jet = []
-        for i in range(n):
-            if self.given[i]:
-                if ports.mass_flow[i] < 0.0:
-                    may_jet.append(i)
-            elif self.is_in[i]:
-                may_jet.append(i)
-            elif closed[i]:
-                if self.e_n[i] < 0.0:
-                    may_jet.append(i)
-            elif absol[i] or self.const_wn[i] < 0.0:
-                may_jet.append(i)
-        # Absolute inlets with computed flow: rho A max(-V.n, 0) |V|^2 / 2 for every speed.
-        steady = [i for i in may_jet if absol[i] and self.is_in[i] and not self.given[i]]
-        self.jet_const = 0.0
-        for i in steady:
-            self.jet_const += 0.5 * (rho_a[i] * max(-self.vn_abs[i], 0.0)) * self.v2_abs[i]
-        self.jet_rows = [i for i in may_jet if i not in steady]
-        self.in_rows = np.flatnonzero(self.is_in)
-        # Rows whose flow can be negative (the others add nothing to the inflow).
-        never_neg = (self.given & (ports.mass_flow >= 0.0)) | (closed & (self.e_n >= 0.0))
-        if self.train:                         # the train's scale may change signs
-            never_neg[:] = False
-        self.neg_rows = np.flatnonzero(~never_neg)
-        if self.train:
-            self.k = int(np.flatnonzero(self.is_in)[0])
-        # Declared inlets outside a train never carry a positive flow (outrun ones carry 0):
-        # their negative part is the flow itself.
-        fin = np.isfinite(self.rho_a0) & (self.rho_a0 >= 0.0)
-        self.nonpos = (self.is_in & ~self.train & ~closed & ~self.flow_mask
-                       & np.where(self.given, self.m_given <= 0.0, fin))
-        self.unroled = self.neg_rows[~(self.is_in | self.is_out)[self.neg_rows]]
-        self.abs_list = [int(i) for i in self.abs_rows]
-        self.known_rows = [i for i in range(n) if not self.flow_mask[i]]
-        self.rho_en = self.rho_a0 * self.e_n
-        self.wn_closed = [i for i in self.jet_rows if closed[i] and not self.given[i]]
-        self._pool = {}                          # scratch rows of :class:`_Chunk`
-
-    def _closures(self, ports, closures, g):
-        from .closures import BERNOULLI, LOSS
-        gmag = float(np.linalg.norm(g))
-        rows = self.cl_rows
-        self.src = closures.source[rows]
-        self.src_abs = ~ports.relative[self.src]
-        self.E = closures.direction
-        self.e_n = np.where(self.closed, np.einsum("ij,ij->i", np.nan_to_num(self.E), self.nrm),
-                            0.0)
-        rules = [closures.rule[j] for j in rows]
-        self.a = np.where([r == LOSS for r in rules], (1.0 - closures.loss[rows]) ** 2, 1.0)
-        c = np.zeros(rows.size)
-        for m, j in enumerate(rows):
-            if rules[m] == BERNOULLI:
-                k = self.src[m]
-                rho_s, rho_o = ports.density[k], ports.density[j]
-                rho_s = rho_o if np.isnan(rho_s) else rho_s
-                rho_o = rho_s if np.isnan(rho_o) else rho_o
-                c[m] = 2.0 * (ports.p_gauge[k] / rho_s - ports.p_gauge[j] / rho_o) + 2.0 * gmag * (
-                    ports.height[k] - ports.height[j])
-        self.c = c
-        given = self.vel[self.src]
-        self.s2_const = np.einsum("ij,ij->i", given, given)
-        idle = [c for c in range(3) if c not in self.active]
-        self.s2_idle = np.einsum("ij,ij->i", given[:, idle], given[:, idle])
-        self.flow_mask = closures.unknown | ~np.isnan(closures.share)
-        self.flow_rows = np.flatnonzero(self.flow_mask)
-        self.unk = np.flatnonzero(closures.unknown)
-        self.shr = np.flatnonzero(~np.isnan(closures.share))
-        self.share = closures.share[self.shr]
-        self.no_force = closures.no_force
-
-    # -- one chunk ---------------------------------------------------------------------------
-    # Rows are evaluated one by one as (m,) arrays, or as plain floats where a row does not
-    # depend on the speed (relative rows, given flows, closures fed by a relative inlet), so a
-    # constant row costs nothing per speed. Outputs are written straight into ``out``.
-    def chunk(self, s, out, sl):
-        """Evaluate speeds ``s`` (m,) into ``out`` (dict of arrays) at slice ``sl``."""
-        n, m = self.n, s.size
-        act = self.active
-        d = self.d
-        st = _Chunk(self._pool, m)
-        f = st.f
-        sd = st.sd = {c: s if d[c] == 1.0 else np.multiply(s, d[c], out=f(("sd", c)))
-                      for c in act}                        # V_cv components s d_c
-        # relative velocity components of absolute rows on the active axes: V_c - s d_c
-        wabs = st.wabs = {(i, c): np.subtract(self.vel[i, c], sd[c], out=f(("w", i, c)))
-                          for i in self.abs_list for c in act}
-        wn = [self.const_wn[i] for i in range(n)]              # floats; arrays where s enters
-        for i in self.abs_list:
-            acc = None
-            for c in act:
-                if self.nrm[i, c] == 0.0:
-                    continue
-                if acc is None:
-                    acc = np.multiply(wabs[i, c], self.nrm[i, c], out=f(("wn", i)))
-                    if self.const_wn[i] != 0.0:
-                        np.add(self.const_wn[i], acc, out=acc)
-                else:
-                    acc += np.multiply(wabs[i, c], self.nrm[i, c], out=f("tmp"))
-            if acc is not None:
-                wn[i] = acc
-        bad = []
-        if self.cl_rows.size:
-            bad = self._closure_speed(st)
-            for j in self.wn_closed:             # w . n = q E . n where a jet may enter
-                wn[j] = st.q[j] * self.e_n[j]
-        mdot = [None] * n
-        flow = self.flow_mask
-        for i in range(n):
-            if flow[i]:
-                mdot[i] = 0.0
-            elif self.given[i] and not self.closed[i]:
-                mdot[i] = self.m_given[i] + 0.0
-            elif self.given[i]:
-                mdot[i] = self.rho_a0[i] * (st.q[i] * self.e_n[i]) + self.m_given[i]
-            elif self.closed[i]:                 # rho A (E . n) q: one pass
-                mdot[i] = _times(self.rho_en[i], st.q[i], f, ("m", i))
-            else:
-                mdot[i] = _times(self.rho_a0[i], wn[i], f, ("m", i))
-        some_out = all_out = None               # some / every declared inlet outrun
-        for i in self.in_rows:                  # an outrun inlet carries nothing
-            io = (np.broadcast_to(wn[i] > 0.0, (m,)) if np.ndim(wn[i]) == 0 else
-                  np.greater(wn[i], 0.0, out=st.b(("io", i))))
-            if io.any():
-                mdot[i] = _zero_where(mdot[i], io, m)
-            some_out = io if some_out is None else some_out | io
-            all_out = io if all_out is None else all_out & io
-        scale = None
-        if self.train:
-            k = self.k
-            vn_k = self._vn_row(k, st, m)
-            wn_k = np.broadcast_to(wn[k], (m,))
-            with np.errstate(divide="ignore", invalid="ignore"):
-                scale = np.where(wn_k < 0, vn_k / wn_k, 0.0)
-            mdot = [x * scale for x in mdot]
-        inflow = out["inflow"][sl]              # -sum of the negative flows, in row order
-        terms = [mdot[i] if self.nonpos[i] else _lowest(mdot[i], f, ("neg", i))
-                 for i in self.neg_rows]       # (an inlet's flow is never positive)
-        if not terms:
-            inflow.fill(0.0)
-        elif len(terms) == 1:
-            np.negative(terms[0], out=inflow)
-        else:
-            np.add(terms[0], terms[1], out=inflow)
-            for t in terms[2:]:
-                inflow += t
-            np.negative(inflow, out=inflow)
-        # as balance(): every declared inlet outrun and no port without a role brings fluid in,
-        # or some inlet outrun and nothing enters at all
-        nc = None
-        if some_out is not None and some_out.any():
-            unroled = self.unroled
-            if unroled.size:
-                unroled_in = np.zeros(m, bool)
-                for i in unroled:
-                    unroled_in |= np.broadcast_to(mdot[i] < 0.0, (m,))
-                nc = (some_out & (inflow == 0.0)) | (all_out & ~unroled_in)
-            elif self.in_rows.size == 1:
-                nc = some_out                    # then all_out is some_out
-            else:
-                nc = (some_out & (inflow == 0.0)) | all_out
-            if not nc.any():
-                nc = None
-        if nc is not None:
-            np.copyto(inflow, 0.0, where=nc)
-            mdot = [_zero_where(x, nc, m) for x in mdot]
-        contact = out["contact"][sl]
-        np.greater(inflow, 0.0, out=contact)     # 0 where no contact (inflow set to 0 there)
-        # support force of the flows known so far, straight into the output rows
-        sup = out["support"][:, sl]
-        fixed = self._momentum_into(sup, mdot, st, self.known_rows, m)
-        for c in range(3):                       # as the general path: - p_total - weight
-            for load in (self.p_total[c], self.weight[c]):
-                if load != 0.0:
-                    if nc is None:
-                        sup[c] -= load
-                    else:
-                        sup[c] -= load * ~nc
-                    fixed[c] = False
-        imbalance = _rowsum([x for i, x in enumerate(mdot) if not flow[i] or self.train], m,
-                            f("imb"))
-        anybad = None
-        for b in bad:
-            b &= contact
-            anybad = b if anybad is None else anybad | b
-        if self.flow_rows.size:
-            skip = ~contact if anybad is None else anybad | ~contact
-            flows = self._solve(st, inflow, imbalance, sup, skip, m)
-            if flows is None:
-                return False
-            rows = self.flow_rows
-            if self.train:
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    per = np.where(scale != 0, flows / scale, 0.0)
-                mf = per * scale
-            else:
-                mf = flows
-            if nc is not None:
-                mf = np.where(nc, 0.0, mf)
-            for t, j in enumerate(rows):
-                mdot[j] = mf[t]
-            inflow[:] = inflow - np.minimum(mf, 0.0).sum(axis=0)
-            imbalance = _rowsum(mdot, m, f("imb"))
-            sup += self._momentum(mdot, st, rows, m)
-            fixed[:] = False
-        # outputs
-        power = out["power"][sl]
-        for t, c in enumerate(act):              # 0 - sum support_c s d_c: never -0.0
-            if t == 0:
-                np.multiply(sup[c], sd[c], out=power)
-                np.subtract(0.0, power, out=power)
-            else:
-                power -= np.multiply(sup[c], sd[c], out=f("tmp"))
-        eff = out["eff"][sl]
-        jet_ke = self._jet_ke(mdot, wn, st, m)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            if np.ndim(jet_ke) == 0:
-                if jet_ke > 0:
-                    np.divide(power, jet_ke, out=eff)
-                else:
-                    eff.fill(np.nan)
-            else:
-                np.divide(power, jet_ke, out=eff)
-                np.copyto(eff, np.nan, where=~(jet_ke > 0))
-            # |imbalance / inflow| <= tol where fluid enters; elsewhere balanced only when the
-            # imbalance is exactly 0 (as the general path's 0 or +-inf relative imbalance)
-            rel = np.divide(imbalance, inflow, out=f("rel"))
-        np.abs(rel, out=rel)
-        balanced = out["balanced"][sl]
-        np.less_equal(rel, self.tol, out=balanced)
-        if not contact.all():
-            dry = ~contact
-            balanced[dry] = np.broadcast_to(imbalance, (m,))[dry] == 0.0
-        if anybad is not None and anybad.any():
-            sup[:, anybad] = np.nan
-            power[anybad] = np.nan
-            eff[anybad] = np.nan
-            balanced &= ~anybad
-            out["valid"][sl] = ~anybad
-            fixed[:] = False
-        body = out["body"][:, sl]
-        for c in range(3):
-            if fixed[c]:                        # no term at all: 0 on both sides
-                body[c].fill(0.0)
-            else:
-                sup[c] += 0.0                   # no negative zeros in outputs
-                np.subtract(0.0, sup[c], out=body[c])
-        return True
-
-    def _closure_speed(self, st):
-        """Closure speeds q_j into ``st.q`` (floats for rows fed by a relative inlet); returns
-        the (m,) "unreachable" masks of the rows that can have one (c_j < 0 only)."""
-        bad = []
-        for k, j in enumerate(self.cl_rows):
-            src = self.src[k]
-            if self.src_abs[k]:
-                s2 = None
-                for c in self.active:
-                    t = st.f(("q", j) if s2 is None else "tmp")
-                    w = st.wabs.get((src, c))
-                    if w is None:
-                        np.subtract(self.vel[src, c], st.sd[c], out=t)
-                        t *= t
-                    else:
-                        np.multiply(w, w, out=t)
-                    if s2 is None:
-                        s2 = t if self.s2_idle[k] == 0.0 else np.add(self.s2_idle[k], t, out=t)
-                    else:
-                        s2 += t
-                if s2 is None:
-                    s2 = self.s2_idle[k]
-            else:
-                s2 = self.s2_const[k]
-            a, c = self.a[k], self.c[k]
-            if c < 0.0:                          # only then can the radicand reach or cross 0
-                rad = (s2 if a == 1.0 else a * s2) + c
-                rad = np.where(np.abs(rad) <= 1e-12 * (a * s2 + abs(c)), 0.0, rad)
-                b = rad < 0.0
-                if np.ndim(b) == 0:
-                    b = np.full(st.m, bool(b)) if st.m else np.zeros(0, bool)
-                bad.append(b)
-                st.q[j] = np.sqrt(np.maximum(rad, 0.0))
-                continue
-            if np.ndim(s2) == 0:
-                st.q[j] = float(np.sqrt((s2 if a == 1.0 else a * s2) + c))
-                continue
-            rad = s2                             # this chunk's own buffer: in place
-            if a != 1.0:
-                rad *= a
-            if c != 0.0:
-                rad += c
-            st.q[j] = np.sqrt(rad, out=rad)
-        return bad
-
-    def _w_row(self, i, c, st):
-        """Relative velocity component c of row i: an (m,) array or a float."""
-        if self.closed[i]:
-            return st.q[i] * self.E[i, c]
-        w = st.wabs.get((i, c))
-        return self.vel[i, c] if w is None else w
-
-    def _momentum_into(self, sup, mdot, st, rows, m):
-        """sum beta mdot w over ``rows`` written into ``sup`` (3, m); True per axis where no
-        row contributes (the axis is then 0)."""
-        fixed = np.ones(3, bool)
-        bms = {}
-        for c in range(3):
-            first = True
-            for i in rows:
-                if self.closed[i]:
-                    e = self.E[i, c]
-                    if e == 0.0:
-                        continue
-                    if i not in bms:                 # beta mdot q, then times E_c
-                        bms[i] = _times(self._bm(i, mdot, st), st.q[i], st.f, ("g", i))
-                    x, w = bms[i], e
-                else:
-                    w = self._w_row(i, c, st)
-                    if np.ndim(w) == 0 and w == 0.0:
-                        continue
-                    x = self._bm(i, mdot, st)
-                if first:
-                    np.multiply(x, w, out=sup[c])
-                    first = False
-                else:
-                    sup[c] += _times(x, w, st.f, "tmp")
-            if first:
-                sup[c].fill(0.0)
-            else:
-                fixed[c] = False
-        return fixed
-
-    def _bm(self, i, mdot, st):
-        """beta mdot of row i (the flow itself where beta is 1)."""
-        if self.beta[i] == 1.0:
-            return mdot[i]
-        return _times(self.beta[i], mdot[i], st.f, ("bm", i))
-
-    def _momentum(self, mdot, st, rows, m):
-        """sum beta mdot w over ``rows`` as (3, m)."""
-        out = np.zeros((3, m))
-        for i in rows:
-            bm = mdot[i] if self.beta[i] == 1.0 else self.beta[i] * mdot[i]
-            for c in range(3):
-                w = self._w_row(i, c, st)
-                if np.ndim(w) == 0 and w == 0.0:
-                    continue
-                out[c] += bm * w
-        return out
-
-    def _vn_row(self, i, st, m):
-        if self.absol[i]:
-            return np.full(m, self.vn_abs[i])
-        acc = np.zeros(m)
-        for c in range(3):
-            base = st.q[i] * self.E[i, c] if self.closed[i] else self.vel[i, c]
-            vc = base + st.sd[c] if c in st.sd else base
-            acc += vc * self.nrm[i, c]
-        return acc
-
-    def _v2_row(self, i, st, m):
-        if self.absol[i]:
-            return self.v2_abs[i]
-        acc = np.zeros(m)
-        for c in range(3):
-            base = st.q[i] * self.E[i, c] if self.closed[i] else self.vel[i, c]
-            vc = base + st.sd[c] if c in st.sd else base
-            acc += vc * vc
-        return acc
-
-    def _jet_ke(self, mdot, wn, st, m):
-        """Absolute kinetic-energy flux of the incoming jets [W]: a float where only steady
-        absolute inlets carry it."""
-        if not self.jet_rows:
-            return self.jet_const
-        jet_ke = np.full(m, self.jet_const)
-        for i in self.jet_rows:
-            if self.given[i]:
-                mi = np.broadcast_to(mdot[i], (m,))
-                jf = np.where(mi < 0, -mi, 0.0)
-                jf = np.where(np.isnan(jf), 0.0, jf)
-            else:
-                vn = self._vn_row(i, st, m)
-                jf = self.rho_a[i] * np.maximum(-vn, 0.0)
-                if not self.is_in[i]:
-                    jf = np.where(np.broadcast_to(wn[i], (m,)) < 0, jf, 0.0)
-            jet_ke += 0.5 * jf * self._v2_row(i, st, m)
-        return jet_ke
-
-    def _solve(self, st, inflow, imbalance, support, skip, m):
-        """Flows of shared and solved outlets (rows ``flow_rows``), or None if singular."""
-        flows = np.zeros((self.flow_rows.size, m))
-        pos = {j: t for t, j in enumerate(self.flow_rows)}
-        m_share = self.share[:, None] * inflow
-        for t, j in enumerate(self.shr):
-            flows[pos[j]] = m_share[t]
-        unk = self.unk
-        if unk.size == 0:
-            return flows
-        dirs = self.no_force
-        nc = dirs.shape[0]
-
-        def dw(j):        # (c, m): d_c . w_j
-            r = np.zeros((nc, m))
-            for c in range(3):
-                w = self._w_row(j, c, st)
-                r += dirs[:, c, None] * w
-            return r
-
-        rhs0 = -(imbalance + m_share.sum(axis=0))
-        if nc == 0 and unk.size == 1:
-            flows[pos[unk[0]]] = np.where(skip, 0.0, rhs0)
-            return flows
-        u = unk.size
-        A = np.empty((m, 1 + nc, u))
-        A[:, 0, :] = 1.0
-        for t, j in enumerate(unk):
-            A[:, 1:, t] = (self.beta[j] * dw(j)).T
-        rhs = np.empty((m, 1 + nc))
-        rhs[:, 0] = rhs0
-        r1 = np.zeros((nc, m))
-        for c in range(3):
-            r1 += dirs[:, c, None] * support[c]
-        for t, j in enumerate(self.shr):
-            r1 += dw(j) * (self.beta[j] * m_share[t])
-        rhs[:, 1:] = -r1.T
-        eye = np.eye(u)
-        A = np.where(skip[:, None, None], eye, A)
-        rhs = np.where(skip[:, None], 0.0, rhs)
-        scaled = A / np.max(np.abs(A), axis=-1, keepdims=True).clip(1e-300)
-        scaled = scaled / np.max(np.abs(scaled), axis=-2, keepdims=True).clip(1e-300)
-        if np.any(np.abs(np.linalg.det(scaled)) < _SINGULAR):
-            return None                     # the general path names the speed and raises
-        x = np.linalg.solve(A, rhs[..., None])[..., 0]
-        for t, j in enumerate(unk):
-            flows[pos[j]] = x[:, t]
-        return flows
-
-
-class _Chunk:
-    """Per-chunk state of a sweep: V_cv components, absolute rows' w, closure speeds, and
-    named scratch rows kept from chunk to chunk (fresh memory is paid once per table, not once
-    per chunk and temporary)."""
-
-    __slots__ = ("sd", "wabs", "q", "m", "pool")
-
-    def __init__(self, pool, m):
-        self.sd, self.wabs, self.q, self.pool, self.m = {}, {}, {}, pool, m
-
-    def f(self, key):
-        """Scratch float row ``key`` of this chunk's length (its values are left over)."""
-        a = self.pool.get(key)
-        if a is None or a.size < self.m:
-            a = self.pool[key] = np.empty(self.m)
-        return a[:self.m]
-
-    def b(self, key):
-        """Scratch boolean row ``key``."""
-        return self.f(key).view(bool)[:self.m]
-
-
-def _times(x, y, f, key):
-    """x * y (rows or floats) into scratch row ``key`` when the product is a row."""
-    if np.ndim(x) == 0 and np.ndim(y) == 0:
-        return x * y
-    return np.multiply(x, y, out=f(key))
-
-
-def _lowest(x, f, key):
-    """min(x, 0) of a row or float (into scratch row ``key`` for a row)."""
-    if np.ndim(x) == 0:
-        return min(x, 0.0) if not np.isnan(x) else x
-    return np.minimum(x, 0.0, out=f(key))
-
-
-def _zero_where(x, mask, m):
-    """Row ``x`` (array or float) set to 0 where ``mask``; in place for an array."""
-    if np.ndim(x) == 0:
-        return np.where(mask, 0.0, x)
-    np.copyto(x, 0.0, where=mask)
-    return x
-
-
-def _rowsum(rows, m, buf):
-    """Sum of rows (arrays or floats) in their order, as an (m,) array (``buf`` once a row
-    enters the sum)."""
-    acc = None
-    for x in rows:
-        if acc is None:
-            acc = x
-        elif np.ndim(acc) == 0 and np.ndim(x) == 0:
-            acc = acc + x
-        elif acc is buf:
-            acc += x
-        else:
-            acc = np.add(acc, x, out=buf)
-    if acc is None:
-        return np.zeros(m)
-    return np.broadcast_to(acc, (m,)) if np.ndim(acc) == 0 else acc
+        dest = dict(support_force=support[:, sl], force_on_body=body[:, sl],
+                    power=cols["power"][sl], jet_efficiency=cols["jet_efficiency"][sl],
+                    inflow=cols["inflow"][sl])
+        VT = np.zeros((3, sl.stop - sl.start))  # V_cv = U d as columns (zero rows left lazy)
+        for c in np.flatnonzero(d):
+            np.multiply(speeds[sl], d[c], out=VT[c])
+        r = model.evaluate_columns(VT, TABLE, dest=dest)
+        for key, a in dest.items():           # written in place (a copy only if not)
+            if r[key] is not a:
+                a[...] = r[key]
+        for key in ("contact", "balanced", "valid"):
+            cols[key][sl] = r[key]
+    return SpeedTable(speed=speeds.copy(), direction=d, support_force=support.T,
+                      force_on_body=body.T, **cols)
 
 
 @dataclass(frozen=True)
@@ -917,9 +340,11 @@ def best_speed(ports: Ports, bracket, direction, *, closures: Closures | None = 
     lo, hi = _bracket(bracket)
     n = _samples(samples)
     xtol = 1e-10 * (abs(lo) + abs(hi)) + 1e-12 if xtol is None else float(xtol)
-    opts = dict(closures=closures, intercept=intercept, fluid_mass=fluid_mass, gravity=gravity)
+    d = _unit(direction)
+    model = compiled(ports, closures, intercept=intercept, fluid_mass=fluid_mass,
+                     gravity=gravity)
     s = np.linspace(lo, hi, n)
-    t = speed_table(ports, s, direction, **opts)
+    t = table(model, s, d)
     p = np.where(np.isfinite(t.power), t.power, -np.inf)
     if not np.any(np.isfinite(p)):
         raise InputError(f"no speed in [{lo:g}, {hi:g}] m/s gives a result (a Bernoulli outlet "
@@ -931,7 +356,7 @@ def best_speed(ports: Ports, bracket, direction, *, closures: Closures | None = 
                          f"[{lo:g}, {hi:g}] m/s (largest {p[i]:.6g} W)")
 
     def power(x):
-        r = speed_table(ports, [x], direction, **opts).power[0]
+        r = table(model, np.array([float(x)]), d).power[0]
         return r if np.isfinite(r) else -np.inf
 
     a, b = s[max(i - 1, 0)], s[min(i + 1, n - 1)]
@@ -948,7 +373,7 @@ def best_speed(ports: Ports, bracket, direction, *, closures: Closures | None = 
         x = lo
     elif edge == "high":
         x = hi
-    final = speed_table(ports, [x], direction, **opts)
+    final = table(model, np.array([float(x)]), d)
     note = (f"the maximum lies on the {edge} end of the bracket; widen it to look beyond "
             f"{x:g} m/s" if edge else "")
     return BestSpeed(float(x), float(final.power[0]), float(final.jet_efficiency[0]), edge, True,
@@ -965,14 +390,14 @@ class ForceSpeed:
     note: str = ""      #: plain-language remark (several crossings)
 
 
-def _component(table: SpeedTable, component):
+def _component(t: SpeedTable, component):
     key = component.strip().lower() if isinstance(component, str) else component
     if key == ALONG:
-        return table.drag
+        return t.force_along
     if key == MAGNITUDE:
-        return np.linalg.norm(table.force_on_body, axis=-1)
+        return np.linalg.norm(t.force_on_body, axis=-1)
     if key in _COMPONENTS and not isinstance(key, bool):
-        return table.force_on_body[:, _COMPONENTS[key]]
+        return t.force_on_body[:, _COMPONENTS[key]]
     raise InputError(f"must be x, y, z, along or magnitude (got {component!r})",
                      argument="component")
 
@@ -1039,11 +464,13 @@ def speed_at_force(ports: Ports, value, bracket, direction, *, component=ALONG,
     if not np.isfinite(target):
         raise InputError(f"must be a finite force (got {value!r})", argument="value")
     xtol = 1e-10 * (abs(lo) + abs(hi)) + 1e-12 if xtol is None else float(xtol)
-    opts = dict(closures=closures, intercept=intercept, fluid_mass=fluid_mass, gravity=gravity)
-    _component(speed_table(ports, [lo], direction, **opts), component)   # validate early
+    d = _unit(direction)
+    model = compiled(ports, closures, intercept=intercept, fluid_mass=fluid_mass,
+                     gravity=gravity)
+    _component(table(model, np.array([lo]), d), component)   # validate early
 
     def residual(x):
-        return _component(speed_table(ports, x, direction, **opts), component) - target
+        return _component(table(model, np.asarray(x, dtype=float), d), component) - target
 
     s = np.linspace(lo, hi, n)
     f = residual(s)

@@ -6,6 +6,26 @@ per row. The numbers are invented for illustration and are not measurements of a
 
 from __future__ import annotations
 
+from dataclasses import dataclass, field
+
+
+@dataclass
+class Scenario:
+    """Inputs for the template's 'Control volume' and 'Speed sweep' sheets (plain data; the
+    workbook layer's ``fill`` writes them into a copy of the template)."""
+
+    title: str
+    ports: tuple                       #: header row, unit row, port rows
+    cv_velocity: tuple                 #: (x, y, z)
+    cv_unit: str = "m/s"
+    units: str = "SI"                  #: output units of the results
+    settings: dict = field(default_factory=dict)   #: name -> (value, unit)
+    sweep: dict = field(default_factory=dict)      #: low, high, unit, direction, force, units
+    triangle_port: int | None = None               #: port of the velocity triangle (None:
+    #: the first outlet)
+    note: str = ""
+    report: dict = field(default_factory=dict)     #: Report title block: project, case, ...
+
 
 def carriage_vane():
     """A deflector on a test carriage (the ``portflux demo`` scenario).
@@ -14,8 +34,6 @@ def carriage_vane():
     at 30 ft/s and turns the jet through 135 degrees, throwing it 10 degrees upward. The vane is
     frictionless (closure ``free``): the relative speed leaves as it arrived.
     """
-    from ..workbook.fill import Scenario
-
     return Scenario(
         title="Deflector on a test carriage (invented demo scenario)",
         ports=(

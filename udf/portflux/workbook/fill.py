@@ -9,32 +9,15 @@ worksheet functions read them); a scenario column the template lacks is an error
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass, field
 
 import openpyxl
 
-from .. import spec
+from .. import problem
 from ..core import InputError
+from ..demo.scenarios import Scenario
 from . import template as T
 from .drawing import cell
 from .report_sheet import REPORT, TITLE_FIELDS
-
-
-@dataclass
-class Scenario:
-    """Inputs for the template's 'Control volume' and 'Speed sweep' sheets."""
-
-    title: str
-    ports: tuple                       #: header row, unit row, port rows
-    cv_velocity: tuple                 #: (x, y, z)
-    cv_unit: str = "m/s"
-    units: str = "SI"                  #: output units of the results
-    settings: dict = field(default_factory=dict)   #: name -> (value, unit)
-    sweep: dict = field(default_factory=dict)      #: low, high, unit, direction, force, units
-    triangle_port: int | None = None               #: port of the velocity triangle (None:
-    #: the first outlet)
-    note: str = ""
-    report: dict = field(default_factory=dict)     #: Report title block: project, case, ...
 
 
 def _cell_name(ref: str) -> str:
@@ -69,7 +52,7 @@ def apply(wb, sc: Scenario, lay) -> None:
     if len(rows) > T.MAX_PORTS:
         raise InputError(f"the template holds {T.MAX_PORTS} ports; the scenario has "
                          f"{len(rows)}", argument="ports")
-    cols = {spec.resolve_header(h): j for j, h in enumerate(lay.ports.columns)}
+    cols = {problem.resolve_header(h): j for j, h in enumerate(lay.ports.columns)}
     top, left = lay.ports.top, lay.ports.left
     for i in range(T.MAX_PORTS):                      # clear the template's example ports
         for j in range(len(lay.ports.columns)):
@@ -77,7 +60,7 @@ def apply(wb, sc: Scenario, lay) -> None:
     for j in range(len(lay.ports.columns)):
         ws.cell(row=top + 1, column=left + j).value = None
     for k, h in enumerate(header):
-        key = spec.resolve_header(h)
+        key = problem.resolve_header(h)
         if key not in cols:
             raise InputError(f"column {h!r} is not in the template's port table (it has "
                              f"{', '.join(lay.ports.columns)})", argument="ports")

@@ -1,8 +1,9 @@
-"""The specialised speed sweep gives the same table as the general balance path.
+"""A speed table (the model evaluated on chunks of many speeds, table quantities only) gives
+the same rows as full balances evaluated one speed at a time.
 
-Reference: the general path (portflux.core.balance.balance and closures.balance_closed, each
-checked against published results in tests/test_sweep.py and tests/test_closures.py). The port
-sets are random scenarios of our own; every column must agree to 1e-9 of its own scale.
+Reference: the one-speed balance (portflux.core.balance.balance and balance_closed, each checked
+against published results in tests/test_sweep.py and tests/test_closures.py). The port sets are
+random scenarios of our own; every column must agree to 1e-9 of its own scale.
 """
 
 from __future__ import annotations
@@ -10,7 +11,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from portflux.core import TRAIN, Closures, InputError, Ports
+from portflux.core import (TRAIN, Closures, InputError, Model, Ports, balance, balance_closed,
+                           in_contact)
 from portflux.core import sweep as S
 
 COLUMNS = ("support_force", "force_on_body", "power", "jet_efficiency", "inflow")
@@ -75,37 +77,55 @@ def options(opts):
     return full
 
 
+def one_speed_at_a_time(ports, closures, d, opts, speeds):
+    """The table's columns from full balances, one CV velocity per call."""
+    cols = {k: [] for k in COLUMNS + FLAGS}
+    for u in speeds:
+        v = u * d
+        if closures is None:
+            b, valid = balance(ports, v, **opts), True
+        else:
+            cb = balance_closed(ports, closures, v, unreachable="flag", **opts)
+            b, valid = cb.balance, bool(cb.valid)
+        for k in ("support_force", "force_on_body", "power", "jet_efficiency", "inflow",
+                  "balanced"):
+            cols[k].append(getattr(b, k))
+        cols["contact"].append(bool(in_contact(b)))
+        cols["valid"].append(valid)
+    return {k: np.array(v) for k, v in cols.items()}
+
+
 def compare(ports, closures, d, opts, speeds):
     dd = S._unit(d)
     full = options(opts)
-    fast = S._table_fast(ports, speeds, dd, closures, full, 37)
-    ref = S._table_general(ports, speeds, dd, closures, full, 37)
+    table = S.speed_table(ports, speeds, dd, closures=closures, chunk=37, **full)
+    ref = one_speed_at_a_time(ports, closures, dd, full, speeds)
     for name in COLUMNS:
-        a, b = getattr(fast, name), getattr(ref, name)
+        a, b = getattr(table, name), ref[name]
         np.testing.assert_array_equal(np.isnan(a), np.isnan(b), err_msg=name)
         scale = np.nanmax(np.abs(b)) if np.any(np.isfinite(b)) else 1.0
         np.testing.assert_allclose(a, b, rtol=1e-9, atol=1e-9 * max(scale, 1e-300),
                                    err_msg=name)
     for name in FLAGS:
-        np.testing.assert_array_equal(getattr(fast, name), getattr(ref, name), err_msg=name)
-    return fast
+        np.testing.assert_array_equal(getattr(table, name), ref[name], err_msg=name)
+    return table
 
 
 @pytest.mark.parametrize("seed", range(80))
-def test_fast_sweep_equals_general_balance_on_random_port_sets(seed):
+def test_speed_table_equals_one_speed_balances_on_random_port_sets(seed):
     try:
         case = random_case(seed)
     except InputError:
         pytest.skip("random ports not valid (checked by Ports.build)")
     speeds = np.linspace(-60.0, 60.0, 301)
     try:
-        S._table_general(case[0], speeds[:1], S._unit(case[2]), case[1], options(case[3]), 1)
+        Model(case[0], case[1], **options(case[3]))
     except InputError:
-        pytest.skip("options rejected by the general path (e.g. a train needs one inlet)")
+        pytest.skip("options rejected by the model (e.g. a train needs one inlet)")
     compare(*case, speeds)
 
 
-def test_fast_sweep_covers_each_closure_kind_and_the_vane_train():
+def test_random_cases_cover_each_closure_kind_and_the_vane_train():
     seen = set()
     for seed in range(80):
         try:
@@ -121,18 +141,19 @@ def test_fast_sweep_covers_each_closure_kind_and_the_vane_train():
     assert seen >= {"none", "free", "loss", "bernoulli", "solve", "train"}
 
 
-def test_tables_long_enough_take_the_fast_path(monkeypatch):
+def test_a_long_table_evaluates_the_model_once_per_chunk(monkeypatch):
     calls = []
-    real = S._Sweep.chunk
-    monkeypatch.setattr(S._Sweep, "chunk", lambda self, *a: calls.append(1) or real(self, *a))
+    real = Model.evaluate_columns
+    monkeypatch.setattr(Model, "evaluate_columns", lambda self, *a, **k: calls.append(1) or real(
+        self, *a, **k))
     ports, closures, d, opts = random_case(3)
-    S.speed_table(ports, np.linspace(0, 20, S._FAST_MIN), d, closures=closures)
-    assert calls
+    S.speed_table(ports, np.linspace(0, 20, 1000), d, closures=closures, chunk=256)
+    assert len(calls) == 4          # ceil(1000 / 256) chunks, no loop per speed
 
 
-def test_singular_split_still_raises_the_general_message():
+def test_singular_split_in_a_table_names_the_speed():
     # Source: common practice, no source: a no-force direction perpendicular to both unknown
-    # outlets leaves the split undetermined (the general path names the speed).
+    # outlets leaves the split undetermined (the message names the speed).
     p = Ports.build(area=[3e-4, 1.0, 1.0], density=998.0, role=["in", "out", "out"],
                     velocity=[[25.0, 0, 0], [0, 1.0, 0], [0, -1.0, 0]])
     c = Closures.build(p, ["", "solve", "solve"], no_force=[0.0, 0.0, 1.0])

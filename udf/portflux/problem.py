@@ -1,10 +1,12 @@
-"""The port-table schema: column names, their quantity kinds, and rows -> :class:`core.Ports`.
+"""The problem builder: port rows + units + closures + settings -> the compiled core model.
 
 This layer sits between :mod:`portflux.units` and its users (the Python API and the worksheet
-functions). It knows column names and units, nothing about spreadsheets or engines. A table is a
-mapping ``column key -> list of row values`` (float, int, str or None for blank) plus a mapping
-``column key -> unit string``; :func:`build` converts each column to SI once and validates every
-port, raising :class:`InputError` that names the port (0-based row index) and the column.
+functions), and is the one pipeline both use. It knows column names and units, nothing about
+spreadsheets or engines. A port table is a mapping ``column key -> list of row values`` (float,
+int, str or None for blank) plus a mapping ``column key -> unit string``; :func:`build` converts
+each column to SI once and validates every port, raising :class:`InputError` that names the
+port (0-based row index) and the column. :func:`build_problem` then adds the closures (with the
+no-force directions of the :class:`Settings`) and compiles the :class:`portflux.core.Model`.
 """
 
 from __future__ import annotations
@@ -15,11 +17,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import units as U
-from .excel import ERROR_VALUES, is_blank, shown  # noqa: F401  (re-exported)
-from .core import InputError, Ports, polar_velocity
-from .core.closures import Closures
-
-EXCEL_ERRORS = ERROR_VALUES
+from .core import (DEFAULT_IMBALANCE_TOL, FREE, GIVEN, LOSS, SINGLE, SOLVE, STANDARD_GRAVITY,
+                   Closures, InputError, Model, Ports, polar_velocity)
+from .excel import ERROR_VALUES, is_blank, shown
 
 
 @dataclass(frozen=True)
@@ -86,6 +86,13 @@ _HEADERS = {}   # header text as typed -> column key (resolved once per spelling
 def resolve_header(text) -> str:
     """Column key for a header cell: case-insensitive, spaces and underscores ignored.
 
+    Parameters
+    ----------
+    text : str
+        The header as typed.
+
+    Reference: common practice, no source (column names of this package).
+
     >>> resolve_header("Mass Flow"), resolve_header("P_GAUGE"), resolve_header("rho")
     ('mass_flow', 'p_gauge', 'density')
     """
@@ -115,7 +122,7 @@ def number(v, port: int, col: str) -> float:
         return f
     if isinstance(v, str):
         s = v.strip()
-        if s.upper() in EXCEL_ERRORS:
+        if s.upper() in ERROR_VALUES:
             raise InputError(f"holds the spreadsheet error {s}; fix the cell it comes from",
                              port=port, field=col)
         raise InputError(f"expected a number, got text {shown(v)}", port=port, field=col)
@@ -128,7 +135,7 @@ def text(v, port: int, col: str) -> str:
         return ""
     if isinstance(v, str):
         s = v.strip()
-        if s.upper() in EXCEL_ERRORS:
+        if s.upper() in ERROR_VALUES:
             raise InputError(f"holds the spreadsheet error {s}", port=port, field=col)
         return s
     if col in ("port", "source") and isinstance(v, (int, float)) and not isinstance(v, bool):
@@ -136,9 +143,10 @@ def text(v, port: int, col: str) -> str:
     raise InputError(f"expected text, got {shown(v)}", port=port, field=col)
 
 
-@dataclass
+@dataclass(eq=False)
 class PortTable:
-    """A port table converted to SI: the core :class:`Ports` and the closure columns."""
+    """A port table converted to SI: the core :class:`Ports`, the closure columns, and the
+    headers as the user typed them (for messages)."""
 
     ports: Ports
     closure: tuple = ()          #: per port: "given", "free", "loss", "bernoulli", "solve"
@@ -149,10 +157,17 @@ class PortTable:
     #: per port: the flow is set by a closure condition ('solve', a share, or a closed outlet
     #: typed without area or mass flow, whose flow follows from continuity)
     flow_by_closure: np.ndarray = None
+    headers: dict = field(default_factory=dict)  #: column key -> header text as typed
 
     @property
     def n(self) -> int:
+        """Number of ports."""
         return self.ports.n
+
+    @property
+    def names(self) -> tuple:
+        """Port labels."""
+        return self.ports.names
 
     @property
     def uses_closures(self) -> bool:
@@ -169,23 +184,107 @@ class PortTable:
         return self.flow_by_closure & ~solve & np.isnan(self.share)
 
 
-def build_closures(pt: PortTable, no_force=None) -> Closures | None:
-    """The outlet closures a port table declares (None when it declares none).
+def closures_of(pt: PortTable, no_force=(), *, kinematic=False) -> Closures | None:
+    """The outlet closures a port table declares, under no-force directions (None: none).
 
     Parameters
     ----------
     pt : PortTable
-        Built with ``closures=True``.
-    no_force : array_like (k, 3), optional
-        Directions along which the body carries no force (frictionless surfaces) [-].
+        Built by :func:`build`.
+    no_force : array_like (k, 3)
+        Directions along which the body carries no force (frictionless surfaces) [-]. Given
+        with no unknown outlet flow, they are refused (by :meth:`Closures.build`, one message).
+    kinematic : bool
+        Keep only the speed rules ('solve' becomes its speed rule; shares and no-force
+        directions dropped): what the velocity results need, which never depend on the flows.
+        The full closures are still validated, except for the count of flow conditions.
+
+    Examples
+    --------
+    >>> t = build({"role": ["in", "out", "out"], "area": [3e-4, None, None],
+    ...            "density": [998.0] * 3, "speed": [25.0, None, None],
+    ...            "angle": [0.0, 40.0, 220.0], "closure": ["", "solve", "solve"]})
+    >>> closures_of(t, [[0.766, 0.643, 0.0]]).unknown.tolist()
+    [False, True, True]
+
+    Reference: common practice, no source (input rules of this package).
     """
+    nf = None if no_force is None or not len(no_force) else np.asarray(no_force, dtype=float)
     if not pt.uses_closures:
+        if nf is not None:                      # the one message: extra conditions
+            Closures.build(pt.ports, None, no_force=nf)
         return None
     unknown = pt.unknown_flow
-    return Closures.build(pt.ports, list(pt.closure), loss=pt.loss, source=list(pt.source),
-                          share=pt.share, unknown=unknown if unknown.any() else None,
-                          no_force=None if no_force is None or not len(no_force)
-                          else np.asarray(no_force, dtype=float))
+    try:
+        c = Closures.build(pt.ports, list(pt.closure), loss=pt.loss, source=list(pt.source),
+                           share=pt.share, unknown=unknown if unknown.any() else None,
+                           no_force=nf)
+    except InputError as e:
+        if not (kinematic and e.argument == "no_force"):
+            raise
+    if kinematic:
+        rules = [(LOSS if not math.isnan(k) else FREE) if r == SOLVE else r
+                 for r, k in zip(pt.closure, pt.loss)]
+        c = Closures.build(pt.ports, rules, loss=pt.loss, source=list(pt.source))
+    return c
+
+
+@dataclass(frozen=True)
+class Settings:
+    """Options of a problem, in SI."""
+
+    fluid_mass: float = 0.0                                 #: fluid inside the CV [kg]
+    gravity: tuple = (0.0, 0.0, -STANDARD_GRAVITY)          #: gravity vector [m/s^2]
+    tolerance: float = DEFAULT_IMBALANCE_TOL                #: relative imbalance tolerance [-]
+    intercept: str = SINGLE                                 #: "single" vane or vane "train"
+    no_force: tuple = ()     #: unit directions (3-tuples) along which the support force is zero
+
+
+@dataclass(frozen=True, eq=False)
+class Problem:
+    """A port table with its closures and settings, compiled into a core :class:`Model`."""
+
+    table: PortTable
+    settings: Settings
+    closures: Closures | None
+    model: Model
+
+    @property
+    def ports(self) -> Ports:
+        """The SI ports."""
+        return self.table.ports
+
+
+def build_problem(table: PortTable, settings: Settings = Settings(), *, tolerance=None,
+                  kinematic=False) -> Problem:
+    """Closures and options of a port table compiled into the core model.
+
+    Parameters
+    ----------
+    table : PortTable
+        Built by :func:`build`.
+    settings : Settings
+        Fluid mass [kg], gravity [m/s^2], tolerance [-], intercept, no-force directions [-].
+    tolerance : float, optional
+        Overrides ``settings.tolerance`` [-].
+    kinematic : bool
+        Velocities only (see :func:`closures_of`).
+
+    Examples
+    --------
+    >>> t = build({"role": ["in", "out"], "area": [2e-3, 2e-3], "density": [998.0, 998.0],
+    ...            "speed": [30.0, None], "angle": [0.0, 150.0], "closure": ["", "free"]})
+    >>> pb = build_problem(t)
+    >>> round(float(pb.model.balance([10.0, 0, 0]).force_on_body[0]), 3)  # rho A (V-U)^2 (1-cos)
+    1489.835
+
+    Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
+    """
+    c = closures_of(table, settings.no_force, kinematic=kinematic)
+    tol = settings.tolerance if tolerance is None else tolerance
+    model = Model(table.ports, c, intercept=settings.intercept, fluid_mass=settings.fluid_mass,
+                  gravity=settings.gravity, tol=tol)
+    return Problem(table, settings, c, model)
 
 
 def _where(mask) -> list:
@@ -203,11 +302,12 @@ _NUMERIC = frozenset((float, int, type(None)))
 
 _FRAMES = {"": False, "abs": False, "absolute": False, "fixed": False,
            "rel": True, "relative": True, "moving": True}
-_CLOSURES = {"": "given", "given": "given", "free": "free", "frictionless": "free",
+_CLOSURES = {"": GIVEN, "given": "given", "free": "free", "frictionless": "free",
              "loss": "loss", "bernoulli": "bernoulli", "solve": "solve"}
 
 
-def build(table: dict, units: dict | None = None, *, closures: bool = False) -> PortTable:
+def build(table: dict, units: dict | None = None, *, closures: bool = True,
+          headers: dict | None = None) -> PortTable:
     """Validate and convert a port table to SI.
 
     With ``closures=True`` the caller evaluates the closure columns (closure, loss, source,
@@ -229,8 +329,10 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
         Column key -> unit string; missing or blank means the column's default unit (SI;
         angles in degrees).
     closures : bool
-        True when the caller applies the closure columns (see above); default False (every
-        port needs its own velocity and area, as for a plain balance).
+        True (default) when the caller applies the closure columns (see above); False: every
+        port needs its own velocity and area, as for a plain balance.
+    headers : dict, optional
+        Column key -> header text as the user typed it (kept for messages).
 
     Returns
     -------
@@ -249,8 +351,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
 
     >>> t = build({"role": ["in", "out", "out"], "area": [3e-4, None, None],
     ...            "density": [998.0] * 3, "speed": [25.0, None, None],
-    ...            "angle": [0.0, 40.0, 220.0], "closure": ["", "solve", "solve"]},
-    ...           closures=True)
+    ...            "angle": [0.0, 40.0, 220.0], "closure": ["", "solve", "solve"]})
     >>> t.closure, t.ports.velocity[1].round(4).tolist()
     (('given', 'solve', 'solve'), [0.766, 0.6428, 0.0])
     """
@@ -268,8 +369,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
         kind = COLUMNS[key].kind
         if kind is None:
             if not is_blank(unit):
-                raise InputError(f"is a text column and takes no unit (got {shown(unit)})",
-                                 field=key)
+                raise InputError(f"is a text column and takes no unit (got {shown(unit)})", field=key)
             continue
         try:
             factors[key] = U.factor(unit, kind)
@@ -403,7 +503,8 @@ def build(table: dict, units: dict | None = None, *, closures: bool = False) -> 
         raise _in_user_units(e, table, units) from None
     return PortTable(ports=ports, closure=tuple(kinds), loss=loss, source=tuple(words("source")),
                      share=share, units={k: units.get(k) for k in table},
-                     flow_by_closure=np.zeros(n, dtype=bool) if flow_set is None else flow_set)
+                     flow_by_closure=np.zeros(n, dtype=bool) if flow_set is None else flow_set,
+                     headers=dict(headers or {}))
 
 
 def _in_user_units(e: InputError, table: dict, units: dict) -> InputError:

@@ -1,0 +1,866 @@
+"""The compiled control-volume model: the one implementation of the physics of a moving CV.
+
+A :class:`Model` is built once from validated :class:`~portflux.core.ports.Ports`, optional
+:class:`~portflux.core.closures.Closures` and the options (intercept, fluid mass, gravity,
+tolerance). Building it turns every port into a row of coefficients, so that its relative
+velocity at any CV velocity V is::
+
+    w_i(V) = W0_i - a_i V + q_i(V) E_i
+
+with a_i = 1 for a port typed in the absolute frame (W0_i = V_i), a_i = 0 for one typed in the
+relative frame (W0_i = W_i), and, for an outlet whose speed a closure sets, W0_i = 0, a_i = 0 and
+q_i(V) = sqrt(a_c |w_src(V)|^2 + c) along the unit direction E_i. Every reported quantity is a
+sum over ports of these rows, so :meth:`Model.evaluate` works on (n, m) arrays (one row per
+port, one column per CV velocity): products over the port axis are matrix products, there is
+no Python loop over speeds, and a caller names the quantities it needs (the others are not
+computed). Balances of one CV velocity, stacks of velocities, speed tables and the optimum-speed
+finders are all drivers of this one evaluation (:mod:`portflux.core.balance`,
+:mod:`portflux.core.sweep`).
+
+Physics (Reynolds transport theorem for a CV translating at constant velocity, steady in the CV
+frame; F. M. White, *Fluid Mechanics*, sec. 3.4, from memory)::
+
+    mdot_i = rho_i (w_i . n_i) A_i                          + out of the CV
+    R      = sum_i beta_i mdot_i w_i + sum_i p_i A_i n_i - m g   support force on the fluid
+    F_body = -R,   P = F_body . V_cv
+
+Adding a per-port quantity (e.g. a position r_i for moments) means one more coefficient row in
+:meth:`Model.__init__` and one more product in :meth:`Model.evaluate` (see DEVELOPERS.md,
+"How to add a port column").
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .closures import BERNOULLI, LOSS, Closures  # noqa: F401  (Closures: doctests)
+from .errors import InputError, OutsideScopeError
+from .geometry import STANDARD_GRAVITY
+from .ports import IN, OUT, UNKNOWN, Ports
+
+DEFAULT_IMBALANCE_TOL = 1e-3
+"""Default relative mass-imbalance tolerance [-] (0.1 % of the inflow)."""
+
+SINGLE, TRAIN = "single", "train"
+RAISE, FLAG = "raise", "flag"
+
+#: CV velocities evaluated per chunk (bounds the (n, m) intermediates of a long table).
+CHUNK = 2 ** 16
+
+_SINGULAR = 1e-10  # |det| of the row- and column-scaled split system below which none is defined
+
+#: Quantity groups :meth:`Model.evaluate` can be asked for.
+FORCES = "forces"          # support force, force on body (always computed: they need flows)
+POWER = "power"            # power F_body . V_cv
+JET = "jet"                # jet kinetic-energy flux and jet efficiency
+WAKE = "wake"              # net kinetic-energy outflow and propulsive efficiency
+FRAME = "frame"            # absolute/relative momentum flux cross-check
+PORTS = "ports"            # per-port (m, n, 3) arrays w, v_abs, momentum flux, role flags
+CLOSURE = "closure"        # closure speeds, reversed flows, stream areas
+ALL = frozenset((FORCES, POWER, JET, WAKE, FRAME, PORTS, CLOSURE))
+TABLE = frozenset((FORCES, POWER, JET))
+
+
+def cv_velocities(v_cv) -> np.ndarray:
+    """CV velocity array [m/s] of shape (..., 3), checked finite.
+
+    >>> cv_velocities([1.0, 2.0, 3.0]).tolist()
+    [1.0, 2.0, 3.0]
+
+    Reference: common practice, no source (input check).
+    """
+    v = np.asarray(v_cv, dtype=float)
+    if v.ndim == 0 or v.shape[-1] != 3:
+        raise InputError(f"must have 3 components (got shape {v.shape})", argument="cv_velocity")
+    if not np.all(np.isfinite(v)):
+        raise InputError("must be finite numbers", argument="cv_velocity")
+    return v
+
+
+#: Balance fields computed only when read, by the quantity group that holds them.
+_ON_DEMAND = {"power": POWER, "jet_ke_flux": JET, "jet_efficiency": JET, "ke_flux_net": WAKE,
+              "propulsive_efficiency": WAKE, "flux_absolute": FRAME, "flux_relative": FRAME,
+              "frame_difference": FRAME, "w": PORTS, "v_abs": PORTS, "momentum_flux": PORTS,
+              "inlet_outflow": PORTS, "outlet_inflow": PORTS, "outflow": PORTS,
+              "weight": PORTS, "notes": CLOSURE, "closure_speed": CLOSURE,
+              "unreachable": CLOSURE, "reversed_flow": CLOSURE, "stream_area": CLOSURE}
+
+
+class Balance:
+    """Result of a balance: per-port arrays and CV totals, all SI.
+
+    Shapes use ``...`` for the leading axes of ``v_cv`` (none for one CV velocity) and ``n`` for
+    the ports. Sign conventions are explicit in the names: ``support_force`` acts on the fluid
+    (from the solid), ``force_on_body`` = -``support_force`` acts on the moving body. Flows,
+    forces and the mass balance are computed with the balance; the other quantities (power,
+    efficiencies, per-port vectors, the frame cross-check) when first read.
+
+    Attributes
+    ----------
+    v_cv : (..., 3) CV velocity [m/s]
+    w, v_abs : (..., n, 3) relative and absolute velocity [m/s]
+    mass_flow : (..., n) signed mass flow, + out [kg/s]
+    inflow, outflow : (...) total mass inflow and outflow [kg/s] (>= 0)
+    imbalance : (...) sum of mass flows [kg/s]; imbalance_rel: imbalance / inflow [-]
+    balanced : (...) |imbalance_rel| <= tol
+    momentum_flux : (..., n, 3) beta mdot w per port [N]
+    pressure_force : (n, 3) -p A n on the fluid [N]; weight: (..., 3) of the fluid [N]
+    support_force : (..., 3) force of the solid on the fluid, R [N]
+    force_on_body : (..., 3) force of the fluid on the body, -R [N]
+    power : (...) power delivered to the body F_body . V_cv [W]
+    jet_ke_flux : (...) absolute kinetic-energy flux of incoming jets [W]
+    ke_flux_net : (...) net outflow of absolute kinetic energy [W]
+    jet_efficiency : (...) power / jet_ke_flux [-] (NaN without a jet)
+    propulsive_efficiency : (...) power / (power + ke_flux_net) [-] (NaN if n/a)
+    flux_absolute, flux_relative : (..., 3) sum mdot V and sum mdot w [N]
+    frame_difference : (..., 3) flux_absolute - flux_relative [N]
+    frame_expected : (..., 3) V_cv * imbalance [N]
+    inlet_outflow : (..., n) declared inlet whose relative flow leaves
+    outlet_inflow : (..., n) declared outlet whose relative flow enters
+    no_contact : (...) body outruns every jet: no flow, no force
+    intercept : "single" vane or vane "train"; tolerance: relative imbalance tolerance [-]
+    notes : extra notes from closures and solvers
+    """
+
+    def __init__(self, model, v, r):
+        self.ports, self.v_cv = model.ports, v
+        self.intercept, self.tolerance = model.intercept, model.tol
+        self.pressure_force = model.pressure_force
+        self._model, self._r, self._lead = model, r, v.shape[:-1]
+        self._fill(("mass_flow", "inflow", "imbalance", "imbalance_rel", "balanced",
+                    "support_force", "force_on_body", "no_contact"))
+        imb = np.asarray(r.get("unblanked_imbalance", r["imbalance"])).reshape(self._lead)
+        self.frame_expected = v * imb[..., None]
+
+    def _shape(self, key, a):
+        lead, n = self._lead, self._model.n
+        a = np.asarray(a)
+        if a.ndim == 1:                             # (m,) -> lead (scalar for one velocity)
+            a = a.reshape(lead)
+            return a.item() if a.ndim == 0 else a
+        if a.ndim == 3:                             # (m, n, 3) -> (..., n, 3)
+            return a.reshape(lead + (n, 3))
+        rows = 3 if key in ("support_force", "force_on_body", "weight", "flux_absolute",
+                            "flux_relative") else n
+        return np.ascontiguousarray(a.T).reshape(lead + (rows,))
+
+    def _fill(self, keys):
+        for key in keys:
+            self.__dict__[key] = self._shape(key, self._r[key])
+
+    def __getattr__(self, name):
+        group = _ON_DEMAND.get(name)
+        if group is None or name.startswith("_"):
+            raise AttributeError(name)
+        r = self._r
+        if group not in r.setdefault("groups", set()):
+            flat = self.v_cv.reshape(-1, 3)
+            more = self._model.evaluate(flat, {group}, FLAG)
+            for key, value in more.items():
+                r.setdefault(key, value)
+            r["groups"].add(group)
+        if group == CLOSURE:
+            self.__dict__["notes"] = tuple(self._model.notes(r))
+            self._fill(("closure_speed", "unreachable", "reversed_flow", "stream_area"))
+        elif group == FRAME:
+            self._fill(("flux_absolute", "flux_relative"))
+            self.frame_difference = self.flux_absolute - self.flux_relative
+        else:
+            self._fill([k for k, g in _ON_DEMAND.items() if g == group and k in r])
+        return self.__dict__[name]
+
+    @property
+    def status(self):
+        """One word per CV velocity: "no contact", "imbalance" or "ok" (array of str)."""
+        s = np.where(self.no_contact, "no contact", np.where(self.balanced, "ok", "imbalance"))
+        return s.item() if s.ndim == 0 else s
+
+    def warnings(self) -> list[str]:
+        """Plain-language warnings, naming ports by label (evaluated over all CV velocities)."""
+        out = []
+        names = self.ports.names
+        io = np.asarray(self.inlet_outflow).reshape(-1, self.ports.n).any(axis=0)
+        oi = np.asarray(self.outlet_inflow).reshape(-1, self.ports.n).any(axis=0)
+        for i in np.flatnonzero(io):
+            out.append(f"port {names[i]}: declared inlet but its relative flow leaves the CV "
+                       f"(the body outruns this jet); its mass flow is set to 0")
+        for i in np.flatnonzero(oi):
+            out.append(f"port {names[i]}: declared outlet but its relative flow enters the CV")
+        if np.any(self.no_contact):
+            out.append("no contact: no jet reaches the moving body; flows and forces are 0")
+        bad = ~np.asarray(self.balanced) & ~np.asarray(self.no_contact)
+        if np.any(bad):
+            worst = np.nanmax(np.abs(np.where(bad, self.imbalance_rel, 0.0)))
+            out.append(f"mass imbalance up to {worst:.3g} of the inflow exceeds the tolerance "
+                       f"{self.tolerance:g}")
+        out.extend(self.notes)
+        return out
+
+
+class ClosedBalance:
+    """A :class:`Balance` plus what the closures found (read when first asked for).
+
+    Attributes of the balance (``force_on_body``, ``power``, ...) are readable directly.
+
+    Attributes
+    ----------
+    balance : Balance
+    closure_speed : (..., n) relative speed set by a closure [m/s] (NaN: given)
+    unreachable : (..., n) Bernoulli outlet cannot be reached (in contact)
+    reversed_flow : (..., n) solved or shared outlet flow comes out inward
+    stream_area : (..., n) area implied by a solved/shared flow [m^2] (for a vane train, that
+        of the whole train's intercepted flow)
+    """
+
+    def __init__(self, balance: Balance):
+        self.balance = balance
+
+    def __getattr__(self, name):
+        if name == "balance" or name.startswith("_"):
+            raise AttributeError(name)
+        return getattr(self.balance, name)
+
+    @property
+    def valid(self) -> np.ndarray:
+        """True at CV velocities where every closure could be met (results are numbers)."""
+        return ~np.any(self.unreachable, axis=-1)
+
+
+def in_contact(b: Balance) -> np.ndarray:
+    """True where fluid reaches the body: not outrun (see ``no_contact``) and a positive inflow.
+
+    At U = V exactly the body keeps pace with the jet: no inlet is outrun, yet nothing flows in.
+
+    Parameters
+    ----------
+    b : Balance
+        A balance at one or many CV velocities (flows [kg/s]).
+
+    Examples
+    --------
+    >>> p = Ports.build(area=[1e-3, 1e-3], density=998.0, role=["in", "out"],
+    ...                 velocity=[[10.0, 0, 0], [0, 10.0, 0]])
+    >>> in_contact(Model(p).balance([[5.0, 0, 0], [10.0, 0, 0], [15.0, 0, 0]])).tolist()
+    [True, False, False]
+
+    Reference: common practice, no source (contact rule of this package, see DEVELOPERS.md).
+    """
+    return ~np.asarray(b.no_contact, dtype=bool) & (np.asarray(b.inflow) > 0)
+
+
+class Model:
+    """A port set compiled with its closures and options, ready to evaluate at CV velocities.
+
+    .. math::
+
+        \\vec w_i = \\vec W_{0,i} - a_i \\vec V_{cv} + q_i \\hat E_i, \\qquad
+        \\dot m_i = \\rho_i (\\vec w_i \\cdot \\hat n_i) A_i, \\qquad
+        \\vec R = \\sum_i \\beta_i \\dot m_i \\vec w_i + \\sum_i p_i A_i \\hat n_i - m \\vec g
+
+    Parameters
+    ----------
+    ports : Ports
+        Validated ports (SI).
+    closures : Closures, optional
+        Outlet speed rules and flow conditions built for ``ports``.
+    intercept : {"single", "train"}
+        "single": one vane moving away from a fixed nozzle intercepts rho A (w.n);
+        "train": a vane train (bucket wheel) intercepts the nozzle's full absolute flow
+        rho A (V.n); all flows are scaled by that ratio, relative velocities are unchanged.
+    fluid_mass : float
+        Mass of fluid inside the CV [kg] (its weight enters the balance); default 0.
+    gravity : array_like (3,)
+        Gravity vector g [m/s^2]; default (0, 0, -9.80665).
+    tol : float
+        Relative mass-imbalance tolerance [-]; default 1e-3.
+    cv_acceleration : array_like (3,), optional
+        Must be zero or absent [m/s^2]: accelerating CVs are outside the steady inertial form.
+
+    Examples
+    --------
+    A 0.002 m^2 water jet at 30 m/s on a vane turning it through 120 degrees, the vane running
+    away at 10 m/s, then at 0, 10 and 40 m/s at once:
+
+    >>> th = np.radians(120)
+    >>> p = Ports.build(area=[0.002, 0.002], density=998.0, role=["in", "out"],
+    ...                 velocity=[[30.0, 0, 0], [20 * np.cos(th), 20 * np.sin(th), 0]],
+    ...                 relative=[False, True])
+    >>> model = Model(p)
+    >>> round(float(model.balance([10.0, 0, 0]).force_on_body[0]), 6)  # rho A (V-U)^2 (1-cos th)
+    1197.6
+    >>> r = model.evaluate(np.array([[0.0, 0, 0], [10.0, 0, 0], [40.0, 0, 0]]))
+    >>> r["power"].round(3).tolist(), r["contact"].tolist()
+    ([0.0, 11976.0, 0.0], [True, True, False])
+
+    Reference: moving-vane result F_x = rho A (V-U)^2 (1 - cos theta), White, *Fluid
+    Mechanics*, sec. 3.4 (from memory).
+    """
+
+    def __init__(self, ports: Ports, closures: Closures | None = None, *, intercept=SINGLE,
+                 fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_GRAVITY),
+                 tol=DEFAULT_IMBALANCE_TOL, cv_acceleration=None):
+        if cv_acceleration is not None and np.any(np.asarray(cv_acceleration, float) != 0.0):
+            raise OutsideScopeError(
+                "cv_acceleration: an accelerating control volume is outside the steady "
+                "inertial form; give a constant CV velocity (acceleration 0)")
+        if intercept not in (SINGLE, TRAIN):
+            raise InputError(f"must be 'single' or 'train' (got {intercept!r})",
+                             argument="intercept")
+        if not (np.isfinite(tol) and tol >= 0):
+            raise InputError(f"must be >= 0 (got {tol})", argument="tolerance")
+        fluid_mass = float(fluid_mass)
+        if not np.isfinite(fluid_mass) or fluid_mass < 0:
+            raise InputError(f"must be >= 0 (got {fluid_mass})", argument="fluid_mass")
+        g = np.asarray(gravity, dtype=float)
+        if g.shape != (3,) or not np.all(np.isfinite(g)):
+            raise InputError("must be 3 finite components", argument="gravity")
+        n = ports.n
+        self.ports, self.closures, self.n = ports, closures, n
+        self.intercept, self.tol, self.train = intercept, float(tol), intercept == TRAIN
+        role = ports.role
+        self.is_in, self.is_out, self.unroled = role == IN, role == OUT, role == UNKNOWN
+        self.any_in = bool(self.is_in.any())
+        self.given = ports.given_flow
+        self.m_given = np.where(self.given, ports.mass_flow, 0.0)
+        if self.train:
+            inlets = np.flatnonzero(self.is_in)
+            if inlets.size != 1 or self.given[inlets[0]]:
+                raise InputError("a vane train needs exactly one declared inlet whose flow is "
+                                 "computed from area, density and velocity",
+                                 argument="intercept")
+            self.k = int(inlets[0])
+        # -- coefficient rows: w = W0 - a V + q E ---------------------------------------------
+        closed = np.zeros(n, bool) if closures is None else closures.closed
+        self.closed = closed
+        self.cl = np.flatnonzero(closed)
+        self.a = np.where(~ports.relative & ~closed, 1.0, 0.0)
+        self.b = 1.0 - self.a                      # v_abs = W0 + b V + q E
+        self.W0 = np.where(closed[:, None], 0.0, ports.velocity)
+        self.N = ports.normal
+        self.W0n = np.einsum("ij,ij->i", self.W0, self.N)
+        self.W0sq = np.einsum("ij,ij->i", self.W0, self.W0)
+        with np.errstate(invalid="ignore"):
+            rho_a = ports.density * ports.area     # NaN where the flow is given or solved
+        self.rho_a0 = np.where(np.isnan(rho_a), 0.0, rho_a)
+        self.beta = ports.beta
+        area0 = np.where(np.isnan(ports.area), 0.0, ports.area)
+        self.pressure_force = -(ports.p_gauge * area0)[:, None] * self.N      # on the fluid
+        self.p_total = self.pressure_force.sum(axis=0)
+        self.weight = fluid_mass * g
+        # -- closures: q_j = sqrt(a_j |w_src|^2 + c_j) along E_j --------------------------------
+        self.flow = np.zeros(n, bool)
+        if closures is not None:
+            self._compile_closures(ports, closures, float(np.linalg.norm(g)))
+        self.flow_rows = np.flatnonzero(self.flow)
+        self.aN = self.a[:, None] * self.N
+        self.w0_rows = [np.flatnonzero(self.W0[:, c] != 0.0) for c in range(3)]
+        # rows whose flow may be negative: declared inlets (outside a train, never positive)
+        # and the rest that are not surely >= 0 (closed outlets along their normal, given
+        # outflows); solved and shared flows are added after the split
+        En = self.En if self.cl.size else np.zeros(n)
+        surely_pos = ((self.given & (ports.mass_flow >= 0.0)) | (self.closed & (En >= 0.0))
+                      | self.flow)
+        inlet = self.is_in & ~self.train
+        self.in_rows = np.flatnonzero(inlet)
+        self.neg_rows = np.flatnonzero(~inlet & (~surely_pos | self.train))
+        self.beta_one = bool(np.all(self.beta == 1.0))
+        self.loads_any = bool(np.any(self.p_total != 0.0) or np.any(self.weight != 0.0))
+        self._compile_jets(ports)
+
+    def _compile_jets(self, ports):
+        """Split the jet kinetic-energy flux into a constant (absolute inlets with computed
+        flow: rho A max(-V.n, 0) |V|^2 / 2) and the rows evaluated per CV velocity."""
+        steady = self.is_in & ~self.given & (self.a == 1.0)
+        vn = np.einsum("ij,ij->i", ports.velocity, self.N)
+        v2 = np.einsum("ij,ij->i", ports.velocity, ports.velocity)
+        self.jet_const = float(np.sum(0.5 * self.rho_a0[steady] * np.maximum(-vn[steady], 0.0)
+                                      * v2[steady]))
+        En = self.En if self.cl.size else np.zeros(self.n)
+        never = (self.given & (ports.mass_flow >= 0.0) & ~self.train) | (
+            self.closed & (En >= 0.0) & ~self.given)
+        self.jet_rows = np.flatnonzero(~steady & ~never)
+
+    def _compile_closures(self, ports, c: Closures, gmag):
+        cl = self.cl
+        self.E = np.where(self.closed[:, None], np.nan_to_num(c.direction), 0.0)
+        self.En = np.einsum("ij,ij->i", self.E, self.N)
+        self.src = c.source[cl]
+        rules = [c.rule[j] for j in cl]
+        self.qa = np.where([r == LOSS for r in rules], (1.0 - c.loss[cl]) ** 2, 1.0)
+        qc = np.zeros(cl.size)
+        for m, j in enumerate(cl):
+            if rules[m] == BERNOULLI:
+                k = self.src[m]
+                rho_s, rho_o = ports.density[k], ports.density[j]
+                rho_s = rho_o if np.isnan(rho_s) else rho_s
+                rho_o = rho_s if np.isnan(rho_o) else rho_o
+                qc[m] = 2.0 * (ports.p_gauge[k] / rho_s - ports.p_gauge[j] / rho_o) + 2.0 * gmag * (
+                    ports.height[k] - ports.height[j])
+        self.qc = qc
+        self.bernoulli = bool(np.any(qc != 0.0))
+        self.flow = c.unknown | ~np.isnan(c.share)
+        self.unk = np.flatnonzero(c.unknown)
+        self.shr = np.flatnonzero(~np.isnan(c.share))
+        self.share = c.share[self.shr]
+        self.no_force = c.no_force
+
+    # ------------------------------------------------------------------------------------------
+    def closure_speeds(self, v_cv):
+        """Relative speed q [m/s] of each closed outlet at CV velocities ``v_cv`` (m, 3), and
+        whether its rule has no real value there (q is then 0), as (k, m) arrays for the
+        closed outlets in port order.
+
+        .. math:: q^2 = a \\,|\\vec w_{src}|^2 + c
+
+        Parameters
+        ----------
+        v_cv : array_like (m, 3)
+            CV velocities [m/s].
+
+        Examples
+        --------
+        >>> p = Ports.build(area=[1e-3, 1e-3], density=998.0, role=["in", "out"],
+        ...                 velocity=[[12.0, 0, 0], [0, 1.0, 0]], height=[0.0, 2.0])
+        >>> q, bad = Model(p, Closures.build(p, ["", "bernoulli"])).closure_speeds([[0.0, 0, 0]])
+        >>> round(float(q[0, 0]), 6), bool(bad[0, 0])    # sqrt(12^2 - 2 g 2)
+        (10.235888, False)
+
+        Reference: Bernoulli's equation along a streamline in the steady (CV) frame, White,
+        *Fluid Mechanics*, sec. 3.5 (from memory).
+        """
+        return self._closure_speeds(np.ascontiguousarray(np.asarray(v_cv, dtype=float).T))
+
+    def _closure_speeds(self, VT, active=(0, 1, 2)):
+        m = VT.shape[1]
+        if not self.cl.size:
+            return np.zeros((0, m)), np.zeros((0, m), bool)
+        src = self.src
+        s2 = None                              # |w_src|^2 component by component (no cancelling)
+        const = np.zeros((src.size, 1))
+        for c in range(3):
+            w0 = self.W0[src, c, None]
+            if c in active and self.a[src].any():
+                wc = np.multiply(VT[c], -self.a[src, None])
+                wc += w0
+                wc *= wc
+                if s2 is None:
+                    s2 = wc
+                else:
+                    s2 += wc
+            else:
+                const += w0 * w0
+        if s2 is None:
+            s2 = np.broadcast_to(const, (src.size, m)).copy()
+        elif const.any():
+            s2 += const
+        rad = s2
+        if np.any(self.qa != 1.0):
+            rad *= self.qa[:, None]
+        if self.bernoulli:                     # c != 0: clip round-off, flag negative values
+            lin = rad.copy()
+            rad += self.qc[:, None]
+            rad = np.where(np.abs(rad) <= 1e-12 * (lin + np.abs(self.qc)[:, None]), 0.0, rad)
+            bad = rad < 0.0
+            return np.sqrt(np.maximum(rad, 0.0)), bad
+        return np.sqrt(rad), np.zeros(rad.shape, bool)
+
+    def evaluate(self, v_cv, want=ALL, unreachable=FLAG) -> dict:
+        """Evaluate the model at CV velocities ``v_cv`` (m, 3) [m/s]; a dict of SI arrays.
+
+        Always present: ``mass_flow`` (n, m) [kg/s], ``inflow``, ``imbalance`` [kg/s],
+        ``imbalance_rel`` [-], ``balanced``, ``no_contact``, ``contact``, ``valid`` (m,),
+        ``support_force``, ``force_on_body`` (3, m) [N]. With ``want`` holding "power":
+        ``power`` (m,) [W]; "jet": ``jet_ke_flux`` [W], ``jet_efficiency`` [-]; "wake":
+        ``ke_flux_net`` [W], ``propulsive_efficiency`` [-]; "frame": ``flux_absolute``,
+        ``flux_relative`` (3, m) [N]; "ports": ``w``, ``v_abs``, ``momentum_flux`` (m, n, 3),
+        ``inlet_outflow``, ``outlet_inflow`` (n, m), ``outflow`` (m,) [kg/s], ``weight``
+        (3, m) [N]; "closure": ``closure_speed`` (n, m) [m/s], ``unreachable``,
+        ``reversed_flow`` (n, m), ``stream_area`` (n, m) [m^2].
+        Results at CV velocities where a Bernoulli outlet cannot be reached are NaN
+        (``valid`` False); ``unreachable="raise"`` raises :class:`InputError` instead.
+
+        Parameters
+        ----------
+        v_cv : array_like (m, 3)
+            CV velocities [m/s].
+        want : set of str
+            Quantity groups (see the module constants ``POWER``, ``JET``, ...).
+        unreachable : {"flag", "raise"}
+            What an unreachable Bernoulli outlet does.
+
+        Examples
+        --------
+        >>> p = Ports.build(area=[1e-3, 1e-3], density=1000.0, role=["in", "out"],
+        ...                 velocity=[[20.0, 0, 0], [0, 15.0, 0]], relative=[False, True])
+        >>> r = Model(p).evaluate([[5.0, 0, 0]], want={"power"})
+        >>> r["support_force"].ravel().tolist(), r["power"].tolist()  # rho A w^2 (-1, 1, 0)
+        ([-225.0, 225.0, 0.0], [1125.0])
+
+        Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
+        """
+        V = np.asarray(v_cv, dtype=float)
+        return self.evaluate_columns(np.ascontiguousarray(V.reshape(-1, 3).T), want,
+                                     unreachable)
+
+    def evaluate_columns(self, VT, want=ALL, unreachable=FLAG, dest=None) -> dict:
+        """:meth:`evaluate` on CV velocities given as columns ``VT`` (3, m) [m/s].
+
+        Parameters
+        ----------
+        VT : ndarray (3, m)
+            CV velocities as columns [m/s].
+        want, unreachable
+            As in :meth:`evaluate`.
+        dest : dict, optional
+            Preallocated arrays for ``support_force`` and ``force_on_body`` (3, m) [N],
+            ``power`` (m,) [W] and ``jet_efficiency`` (m,) [-]: those results are written there
+            (a speed table's output columns, with no copy).
+
+        Examples
+        --------
+
+        >>> p = Ports.build(area=[1e-3, 1e-3], density=1000.0, role=["in", "out"],
+        ...                 velocity=[[20.0, 0, 0], [0, 20.0, 0]])
+        >>> Model(p).evaluate_columns(np.zeros((3, 1)))["force_on_body"].ravel().tolist()
+        [400.0, -400.0, 0.0]
+
+        Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
+        """
+        dest = dest or {}
+        m = VT.shape[1]
+        n = self.n
+        out = {}
+        active = [c for c in range(3) if VT[c].any()]  # components of V_cv not all zero
+        wn = self.aN @ VT                                     # w_i . n_i = W0.n - a n.V
+        np.subtract(self.W0n[:, None], wn, out=wn)
+        cl = self.cl
+        q = bad = None
+        if cl.size:
+            q, bad = self._closure_speeds(VT, active)         # (k, m)
+            wn[cl] = q * self.En[cl, None]
+        # -- mass flows -----------------------------------------------------------------------
+        mdot = np.multiply(wn, self.rho_a0[:, None])
+        if self.given.any():
+            mdot[self.given] = self.m_given[self.given, None]
+        if self.flow.any():
+            mdot[self.flow] = 0.0                             # solved below
+        inlet_outflow = self.is_in[:, None] & (wn > 0.0)      # an outrun inlet carries nothing
+        np.copyto(mdot, 0.0, where=inlet_outflow)
+        if self.train:
+            k = self.k
+            with np.errstate(divide="ignore", invalid="ignore"):
+                scale = np.where(wn[k] < 0, (wn[k] + self.N[k] @ VT) / wn[k], 0.0)
+            mdot *= scale
+        inflow = self._inflow(mdot, dest.get("inflow"))
+        # No contact: the body outruns every jet. Either every declared inlet is outrun and no
+        # port without a declared role brings fluid in (an outlet typed in the absolute frame
+        # may then show a spurious inflow: it has no fluid to carry), or some inlet is outrun
+        # and nothing enters at all. A CV at rest with zero flows is statics, not "no contact".
+        some_out = inlet_outflow.any(axis=0)
+        if self.any_in:
+            all_out = (inlet_outflow | ~self.is_in[:, None]).all(axis=0)
+            if self.unroled.any():
+                all_out &= ~(mdot[self.unroled] < 0.0).any(axis=0)
+        else:
+            all_out = np.zeros(m, bool)
+        no_contact = all_out | ((inflow == 0.0) & some_out)
+        if no_contact.any():
+            np.copyto(mdot, 0.0, where=no_contact)
+            np.copyto(inflow, 0.0, where=no_contact)
+        contact = ~no_contact & (inflow > 0.0)
+        if bad is not None:
+            bad &= contact
+        any_bad = np.zeros(m, bool) if bad is None else bad.any(axis=0)
+        if self.flow_rows.size:
+            flows = self._split(VT, q, mdot, inflow, any_bad | ~contact)
+            mdot[self.flow_rows] = flows
+            inflow += -np.minimum(flows, 0.0).sum(axis=0)
+        if unreachable == RAISE and any_bad.any():
+            at = int(np.argmax(any_bad))
+            j = int(cl[int(np.argmax(bad[:, at]))])
+            raise InputError(f"Bernoulli closure: the outlet cannot be reached from inlet "
+                             f"{self.ports.names[self.closures.source[j]]!r} at CV velocity "
+                             f"{np.round(VT[:, at], 9).tolist()} m/s (the outlet's pressure and "
+                             f"height head exceed the inlet's total head in the moving frame)",
+                             port=j, field="closure")
+        imbalance = mdot.sum(axis=0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            imbalance_rel = imbalance / inflow
+        dry = inflow <= 0.0                             # no inflow: 0, or +-inf if imbalanced
+        if dry.any():
+            imb = imbalance[dry]
+            imbalance_rel[dry] = np.where(imb == 0, 0.0, np.copysign(np.inf, imb))
+        out.update(mass_flow=mdot, inflow=inflow, imbalance=imbalance,
+                   imbalance_rel=imbalance_rel, balanced=np.abs(imbalance_rel) <= self.tol,
+                   no_contact=no_contact, contact=contact, valid=~any_bad)
+        if PORTS in want:
+            out["outflow"] = np.maximum(mdot, 0.0).sum(axis=0)
+        # -- forces: sum_i beta mdot w_i = W0^T k - V (a . k) + E^T (k q) ---------------------
+        kb = mdot if self.beta_one else self.beta[:, None] * mdot
+        support = self._sum_w(kb, VT, q, self.a, dest.get("support_force"), active)
+        touching = ~no_contact
+        if self.loads_any:                              # pressure and weight act in contact
+            support -= (self.p_total + self.weight)[:, None] * touching
+        support += 0.0                                  # no negative zeros in outputs
+        body = np.subtract(0.0, support, out=dest.get("force_on_body"))   # (0 - 0 = +0)
+        out.update(support_force=support, force_on_body=body)
+        if PORTS in want:
+            out["weight"] = self.weight[:, None] * touching
+        if want & {POWER, JET, WAKE}:
+            power = dest.get("power")
+            power = np.zeros(m) if power is None else power
+            if active:
+                np.multiply(body[active[0]], VT[active[0]], out=power)
+                for c in active[1:]:
+                    power += body[c] * VT[c]
+                power += 0.0
+            else:
+                power.fill(0.0)
+            out["power"] = power
+        if JET in want:
+            jet_ke = self._jet_ke(VT, q, wn, mdot)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                eff = np.divide(out["power"], jet_ke, out=dest.get("jet_efficiency"))
+            if np.ndim(jet_ke) == 0:
+                if not jet_ke > 0:
+                    eff.fill(np.nan)
+            else:
+                np.copyto(eff, np.nan, where=~(jet_ke > 0))
+            out["jet_efficiency"] = eff
+            out["jet_ke_flux"] = np.broadcast_to(jet_ke, (m,))
+        if want & {WAKE}:
+            v2 = self._v_abs2(VT, q)
+            if WAKE in want:
+                ke_net = 0.5 * (mdot * v2).sum(axis=0)
+                power = out["power"]
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    denom = power + ke_net
+                    out["propulsive_efficiency"] = np.where(
+                        (power > 0) & (denom > 1e-12 * np.maximum(power, 1.0)), power / denom,
+                        np.nan)
+                out["ke_flux_net"] = ke_net
+        if FRAME in want:
+            out["flux_relative"] = self._sum_w(mdot, VT, q, self.a)
+            out["flux_absolute"] = self._sum_w(mdot, VT, q, -self.b)
+        if PORTS in want:
+            V = VT.T
+            w = self.W0[None] - self.a[None, :, None] * V[:, None, :]
+            if cl.size:
+                w[:, cl] = q.T[..., None] * self.E[cl]
+            out["w"] = w
+            out["v_abs"] = w + V[:, None, :]
+            out["momentum_flux"] = kb.T[..., None] * w
+            out["inlet_outflow"] = inlet_outflow
+            out["outlet_inflow"] = self.is_out[:, None] & (wn < 0.0)
+        if CLOSURE in want:
+            speed = np.full((n, m), np.nan)
+            unreach = np.zeros((n, m), bool)
+            if cl.size:
+                speed[cl] = q
+                unreach[cl] = bad
+            out["closure_speed"] = speed
+            out["unreachable"] = unreach
+            out["reversed_flow"] = self.flow[:, None] & (mdot < -1e-9 * np.abs(inflow))
+            dens = self.ports.density[:, None]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                out["stream_area"] = np.where(self.flow[:, None] & (wn > 0), mdot / (dens * wn),
+                                              np.nan)
+        if any_bad.any():
+            _blank(out, any_bad)
+        return out
+
+    def _sum_w(self, k, VT, q, a, out=None, active=(0, 1, 2)):
+        """sum_i k_i (W0_i - a_i V + q_i E_i) over ports, shape (3, m) (``active``: the
+        components of V that are not all zero)."""
+        m = k.shape[1]
+        ak = a @ k if active else None
+        if m < 512:                                   # few speeds: matrix products
+            s = np.matmul(self.W0.T, k, out=out)
+            for c in active:
+                s[c] -= VT[c] * ak
+            if q is not None:
+                s += self.E[self.cl].T @ (k[self.cl] * q)
+            return s
+        s = np.empty((3, m)) if out is None else out  # many: a pass per non-zero coefficient
+        kq = None if q is None else [k[j] * q[t] for t, j in enumerate(self.cl)]
+        for c in range(3):
+            rows = self.w0_rows[c]
+            if rows.size:
+                np.multiply(k[rows[0]], self.W0[rows[0], c], out=s[c])
+                for i in rows[1:]:
+                    s[c] += self.W0[i, c] * k[i]
+            else:
+                s[c].fill(0.0)
+            if c in active:
+                s[c] -= VT[c] * ak
+            if kq is not None:
+                for t, j in enumerate(self.cl):
+                    if self.E[j, c] != 0.0:
+                        s[c] += self.E[j, c] * kq[t]
+        return s
+
+    def _inflow(self, mdot, out=None):
+        """Total inflow -sum min(mdot, 0) [kg/s] over the rows that can carry one (declared
+        inlets outside a train never carry a positive flow: their flow itself)."""
+        rows, inlets = self.neg_rows, self.in_rows
+        acc = np.zeros(mdot.shape[1]) if out is None else out
+        if inlets.size:
+            np.subtract(0.0, mdot[inlets[0]], out=acc)       # (0 - 0 = +0)
+            for i in inlets[1:]:
+                acc -= mdot[i]
+        else:
+            acc.fill(0.0)
+        if rows.size:
+            acc -= np.minimum(mdot[rows], 0.0).sum(axis=0)
+        return acc
+
+    def _jet_ke(self, VT, q, wn, mdot):
+        """Absolute kinetic-energy flux [W] of the incoming jets: sum over ports that may bring
+        a jet in of (1/2) mdot_abs |V|^2, mdot_abs = rho A max(-V.n, 0) (computed flow, a
+        declared inlet or a port whose relative flow enters) or max(-mdot, 0) (given flow).
+        Absolute inlets with computed flow give a constant, found once at compile time."""
+        rows = self.jet_rows
+        if not rows.size:
+            return self.jet_const
+        v2 = self._v_abs2(VT, q)[rows]
+        given = self.given[rows, None]
+        vn = wn[rows] + self.N[rows] @ VT
+        flow = np.where(given, np.maximum(-mdot[rows], 0.0),
+                        np.where(self.is_in[rows, None] | (wn[rows] < 0.0),
+                                 self.rho_a0[rows, None] * np.maximum(-vn, 0.0), 0.0))
+        return self.jet_const + 0.5 * (flow * v2).sum(axis=0)
+
+    def _v_abs2(self, VT, q):
+        """|v_abs|^2 (n, m) with v_abs = W0 + b V + q E."""
+        VV = (VT * VT).sum(axis=0)
+        b = self.b[:, None]
+        v2 = self.W0sq[:, None] + 2.0 * b * (self.W0 @ VT) + (b * b) * VV
+        if q is not None:
+            cl = self.cl
+            v2[cl] = q * q + 2.0 * q * (self.E[cl] @ VT) + VV
+        return v2
+
+    def _split(self, VT, q, mdot, inflow, skip):
+        """Final (intercepted) flows of shared and solved outlets (rows ``flow_rows``)."""
+        m = VT.shape[1]
+        flows = np.zeros((self.n, m))
+        shr, unk = self.shr, self.unk
+        m_share = self.share[:, None] * inflow                     # (s, m)
+        flows[shr] = m_share
+        if unk.size:
+            d = self.no_force                                      # (c, 3)
+            u, nc = unk.size, d.shape[0]
+            rhs0 = -(mdot.sum(axis=0) + m_share.sum(axis=0))
+            if nc == 0 and u == 1:                                 # continuity alone
+                x = np.where(skip, 0.0, rhs0)[None]
+            else:
+                rows = np.concatenate([unk, shr])
+                dW = d @ self.W0[rows].T                           # (c, r)
+                dV = d @ VT                                        # (c, m)
+                dw = dW[:, :, None] - self.a[rows][None, :, None] * dV[:, None, :]
+                if q is not None:
+                    pos = {int(j): t for t, j in enumerate(self.cl)}
+                    for t, j in enumerate(rows):
+                        if self.closed[j]:
+                            dw[:, t] += (d @ self.E[j])[:, None] * q[pos[int(j)]]
+                kb = self.beta[:, None] * mdot
+                # support force of the known flows (only speeds in contact are solved)
+                support1 = (self._sum_w(kb, VT, q, self.a) - self.p_total[:, None]
+                            - self.weight[:, None])
+                A = np.empty((m, 1 + nc, u))
+                A[:, 0, :] = 1.0
+                A[:, 1:, :] = np.moveaxis(self.beta[unk][None, :, None] * dw[:, :u], 2, 0)
+                rhs = np.empty((m, 1 + nc))
+                rhs[:, 0] = rhs0
+                rhs[:, 1:] = -(d @ support1 + np.einsum(
+                    "csm,s,sm->cm", dw[:, u:], self.beta[shr], m_share)).T
+                A = np.where(skip[:, None, None], np.eye(u), A)
+                rhs = np.where(skip[:, None], 0.0, rhs)
+                # Conditioning: a no-force row is measured against the unknown outlets' momentum
+                # per unit flow (beta |w|), so a direction perpendicular to every unknown outlet
+                # reads as singular, not as round-off blown up to size one.
+                size = np.zeros((u, m))
+                for t, j in enumerate(unk):
+                    if self.closed[j]:
+                        size[t] = q[int(np.flatnonzero(self.cl == j)[0])]
+                    else:
+                        wj = self.W0[j][:, None] - self.a[j] * VT
+                        size[t] = np.sqrt((wj * wj).sum(axis=0))
+                size = np.max(self.beta[unk][:, None] * size, axis=0).clip(1e-300)
+                scaled = A.copy()
+                scaled[:, 1:, :] /= np.where(skip, 1.0, size)[:, None, None]
+                scaled = scaled / np.max(np.abs(scaled), axis=-2, keepdims=True).clip(1e-300)
+                singular = np.abs(np.linalg.det(scaled)) < _SINGULAR
+                if np.any(singular):
+                    at = int(np.argmax(singular))
+                    raise InputError(
+                        f"the no-force directions and the unknown outlets' directions do not "
+                        f"fix the split (singular system at CV velocity "
+                        f"{np.round(VT[:, at], 9).tolist()} m/s); a direction may be "
+                        f"perpendicular to every unknown outlet", argument="no_force")
+                x = np.linalg.solve(A, rhs[..., None])[..., 0].T
+            flows[unk] = x
+        return flows[self.flow_rows]
+
+    # -- drivers' helpers ----------------------------------------------------------------------
+    def balance(self, v_cv, *, unreachable=RAISE, closed=False):
+        """The full :class:`Balance` (or :class:`ClosedBalance` with ``closed=True``).
+
+        Parameters
+        ----------
+        v_cv : array_like (3,) or (..., 3)
+            CV velocity or velocities [m/s].
+        unreachable : {"raise", "flag"}
+            What an unreachable Bernoulli outlet does (see :meth:`evaluate`).
+        closed : bool
+            Return the :class:`ClosedBalance` (closure speeds, stream areas) around it.
+
+        Examples
+        --------
+        >>> p = Ports.build(area=[1e-3, 1e-3], density=1000.0, role=["in", "out"],
+        ...                 velocity=[[20.0, 0, 0], [0, 20.0, 0]])
+        >>> Model(p).balance([0.0, 0, 0]).force_on_body.tolist()     # rho A V^2 (1, -1, 0)
+        [400.0, -400.0, 0.0]
+
+        Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
+        """
+        v = cv_velocities(v_cv)
+        r = self.evaluate(v.reshape(-1, 3), frozenset(), unreachable)
+        r["groups"] = set()
+        b = Balance(self, v, r)
+        return ClosedBalance(b) if closed else b
+
+    def notes(self, r) -> list:
+        """Notes on the closures of an evaluation ``r`` holding the "closure" group."""
+        notes = []
+        if self.closures is None:
+            return notes
+        for j in np.flatnonzero(r["reversed_flow"].any(axis=1)):
+            notes.append(f"port {self.ports.names[j]}: the conditions give an inward flow at "
+                         f"this outlet; the declared split is not physical here")
+        for j in np.flatnonzero(r["unreachable"].any(axis=1)):
+            notes.append(f"port {self.ports.names[j]}: Bernoulli outlet cannot be reached "
+                         f"at some CV velocities; results there are NaN")
+        return notes
+
+
+#: Results set to NaN where a Bernoulli outlet cannot be reached (by their trailing shape).
+_BLANK = ("mass_flow", "momentum_flux", "support_force", "force_on_body", "flux_absolute",
+          "flux_relative", "power", "jet_efficiency", "propulsive_efficiency", "ke_flux_net",
+          "outflow", "imbalance", "imbalance_rel")
+
+
+def _blank(out, mask):
+    """NaN the results in ``out`` at the CV velocities (columns) where ``mask`` is True."""
+    out["unblanked_imbalance"] = out["imbalance"].copy()
+    for key in _BLANK:
+        if key not in out:
+            continue
+        a = out[key]
+        if key == "momentum_flux":
+            a[mask] = np.nan                        # (m, n, 3)
+        else:
+            a[..., mask] = np.nan                   # (m,), (n, m), (3, m)
+    out["balanced"] = out["balanced"] & ~mask
+    if "stream_area" in out:
+        out["stream_area"][:, mask] = np.nan
