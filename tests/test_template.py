@@ -169,6 +169,14 @@ def test_demo_writes_a_result_workbook_with_the_carriage_vane_forces(tmp_path, c
         min_row=r, max_row=r + n - 1, max_col=2, values_only=True))
     assert vals["force on body x [lbf]"] == pytest.approx(fx, rel=1e-9)
     assert vals["status"] == "ok"
+    # the sweep's bracket is read in the speed unit typed beside it (0 to 110 ft/s), and the
+    # best speed of a single vane is V/3 (White, Fluid Mechanics, sec. 3.4, from memory)
+    c, r, n, _ = T.BEST_AT
+    best = dict(row[:2] for row in openpyxl.load_workbook(out, data_only=True)[T.SWEEP]
+                .iter_rows(min_row=r, max_row=r + n - 1, min_col=c, max_col=c + 1,
+                           values_only=True) if row[0])
+    assert best["bracket high [ft/s]"] == pytest.approx(110.0, rel=1e-12)
+    assert best["speed of maximum power [ft/s]"] == pytest.approx(110.0 / 3, rel=1e-6)
 
 
 def test_template_command_writes_a_workbook(tmp_path):

@@ -21,6 +21,7 @@ import zipfile
 
 from ..core import PortfluxError
 from .check import recalc
+from .output import write_atomic
 from .report_sheet import REPORT
 
 PAPER = {"a4": "9", "letter": "1"}       #: OOXML paperSize codes
@@ -114,15 +115,9 @@ def write_report(in_path, out_path, *, paper="a4", soffice=None, progress=False)
             tail = (done.stderr or done.stdout or "").strip().splitlines()[-3:]
             raise ReportError("LibreOffice could not render the report: "
                               + (" | ".join(tail) or f"exit code {done.returncode}"))
-        fd, part = tempfile.mkstemp(dir=out_dir, prefix=".portflux-", suffix=".pdf")
-        os.close(fd)
-        try:
-            shutil.copyfile(pdf, part)
-            os.replace(part, out_path)
-        except BaseException:
-            if os.path.exists(part):
-                os.unlink(part)
-            raise
+        with open(pdf, "rb") as f:
+            data = f.read()
+        write_atomic(out_path, lambda f: f.write(data))   # the user's umask, no partial file
     return out_path
 
 

@@ -537,6 +537,11 @@ def _speed_sweep(wb, lay: Layout):
         put(ws, 2, 3 + i, value, fill=INPUT_FILL)
     low, high, unit, direc, force, U = (cell(2, 3 + i) for i in range(6))
     lay.sweep_cells = dict(low=low, high=high, unit=unit, direction=direc, force=force, units=U)
+    # the bracket ends carry the speed unit in the cell beside them: a (number, unit) pair is
+    # what PFX_BESTSPEED and PFX_SPEEDATFORCE read, so the bracket is in the unit typed above
+    for r in (3, 4):
+        formula(ws, 3, r, f"={unit}", font=ITALIC)
+    low_u, high_u = rng(2, 3, 3, 3, SWEEP), rng(2, 4, 3, 4, SWEEP)
     put(ws, 3, 7, "force on the body along the direction, in the output force unit")
     P = f"{q(CV)}!{lay.ports.ref}"
     S = f"{q(CV)}!{lay.settings_ref}"
@@ -565,7 +570,7 @@ def _speed_sweep(wb, lay: Layout):
     bl, btop, brows, _ = BEST_AT
     put(ws, bl, btop - 1, "Speed of maximum power", font=BOLD)
     raw.show("best speed", "PFX_BESTSPEED",
-             f"=PFX_BESTSPEED({P},{Sh(low)},{Sh(high)},{Sh(direc)},{Sh(U)},{S})", ws,
+             f"=PFX_BESTSPEED({P},{low_u},{high_u},{Sh(direc)},{Sh(U)},{S})", ws,
              _block_at(bl, btop))
     best = cell(bl + 1, btop + 1)
     for k in range(SWEEP_POINTS):
@@ -577,7 +582,7 @@ def _speed_sweep(wb, lay: Layout):
     put(ws, sl, stop - 1, "Speed at which the force on the body falls to the given value",
         font=BOLD)
     raw.show("speed at force", "PFX_SPEEDATFORCE",
-             f'=PFX_SPEEDATFORCE({P},{Sh(force)},{Sh(low)},{Sh(high)},"along",{Sh(direc)},'
+             f'=PFX_SPEEDATFORCE({P},{Sh(force)},{low_u},{high_u},"along",{Sh(direc)},'
              f'{Sh(U)},{S})', ws, _block_at(sl, stop), row_fmts={3: "0"})
     # axis titles with units, read from the speed table's header
     put(ws, bl, stop + 8, "chart axis titles", font=ITALIC)
