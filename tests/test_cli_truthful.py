@@ -21,7 +21,7 @@ from openpyxl.worksheet.formula import ArrayFormula
 import portflux.workbook.check as check_module
 from portflux.cli import main
 from portflux.workbook import output
-from portflux.workbook.audit import Audit, Finding, audit, describe, is_message
+from portflux.workbook.audit import Audit, Finding, audit, describe, is_message, read_formulas
 
 PORTS = [("port", "role", "area", "density", "vx"), (None, None, "m^2", "kg/m^3", "m/s"),
          ("jet", "in", 0.01, 1000.0, 30.0), ("exit", "out", 0.01, 1000.0, 30.0)]
@@ -116,6 +116,21 @@ def test_the_shipped_template_has_padding_but_no_findings(tmp_path):
     summary = recalc(src, tmp_path / "o.xlsx")
     found = audit(src, summary.values)
     assert found.clean and found.padding > 0 and summary.error_cells   # all its #N/A pad
+    # the engine's own reading of the formulas (what the command line uses) is the file's
+    formulas, arrays = read_formulas(src)
+    assert summary.arrays == arrays
+    assert {k: t.lstrip("=") for k, t in summary.formulas.items()} == \
+        {k: t.lstrip("=") for k, t in formulas.items()}
+    assert audit(src, summary.values, summary.formulas, summary.arrays) == found
+
+
+def test_findings_are_the_same_from_the_engines_reading_and_from_the_file(tmp_path):
+    from portflux.workbook.check import recalc
+
+    src = workbook(tmp_path / "in.xlsx", {"H1": "=PFX_POWER(A1:E4, 10)", "H2": "=1/0"})
+    summary = recalc(src, tmp_path / "o.xlsx")
+    by_engine = audit(src, summary.values, summary.formulas, summary.arrays)
+    assert by_engine == audit(src, summary.values) and not by_engine.clean
 
 
 def test_recalc_refuses_to_write_over_its_input(tmp_path, capsys):

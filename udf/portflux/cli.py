@@ -148,7 +148,7 @@ def cmd_recalc(args) -> int:
                             f"choose another output path")
     summary = _recalc_into(args.input, args.output, quiet=args.quiet,
                            values_only=args.values_only, engine=args.engine)
-    found = audit(args.input, summary.values)
+    found = audit(args.input, summary.values, summary.formulas, summary.arrays)
     if not found.clean:
         _report_cells(found)
         print(f"portflux: {args.output} written, but its cells report the problems above",
@@ -178,7 +178,7 @@ def cmd_check(args) -> int:
         except WorkbookError as e:
             raise WorkbookError(str(e).replace(out, os.fspath(name))
                                 .replace(os.fspath(src), os.fspath(name))) from None
-        found = audit(src, summary.values)     # reads src: inside the temporary folder's life
+        found = audit(src, summary.values, summary.formulas, summary.arrays)   # may read src: inside the temporary folder's life
     print(format_cases(results))
     _report_cells(found)
     return 0 if all(c.passed for c in results) and found.clean else 1

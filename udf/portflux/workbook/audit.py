@@ -147,7 +147,8 @@ def _padding(grid: list[list[Key]], values: Mapping) -> set:
     return {k for i, r in enumerate(grid) for j, k in enumerate(r) if (i >= h or j >= w)}
 
 
-def audit(in_path, values: Mapping[Key, object]) -> Audit:
+def audit(in_path, values: Mapping[Key, object], formulas: Mapping | None = None,
+          arrays: Mapping | None = None) -> Audit:
     """Find the portflux messages and the error values among a recalculation's cell values.
 
     Parameters
@@ -157,12 +158,16 @@ def audit(in_path, values: Mapping[Key, object]) -> Audit:
     values : mapping
         ``{(sheet, cell): value}`` of every formula cell and array-covered cell, as
         :class:`~portflux.workbook.engine.RecalcSummary` gives them.
+    formulas, arrays : mapping, optional
+        The formula texts and array ranges as the engine read them
+        (:class:`~portflux.workbook.engine.RecalcSummary`); read from ``in_path`` when not given.
     """
     errs = [k for k, v in values.items() if is_error(v)]
     msgs = [k for k, v in values.items() if is_message(v)]
     if not errs and not msgs:
         return Audit()
-    formulas, arrays = read_formulas(in_path)
+    if formulas is None or arrays is None:
+        formulas, arrays = read_formulas(in_path)
     anchor_of, grids = {}, {}
     for (sheet, anchor), ref in arrays.items():
         grid = _range_keys(sheet, ref)

@@ -71,6 +71,11 @@ class RecalcSummary:
         ``{(sheet, cell): value}`` as written.
     contained : bool
         True when the evaluation ran in a child process with memory and time limits.
+    formulas : dict or None
+        ``{(sheet, cell): formula text}`` of every formula cell as the engine read it (array
+        anchors, not the rest of a range); None when the engine did not say.
+    arrays : dict or None
+        ``{(sheet, anchor): "E5:G9"}`` of every array formula; None when the engine did not say.
     """
     in_path: str
     out_path: str
@@ -80,6 +85,8 @@ class RecalcSummary:
     error_cells: dict
     values: dict
     contained: bool = CONTAINED
+    formulas: dict | None = None
+    arrays: dict | None = None
 
 
 def _evaluate(data: bytes, name: str, functions, freeze: bool):
@@ -97,7 +104,9 @@ def _evaluate(data: bytes, name: str, functions, freeze: bool):
                for s in package.sheets if s.title in written}
     return {"values": [[s, c, v] for (s, c), v in values.items()], "parts": parts,
             "book_part": package.book_part, "strings": package.strings, "digests": digests,
-            "formulas": len(calc.formula_cells), "arrays": len(calc.array_ranges)}
+            "formulas": len(calc.formula_cells), "arrays": len(calc.array_ranges),
+            "texts": [[s, c, t] for (s, c), t in calc.formula_texts.items()],
+            "array_refs": [[s, c, ref] for (s, c), ref in calc.array_ranges.items()]}
 
 
 def recalc_file(in_path, out_path, functions: Mapping[str, Callable], *,
@@ -192,4 +201,5 @@ def recalc_file(in_path, out_path, functions: Mapping[str, Callable], *,
                                          out_path, len(errors), next(iter(errors)))
     return RecalcSummary(in_path=in_path, out_path=out_path, formula_cells=n_formulas,
                          array_ranges=n_arrays, cells_written=len(values), error_cells=errors,
-                         values=values)
+                         values=values, formulas={(a, b): t for a, b, t in got["texts"]},
+                         arrays={(a, b): ref for a, b, ref in got["array_refs"]})

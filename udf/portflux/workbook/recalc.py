@@ -401,6 +401,11 @@ class Recalculator:
         return tuple((f.sheet, f.coord) for f in self._formulas)
 
     @property
+    def formula_texts(self) -> dict:
+        """``{(sheet, cell): formula text}`` of every formula cell (array anchors only)."""
+        return {(f.sheet, f.coord): f.text for f in self._formulas}
+
+    @property
     def array_ranges(self) -> dict:
         """``{(sheet, anchor): "E5:G9"}`` for every array formula."""
         return {(f.sheet, f.coord): f"{coord_name(f.area[0], f.area[1])}:"
