@@ -167,8 +167,9 @@ def test_libreoffice_shows_cached_results_of_standard_formulas(rendered):
     "LibreOffice's xlsx import drops the cached results of array formulas "
     "(sc/source/filter/oox/sheetdatacontext.cxx, XML_array: 'do not set "
     "result as cell value') and recalculates them; a function it does not "
-    "know gives #NAME?.  Seen with LibreOffice 7.4.7.  Strict: a version "
-    "that keeps them makes this pass and the note in engine.py must change."))
+    "know gives #NAME? (without the portflux add-in installed).  Seen with "
+    "LibreOffice 7.4.7 and 25.2.3.  Strict: a version that keeps them makes this "
+    "pass and README's note on opening recalculated files must change."))
 def test_libreoffice_shows_cached_results_of_array_formulas(rendered):
     _, sheets = rendered
     for i, row in enumerate(FLUX):
