@@ -14,6 +14,7 @@ import pytest
 import known_cases
 import portflux as pf
 import portflux.cells as C
+from portflux.api import problem as api_problem
 
 RHO, AREA, V, U = 998.0, 12e-4, 30.0, 8.0          # invented: 12 cm^2 water jet at 30 m/s
 H = ("port", "role", "frame", "area", "density", "speed", "angle", "volume_flow", "mass_flow")
@@ -89,16 +90,31 @@ TURBOJET = ((("port", "role", "frame", "area", "density", "vx", "mass_flow", "p_
 
 
 def test_turbojet_with_a_fuel_port_shows_no_jet_efficiency():
+    # (the fuel port, carried on board, is counted as an incoming jet: the ratio was ~190)
     e = C.PFX_EFFICIENCY(TURBOJET, (230.0, 0.0, 0.0), "jet")
-    assert isinstance(e, str) and e.startswith("n/a: a propulsor")
+    assert isinstance(e, str) and e.startswith("n/a: above 1") and "an engine" in e
     # the propulsive efficiency is the number that applies, and it is <= 1
     # (thrust power / (thrust power + wake kinetic energy); Hill & Peterson, from memory)
     p = C.PFX_EFFICIENCY(TURBOJET, (230.0, 0.0, 0.0), "propulsive")
     assert 0.0 < p <= 1.0
     table = C.PFX_SPEEDTABLE(TURBOJET, [["m/s"], [230.0]], 0.0)
-    assert table[1][8].startswith("n/a: a propulsor")
+    assert table[1][8] == e
     s = dict((r[0], r[1]) for r in C.PFX_SUMMARY(TURBOJET, (230.0, 0.0, 0.0)))
-    assert s["jet efficiency [-]"].startswith("n/a: a propulsor")
+    assert s["jet efficiency [-]"] == e
+
+
+def test_a_pump_jet_in_a_stream_shows_no_jet_efficiency_below_one_either():
+    # invented: a stream at 10 m/s (from a fixed nozzle) enters a body moving at 0.1 m/s against
+    # it; a pump throws it out at 40 m/s relative. power / jet energy = 0.06 -- not an
+    # efficiency: the fluid gains kinetic energy while the body receives power (an engine)
+    rows = ((("port", "role", "frame", "area", "density", "vx"),
+             (None, None, None, "m^2", "kg/m^3", "m/s"),
+             ("stream", "in", "abs", 0.01, 1000.0, -10.0),
+             ("pump jet", "out", "rel", 0.01 * 10.1 / 40.0, 1000.0, -40.0)))
+    assert C.PFX_IMBALANCE(rows, 0.1)[0][2] == "ok"
+    e = C.PFX_EFFICIENCY(rows, 0.1)
+    assert isinstance(e, str) and e.startswith("n/a: a propulsor"), e
+    assert 0.0 < C.PFX_EFFICIENCY(rows, 0.1, "propulsive") <= 1.0
 
 
 def test_an_efficiency_above_one_is_never_shown_as_a_number():
@@ -258,3 +274,33 @@ def test_no_shipped_case_gains_or_loses_a_warning():
     got = {name: C.PFX_WARNINGS(p, cv, s) for name, p, cv, s in known_cases.all_cases()}
     assert set(got) == set(EXPECTED)          # a new case: add its warnings here
     assert got == EXPECTED
+
+
+def test_given_inflow_on_a_port_without_a_role_in_a_moving_cv_is_warned():
+    rows = ((("port", "role", "frame", "density", "vx", "nx", "mass_flow", "area"),
+             (None, None, None, "kg/m^3", "m/s", None, "kg/s", "m^2"),
+             ("jet", None, "abs", RHO, V, -1.0, -RHO * AREA * V, None),
+             ("exit", "out", "rel", RHO, -(V - U), None, None, AREA * V / (V - U))))
+    w = [m[0] for m in C.PFX_WARNINGS(rows, U)]
+    hit = [m for m in w if m.startswith("port jet: a given inflow on a port without a role")]
+    assert hit and "declare role 'in'" in hit[0]
+    assert C.PFX_WARNINGS(rows, 0.0) == "none"        # at rest the two flows are the same
+
+
+@pytest.mark.parametrize("rule, loss", [("free", None), ("loss", 0.2), ("solve", None)])
+def test_the_passive_shortcut_of_the_propulsor_test_changes_no_answer(rule, loss):
+    """A passive body (one jet, closed outlets) skips the kinetic-energy test where the mass
+    balances; its answers must be those of the full test (energy: sum mdot |v|^2 / 2 =
+    sum mdot |w|^2 / 2 - P for a balanced CV, White sec. 3.4 and 3.6, from memory)."""
+    p = api_problem([{"port": "jet", "role": "in", "area": AREA, "density": RHO, "speed": V},
+                    {"port": "exit", "role": "out", "closure": rule, "loss": loss,
+                     "angle": 160.0, "area": None if rule == "solve" else AREA * 1.3,
+                     "density": RHO}]).model
+    assert p.passive
+    speeds = np.zeros((200, 3))
+    speeds[:, 0] = np.linspace(-10.0, 40.0, 200)
+    fast = p.evaluate(speeds, {"forces", "power", "jet"})
+    p.passive = False
+    full = p.evaluate(speeds, {"forces", "power", "jet"})
+    assert np.array_equal(fast["jet_na"], full["jet_na"])
+    assert np.array_equal(np.isnan(fast["jet_efficiency"]), np.isnan(full["jet_efficiency"]))

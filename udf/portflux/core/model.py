@@ -403,6 +403,15 @@ class Model:
         self.loads_any = bool(np.any(self.p_total != 0.0) or np.any(self.weight != 0.0))
         self._compile_jets(ports)
         self.static_notes = tuple(self._static_notes(closures))
+        # one declared jet with computed flow, every other port a closed outlet from it whose
+        # relative speed is kept or lost (free, loss, or a Bernoulli rise), uniform flow, no
+        # pressure or weight: the fluid cannot gain kinetic energy while the body gets power
+        others = ~self.is_in
+        self.passive = bool(
+            np.count_nonzero(self.is_in) == 1 and not self.given.any()
+            and not self.loads_any and self.beta_one and not np.any(ports.p_gauge)
+            and np.all(self.closed[others])
+            and (not self.cl.size or (np.all(self.qa <= 1.0) and np.all(self.qc <= 0.0))))
 
     def _static_notes(self, c):
         """Warnings that do not depend on the CV velocity (closures against settings)."""
@@ -596,8 +605,12 @@ class Model:
         inlet_outflow = self.is_in[:, None] & (wn > 0.0)      # an outrun inlet carries nothing
         # an inlet the body keeps pace with (w.n = 0 because the CV moves along its normal)
         # brings nothing either: "no contact", the same answer in a status and a speed table
-        pace = self.is_in[:, None] & (wn == 0.0) & (self.aN @ VT != 0.0)
-        outrun = inlet_outflow | pace
+        pace = self.is_in[:, None] & (wn == 0.0)
+        if pace.any():
+            pace &= self.aN @ VT != 0.0
+            outrun = inlet_outflow | pace
+        else:
+            outrun = inlet_outflow
         np.copyto(mdot, 0.0, where=inlet_outflow)
         if self.train:
             k = self.k
@@ -683,18 +696,27 @@ class Model:
             # fluid leaves with more absolute kinetic energy while the body receives power: the
             # power comes from an engine, not from the jets)
             power = out["power"]
-            ke_net = 0.5 * (mdot * self._v_abs2(VT, q)).sum(axis=0)
-            na = np.where(np.broadcast_to(jet_ke, (m,)) > 0, NA_NONE, NA_NO_JET).astype(np.int8)
+            na = np.zeros(m, np.int8)
+            np.copyto(na, NA_NO_JET, where=np.logical_not(np.greater(jet_ke, 0.0)))
+            # a passive body (one jet, closed outlets that keep or lose relative speed, no
+            # loads) with the mass balanced cannot be a propulsor: sum mdot |v|^2 / 2 =
+            # sum mdot |w|^2 / 2 - P <= -P; the kinetic-energy test runs elsewhere only
+            look = ~out["balanced"] if self.passive else None
+            if look is None or look.any():
+                ke_net = self._ke_net(VT, q, mdot, active)
+                with np.errstate(invalid="ignore"):
+                    prop = (power > 0) & (ke_net > 1e-12 * (np.abs(power) + jet_ke)) & (na == 0)
+                if look is not None:
+                    prop &= look
+                np.copyto(na, NA_PROPULSOR, where=prop)
             with np.errstate(invalid="ignore"):
-                na[eff > 1.0 + 1e-9] = NA_ABOVE_ONE
-                na[(power > 0) & (ke_net > 1e-12 * (np.abs(power) + jet_ke))
-                   & (na != NA_NO_JET)] = NA_PROPULSOR
+                np.copyto(na, NA_ABOVE_ONE, where=eff > 1.0 + 1e-9)
             np.copyto(eff, np.nan, where=na != NA_NONE)
             out["jet_efficiency"] = eff
             out["jet_na"] = na
             out["jet_ke_flux"] = np.broadcast_to(jet_ke, (m,))
         if WAKE in want:
-            ke_net = 0.5 * (mdot * self._v_abs2(VT, q)).sum(axis=0)
+            ke_net = self._ke_net(VT, q, mdot, active)
             power = out["power"]
             with np.errstate(divide="ignore", invalid="ignore"):
                 denom = power + ke_net
@@ -794,6 +816,44 @@ class Model:
                         np.where(self.is_in[rows, None] | (wn[rows] < 0.0),
                                  self.rho_a0[rows, None] * np.maximum(-vn, 0.0), 0.0))
         return self.jet_const + 0.5 * (flow * v2).sum(axis=0)
+
+    def _ke_net(self, VT, q, mdot, active=(0, 1, 2)):
+        """Net outflow of absolute kinetic energy [W], (1/2) sum mdot |v_abs|^2 (m,), row by
+        row with v_abs = W0 + b V + q E: |V_i|^2 (a row typed absolute: a constant),
+        |W0|^2 + 2 W0.V + |V|^2 (typed relative) or q^2 + 2 q E.V + |V|^2 (closed); only the
+        components of V that are not all zero (``active``) are visited."""
+        m = VT.shape[1]
+        s = np.zeros(m)
+        VV = None
+        pos = {int(j): t for t, j in enumerate(self.cl)}
+        with np.errstate(over="ignore", invalid="ignore"):
+            return self._ke_rows(VT, q, mdot, active, s, VV, pos)
+
+    def _ke_rows(self, VT, q, mdot, active, s, VV, pos):
+        m = VT.shape[1]
+        for i in range(self.n):
+            k = mdot[i]
+            if self.a[i] == 1.0:
+                if self.W0sq[i]:
+                    s += self.W0sq[i] * k
+                continue
+            if VV is None:
+                VV = np.zeros(m)
+                for c in active:
+                    VV += VT[c] * VT[c]
+            if i in pos:
+                qi = q[pos[i]]
+                e = qi * qi + VV
+                for c in active:
+                    if self.E[i, c]:
+                        e += (2.0 * self.E[i, c]) * qi * VT[c]
+            else:
+                e = self.W0sq[i] + VV
+                for c in active:
+                    if self.W0[i, c]:
+                        e += (2.0 * self.W0[i, c]) * VT[c]
+            s += k * e
+        return 0.5 * s
 
     def _v_abs2(self, VT, q):
         """|v_abs|^2 (n, m) with v_abs = W0 + b V + q E."""
@@ -928,12 +988,18 @@ class Model:
                 alt_wn = self.W0n[i] - (1.0 - a) * (self.N[i] @ VT)
                 alt = self.rho_a0[i] * np.where((role == IN) & (alt_wn > 0), 0.0, alt_wn)
                 if balances(i, alt):
-                    frame, other = ("absolute", "relative (frame rel)") if a else (
-                        "relative", "absolute (frame abs)")
-                    hint = ("an outlet on the moving body is given relative to it" if a else
-                            "a jet from a fixed nozzle is given in the absolute frame")
-                    found.append(f"port {names[i]} is typed in the {frame} frame; typed in the "
-                                 f"{other} frame the mass would balance ({hint})")
+                    frame, other = ("absolute", "relative frame (frame rel)") if a else (
+                        "relative", "absolute frame (frame abs)")
+                    hint = ("an outlet on the moving body is given relative to it"
+                            if a and role == OUT else "an intake on the moving body is given "
+                            "relative to it" if a else "a jet from a fixed nozzle is given in "
+                            "the absolute frame")
+                    # likelihood: an outlet on the body typed absolute, then a jet typed
+                    # relative, then a wrong role, then the rarer frame mistakes
+                    rank = 0 if (a and role == OUT) else 1 if (not a and role == IN) else 3
+                    found.append((rank, i, f"port {names[i]} is typed in the {frame} frame; "
+                                           f"typed in the {other}, the mass would balance "
+                                           f"({hint})"))
                     continue
             if role != UNKNOWN and (self.given[i] or role_n[i]):
                 alt = -mdot[i] if self.given[i] else -self.rho_a0[i] * wn[i]
@@ -941,9 +1007,9 @@ class Model:
                     alt = np.where(alt > 0, 0.0, alt)
                 if balances(i, alt):
                     now, other = ("out", "in") if role == OUT else ("in", "out")
-                    found.append(f"port {names[i]} is declared '{now}'; with role '{other}' "
-                                 f"the mass would balance (check its role)")
-        return "; or ".join(found[:3])
+                    found.append((2, i, f"port {names[i]} is declared '{now}'; with role "
+                                        f"'{other}' the mass would balance (check its role)"))
+        return min(found)[2] if found else ""
 
     def flow_notes(self, V, r) -> list:
         """Warnings on given flows and role-based normals at the CV velocities ``V`` (m, 3)."""
@@ -963,6 +1029,14 @@ class Model:
                              f"the moving body intercepts rho A ((V - V_cv).n), {part} of it; "
                              f"if the flow given is the flow through the moving control volume, "
                              f"type the row in the relative frame (frame rel)")
+        roleless = (self.given & self.unroled & (self.a == 1.0) & (self.m_given < 0.0)
+                    & (self.W0n < 0.0))
+        for i in np.flatnonzero(roleless):
+            if np.any(contact & (np.abs(wn[i] - self.W0n[i]) > 1e-9 * -self.W0n[i])):
+                notes.append(f"port {names[i]}: a given inflow on a port without a role, typed "
+                             f"in the absolute frame, is used as the flow through the moving "
+                             f"control volume; if it is a fixed nozzle's discharge, declare role "
+                             f"'in' (the body then intercepts rho A ((V - V_cv).n) of it)")
         role_n = self._role_normal()
         for i in np.flatnonzero(self.is_in & role_n & (self.a == 1.0) & ~self.closed):
             w = self.W0[i][:, None] - VT
