@@ -48,6 +48,12 @@ SPLIT = (("port", "role", "frame", "area", "density", "speed", "angle", "closure
          ("down", "out", None, None, 998.0, None, -90.0, "solve", None, None, None))
 
 
+def _vane(jet=None, out=None):
+    """VANE with a mass_flow column, and its jet or outlet row replaced (8 cells each)."""
+    head, units = VANE[0] + ("mass_flow",), VANE[1] + ("kg/s",)
+    return (head, units, jet or VANE[2] + (None,), out or VANE[3] + (None,))
+
+
 def closed_split(row_number=None, **cells):
     """SPLIT with some cells of one sheet row (3 = the jet) replaced, by column name."""
     rows = [list(r) for r in SPLIT]
@@ -427,6 +433,43 @@ CATALOGUE = [
      ["mass imbalance up to 0.125 of the inflow exceeds the tolerance 0.001"]),
     ("flag: mass imbalance beyond tolerance (status)", C.PFX_IMBALANCE,
      (table(JET, row(vx=90.0)), 0.0), ["imbalance"]),
+    # ---- classic mistakes (tests/test_mistakes.py has the closed forms) ----------------------
+    ("flag: the nozzle's discharge typed on the jet row of a moving vane", C.PFX_WARNINGS,
+     (_vane(jet=("in", "in", "abs", None, 998.0, 30.0, 0.0, 59.88)), 10.0),
+     ["port in: its given flow is read as a fixed nozzle's discharge",
+      "the moving body intercepts rho A ((V - V_cv).n), 0.667 of it",
+      "type the row in the relative frame (frame rel)"]),
+    ("flag: vane outlet typed in the absolute frame", C.PFX_WARNINGS,
+     (_vane(out=("out", "out", "abs", 0.002, 998.0, -20.0, 0.0, None)), 10.0),
+     ["mass imbalance up to 0.5", "likely cause: port out is typed in the absolute frame; typed in "
+      "the relative frame (frame rel), the mass would balance"]),
+    ("flag: jet row typed with role out", C.PFX_WARNINGS,
+     (_vane(jet=("in", "out", "abs", 0.002, 998.0, 30.0, 0.0, None)), 10.0),
+     ["mass imbalance up to inf", "likely cause: port in is declared 'out'; with role 'in' the "
+      "mass would balance"]),
+    ("jet row typed with role out, vane exit closed", C.PFX_POWER,
+     (closed_split(3, role="out"), 0.0),
+     ["ports row 3, role: no port is declared 'in'", "port 'jet' is typed in the absolute "
+      "frame like a jet", "declare role 'in'"]),
+    ("closure source names a port declared out", C.PFX_POWER,
+     ((SPLIT[0], SPLIT[1], ("jet", "out") + SPLIT[2][2:], SPLIT[3][:9] + ("jet", None),
+       SPLIT[4]), 0.0),
+     ["ports row 3, role: port 'up' names this port as the source inlet of its closure, but "
+      "it is not declared 'in'"]),
+    ("flag: the body keeps pace with the jet (status)", C.PFX_IMBALANCE, (VANE, 30.0),
+     ["no contact"]),
+    ("flag: the body keeps pace with the jet (warnings)", C.PFX_WARNINGS, (VANE, 30.0),
+     ["port in: the body keeps pace with this jet", "no contact: no jet reaches"]),
+    ("flag: a jet efficiency above 1 is not shown as a number", C.PFX_SUMMARY,
+     (_vane(out=("out", "out", "abs", 0.002, 998.0, -40.0, 0.0, None)), 10.0),
+     ["jet efficiency [-] | n/a: above 1, not an efficiency"]),
+    ("flag: role-based inlet normal across the jet", C.PFX_WARNINGS, (VANE, (10.0, 4.0)),
+     ["port in: its normal follows the velocity typed in the absolute frame",
+      "type the port's normal nx, ny, nz"]),
+    ("flag: a loss with a no-force direction", C.PFX_WARNINGS,
+     (closed_split(4, loss=0.1), 0.0, (("slip_angle", 90.0, "deg"),)),
+     ["port up: a loss (friction on the surface) together with a no-force direction",
+      "drop the loss or the no-force direction"]),
 ]
 
 

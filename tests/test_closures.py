@@ -324,5 +324,7 @@ def test_outrun_plate_has_no_flow_no_force_and_says_so():
     r = balance_closed(p, c, [[25.0, 0, 0], [31.0, 0, 0]])
     assert r.mass_flow.tolist() == [[0.0] * 3, [0.0] * 3]
     assert r.force_on_body.tolist() == [[0.0] * 3, [0.0] * 3]
-    assert r.no_contact.tolist() == [False, True]
+    # at U = V (25 m/s) the plate keeps pace with the jet: "no contact", the same answer a
+    # speed table gives (one rule; before, the status said "ok" there)
+    assert r.no_contact.tolist() == [True, True]
     assert any("no contact" in s for s in r.warnings())

@@ -28,6 +28,7 @@ from .core import best_speed as _core_best_speed
 from .core import speed_at_force as _core_speed_at_force
 from .core import speed_table as _core_speed_table
 from .core.geometry import direction
+from .core.model import JET_NA
 
 __all__ = ["ControlVolumeResult", "SpeedTableResult", "best_speed", "cv_velocity_si",
            "format_report", "problem", "solve", "speed_at_force", "speed_table", "ureg"]
@@ -457,8 +458,11 @@ def format_report(b: Balance, us: U.UnitSystem) -> str:
     lines.append("")
     lines.append(f"Power delivered to the moving body, F_body . V_cv [{pw}]: "
                  f"{_fmt(us.out(b.power, 'power'))}")
+    jet = _fmt(b.jet_efficiency)
+    if not np.ndim(b.jet_na):                      # why it is not a number
+        jet = JET_NA.get(int(b.jet_na), jet)
     lines.append(f"Jet efficiency (power / absolute kinetic-energy flux of the incoming jet): "
-                 f"{_fmt(b.jet_efficiency)}")
+                 f"{jet}")
     lines.append(f"Propulsive efficiency (power / (power + kinetic energy left in the wake)): "
                  f"{_fmt(b.propulsive_efficiency)}")
     warns = b.warnings()

@@ -12,6 +12,7 @@ import math
 import numpy as np
 
 from .. import __version__, problem
+from ..core.model import JET_NA
 from ..cautions import CAUTION
 from ._grid import CellError, describe, error_value, flag, is_number, one_cell, scalar_text
 from ._inputs import SETTINGS, evaluate, evaluate_closed, tolerance, unit_system
@@ -178,7 +179,14 @@ def efficiency(ports, cv_velocity, kind=None, settings=None, units=None):
     us = unit_system(units)
     _, b = evaluate(ports, cv_velocity, settings)
     attr, na = _EFFICIENCY[k]
+    if k == "jet":
+        na = _jet_na(b)
     return cell_value(us.out(getattr(b, attr), "ratio"), na=na)
+
+
+def _jet_na(b):
+    """The "n/a: ..." text of a balance's jet efficiency (why it is not a number)."""
+    return JET_NA.get(int(b.jet_na), _EFFICIENCY["jet"][1])
 
 
 def framecheck(ports, cv_velocity, units=None, settings=None):
@@ -227,7 +235,7 @@ def summary(ports, cv_velocity, units=None, settings=None):
     out += [
         [f"power to body [{lab('power')}]", cell_value(us.out(b.power, "power"))],
         [f"jet efficiency [{lab('ratio')}]",
-         cell_value(us.out(b.jet_efficiency, "ratio"), na=_EFFICIENCY["jet"][1])],
+         cell_value(us.out(b.jet_efficiency, "ratio"), na=_jet_na(b))],
         [f"propulsive efficiency [{lab('ratio')}]",
          cell_value(us.out(b.propulsive_efficiency, "ratio"), na=_EFFICIENCY["propulsive"][1])],
         ["warnings", len(w)],

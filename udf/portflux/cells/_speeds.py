@@ -20,6 +20,7 @@ import numpy as np
 
 from .. import units as U
 from ..core import InputError, OutsideScopeError, best_speed, speed_at_force, speed_table
+from ..core.model import JET_NA, NA_NO_JET
 from ..excel import shown
 from ._functions import cell_value
 from ._grid import (CellError, describe, error_value, freeze, is_blank, is_number, number, rows,
@@ -297,13 +298,15 @@ def speedtable(ports, speeds, direction=None, units=None, settings=None):
         body = out.tolist()
         for i in np.flatnonzero(blank).tolist():
             body[i] = [""] * width
+        na = np.zeros(u.size, dtype=np.int8)
+        na[~blank] = r.jet_na
         for i in nan_rows.tolist():
-            body[i] = _text_row(body[i], met[i])
+            body[i] = _text_row(body[i], met[i], int(na[i]))
         body.insert(0, head)
     return body
 
 
-def _text_row(row, met):
+def _text_row(row, met, jet_na=NA_NO_JET):
     """A table row with its non-numbers as short texts (Excel shows no NaN or infinity)."""
     if not met:
         return [row[0]] + ["n/a: closure not met"] * (len(row) - 2) + [row[-1]]
@@ -312,7 +315,7 @@ def _text_row(row, met):
         if math.isinf(x):
             out.append("n/a: overflow")
         elif math.isnan(x):
-            out.append("n/a: no jet enters the CV" if k == 8 else "n/a")
+            out.append(JET_NA.get(jet_na, JET_NA[NA_NO_JET]) if k == 8 else "n/a")
         else:
             out.append(x)
     return out
@@ -339,7 +342,8 @@ def bestspeed(ports, low, high, direction=None, units=None, settings=None):
         else:
             note = "maximum inside the bracket"
         speed, along = show(best.speed), cell_value(us.out(_along(at)[0], "force"))
-        eff = cell_value(us.out(best.efficiency, "ratio"), na="n/a: no jet enters the CV")
+        eff = cell_value(us.out(best.efficiency, "ratio"),
+                         na=JET_NA.get(int(at.jet_na[0]), JET_NA[NA_NO_JET]))
     else:
         note = (f"no power delivered: the fluid delivers no positive power to the body for "
                 f"speeds {show(lo):g} to {show(hi):g} {v} (largest "

@@ -245,6 +245,15 @@ class Closures:
 def _source_index(ports, inlets, given, i):
     names = ports.names
     if _blank(given):
+        if inlets.size == 0:
+            typed = [k for k in range(ports.n) if k != i and ports.role[k] == OUT
+                     and np.linalg.norm(ports.velocity[k]) > 0 and not ports.relative[k]]
+            if typed:     # the row most likely wrong: a jet typed with role 'out'
+                k = typed[0]
+                raise InputError(f"no port is declared 'in', and the closure of port "
+                                 f"{names[i]!r} needs a source inlet; port {names[k]!r} is "
+                                 f"typed in the absolute frame like a jet from a fixed nozzle: "
+                                 f"if it is the jet, declare role 'in'", port=k, field="role")
         if inlets.size != 1:
             listed = ", ".join(names[k] for k in inlets) or "none"
             raise InputError(f"name the inlet this closure starts from: there are "
@@ -261,9 +270,13 @@ def _source_index(ports, inlets, given, i):
             raise InputError(f"no port is labelled {label!r}; labels: {', '.join(names)}",
                              port=i, field="source")
         k = names.index(label)
-    if ports.role[k] != IN:
+    if ports.role[k] != IN and k == i:
         raise InputError(f"port {names[k]!r} is not a declared inlet; a closure starts from an "
                          f"inlet", port=i, field="source")
+    if ports.role[k] != IN:       # the named port's role is the likely mistake
+        raise InputError(f"port {names[i]!r} names this port as the source inlet of its "
+                         f"closure, but it is not declared 'in'; if it is the jet, declare "
+                         f"role 'in'", port=k, field="role")
     return k
 
 

@@ -49,6 +49,18 @@ CHUNK = 2 ** 16
 
 _SINGULAR = 1e-10  # |det| of the row- and column-scaled split system below which none is defined
 
+#: Why a jet efficiency is not a number (``jet_na`` codes) and the text a cell shows for it.
+NA_NONE, NA_NO_JET, NA_ABOVE_ONE, NA_PROPULSOR = 0, 1, 2, 3
+JET_NA = {
+    NA_NO_JET: "n/a: no jet enters the CV",
+    NA_ABOVE_ONE: "n/a: above 1, not an efficiency (the body receives more power than the "
+                  "incoming jets carry: a pressure or an engine drives it, or a port is in the "
+                  "wrong frame or role; see the warnings)",
+    NA_PROPULSOR: "n/a: a propulsor (the fluid gains kinetic energy while the body receives "
+                  "power, so the power does not come from the jets; see the propulsive "
+                  "efficiency)",
+}
+
 #: Quantity groups :meth:`Model.evaluate` can be asked for.
 FORCES = "forces"          # support force, force on body (always computed: they need flows)
 POWER = "power"            # power F_body . V_cv
@@ -78,10 +90,11 @@ def cv_velocities(v_cv) -> np.ndarray:
 
 
 #: Balance fields computed only when read, by the quantity group that holds them.
-_ON_DEMAND = {"power": POWER, "jet_ke_flux": JET, "jet_efficiency": JET, "ke_flux_net": WAKE,
+_ON_DEMAND = {"power": POWER, "jet_ke_flux": JET, "jet_efficiency": JET, "jet_na": JET,
+              "ke_flux_net": WAKE,
               "propulsive_efficiency": WAKE, "flux_absolute": FRAME, "flux_relative": FRAME,
               "frame_difference": FRAME, "w": PORTS, "v_abs": PORTS, "momentum_flux": PORTS,
-              "inlet_outflow": PORTS, "outlet_inflow": PORTS, "outflow": PORTS,
+              "inlet_outflow": PORTS, "inlet_pace": PORTS, "outlet_inflow": PORTS, "outflow": PORTS,
               "weight": PORTS, "notes": CLOSURE, "closure_speed": CLOSURE,
               "unreachable": CLOSURE, "reversed_flow": CLOSURE, "stream_area": CLOSURE}
 
@@ -110,8 +123,10 @@ class Balance:
     power : (...) power delivered to the body F_body . V_cv [W]
     jet_ke_flux : (...) absolute kinetic-energy flux of incoming jets [W]
     ke_flux_net : (...) net outflow of absolute kinetic energy [W]
-    jet_efficiency : (...) power / jet_ke_flux [-] (NaN without a jet)
-    propulsive_efficiency : (...) power / (power + ke_flux_net) [-] (NaN if n/a)
+    jet_efficiency : (...) power / jet_ke_flux [-] (NaN where it is not an efficiency)
+    jet_na : (...) why the jet efficiency is NaN: 0 a number, else a key of :data:`JET_NA`
+    propulsive_efficiency : (...) power / (power + ke_flux_net) [-] (NaN if n/a: defined
+        where the body receives power and the fluid gains kinetic energy)
     flux_absolute, flux_relative : (..., 3) sum mdot V and sum mdot w [N]
     frame_difference : (..., 3) flux_absolute - flux_relative [N]
     frame_expected : (..., 3) V_cv * imbalance [N]
@@ -186,14 +201,22 @@ class Balance:
                        f"(the body outruns this jet); its mass flow is set to 0")
         for i in np.flatnonzero(oi):
             out.append(f"port {names[i]}: declared outlet but its relative flow enters the CV")
+        pace = np.asarray(self.inlet_pace).reshape(-1, self.ports.n).any(axis=0)
+        for i in np.flatnonzero(pace & ~io):
+            out.append(f"port {names[i]}: the body keeps pace with this jet (relative flow "
+                       f"w.n = 0); nothing enters through it")
         if np.any(self.no_contact):
             out.append("no contact: no jet reaches the moving body; flows and forces are 0")
         bad = ~np.asarray(self.balanced) & ~np.asarray(self.no_contact)
         if np.any(bad):
             worst = np.nanmax(np.abs(np.where(bad, self.imbalance_rel, 0.0)))
+            cause = self._model.suspects(self.v_cv.reshape(-1, 3), np.reshape(bad, -1),
+                                         self._r)
             out.append(f"mass imbalance up to {worst:.3g} of the inflow exceeds the tolerance "
-                       f"{self.tolerance:g}")
+                       f"{self.tolerance:g}" + (f"; likely cause: {cause}" if cause else ""))
+        out.extend(self._model.flow_notes(self.v_cv.reshape(-1, 3), self._r))
         out.extend(self.notes)
+        out.extend(self._model.static_notes)
         return out
 
 
@@ -227,9 +250,11 @@ class ClosedBalance:
 
 
 def in_contact(b: Balance) -> np.ndarray:
-    """True where fluid reaches the body: not outrun (see ``no_contact``) and a positive inflow.
+    """True where fluid reaches the body: not ``no_contact`` (the one rule of statuses and speed
+    tables alike).
 
-    At U = V exactly the body keeps pace with the jet: no inlet is outrun, yet nothing flows in.
+    At U = V exactly the body keeps pace with the jet: nothing flows in, and that is "no
+    contact" as much as a body that outruns the jet.
 
     Parameters
     ----------
@@ -245,7 +270,7 @@ def in_contact(b: Balance) -> np.ndarray:
 
     Reference: common practice, no source (contact rule of this package, see DEVELOPERS.md).
     """
-    return ~np.asarray(b.no_contact, dtype=bool) & (np.asarray(b.inflow) > 0)
+    return ~np.asarray(b.no_contact, dtype=bool)
 
 
 class Model:
@@ -320,7 +345,15 @@ class Model:
         role = ports.role
         self.is_in, self.is_out, self.unroled = role == IN, role == OUT, role == UNKNOWN
         self.any_in = bool(self.is_in.any())
-        self.given = ports.given_flow
+        self.given = ports.given_flow.copy()
+        # A given flow on a declared inlet typed in the absolute frame whose velocity brings
+        # fluid in (V.n < 0) is a fixed nozzle's discharge rho A (V.n): the moving body
+        # intercepts rho A (w.n) of it, so the row is compiled as the product rho A it implies.
+        closed0 = np.zeros(n, bool) if closures is None else closures.closed
+        vn_typed = np.einsum("ij,ij->i", ports.velocity, ports.normal)
+        self.discharge = (self.given & self.is_in & ~ports.relative & ~closed0
+                          & (vn_typed < 0.0))
+        self.given &= ~self.discharge
         self.m_given = np.where(self.given, ports.mass_flow, 0.0)
         if self.train:
             inlets = np.flatnonzero(self.is_in)
@@ -342,6 +375,9 @@ class Model:
         with np.errstate(invalid="ignore"):
             rho_a = ports.density * ports.area     # NaN where the flow is given or solved
         self.rho_a0 = np.where(np.isnan(rho_a), 0.0, rho_a)
+        if self.discharge.any():
+            d = self.discharge
+            self.rho_a0[d] = np.abs(ports.mass_flow[d]) / -vn_typed[d]
         self.beta = ports.beta
         area0 = np.where(np.isnan(ports.area), 0.0, ports.area)
         self.pressure_force = -(ports.p_gauge * area0)[:, None] * self.N      # on the fluid
@@ -366,6 +402,28 @@ class Model:
         self.beta_one = bool(np.all(self.beta == 1.0))
         self.loads_any = bool(np.any(self.p_total != 0.0) or np.any(self.weight != 0.0))
         self._compile_jets(ports)
+        self.static_notes = tuple(self._static_notes(closures))
+        # one declared jet with computed flow, every other port a closed outlet from it whose
+        # relative speed is kept or lost (free, loss, or a Bernoulli rise), uniform flow, no
+        # pressure or weight: the fluid cannot gain kinetic energy while the body gets power
+        others = ~self.is_in
+        self.passive = bool(
+            np.count_nonzero(self.is_in) == 1 and not self.given.any()
+            and not self.loads_any and self.beta_one and not np.any(ports.p_gauge)
+            and np.all(self.closed[others])
+            and (not self.cl.size or (np.all(self.qa <= 1.0) and np.all(self.qc <= 0.0))))
+
+    def _static_notes(self, c):
+        """Warnings that do not depend on the CV velocity (closures against settings)."""
+        if c is None or not c.no_force.shape[0]:
+            return
+        lossy = [self.ports.names[j] for j in self.cl if c.rule[j] == LOSS and c.loss[j] > 0]
+        if lossy:
+            yield (f"port{'s' if len(lossy) > 1 else ''} {', '.join(lossy)}: a loss (friction "
+                   f"on the surface) together with a no-force direction (slip_angle / slip_x, "
+                   f"slip_y, slip_z: a frictionless surface): a surface with friction carries a "
+                   f"force along itself, so the split solved with both is not consistent; drop "
+                   f"the loss or the no-force direction")
 
     def _compile_jets(self, ports):
         """Split the jet kinetic-energy flux into a constant (absolute inlets with computed
@@ -545,6 +603,14 @@ class Model:
         if self.flow.any():
             mdot[self.flow] = 0.0                             # solved below
         inlet_outflow = self.is_in[:, None] & (wn > 0.0)      # an outrun inlet carries nothing
+        # an inlet the body keeps pace with (w.n = 0 because the CV moves along its normal)
+        # brings nothing either: "no contact", the same answer in a status and a speed table
+        pace = self.is_in[:, None] & (wn == 0.0)
+        if pace.any():
+            pace &= self.aN @ VT != 0.0
+            outrun = inlet_outflow | pace
+        else:
+            outrun = inlet_outflow
         np.copyto(mdot, 0.0, where=inlet_outflow)
         if self.train:
             k = self.k
@@ -556,9 +622,9 @@ class Model:
         # port without a declared role brings fluid in (an outlet typed in the absolute frame
         # may then show a spurious inflow: it has no fluid to carry), or some inlet is outrun
         # and nothing enters at all. A CV at rest with zero flows is statics, not "no contact".
-        some_out = inlet_outflow.any(axis=0)
+        some_out = outrun.any(axis=0)
         if self.any_in:
-            all_out = (inlet_outflow | ~self.is_in[:, None]).all(axis=0)
+            all_out = (outrun | ~self.is_in[:, None]).all(axis=0)
             if self.unroled.any():
                 all_out &= ~(mdot[self.unroled] < 0.0).any(axis=0)
         else:
@@ -567,7 +633,7 @@ class Model:
         if no_contact.any():
             np.copyto(mdot, 0.0, where=no_contact)
             np.copyto(inflow, 0.0, where=no_contact)
-        contact = ~no_contact & (inflow > 0.0)
+        contact = ~no_contact
         if bad is not None:
             bad &= contact
         any_bad = np.zeros(m, bool) if bad is None else bad.any(axis=0)
@@ -626,19 +692,39 @@ class Model:
                     eff.fill(np.nan)
             else:
                 np.copyto(eff, np.nan, where=~(jet_ke > 0))
+            # Not an efficiency (NaN, with the reason in jet_na): above 1, or a propulsor (the
+            # fluid leaves with more absolute kinetic energy while the body receives power: the
+            # power comes from an engine, not from the jets)
+            power = out["power"]
+            na = np.zeros(m, np.int8)
+            np.copyto(na, NA_NO_JET, where=np.logical_not(np.greater(jet_ke, 0.0)))
+            # a passive body (one jet, closed outlets that keep or lose relative speed, no
+            # loads) with the mass balanced cannot be a propulsor: sum mdot |v|^2 / 2 =
+            # sum mdot |w|^2 / 2 - P <= -P; the kinetic-energy test runs elsewhere only
+            look = ~out["balanced"] if self.passive else None
+            if look is None or look.any():
+                ke_net = self._ke_net(VT, q, mdot, active)
+                with np.errstate(invalid="ignore"):
+                    prop = (power > 0) & (ke_net > 1e-12 * (np.abs(power) + jet_ke)) & (na == 0)
+                if look is not None:
+                    prop &= look
+                np.copyto(na, NA_PROPULSOR, where=prop)
+            with np.errstate(invalid="ignore"):
+                np.copyto(na, NA_ABOVE_ONE, where=eff > 1.0 + 1e-9)
+            np.copyto(eff, np.nan, where=na != NA_NONE)
             out["jet_efficiency"] = eff
+            out["jet_na"] = na
             out["jet_ke_flux"] = np.broadcast_to(jet_ke, (m,))
-        if want & {WAKE}:
-            v2 = self._v_abs2(VT, q)
-            if WAKE in want:
-                ke_net = 0.5 * (mdot * v2).sum(axis=0)
-                power = out["power"]
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    denom = power + ke_net
-                    out["propulsive_efficiency"] = np.where(
-                        (power > 0) & (denom > 1e-12 * np.maximum(power, 1.0)), power / denom,
-                        np.nan)
-                out["ke_flux_net"] = ke_net
+        if WAKE in want:
+            ke_net = self._ke_net(VT, q, mdot, active)
+            power = out["power"]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                denom = power + ke_net
+                # defined where the fluid gains energy (ke_net >= 0): then it is at most 1
+                out["propulsive_efficiency"] = np.where(
+                    (power > 0) & (ke_net >= 0) & (denom > 1e-12 * np.maximum(power, 1.0)),
+                    power / denom, np.nan)
+            out["ke_flux_net"] = ke_net
         if FRAME in want:
             out["flux_relative"] = self._sum_w(mdot, VT, q, self.a)
             out["flux_absolute"] = self._sum_w(mdot, VT, q, -self.b)
@@ -651,6 +737,7 @@ class Model:
             out["v_abs"] = w + V[:, None, :]
             out["momentum_flux"] = kb.T[..., None] * w
             out["inlet_outflow"] = inlet_outflow
+            out["inlet_pace"] = pace
             out["outlet_inflow"] = self.is_out[:, None] & (wn < 0.0)
         if CLOSURE in want:
             speed = np.full((n, m), np.nan)
@@ -729,6 +816,44 @@ class Model:
                         np.where(self.is_in[rows, None] | (wn[rows] < 0.0),
                                  self.rho_a0[rows, None] * np.maximum(-vn, 0.0), 0.0))
         return self.jet_const + 0.5 * (flow * v2).sum(axis=0)
+
+    def _ke_net(self, VT, q, mdot, active=(0, 1, 2)):
+        """Net outflow of absolute kinetic energy [W], (1/2) sum mdot |v_abs|^2 (m,), row by
+        row with v_abs = W0 + b V + q E: |V_i|^2 (a row typed absolute: a constant),
+        |W0|^2 + 2 W0.V + |V|^2 (typed relative) or q^2 + 2 q E.V + |V|^2 (closed); only the
+        components of V that are not all zero (``active``) are visited."""
+        m = VT.shape[1]
+        s = np.zeros(m)
+        VV = None
+        pos = {int(j): t for t, j in enumerate(self.cl)}
+        with np.errstate(over="ignore", invalid="ignore"):
+            return self._ke_rows(VT, q, mdot, active, s, VV, pos)
+
+    def _ke_rows(self, VT, q, mdot, active, s, VV, pos):
+        m = VT.shape[1]
+        for i in range(self.n):
+            k = mdot[i]
+            if self.a[i] == 1.0:
+                if self.W0sq[i]:
+                    s += self.W0sq[i] * k
+                continue
+            if VV is None:
+                VV = np.zeros(m)
+                for c in active:
+                    VV += VT[c] * VT[c]
+            if i in pos:
+                qi = q[pos[i]]
+                e = qi * qi + VV
+                for c in active:
+                    if self.E[i, c]:
+                        e += (2.0 * self.E[i, c]) * qi * VT[c]
+            else:
+                e = self.W0sq[i] + VV
+                for c in active:
+                    if self.W0[i, c]:
+                        e += (2.0 * self.W0[i, c]) * VT[c]
+            s += k * e
+        return 0.5 * s
 
     def _v_abs2(self, VT, q):
         """|v_abs|^2 (n, m) with v_abs = W0 + b V + q E."""
@@ -829,6 +954,104 @@ class Model:
         r["groups"] = set()
         b = Balance(self, v, r)
         return ClosedBalance(b) if closed else b
+
+    # -- diagnostics of classic mistakes (read by Balance.warnings) --------------------------
+    def _role_normal(self):
+        """Ports whose normal follows the velocity as typed (the role set it), not typed."""
+        by_role = self.ports.role_normal
+        return np.zeros(self.n, bool) if by_role is None else np.asarray(by_role, bool)
+
+    def suspects(self, V, bad, r) -> str:
+        """The row most likely wrong when the mass does not balance at the CV velocities ``V``
+        (m, 3) where ``bad``: a port whose other frame, or other role, balances the mass."""
+        if self.train or self.flow.any():
+            return ""
+        VT = V[bad].T
+        mdot, inflow = r["mass_flow"][:, bad], r["inflow"][bad]
+        imb = mdot.sum(axis=0)
+        wn = self.W0n[:, None] - self.aN @ VT
+        sources = set() if not self.cl.size else set(self.src.tolist())
+        role_n = self._role_normal()
+
+        def balances(i, alt):
+            new_in = inflow - np.maximum(-mdot[i], 0.0) + np.maximum(-alt, 0.0)
+            new = imb - mdot[i] + alt
+            return bool(np.all((new_in > 0) & (np.abs(new) <= self.tol * new_in)))
+
+        names, found = self.ports.names, []
+        for i in range(self.n):
+            if self.closed[i] or i in sources:
+                continue
+            role = int(self.ports.role[i])
+            if not self.given[i] and self.rho_a0[i] > 0:
+                a = self.a[i]
+                alt_wn = self.W0n[i] - (1.0 - a) * (self.N[i] @ VT)
+                alt = self.rho_a0[i] * np.where((role == IN) & (alt_wn > 0), 0.0, alt_wn)
+                if balances(i, alt):
+                    frame, other = ("absolute", "relative frame (frame rel)") if a else (
+                        "relative", "absolute frame (frame abs)")
+                    hint = ("an outlet on the moving body is given relative to it"
+                            if a and role == OUT else "an intake on the moving body is given "
+                            "relative to it" if a else "a jet from a fixed nozzle is given in "
+                            "the absolute frame")
+                    # likelihood: an outlet on the body typed absolute, then a jet typed
+                    # relative, then a wrong role, then the rarer frame mistakes
+                    rank = 0 if (a and role == OUT) else 1 if (not a and role == IN) else 3
+                    found.append((rank, i, f"port {names[i]} is typed in the {frame} frame; "
+                                           f"typed in the {other}, the mass would balance "
+                                           f"({hint})"))
+                    continue
+            if role != UNKNOWN and (self.given[i] or role_n[i]):
+                alt = -mdot[i] if self.given[i] else -self.rho_a0[i] * wn[i]
+                if role == OUT:
+                    alt = np.where(alt > 0, 0.0, alt)
+                if balances(i, alt):
+                    now, other = ("out", "in") if role == OUT else ("in", "out")
+                    found.append((2, i, f"port {names[i]} is declared '{now}'; with role "
+                                        f"'{other}' the mass would balance (check its role)"))
+        return min(found)[2] if found else ""
+
+    def flow_notes(self, V, r) -> list:
+        """Warnings on given flows and role-based normals at the CV velocities ``V`` (m, 3)."""
+        notes, names = [], self.ports.names
+        VT = V.T
+        contact = r["contact"]
+        wn = self.W0n[:, None] - self.aN @ VT
+        for i in np.flatnonzero(self.discharge):
+            frac = wn[i] / self.W0n[i]
+            got = -r["mass_flow"][i] / (self.rho_a0[i] * -self.W0n[i])
+            show = contact & (np.abs(got - 1.0) > 1e-9)
+            if show.any():
+                lo, hi = float(np.min(frac[show])), float(np.max(frac[show]))
+                part = f"{lo:.3g}" if np.isclose(lo, hi) else f"{lo:.3g} to {hi:.3g}"
+                notes.append(f"port {names[i]}: its given flow is read as a fixed nozzle's "
+                             f"discharge rho A (V.n) (the row is typed in the absolute frame); "
+                             f"the moving body intercepts rho A ((V - V_cv).n), {part} of it; "
+                             f"if the flow given is the flow through the moving control volume, "
+                             f"type the row in the relative frame (frame rel)")
+        roleless = (self.given & self.unroled & (self.a == 1.0) & (self.m_given < 0.0)
+                    & (self.W0n < 0.0))
+        for i in np.flatnonzero(roleless):
+            if np.any(contact & (np.abs(wn[i] - self.W0n[i]) > 1e-9 * -self.W0n[i])):
+                notes.append(f"port {names[i]}: a given inflow on a port without a role, typed "
+                             f"in the absolute frame, is used as the flow through the moving "
+                             f"control volume; if it is a fixed nozzle's discharge, declare role "
+                             f"'in' (the body then intercepts rho A ((V - V_cv).n) of it)")
+        role_n = self._role_normal()
+        for i in np.flatnonzero(self.is_in & role_n & (self.a == 1.0) & ~self.closed):
+            w = self.W0[i][:, None] - VT
+            enters = contact & (wn[i] < 0)
+            if not enters.any():
+                continue
+            cos = np.clip(-wn[i][enters] / np.linalg.norm(w[:, enters], axis=0), -1.0, 1.0)
+            angle = float(np.degrees(np.max(np.arccos(cos))))
+            if angle > 1e-3:
+                notes.append(f"port {names[i]}: its normal follows the velocity typed in the "
+                             f"absolute frame (role 'in'), but the relative velocity "
+                             f"w = V - V_cv enters at up to {angle:.3g} deg to it (the CV moves "
+                             f"across the jet); right for a port cut square to a jet from a "
+                             f"fixed nozzle, otherwise type the port's normal nx, ny, nz")
+        return notes
 
     def notes(self, r) -> list:
         """Notes on the closures of an evaluation ``r`` holding the "closure" group."""

@@ -105,6 +105,9 @@ class Ports:
     p_gauge: np.ndarray
     mass_flow: np.ndarray
     height: np.ndarray
+    #: (n,) of bool: the normal follows the velocity as typed (set by the role, not typed);
+    #: None where unknown (a subset)
+    role_normal: np.ndarray = None
 
     @property
     def n(self) -> int:
@@ -230,7 +233,8 @@ class Ports:
         has_m = ~np.isnan(mass_flow)
         declared = has_m & (roles != UNKNOWN)
         mass_flow[declared] = roles[declared] * np.abs(mass_flow[declared])
-        return cls(names, area, density, vel, rel, normal, roles, beta, p_gauge, mass_flow, height)
+        return cls(names, area, density, vel, rel, normal, roles, beta, p_gauge, mass_flow, height,
+                   by_role)
 
     def subset(self, index) -> "Ports":
         """The ports at ``index`` (an index array or boolean mask), in that order."""

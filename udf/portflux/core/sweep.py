@@ -42,6 +42,8 @@ class SpeedTable:
     #: pace with, U = V; flows, forces and power are then 0)
     balanced: np.ndarray         #: (m,) mass balances within the tolerance
     valid: np.ndarray            #: (m,) every closure met (False: Bernoulli outlet unreachable)
+    #: (m,) why the jet efficiency is NaN: 0 a number, else a key of ``model.JET_NA``
+    jet_na: np.ndarray = None
 
     @property
     def force_along(self) -> np.ndarray:
@@ -181,7 +183,7 @@ def table(model: Model, speeds, d, chunk=CHUNK) -> SpeedTable:
     body = np.empty((3, m))
     cols = dict(power=np.empty(m), jet_efficiency=np.empty(m), inflow=np.empty(m),
                 contact=np.empty(m, dtype=bool), balanced=np.empty(m, dtype=bool),
-                valid=np.empty(m, dtype=bool))
+                valid=np.empty(m, dtype=bool), jet_na=np.empty(m, dtype=np.int8))
     for start in range(0, m, chunk):          # chunks of many speeds, bounded memory
         sl = slice(start, min(start + chunk, m))
         dest = dict(support_force=support[:, sl], force_on_body=body[:, sl],
@@ -194,7 +196,7 @@ def table(model: Model, speeds, d, chunk=CHUNK) -> SpeedTable:
         for key, a in dest.items():           # written in place (a copy only if not)
             if r[key] is not a:
                 a[...] = r[key]
-        for key in ("contact", "balanced", "valid"):
+        for key in ("contact", "balanced", "valid", "jet_na"):
             cols[key][sl] = r[key]
     return SpeedTable(speed=speeds.copy(), direction=d, support_force=support.T,
                       force_on_body=body.T, **cols)

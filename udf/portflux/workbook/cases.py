@@ -181,9 +181,12 @@ def _us_vane_cases(s: Sheet):
 
 def _frame_cases(s: Sheet):
     # Deliberately imbalanced (outlet area smaller): frame difference = V_cv x imbalance.
-    t, cv, U, _, _ = s.block("D. imbalanced CV (frame cross-check)", VANE_COLS, VANE_SI,
-                             (("in", "in", "abs", 0.01, 1000.0, 12.0, 0.0),
-                              ("out", "out", "rel", 0.008, 1000.0, 9.0, 90.0)),
+    # the inlet's normal is typed: the CV moves across the jet, and the port is cut square to
+    # the jet from the fixed nozzle (a role-based normal would draw a warning saying so)
+    t, cv, U, _, _ = s.block("D. imbalanced CV (frame cross-check)", VANE_COLS + ("nx", "ny"),
+                             VANE_SI + (None, None),
+                             (("in", "in", "abs", 0.01, 1000.0, 12.0, 0.0, -1.0, 0.0),
+                              ("out", "out", "rel", 0.008, 1000.0, 9.0, 90.0, 0.0, 1.0)),
                              (3.0, 1.0, 0.0), "m/s")
     rho, A1, V = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed")
     A2, w2 = t.at(1, "area"), t.at(1, "speed")
