@@ -431,11 +431,11 @@ def envelopeblock(ports, low, high, direction=None, units=None, settings=None):
     statics = ("U = 0 (statics, start-up) included" if env.statics else
                "U = 0 is outside the bracket: start-up not checked")
     out += [
-        ["dynamic factor (suddenly applied jet) [-]", env.dynamic_factor, "",
+        ["dynamic factor (suddenly applied jet) [-]", env.dynamic_factor, "-",
          "setting dynamic_factor: take it from your governing code (default 1)"],
-        ["load factor (governing code) [-]", env.load_factor, "",
+        ["load factor (governing code) [-]", env.load_factor, "-",
          "setting load_factor: take it from your governing code (default 1)"],
-        ["combined factor [-]", env.factor, "", "dynamic factor x load factor"],
+        ["combined factor [-]", env.factor, "-", "dynamic factor x load factor"],
         [f"bracket [{v}]", cell_value(us.out(lo, "velocity")), cell_value(us.out(hi, "velocity")),
          statics + _unmet(pb, d, lo, hi, us)],
     ]
