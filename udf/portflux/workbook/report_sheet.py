@@ -130,7 +130,7 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
     big_numbers(ws, rng(2, r0 + 2, 5, r0 + 3))
     rr = r0 + 4
     ml = C(p["moment_label"])
-    put(ws, 1, rr, "moment on the body about the support", font=BOLD)
+    put(ws, 1, rr, "moment on body (at support)", font=BOLD)
     for j, c in enumerate(p["moment"]):
         formula(ws, 2 + j, rr, f"={C(c)}", fmt=NUMBER, font=BOLD)
     formula(ws, 6, rr, f'=IFERROR(MID({ml},19,LEN({ml})-19),"")')
@@ -138,18 +138,21 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
     et = sw["envelope_top"]
     E = lambda c, r: f"{q(sweep_sheet)}!{cell(c, r)}"    # noqa: E731
     factor = E(4, et + 11)
-    for k, (name, first, skip) in enumerate((("factored design force (worst in sweep)", 1, 18),
-                                             ("factored design moment (worst in sweep)", 5,
-                                              19))):
+    for k, (name, first, skip) in enumerate((("design force (factored)", 1, 18),
+                                             ("design moment (factored)", 5, 19))):
         r = rr + 1 + k
         put(ws, 1, r, name, font=BOLD)
         for j in range(4):
             formula(ws, 2 + j, r, f"={E(6, et + first + j)}", fmt=NUMBER, font=BOLD)
         lab = E(1, et + first)
         formula(ws, 6, r, f'=IFERROR(MID({lab},{skip},LEN({lab})-{skip}),"")')
-    formula(ws, 7, rr + 1, f'=IFERROR("x "&{factor}&" (dynamic x load factor; set them from '
-                           f'your code)","")', font=ITALIC)
-    put(ws, 7, rr + 2, "each component at its own worst speed", font=ITALIC)
+    formula(ws, 7, rr + 1, f'=IFERROR("worst in the sweep x "&{factor}&" (dynamic x load '
+                           f'factor: set both from your code)","")', font=ITALIC)
+    put(ws, 7, rr + 2, "each component at its own worst speed (sheet 'Speed sweep')",
+        font=ITALIC)
+    put(ws, 7, rr, "about ref_x, ref_y, ref_z (sheet 'Control volume')", font=ITALIC)
+    for k in range(3):
+        _merge(ws, rr + k, 7, NCOL)
     big_numbers(ws, rng(2, rr, 5, rr + 2))
     rr += 3
     items = (("power to the body", f"={C(p['power'])}", NUMBER,

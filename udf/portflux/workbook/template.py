@@ -405,7 +405,7 @@ def _support_loads(ws, lay, raw, args, Uq, Sq, top):
     ref_z) and the resultants of the force and the moment on the body; returns its last row."""
     put(ws, 1, top, "Support loads about the reference point (settings ref_x, ref_y, ref_z; "
                     "port positions rx, ry, rz)", font=BOLD)
-    heads = ("x", "y", "z", "resultant", "in-plane angle", "elevation")
+    heads = ("x", "y", "z", "resultant", "angle", "elevation")
     for j, h in enumerate(heads):
         put(ws, 4 + j, top + 1, h, font=BOLD, align="center")
     put(ws, 10, top + 1, "(units as in the Summary; angles: in-plane from +x toward +y, "
