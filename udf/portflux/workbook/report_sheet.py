@@ -146,11 +146,10 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
             formula(ws, 2 + j, r, f"={E(6, et + first + j)}", fmt=NUMBER, font=BOLD)
         lab = E(1, et + first)
         formula(ws, 6, r, f'=IFERROR(MID({lab},{skip},LEN({lab})-{skip}),"")')
-    formula(ws, 7, rr + 1, f'=IFERROR("worst in the sweep x "&{factor}&" (dynamic x load '
-                           f'factor: set both from your code)","")', font=ITALIC)
-    put(ws, 7, rr + 2, "each component at its own worst speed (sheet 'Speed sweep')",
-        font=ITALIC)
-    put(ws, 7, rr, "about ref_x, ref_y, ref_z (sheet 'Control volume')", font=ITALIC)
+    formula(ws, 7, rr + 1, f'=IFERROR("worst of sweep x "&{factor}&" (factors: your code)",'
+                           f'"")', font=ITALIC)
+    put(ws, 7, rr + 2, "each at its own worst speed", font=ITALIC)
+    put(ws, 7, rr, "about ref_x, ref_y, ref_z", font=ITALIC)
     for k in range(3):
         _merge(ws, rr + k, 7, NCOL)
     big_numbers(ws, rng(2, rr, 5, rr + 2))
