@@ -222,7 +222,7 @@ def test_tables_without_positions_answer_as_before():
 def test_envelope_block_shows_raw_and_factored_side_by_side():
     t = tuple(r + (c,) for r, c in zip(PLAIN, ("ry", "ft", -1.0, -1.0)))
     s = (("dynamic_factor", 2.0, None), ("load_factor", 1.5, None))
-    out = C.PFX_ENVELOPE(t, {0: 0.0}.get(0), 30.0, None, "SI", s)
+    out = C.PFX_ENVELOPE(t, 0.0, 30.0, None, "SI", s)
     assert out[0] == ["load on the body [unit]", "largest (raw)", "at speed [m/s]", "factored"]
     F0 = 998.0 * 2e-4 * 40.0 ** 2 * (1 - math.cos(math.radians(150.0)))
     assert out[1][1:] == [pytest.approx(F0, rel=1e-12), 0.0, pytest.approx(3.0 * F0, rel=1e-12)]
