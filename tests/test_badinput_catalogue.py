@@ -62,6 +62,19 @@ def closed_split(row_number=None, **cells):
     return tuple(map(tuple, rows))
 
 
+# The vane with its ports 0.2 m above the mount (columns rx, ry).
+POSED = ((VANE[0] + ("rx", "ry"), VANE[1] + ("m", "m"), VANE[2] + (0.0, 0.2),
+          VANE[3] + (0.0, 0.2)))
+
+
+def posed(row_number, **cells):
+    """POSED with some cells of one sheet row (2 = units) replaced, by column name."""
+    rows = [list(r) for r in POSED]
+    for k, v in cells.items():
+        rows[row_number - 1][POSED[0].index(k)] = v
+    return tuple(map(tuple, rows))
+
+
 DATE = datetime.datetime(2024, 3, 1, 0, 0)   # xlwings hands a date cell over as datetime
 P = C.PFX_POWER
 KNOWN = "known columns: port, role, frame, area, density, vx"
@@ -414,6 +427,42 @@ CATALOGUE = [
       "'sideways')"]),
     ("bracket of one speed", C.PFX_SPEEDATFORCE, (VANE, 10.0, 5.0, 5.0),
      ["low, high: low must be below high (got low 5 m/s, high 5 m/s)"]),
+    # ---- support loads: moments, resultants, envelope --------------------------------------
+    ("moment without port positions", C.PFX_MOMENT, (VANE, 10.0),
+     ["ports: moments need the port positions: add the columns rx, ry, rz (a length unit in "
+      "the unit row; a blank cell is 0) to the port table"]),
+    ("support moment without port positions", C.PFX_SUPPORTMOMENT, (VANE, 10.0, "z"),
+     ["ports: moments need the port positions: add the columns rx, ry, rz"]),
+    ("moment resultant without port positions", C.PFX_RESULTANT, (VANE, 10.0, "moment"),
+     ["ports: moments need the port positions: add the columns rx, ry, rz"]),
+    ("envelope without port positions", C.PFX_ENVELOPE, (VANE, 0.0, 30.0),
+     ["ports: moments need the port positions: add the columns rx, ry, rz"]),
+    ("moment with a fluid mass but no centroid", C.PFX_MOMENT,
+     (POSED, 10.0, None, None, (("fluid_mass", 2.0, "kg"),)),
+     ["ports: moments need the centroid of the fluid inside the CV, where its weight acts: "
+      "add the settings cg_x, cg_y, cg_z (or set fluid_mass 0)"]),
+    ("port position as a word", C.PFX_MOMENT, (posed(4, rx="left"), 10.0),
+     ["ports row 4, rx: expected a number, got text 'left'"]),
+    ("port position in a velocity unit", C.PFX_MOMENT, (posed(2, rx="m/s"), 10.0),
+     ["ports row 2, rx: unit 'm/s' is a velocity unit, expected a length unit"]),
+    ("reference point in a pressure unit", C.PFX_MOMENT,
+     (POSED, 10.0, None, None, (("ref_y", 1.0, "psi"),)),
+     ["settings row 1, ref_y unit", "'psi'", "expected a length unit"]),
+    ("resultant of a torque", C.PFX_RESULTANT, (POSED, 10.0, "torque"),
+     ["quantity: must be 'force' or 'moment' (got 'torque')"]),
+    ("resultant quantity as a number", C.PFX_RESULTANT, (POSED, 10.0, 2.0),
+     ["quantity: must be 'force' or 'moment' (got '2')"]),
+    ("load factor of zero", C.PFX_ENVELOPE, (POSED, 0.0, 30.0, None, None,
+                                             (("load_factor", 0.0, None),)),
+     ["settings row 1, load_factor: must be > 0 (got 0); take the factor from your governing "
+      "code (1 = none)"]),
+    ("dynamic factor as a word", C.PFX_ENVELOPE, (POSED, 0.0, 30.0, None, None,
+                                                  (("dynamic_factor", "two", None),)),
+     ["settings row 1, dynamic_factor: expected a number, got text 'two'"]),
+    ("envelope bracket upside down", C.PFX_ENVELOPE, (POSED, 30.0, 0.0),
+     ["low, high: low must be below high (got low 30 m/s, high 0 m/s)"]),
+    ("envelope bracket end in psi", C.PFX_ENVELOPE, (POSED, 0.0, (30.0, "psi")),
+     ["high, unit: unit 'psi' is a pressure unit, expected a velocity unit"]),
     # ---- flags: a normal result that carries the word ----------------------------------------
     ("flag: body outruns the jet (status)", C.PFX_IMBALANCE, (VANE, 40.0), ["no contact"]),
     ("flag: body outruns the jet (warnings)", C.PFX_WARNINGS, (VANE, 40.0),

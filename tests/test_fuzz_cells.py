@@ -193,6 +193,8 @@ class Draw:
             return self.pick([None, "x", "y", "z", "X"]) if valid else self.cell()
         if name == "kind":
             return self.pick([None, "jet", "propulsive"]) if valid else self.cell()
+        if name == "quantity":
+            return self.pick([None, "force", "moment", "Moment"]) if valid else self.cell()
         if name == "tolerance":
             return self.pick([None, 0.01, 0.0, 1.0]) if valid else self.cell()
         return self.grid(5, 5) if self.rng.random() < 0.5 else self.number()

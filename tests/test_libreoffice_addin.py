@@ -95,13 +95,13 @@ def test_adapter_turns_calc_blanks_into_none_and_results_into_rectangular_blocks
 
 
 # Invented vane: 2 cm^2 water jet at 40 m/s turned through 150 degrees.
-VANE_NONE = (("port", "role", "area", "density", "speed", "angle", "closure"),
-             (None, None, "cm^2", None, None, None, None),
-             ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
-             ("exit", "out", 2.0, 998.0, None, 150.0, "free"),
-             (None,) * 7)
+VANE_NONE = (("port", "role", "area", "density", "speed", "angle", "closure", "ry"),
+             (None, None, "cm^2", None, None, None, None, "m"),
+             ("jet", "in", 2.0, 998.0, 40.0, 0.0, None, 0.2),
+             ("exit", "out", 2.0, 998.0, None, 150.0, "free", None),
+             (None,) * 8)
 VANE_EMPTY = tuple(tuple("" if c is None else c for c in r) for r in VANE_NONE)
-SETTINGS_EMPTY = (("fluid_mass", 0.5, "kg"), ("", "", ""))
+SETTINGS_EMPTY = (("fluid_mass", 0.5, "kg"), ("", "", ""), ("cg_y", 0.1, "m"))
 SPEEDS_EMPTY = (("m/s",), (0.0,), ("",), (10.0,))
 
 
@@ -111,7 +111,7 @@ def _args(name, ports, settings, speeds):
     given = {"ports": ports, "cv_velocity": 10.0, "port": "jet", "units": "SI",
              "labels": True, "settings": settings, "tolerance": 0.001, "axis": "x",
              "kind": "jet", "speeds": speeds, "direction": 0.0, "low": 0.0, "high": 40.0,
-             "value": 100.0, "component": "along"}
+             "value": 100.0, "component": "along", "quantity": "moment"}
     return [given[a] for a in p]
 
 

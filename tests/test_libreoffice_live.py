@@ -20,24 +20,24 @@ from portflux.addins.libreoffice.registry import functions
 
 pytestmark = needs_libreoffice
 
-# Where the inputs go on the sheet: ports A1:G6, settings I1:K3, speeds M1:M5, CV velocity
+# Where the inputs go on the sheet: ports A1:H6, settings I1:K3, speeds M1:M5, CV velocity
 # O1:R1. Each argument is a formula operand and the value Calc hands the add-in (a range as
 # rows with None for blanks, TRUE as 1.0).
-RANGES = {"ports": "$A$1:$G$6", "settings": "$I$1:$K$3", "speeds": "$M$1:$M$5",
+RANGES = {"ports": "$A$1:$H$6", "settings": "$I$1:$K$3", "speeds": "$M$1:$M$5",
           "cv_velocity": "$O$1:$R$1"}
 COMMON = {"labels": ("TRUE()", 1.0), "tolerance": ("0.002", 0.002), "kind": ('"jet"', "jet"),
           "direction": ("0", 0.0), "low": ("0", 0.0), "high": ("40", 40.0),
-          "component": ('"along"', "along")}
+          "component": ('"along"', "along"), "quantity": ('"moment"', "moment")}
 
 SCENARIOS = {
     # Invented vane: 2 cm^2 water jet at 40 m/s turned through 150 degrees, SI, kN out.
     "vane": dict(
-        ports=(("port", "role", "area", "density", "speed", "angle", "closure"),
-               (None, None, "cm^2", None, None, None, None),
-               ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
-               ("exit", "out", 2.0, 998.0, None, 150.0, "free"),
-               (None,) * 7, (None,) * 7),
-        settings=(("fluid_mass", 0.5, "kg"), ("gz", -9.81, "m/s^2"), (None, None, None)),
+        ports=(("port", "role", "area", "density", "speed", "angle", "closure", "ry"),
+               (None, None, "cm^2", None, None, None, None, "m"),
+               ("jet", "in", 2.0, 998.0, 40.0, 0.0, None, 0.3),
+               ("exit", "out", 2.0, 998.0, None, 150.0, "free", 0.35),
+               (None,) * 8, (None,) * 8),
+        settings=(("fluid_mass", 0.5, "kg"), ("gz", -9.81, "m/s^2"), ("cg_y", 0.3, "m")),
         speeds=(("m/s",), (0.0,), (None,), (10.0,), (50.0,)),
         cv=((10.0, 0.0, 0.0, "m/s"),),
         scalars={"port": ('"exit"', "exit"), "units": ('"SI; force=kN"', "SI; force=kN"),
@@ -45,12 +45,12 @@ SCENARIOS = {
     # Invented plate: a 0.03 ft^2 jet split by a frictionless plate at 60 degrees into two
     # solved streams, the plate backing away at 5 ft/s; US customary units in and out.
     "plate, US": dict(
-        ports=(("port", "role", "area", "density", "speed", "angle", "closure"),
-               (None, None, "ft^2", "slug/ft^3", "ft/s", "deg", None),
-               ("jet", "in", 0.03, 1.94, 60.0, 0.0, None),
-               ("fwd", "out", None, 1.94, None, 60.0, "solve"),
-               ("back", "out", None, 1.94, None, 240.0, "solve"),
-               (None,) * 7),
+        ports=(("port", "role", "area", "density", "speed", "angle", "closure", "rx"),
+               (None, None, "ft^2", "slug/ft^3", "ft/s", "deg", None, "ft"),
+               ("jet", "in", 0.03, 1.94, 60.0, 0.0, None, -1.0),
+               ("fwd", "out", None, 1.94, None, 60.0, "solve", 0.5),
+               ("back", "out", None, 1.94, None, 240.0, "solve", None),
+               (None,) * 8),
         settings=(("slip_angle", 60.0, "deg"), ("fluid_mass", 0.0, "slug"), (None, None, None)),
         speeds=(("ft/s",), (0.0,), (5.0,), (None,), (20.0,)),
         cv=((5.0, 0.0, 0.0, "ft/s"),),

@@ -87,6 +87,13 @@ def _answers(i):
         "PFX_SPEEDATFORCE": [cells.PFX_SPEEDATFORCE(P, 500.0, lo, hi, "along", 0.0, U, S),
                              cells.PFX_SPEEDATFORCE(P, 5e6, lo, hi, "along", 0.0, U, S),
                              cells.PFX_SPEEDATFORCE(P, 1.0, lo, hi, "along", 0.0, U, S)],
+        # a table without positions answers with one message (1 x 1)
+        "PFX_MOMENT": [cells.PFX_MOMENT(P, cv, None, U, S), cells.PFX_MOMENT(TEN, cv, None, U)],
+        "PFX_SUPPORTMOMENT": [cells.PFX_SUPPORTMOMENT(P, cv, None, U, S)],
+        "PFX_RESULTANT": [cells.PFX_RESULTANT(P, cv, "force", U, S),
+                          cells.PFX_RESULTANT(P, cv, "moment", U, S)],
+        "PFX_ENVELOPE": [cells.PFX_ENVELOPE(P, lo, hi, 0.0, U, S),
+                         cells.PFX_ENVELOPE(P, hi, lo, 0.0, U, S)],
     }
 
 

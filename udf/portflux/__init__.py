@@ -13,9 +13,9 @@ Its public surface is :data:`__all__` (tested in ``tests/test_public_surface.py`
 __version__ = "0.1.0"
 
 #: The Python API re-exported from :mod:`portflux.api` (and :mod:`portflux.core` result types).
-_API = ("solve", "speed_table", "best_speed", "speed_at_force", "problem", "ureg",
+_API = ("solve", "speed_table", "best_speed", "speed_at_force", "envelope", "problem", "ureg",
         "ControlVolumeResult", "SpeedTableResult", "format_report")
-_CORE = ("Balance", "BestSpeed", "ForceSpeed", "InputError", "Model", "OutsideScopeError",
+_CORE = ("Balance", "BestSpeed", "Envelope", "ForceSpeed", "InputError", "Model", "OutsideScopeError",
          "Ports", "SpeedTable")
 
 __all__ = ["__version__", *_API, *_CORE]

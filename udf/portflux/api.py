@@ -22,8 +22,10 @@ import numpy as np
 
 from . import problem as P
 from . import units as U
-from .core import (DEFAULT_IMBALANCE_TOL, STANDARD_GRAVITY, Balance, BestSpeed, ForceSpeed,
-                   InputError, SpeedTable)
+from .core import (DEFAULT_IMBALANCE_TOL, STANDARD_GRAVITY, Balance, BestSpeed, Envelope,
+                   ForceSpeed, InputError, SpeedTable)
+from .core import envelope as _core_envelope
+from .core import resultant as _resultant
 from .core import best_speed as _core_best_speed
 from .core import speed_at_force as _core_speed_at_force
 from .core import speed_table as _core_speed_table
@@ -31,7 +33,7 @@ from .core.geometry import direction
 from .core.model import JET_NA
 
 __all__ = ["ControlVolumeResult", "SpeedTableResult", "best_speed", "cv_velocity_si",
-           "format_report", "problem", "solve", "speed_at_force", "speed_table", "ureg"]
+           "envelope", "format_report", "problem", "solve", "speed_at_force", "speed_table", "ureg"]
 
 
 def ureg():
@@ -99,7 +101,8 @@ def _slip(slip_angles, slip_directions):
 def problem(ports, *, units=None, fluid_mass=0.0, mass_unit="kg",
             gravity=(0.0, 0.0, -STANDARD_GRAVITY), gravity_unit="m/s^2",
             tolerance=DEFAULT_IMBALANCE_TOL, intercept="single", slip_angles=(),
-            slip_directions=()) -> P.Problem:
+            slip_directions=(), reference=(0.0, 0.0, 0.0), fluid_centroid=None,
+            length_unit="m", dynamic_factor=1.0, load_factor=1.0) -> P.Problem:
     """Port rows, units, closures and settings built into a compiled problem (SI inside).
 
     Parameters
@@ -126,6 +129,17 @@ def problem(ports, *, units=None, fluid_mass=0.0, mass_unit="kg",
     slip_directions : array_like (k, 3)
         Further no-force directions as 3-D vectors [-] (any length), e.g. the tangent of a
         plate tilted out of the x-y plane.
+    reference : array_like (3,)
+        Reference point (the support) about which moments are taken [length_unit], in the
+        axes of the port positions rx, ry, rz; default the origin.
+    fluid_centroid : array_like (3,), optional
+        Centroid of the fluid inside the CV, where its weight acts [length_unit]; needed for
+        moments when ``fluid_mass`` > 0.
+    length_unit : str
+        Unit of ``reference`` and ``fluid_centroid``.
+    dynamic_factor, load_factor : float
+        Design factors [-] for :func:`envelope` (a suddenly applied jet; the governing code's
+        safety / load factor); default 1 each. Their values are the user's responsibility.
 
     Returns
     -------
@@ -144,7 +158,11 @@ def problem(ports, *, units=None, fluid_mass=0.0, mass_unit="kg",
     settings = P.Settings(
         fluid_mass=float(U.to_si(fluid_mass, mass_unit, "mass")),
         gravity=tuple(U.to_si(np.asarray(gravity, float), gravity_unit, "acceleration")),
-        tolerance=tolerance, intercept=intercept, no_force=_slip(slip_angles, slip_directions))
+        tolerance=tolerance, intercept=intercept, no_force=_slip(slip_angles, slip_directions),
+        reference=tuple(U.to_si(np.asarray(reference, float), length_unit, "length")),
+        fluid_centroid=None if fluid_centroid is None else tuple(
+            U.to_si(np.asarray(fluid_centroid, float), length_unit, "length")),
+        dynamic_factor=float(dynamic_factor), load_factor=float(load_factor))
     try:
         return P.build_problem(table, settings)
     except InputError as e:
@@ -172,6 +190,24 @@ class ControlVolumeResult:
     def support_force_in(self, unit="N"):
         """Force of the solid on the fluid (support force R), in ``unit``."""
         return U.from_si(self.balance.support_force, unit, "force")
+
+    def moment_on_body_in(self, unit="N*m"):
+        """Moment of the fluid on the body about the reference point, -M_R, in ``unit``."""
+        return U.from_si(self.balance.moment_on_body, unit, "moment")
+
+    def support_moment_in(self, unit="N*m"):
+        """Moment of the solid on the fluid about the reference point, M_R, in ``unit``."""
+        return U.from_si(self.balance.support_moment, unit, "moment")
+
+    def resultant(self, quantity="force"):
+        """(magnitude [N or N m], in-plane angle [deg], elevation [deg]) of the force
+        ("force") or the moment ("moment") on the body."""
+        attr = {"force": "force_on_body", "moment": "moment_on_body"}.get(quantity)
+        if attr is None:
+            raise InputError(f"must be 'force' or 'moment' (got {quantity!r})",
+                             argument="quantity")
+        mag, a, e = _resultant(getattr(self.balance, attr))
+        return mag, np.degrees(a), np.degrees(e)
 
     def report(self, units=None) -> str:
         """A plain-text report in an output unit system ("SI", "US", "US; power=kW")."""
@@ -253,12 +289,14 @@ class SpeedTableResult:
         for key, a in self.table.columns().items():
             kind = "force" if key.startswith(("support_force", "force_on_body")) else kinds.get(
                 key)
+            if key.startswith(("support_moment", "moment_on_body")):
+                kind = "moment"
             out[key] = us.out(a, kind) if kind else a
         return out
 
 
 def speed_table(ports, speeds, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", units=None,
-                **settings) -> SpeedTableResult:
+                moments=False, **settings) -> SpeedTableResult:
     """Forces, power and efficiency at each of many CV speeds along one direction.
 
     .. math:: \\vec V_{cv} = U \\hat d, \\qquad P(U) = \\vec F_{body}(U) \\cdot U \\hat d
@@ -275,6 +313,9 @@ def speed_table(ports, speeds, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", u
         Unit of ``speeds``.
     units : dict, optional
         Column -> unit string of the port rows.
+    moments : bool
+        Add the moments about the reference point (``support_moment``, ``moment_on_body``
+        [N m]); the port rows need positions rx, ry, rz.
     **settings
         As in :func:`problem`.
 
@@ -296,7 +337,59 @@ def speed_table(ports, speeds, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", u
     """
     pb = problem(ports, units=units, **settings)
     u = U.to_si(np.asarray(speeds, dtype=float), speed_unit, "velocity")
-    return SpeedTableResult(_core_speed_table(pb.model, u, direction))
+    return SpeedTableResult(_core_speed_table(pb.model, u, direction, moments=moments))
+
+
+def envelope(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", units=None,
+             **settings) -> Envelope:
+    """Worst force and moment on the body over a bracket of speeds, raw and factored.
+
+    .. math:: L^* = \\max_{U_{lo} \\le U \\le U_{hi}} |L(U)|, \\qquad
+              L_{design} = k_{dyn} k_{load} L^*
+
+    for the force and moment components on the body and their resultants (U = 0 included
+    when the bracket holds it).
+
+    Parameters
+    ----------
+    ports : list of dict or dict of lists
+        Port rows with positions rx, ry, rz (see :func:`solve`).
+    bracket : (float, float)
+        Lowest and highest speed [speed_unit].
+    direction : array_like (3,)
+        Direction of motion d [-].
+    speed_unit : str
+        Unit of ``bracket``; the result is SI (N, N m, m/s).
+    units : dict, optional
+        Column -> unit string of the port rows.
+    **settings
+        As in :func:`problem`: ``reference``, ``fluid_centroid``, ``length_unit``,
+        ``dynamic_factor``, ``load_factor`` (default 1: set them from your governing code), ...
+
+    Returns
+    -------
+    portflux.core.Envelope
+        Rows :data:`portflux.core.ENVELOPE_ROWS`: ``value``, ``speed``, ``factored``.
+
+    Examples
+    --------
+    A 30 m/s jet on a 180-degree vane on a carriage, load factor 1.5 (invented numbers): the
+    worst force is at rest, 2 rho A V^2:
+
+    >>> rows = [{"role": "in", "area": 2e-4, "density": 998.0, "speed": 30.0, "ry": 0.2},
+    ...         {"role": "out", "closure": "free", "angle": 180.0, "area": 2e-4,
+    ...          "density": 998.0, "ry": 0.2}]
+    >>> e = envelope(rows, (0.0, 20.0), load_factor=1.5)
+    >>> round(float(e.value[0]), 6), float(e.speed[0]), round(float(e.factored[0]), 6)
+    (359.28, 0.0, 538.92)
+
+    Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
+    """
+    pb = problem(ports, units=units, **settings)
+    lo, hi = (float(U.to_si(float(x), speed_unit, "velocity")) for x in bracket)
+    s = pb.settings
+    return _core_envelope(pb.model, (lo, hi), direction, dynamic_factor=s.dynamic_factor,
+                          load_factor=s.load_factor)
 
 
 def best_speed(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", units=None,

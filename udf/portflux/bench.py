@@ -340,6 +340,11 @@ def bench_table(quick):
     ref = bare_table(u)
     np.testing.assert_allclose(t.force_on_body[:, 0], ref[3], rtol=1e-9, atol=1e-6)
     np.testing.assert_array_equal(t.contact, ref[8])
+    # the same vane with its ports 0.3 m above the mount: M_z = -0.3 F_x (moment of a force)
+    pm = type(p).build(area=[AREA, AREA], density=RHO, role=["in", "out"],
+                       velocity=p.velocity, position=[[0.0, 0.3, 0.0]] * 2)
+    tmom = speed_table(pm, u, x, closures=c, moments=True)
+    np.testing.assert_allclose(tmom.moment_on_body[:, 2], -0.3 * ref[3], rtol=1e-9, atol=1e-6)
 
     def core():
         return speed_table(p, u, x, closures=c)
@@ -377,7 +382,8 @@ def bench_table(quick):
     u100 = np.linspace(-10.0, 45.0, 100)
     cases = {"bare": (lambda: bare_table(u), 1, None), "core": (core, 1, None),
              "bare100": (lambda: bare_table(u100), 200, None),
-             "core100": (lambda: speed_table(p, u100, x, closures=c), 200, None)}
+             "core100": (lambda: speed_table(p, u100, x, closures=c), 200, None),
+             "core_mom": (lambda: speed_table(pm, u, x, closures=c, moments=True), 1, None)}
     cases.update({"bare_e": (bare_e2e, 1, None), "core_e": (core_e2e, 1, None),
                   "bare_gc": (lambda: bare_e2e(pause_gc=False), 1, None)})
     if have_cells:
@@ -396,6 +402,10 @@ def bench_table(quick):
         _figure(b, "bare numpy closed form (9 columns)", t_bare * 1e3, "ms"),
         _figure(b, "core.speed_table, 'free' closure", t_core * 1e3, "ms"),
         _figure(b, "ratio core / bare, compute only", t_core / t_bare, "x", "<= 1.3", 1.3),
+        _figure(b, "core.speed_table with moments (rx, ry, rz)", tm["core_mom"] * 1e3, "ms",
+                note="6 more columns (support moment, moment on body), chunked"),
+        _figure(b, "ratio with moments / without", tm["core_mom"] / t_core, "x",
+                note="informational: same chunks, no loop over speeds"),
         _figure(b, "100 speeds: bare numpy closed form", tm["bare100"] * 1e6, "us"),
         _figure(b, "100 speeds: core.speed_table", tm["core100"] * 1e6, "us",
                 note="fixed cost of one table: compile the model, one chunk"),

@@ -70,7 +70,14 @@ COLUMNS = {c.key: c for c in (
            ("from",)),
     Column("share", "ratio", "outlet's fraction of the total inflow (0..1); a 'solve' or share "
                              "outlet needs no area (the stream area is reported)"),
+    Column("rx", "length", "x of the port's centroid, for moments about the reference point "
+                           "(settings ref_x, ref_y, ref_z; blank = 0)"),
+    Column("ry", "length", "y of the port's centroid (blank = 0)"),
+    Column("rz", "length", "z of the port's centroid (blank = 0)"),
 )}
+
+#: Columns of the port positions; a table with any of them can give moments.
+POSITION_COLUMNS = ("rx", "ry", "rz")
 
 TEXT_COLUMNS = tuple(k for k, c in COLUMNS.items() if c.kind is None)
 
@@ -238,6 +245,10 @@ class Settings:
     tolerance: float = DEFAULT_IMBALANCE_TOL                #: relative imbalance tolerance [-]
     intercept: str = SINGLE                                 #: "single" vane or vane "train"
     no_force: tuple = ()     #: unit directions (3-tuples) along which the support force is zero
+    reference: tuple = (0.0, 0.0, 0.0)   #: reference point O (the support) for moments [m]
+    fluid_centroid: tuple | None = None  #: centroid of the fluid inside the CV [m] (None: not given)
+    dynamic_factor: float = 1.0          #: factor for a suddenly applied jet [-] (set by the user)
+    load_factor: float = 1.0             #: safety / load factor of the governing code [-]
 
 
 @dataclass(frozen=True, eq=False)
@@ -283,7 +294,8 @@ def build_problem(table: PortTable, settings: Settings = Settings(), *, toleranc
     c = closures_of(table, settings.no_force, kinematic=kinematic)
     tol = settings.tolerance if tolerance is None else tolerance
     model = Model(table.ports, c, intercept=settings.intercept, fluid_mass=settings.fluid_mass,
-                  gravity=settings.gravity, tol=tol)
+                  gravity=settings.gravity, tol=tol, reference=settings.reference,
+                  fluid_centroid=settings.fluid_centroid)
     return Problem(table, settings, c, model)
 
 
@@ -490,6 +502,9 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
         if not 0.0 <= share[i] <= 1.0:
             raise InputError(f"must be in [0, 1] (got {share[i]:g})", port=i, field="share")
 
+    position = None
+    if any(k in table for k in POSITION_COLUMNS):
+        position = np.stack([_nan_zero(num(k)) for k in POSITION_COLUMNS], axis=1)
     area = num("area")
     # a closed outlet without area or mass flow gets its flow from continuity (solved)
     flow_set = (np.array([c == "solve" for c in kinds], dtype=bool) | ~np.isnan(share)
@@ -498,7 +513,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
         ports = Ports.build(area=area, density=density, velocity=velocity,
                             relative=frames, normal=nvec, role=roles, beta=num("beta"),
                             p_gauge=num("p_gauge"), mass_flow=mass_flow, height=num("height"),
-                            names=names, flow_by_closure=flow_set)
+                            names=names, flow_by_closure=flow_set, position=position)
     except InputError as e:
         raise _in_user_units(e, table, units) from None
     return PortTable(ports=ports, closure=tuple(kinds), loss=loss, source=tuple(words("source")),

@@ -63,6 +63,8 @@ QUANTITIES = {q.name: q for q in (
     Quantity("force", "[length] * [mass] / [time] ** 2", "N", "N", "lbf", "N, kN, lbf"),
     Quantity("power", "[length] ** 2 * [mass] / [time] ** 3", "W", "W", "hp",
              "W, kW, hp, ft*lbf/s"),
+    Quantity("moment", "[length] ** 2 * [mass] / [time] ** 2", "N*m", "N*m", "lbf*ft",
+             "N*m, kN*m, lbf*ft, lbf*in"),
     Quantity("mass", "[mass]", "kg", "kg", "slug", "kg, lbm, slug"),
     Quantity("length", "[length]", "m", "m", "ft", "m, mm, ft, in"),
     Quantity("acceleration", "[length] / [time] ** 2", "m/s^2", "m/s^2", "ft/s^2",
@@ -359,6 +361,7 @@ _PINNED = {
     'cm': 0.01, 'mm': 0.001, 'km': 1000.0, 'in': 0.0254, 'ft': 0.30479999999999996, 'yd': 0.9144,
     'mi': 1609.344, 'm/s^2': 1.0, 'ft/s^2': 0.30479999999999996, 'deg': 0.017453292519943295,
     'rad': 1.0, '°': 0.017453292519943295, '%': 0.01, 'percent': 0.01,
+    'N*m': 1.0, 'kN*m': 1000.0, 'lbf*ft': 1.3558179483314001, 'lbf*in': 0.11298482902761671,
 }
 _pinned_powers = {}
 
@@ -377,7 +380,7 @@ _KIND_DIMS = {
     "area": _dim(2), "density": _dim(-3, 1), "velocity": _dim(1, 0, -1),
     "pressure": _dim(-1, 1, -2), "mass_flow": _dim(0, 1, -1), "volume_flow": _dim(3, 0, -1),
     "force": _dim(1, 1, -2), "power": _dim(2, 1, -3), "mass": _dim(mass=1), "length": _dim(1),
-    "acceleration": _dim(1, 0, -2), "ratio": _dim(),
+    "acceleration": _dim(1, 0, -2), "ratio": _dim(), "moment": _dim(2, 1, -2),
 }
 
 

@@ -52,8 +52,9 @@ ARG_DOCS = {
                  "the tolerance in settings).",
     "axis": "x, y or z for one component; blank returns all three (1x3).",
     "settings": "Optional rows name | value | unit: fluid_mass, gx, gy, gz, tolerance, "
-                "intercept (single or train), slip_angle [deg] (repeatable) and slip_x, slip_y, "
-                "slip_z: directions along which the body carries no force.",
+                "intercept (single/train), slip_angle [deg] (repeatable), slip_x/y/z "
+                "(no-force directions), ref_x/y/z (moment point), cg_x/y/z (fluid centroid), "
+                "dynamic_factor, load_factor.",
     "kind": "jet (power / kinetic-energy flux of the incoming jet, default) or propulsive.",
     "speeds": "One column (or row) of CV speeds along the direction, optionally led by one text "
               "cell with their unit (default m/s). Blank cells give blank output rows.",
@@ -66,6 +67,8 @@ ARG_DOCS = {
              "a number and a unit cell such as {500,\"lbf\"}.",
     "component": "Which force on the body: x, y, z, along (the direction of motion, default) or "
                  "magnitude.",
+    "quantity": "force (the force on the body, default) or moment (the moment on the body about "
+                "the reference point).",
 }
 
 #: Read options passed to xlwings for every argument. ``err_to_str`` makes xlwings hand over a
@@ -159,7 +162,8 @@ def PFX_SETTINGS():
 
     >>> [r[0] for r in PFX_SETTINGS()[1:]]
     ['fluid_mass', 'gx', 'gy', 'gz', 'tolerance', 'intercept', 'slip_angle', 'slip_x', \
-'slip_y', 'slip_z', 'ax', 'ay', 'az']
+'slip_y', 'slip_z', 'ax', 'ay', 'az', 'ref_x', 'ref_y', 'ref_z', 'cg_x', 'cg_y', 'cg_z', \
+'dynamic_factor', 'load_factor']
 
     No equation: a listing of the settings names.
 
@@ -407,6 +411,98 @@ def PFX_EFFICIENCY(ports, cv_velocity, kind=None, settings=None, units=None):
 
 
 # --------------------------------------------------------------------------------------------
+# moments at the support and resultants
+# --------------------------------------------------------------------------------------------
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "axis", "units", "settings")
+def PFX_MOMENT(ports, cv_velocity, axis=None, units=None, settings=None):
+    """Moment of the fluid on the body about the reference point (the support), -M_R (1 x 3,
+    or one component with axis); needs the port positions rx, ry, rz.
+
+    From the steady moment of momentum in the frame moving with the CV, positions r measured
+    from the reference point (settings ref_x, ref_y, ref_z; default the origin):
+    M_R + sum r_i x (-p_i A_i n_i) + r_G x (m g) = sum r_i x (beta_i mdot_i w_i), and the
+    moment on the body is -M_R. A fluid_mass needs its centroid (settings cg_x, cg_y, cg_z).
+
+    Parameters
+    ----------
+    axis : str, optional
+        "x", "y" or "z" for one component.
+    units : str, optional
+        Output units [moment]: N*m (SI), lbf*ft (US).
+    settings : range, optional
+        ref_x, ref_y, ref_z; cg_x, cg_y, cg_z with fluid_mass; gravity, intercept.
+
+    A 10 cm^2 water jet at 20 m/s turned straight up by a fixed vane; the vane's mount sits
+    0.5 m below the jet line, so the jet's push 1000 * 0.001 * 20^2 = 400 N along +x acts on a
+    lever arm of 0.5 m: M_z = -400 * 0.5 N m (clockwise seen from +z):
+
+    >>> t = (("port", "role", "area", "density", "vx", "vy", "rx", "ry"), (None,) * 8,
+    ...      ("jet", "in", 10e-4, 1000.0, 20.0, 0.0, -0.1, 0.5),
+    ...      ("up", "out", 10e-4, 1000.0, 0.0, 20.0, 0.0, 0.6))
+    >>> round(PFX_MOMENT(t, 0.0, "z"), 9)
+    -200.0
+
+    Reference: angular-momentum theorem for a control volume, White, *Fluid Mechanics*,
+    sec. 3.5 (from memory).
+    """
+    return _guarded("PFX_MOMENT", F.moment, ports, cv_velocity, axis, units, settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "axis", "units", "settings")
+def PFX_SUPPORTMOMENT(ports, cv_velocity, axis=None, units=None, settings=None):
+    """Support moment M_R of the solid on the fluid about the reference point (1 x 3, or one
+    component with axis); the moment on the body is -M_R (PFX_MOMENT).
+
+    Equation: M_R = sum r_i x (beta_i mdot_i w_i) + sum r_i x (p_i A_i n_i) - r_G x (m g),
+    positions measured from the reference point.
+
+    >>> t = (("port", "role", "area", "density", "vx", "vy", "rx", "ry"), (None,) * 8,
+    ...      ("jet", "in", 10e-4, 1000.0, 20.0, 0.0, -0.1, 0.5),
+    ...      ("up", "out", 10e-4, 1000.0, 0.0, 20.0, 0.0, 0.6))
+    >>> round(PFX_SUPPORTMOMENT(t, 0.0, "z"), 9)
+    200.0
+
+    Reference: angular-momentum theorem for a control volume, White, *Fluid Mechanics*,
+    sec. 3.5 (from memory).
+    """
+    return _guarded("PFX_SUPPORTMOMENT", F.supportmoment, ports, cv_velocity, axis, units,
+                    settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "quantity", "units", "settings")
+def PFX_RESULTANT(ports, cv_velocity, quantity=None, units=None, settings=None):
+    """Resultant of the force (default) or the moment on the body (1 x 3): magnitude, in-plane
+    angle from +x toward +y and elevation from the x-y plane toward +z.
+
+    Equation: |F| = sqrt(Fx^2 + Fy^2 + Fz^2), angle = atan2(Fy, Fx), elevation =
+    atan2(Fz, sqrt(Fx^2 + Fy^2)); angles in deg unless units say otherwise. A zero resultant
+    has no direction ("n/a" angles).
+
+    Parameters
+    ----------
+    quantity : str, optional
+        "force" (default) or "moment".
+    units : str, optional
+        Output units [force or moment, angle].
+
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
+    ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
+    >>> [round(x, 6) for x in PFX_RESULTANT(t, 10.0)[0]]     # 798.4 * sqrt(2) at -45 deg
+    [1129.108108, -45.0, 0.0]
+
+    Source: elementary vector geometry (magnitude and direction angles of a vector).
+    """
+    return _guarded("PFX_RESULTANT", F.resultant, ports, cv_velocity, quantity, units, settings)
+
+
+# --------------------------------------------------------------------------------------------
 # checks and reports
 # --------------------------------------------------------------------------------------------
 @_excel_help
@@ -616,6 +712,49 @@ def PFX_SPEEDATFORCE(ports, value, low, high, component=None, direction=None, un
     """
     return _guarded("PFX_SPEEDATFORCE", S.speedatforce, ports, value, low, high, component,
                     direction, units, settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "low", "high", "direction", "units", "settings")
+def PFX_ENVELOPE(ports, low, high, direction=None, units=None, settings=None):
+    """Envelope of the support loads over [low, high] (13 x 4 block): for the force on the body
+    x, y, z and resultant and the moment on the body x, y, z and resultant, the largest
+    magnitude (signed), the speed where it occurs and the factored design value.
+
+    The bracket is sampled densely (with U = 0 when it holds it: start-up is often the worst
+    case) and each maximum refined by golden-section search. Factored = raw x dynamic_factor x
+    load_factor (settings; default 1 each: take both from your governing code). Needs the port
+    positions rx, ry, rz.
+
+    Parameters
+    ----------
+    low, high : number or range
+        Bracket of speeds [m/s, or a number and a unit cell].
+    direction : number or range, optional
+        Angle [deg] or 3 components; default +x.
+    units : str, optional
+        Output units [force, moment, velocity].
+    settings : range, optional
+        dynamic_factor, load_factor, ref_x, ref_y, ref_z, intercept, fluid_mass, cg_x, ...
+
+    A 2 cm^2, 40 m/s jet on a vane turning it through 150 degrees, mount on the jet line: the
+    largest force is at U = 0, rho A V^2 (1 - cos 150):
+
+    >>> t = (("port", "role", "area", "density", "speed", "angle", "closure", "rx"),
+    ...      (None, None, "cm^2", None, None, None, None, None),
+    ...      ("jet", "in", 2.0, 998.0, 40.0, 0.0, None, 0.0),
+    ...      ("exit", "out", 2.0, 998.0, None, 150.0, "free", 0.0))
+    >>> [round(x, 3) for x in PFX_ENVELOPE(t, 0.0, 30.0)[1][1:]]
+    [595.934, 0.0, 595.934]
+
+    Equation: L* = max over U in [low, high] of |L(U)|; design value = k_dyn k_load L*.
+
+    Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory);
+    golden-section search, Press et al., *Numerical Recipes*, sec. 10.2 (from memory).
+    """
+    return _guarded("PFX_ENVELOPE", S.envelopeblock, ports, low, high, direction, units,
+                    settings)
 
 
 PUBLIC = tuple(sorted(n for n in dir() if n.startswith("PFX_")))

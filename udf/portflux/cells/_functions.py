@@ -14,6 +14,7 @@ import numpy as np
 from .. import __version__, problem
 from ..core.model import JET_NA
 from ..cautions import CAUTION
+from ..core import resultant as _resultant
 from ._grid import CellError, describe, error_value, flag, is_number, one_cell, scalar_text
 from ._inputs import SETTINGS, evaluate, evaluate_closed, tolerance, unit_system
 
@@ -147,16 +148,56 @@ def imbalance(ports, cv_velocity, tol=None, units=None, settings=None):
              cell_value(b.imbalance_rel, na="n/a: no inflow"), str(b.status)]]
 
 
-def support(ports, cv_velocity, axis=None, units=None, settings=None):
+def _balance_vector(attr, kind, ports, cv_velocity, axis, units, settings):
+    """One vector result of the balance (x, y, z or one component) in the output units."""
     us = unit_system(units)
     _, b = evaluate(ports, cv_velocity, settings)
-    return _vector(us.out(b.support_force, "force"), axis)
+    return _vector(us.out(getattr(b, attr), kind), axis)
+
+
+def support(ports, cv_velocity, axis=None, units=None, settings=None):
+    return _balance_vector("support_force", "force", ports, cv_velocity, axis, units, settings)
 
 
 def bodyforce(ports, cv_velocity, axis=None, units=None, settings=None):
+    return _balance_vector("force_on_body", "force", ports, cv_velocity, axis, units, settings)
+
+
+def moment(ports, cv_velocity, axis=None, units=None, settings=None):
+    return _balance_vector("moment_on_body", "moment", ports, cv_velocity, axis, units, settings)
+
+
+def supportmoment(ports, cv_velocity, axis=None, units=None, settings=None):
+    return _balance_vector("support_moment", "moment", ports, cv_velocity, axis, units,
+                           settings)
+
+
+def moment_short(need: str) -> str:
+    """The "n/a: ..." text of a moment cell when the model cannot take moments."""
+    if "rx" in need:
+        return "n/a: moments need port positions: add columns rx, ry, rz"
+    return "n/a: moments need the fluid's centroid: add settings cg_x, cg_y, cg_z"
+
+
+_RESULTANTS = {"force": ("force_on_body", "force"), "moment": ("moment_on_body", "moment")}
+
+
+def resultant_row(vec_si, kind, us) -> list:
+    """[magnitude, in-plane angle, elevation] cells of an SI vector in the output units."""
+    mag, a, e = _resultant(vec_si)
+    na = "n/a: zero, no direction"
+    return [cell_value(us.out(mag, kind)), cell_value(us.out(a, "angle"), na=na),
+            cell_value(us.out(e, "angle"), na=na)]
+
+
+def resultant(ports, cv_velocity, quantity=None, units=None, settings=None):
+    k = (scalar_text(quantity, "quantity") or "force").lower()
+    if k not in _RESULTANTS:
+        raise CellError(f"quantity: must be 'force' or 'moment' (got {k!r})")
     us = unit_system(units)
     _, b = evaluate(ports, cv_velocity, settings)
-    return _vector(us.out(b.force_on_body, "force"), axis)
+    attr, kind = _RESULTANTS[k]
+    return [resultant_row(getattr(b, attr), kind, us)]
 
 
 def power(ports, cv_velocity, units=None, settings=None):
@@ -241,6 +282,24 @@ def summary(ports, cv_velocity, units=None, settings=None):
         ["warnings", len(w)],
         ["first warning", w[0] if w else "none"],
     ]
+    a = lab("angle")
+    fr = resultant_row(b.force_on_body, "force", us)
+    out += [[f"force on body resultant [{f}]", fr[0]],
+            [f"force on body in-plane angle [{a}]", fr[1]],
+            [f"force on body elevation [{a}]", fr[2]]]
+    mm = lab("moment")
+    need = b.moment_need
+    if need:
+        rows_ = [moment_short(need)] * 9
+    else:
+        rows_ = (_matrix(us.out(b.support_moment, "moment"))[0]
+                 + _matrix(us.out(b.moment_on_body, "moment"))[0]
+                 + resultant_row(b.moment_on_body, "moment", us))
+    names = ([f"support moment on fluid {c} [{mm}]" for c in "xyz"]
+             + [f"moment on body {c} [{mm}]" for c in "xyz"]
+             + [f"moment on body resultant [{mm}]", f"moment on body in-plane angle [{a}]",
+                f"moment on body elevation [{a}]"])
+    out += [[n_, v_] for n_, v_ in zip(names, rows_)]
     return out
 
 

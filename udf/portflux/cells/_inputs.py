@@ -234,6 +234,19 @@ SETTINGS = {  # normalised name -> (name shown, quantity kind or None for text, 
                                  "is outside the steady inertial form)"),
     "ay": ("ay", "acceleration", "CV acceleration y component: must be 0"),
     "az": ("az", "acceleration", "CV acceleration z component: must be 0"),
+    "refx": ("ref_x", "length", "x of the reference point (the support) about which moments "
+                                "are taken, in the axes of the port positions rx, ry, rz; "
+                                "default 0"),
+    "refy": ("ref_y", "length", "y of the reference point, default 0"),
+    "refz": ("ref_z", "length", "z of the reference point, default 0"),
+    "cgx": ("cg_x", "length", "x of the centroid of the fluid inside the CV (where its weight "
+                              "acts); needed for moments when fluid_mass > 0"),
+    "cgy": ("cg_y", "length", "y of the fluid's centroid (blank components 0)"),
+    "cgz": ("cg_z", "length", "z of the fluid's centroid"),
+    "dynamicfactor": ("dynamic_factor", "ratio", "factor for a suddenly applied jet, > 0; "
+                                                 "default 1: set it from your governing code"),
+    "loadfactor": ("load_factor", "ratio", "safety / load factor of the governing code, > 0; "
+                                           "default 1: set it from your code"),
 }
 _ACCELERATION = ("ax", "ay", "az")
 _REPEATABLE = ("slipangle",)
@@ -262,6 +275,9 @@ def _setting_value(name, kind, value, unit, where):
     if name in ("fluid_mass", "tolerance") and si < 0:
         shown = f" {unit.strip()}" if isinstance(unit, str) and unit.strip() else ""
         raise CellError(f"{where}: must be >= 0 (got {x:g}{shown})")
+    if name in ("dynamic_factor", "load_factor") and not si > 0:
+        raise CellError(f"{where}: must be > 0 (got {x:g}); take the factor from your "
+                        f"governing code (1 = none)")
     return si
 
 
@@ -319,7 +335,11 @@ def _settings(key) -> Settings:
                             f"zero-length direction; give the direction along which the body "
                             f"carries no force")
         directions.append(tuple(comps))
-    return Settings(gravity=tuple(g), no_force=tuple(directions), **found)
+    ref = tuple(found.pop(f"ref_{c}", 0.0) for c in "xyz")
+    cg_given = any(f"cg_{c}" in found for c in "xyz")
+    cg = tuple(found.pop(f"cg_{c}", 0.0) for c in "xyz")
+    return Settings(gravity=tuple(g), no_force=tuple(directions), reference=ref,
+                    fluid_centroid=cg if cg_given else None, **found)
 
 
 def settings(raw) -> Settings:

@@ -19,7 +19,8 @@ from itertools import chain
 import numpy as np
 
 from .. import units as U
-from ..core import InputError, OutsideScopeError, best_speed, speed_at_force, speed_table
+from ..core import (ENVELOPE_ROWS, InputError, OutsideScopeError, best_speed, envelope,
+                    speed_at_force, speed_table)
 from ..core.model import JET_NA, NA_NO_JET
 from ..excel import shown
 from ._functions import cell_value
@@ -414,3 +415,32 @@ def speedatforce(ports, value, low, high, component=None, direction=None, units=
         [f"bracket high [{v}]", cell_value(us.out(hi, "velocity"))],
         ["note", note],
     ]
+
+
+def envelopeblock(ports, low, high, direction=None, units=None, settings=None):
+    """The envelope block: per load, the largest magnitude over [low, high] (signed value),
+    the speed where it occurs, and the value times the design factors of the settings."""
+    us = unit_system(units)
+    d = parse_direction(direction)
+    lo, hi = _bracket(low, high)
+    pb = setup(ports, settings)
+    s = pb.settings
+    env = _engine(envelope, pb.table, pb.model, (lo, hi), d,
+                  dynamic_factor=s.dynamic_factor, load_factor=s.load_factor)
+    v = us.label("velocity")
+    out = [["load on the body [unit]", "largest (raw)", f"at speed [{v}]", "factored"]]
+    for (name, kind, _), x, u, fx in zip(ENVELOPE_ROWS, env.value, env.speed, env.factored):
+        out.append([f"{name} [{us.label(kind)}]", cell_value(us.out(x, kind)),
+                    cell_value(us.out(u, "velocity")), cell_value(us.out(fx, kind))])
+    statics = ("U = 0 (statics, start-up) included" if env.statics else
+               "U = 0 is outside the bracket: start-up not checked")
+    out += [
+        ["dynamic factor (suddenly applied jet) [-]", env.dynamic_factor, "-",
+         "setting dynamic_factor: take it from your governing code (default 1)"],
+        ["load factor (governing code) [-]", env.load_factor, "-",
+         "setting load_factor: take it from your governing code (default 1)"],
+        ["combined factor [-]", env.factor, "-", "dynamic factor x load factor"],
+        [f"bracket [{v}]", cell_value(us.out(lo, "velocity")), cell_value(us.out(hi, "velocity")),
+         statics + _unmet(pb, d, lo, hi, us)],
+    ]
+    return out

@@ -9,11 +9,12 @@ options compiled once, evaluated on an (m, 3) array of CV velocities. :func:`bal
 from .balance import absolute_velocity, balance, balance_closed, closure_velocity, relative_velocity
 from .closures import BERNOULLI, FREE, GIVEN, LOSS, SOLVE, Closures
 from .errors import InputError, OutsideScopeError, PortfluxError
-from .geometry import STANDARD_GRAVITY, direction, polar_velocity
+from .geometry import STANDARD_GRAVITY, direction, polar_velocity, resultant
 from .model import (DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN, Balance, ClosedBalance, Model,
                     in_contact)
 from .ports import IN, OUT, UNKNOWN, Ports, role_code
-from .sweep import BestSpeed, ForceSpeed, SpeedTable, best_speed, speed_at_force, speed_table
+from .sweep import (ENVELOPE_ROWS, BestSpeed, Envelope, ForceSpeed, SpeedTable, best_speed,
+                    envelope, speed_at_force, speed_table)
 
 __all__ = [
     "Balance", "DEFAULT_IMBALANCE_TOL", "IN", "InputError", "Model", "OUT", "OutsideScopeError",
@@ -25,4 +26,6 @@ __all__ = [
     "closure_velocity", "in_contact",
     # speed tables and optimum speeds
     "BestSpeed", "ForceSpeed", "SpeedTable", "best_speed", "speed_at_force", "speed_table",
+    # support loads
+    "ENVELOPE_ROWS", "Envelope", "envelope", "resultant",
 ]

@@ -91,3 +91,39 @@ def norm(a):
     """
     r = np.sqrt(np.einsum("...i,...i->...", np.asarray(a, float), np.asarray(a, float)))
     return float(r) if np.ndim(r) == 0 else r
+
+
+def resultant(v):
+    """Magnitude and direction of vectors: the in-plane angle from +x toward +y and the
+    elevation from the x-y plane toward +z.
+
+    .. math:: |v| = \\sqrt{v_x^2 + v_y^2 + v_z^2}, \\quad a = \\operatorname{atan2}(v_y, v_x),
+              \\quad e = \\operatorname{atan2}(v_z, \\sqrt{v_x^2 + v_y^2})
+
+    Parameters
+    ----------
+    v : array_like (..., 3)
+        Vectors [any unit: N, N m, ...].
+
+    Returns
+    -------
+    (magnitude, angle, elevation) : arrays of shape (...)
+        Magnitude [unit of v]; angles [rad], angle in (-pi, pi], elevation in [-pi/2, pi/2];
+        NaN angles for a zero vector (no direction).
+
+    Examples
+    --------
+    >>> m, a, e = resultant([3.0, 3.0, np.sqrt(18.0)])
+    >>> round(float(m), 12), round(float(np.degrees(a)), 12), round(float(np.degrees(e)), 12)
+    (6.0, 45.0, 45.0)
+
+    Reference: elementary vector geometry (Cartesian to spherical components).
+    """
+    v = np.asarray(v, dtype=float)
+    x, y, z = v[..., 0], v[..., 1], v[..., 2]
+    h = np.hypot(x, y)
+    mag = np.sqrt(h * h + z * z)
+    none = ~(mag > 0)
+    a = np.where(none, np.nan, np.arctan2(y, x) + 0.0)
+    e = np.where(none, np.nan, np.arctan2(z, h) + 0.0)
+    return mag, a, e

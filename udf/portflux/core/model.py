@@ -24,6 +24,13 @@ frame; F. M. White, *Fluid Mechanics*, sec. 3.4, from memory)::
     R      = sum_i beta_i mdot_i w_i + sum_i p_i A_i n_i - m g   support force on the fluid
     F_body = -R,   P = F_body . V_cv
 
+and, with port positions r_i and the fluid's centroid r_G measured from a reference point O on
+the body (the support), the steady moment of momentum in the frame moving with the CV (White,
+*Fluid Mechanics*, sec. 3.5, from memory)::
+
+    M_R + sum_i r_i x (-p_i A_i n_i) + r_G x (m g) = sum_i r_i x (beta_i mdot_i w_i)
+    M_body = -M_R                                           moment about O
+
 Adding a per-port quantity (e.g. a position r_i for moments) means one more coefficient row in
 :meth:`Model.__init__` and one more product in :meth:`Model.evaluate` (see DEVELOPERS.md,
 "How to add a port column").
@@ -69,6 +76,7 @@ WAKE = "wake"              # net kinetic-energy outflow and propulsive efficienc
 FRAME = "frame"            # absolute/relative momentum flux cross-check
 PORTS = "ports"            # per-port (m, n, 3) arrays w, v_abs, momentum flux, role flags
 CLOSURE = "closure"        # closure speeds, reversed flows, stream areas
+MOMENT = "moment"          # support moment and moment on the body about the reference point
 ALL = frozenset((FORCES, POWER, JET, WAKE, FRAME, PORTS, CLOSURE))
 TABLE = frozenset((FORCES, POWER, JET))
 
@@ -96,7 +104,8 @@ _ON_DEMAND = {"power": POWER, "jet_ke_flux": JET, "jet_efficiency": JET, "jet_na
               "frame_difference": FRAME, "w": PORTS, "v_abs": PORTS, "momentum_flux": PORTS,
               "inlet_outflow": PORTS, "inlet_pace": PORTS, "outlet_inflow": PORTS, "outflow": PORTS,
               "weight": PORTS, "notes": CLOSURE, "closure_speed": CLOSURE,
-              "unreachable": CLOSURE, "reversed_flow": CLOSURE, "stream_area": CLOSURE}
+              "unreachable": CLOSURE, "reversed_flow": CLOSURE, "stream_area": CLOSURE,
+              "support_moment": MOMENT, "moment_on_body": MOMENT}
 
 
 class Balance:
@@ -120,6 +129,10 @@ class Balance:
     pressure_force : (n, 3) -p A n on the fluid [N]; weight: (..., 3) of the fluid [N]
     support_force : (..., 3) force of the solid on the fluid, R [N]
     force_on_body : (..., 3) force of the fluid on the body, -R [N]
+    support_moment : (..., 3) moment of the solid on the fluid about the reference point,
+        M_R [N m] (needs port positions; see :meth:`Model.moment_need`)
+    moment_on_body : (..., 3) moment of the fluid on the body about the reference point,
+        -M_R [N m]
     power : (...) power delivered to the body F_body . V_cv [W]
     jet_ke_flux : (...) absolute kinetic-energy flux of incoming jets [W]
     ke_flux_net : (...) net outflow of absolute kinetic energy [W]
@@ -134,6 +147,7 @@ class Balance:
     outlet_inflow : (..., n) declared outlet whose relative flow enters
     no_contact : (...) body outruns every jet: no flow, no force
     intercept : "single" vane or vane "train"; tolerance: relative imbalance tolerance [-]
+    moment_need : what moments still need (port positions, the fluid's centroid); "" if nothing
     notes : extra notes from closures and solvers
     """
 
@@ -141,6 +155,7 @@ class Balance:
         self.ports, self.v_cv = model.ports, v
         self.intercept, self.tolerance = model.intercept, model.tol
         self.pressure_force = model.pressure_force
+        self.moment_need = model.moment_need      # "" when moments can be taken
         self._model, self._r, self._lead = model, r, v.shape[:-1]
         self._fill(("mass_flow", "inflow", "imbalance", "imbalance_rel", "balanced",
                     "support_force", "force_on_body", "no_contact"))
@@ -156,7 +171,7 @@ class Balance:
         if a.ndim == 3:                             # (m, n, 3) -> (..., n, 3)
             return a.reshape(lead + (n, 3))
         rows = 3 if key in ("support_force", "force_on_body", "weight", "flux_absolute",
-                            "flux_relative") else n
+                            "flux_relative", "support_moment", "moment_on_body") else n
         return np.ascontiguousarray(a.T).reshape(lead + (rows,))
 
     def _fill(self, keys):
@@ -168,6 +183,8 @@ class Balance:
         if group is None or name.startswith("_"):
             raise AttributeError(name)
         r = self._r
+        if group == MOMENT:
+            self._model.require_moments()
         if group not in r.setdefault("groups", set()):
             flat = self.v_cv.reshape(-1, 3)
             more = self._model.evaluate(flat, {group}, FLAG)
@@ -300,6 +317,12 @@ class Model:
         Relative mass-imbalance tolerance [-]; default 1e-3.
     cv_acceleration : array_like (3,), optional
         Must be zero or absent [m/s^2]: accelerating CVs are outside the steady inertial form.
+    reference : array_like (3,)
+        Reference point O about which moments are taken (the support) [m], in the axes of the
+        port positions; default the origin.
+    fluid_centroid : array_like (3,), optional
+        Centroid of the fluid inside the CV (where its weight acts) [m]; needed for moments
+        when ``fluid_mass`` > 0.
 
     Examples
     --------
@@ -323,7 +346,8 @@ class Model:
 
     def __init__(self, ports: Ports, closures: Closures | None = None, *, intercept=SINGLE,
                  fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_GRAVITY),
-                 tol=DEFAULT_IMBALANCE_TOL, cv_acceleration=None):
+                 tol=DEFAULT_IMBALANCE_TOL, cv_acceleration=None, reference=(0.0, 0.0, 0.0),
+                 fluid_centroid=None):
         if cv_acceleration is not None and np.any(np.asarray(cv_acceleration, float) != 0.0):
             raise OutsideScopeError(
                 "cv_acceleration: an accelerating control volume is outside the steady "
@@ -412,6 +436,41 @@ class Model:
             and not self.loads_any and self.beta_one and not np.any(ports.p_gauge)
             and np.all(self.closed[others])
             and (not self.cl.size or (np.all(self.qa <= 1.0) and np.all(self.qc <= 0.0))))
+        self._compile_moments(ports, reference, fluid_centroid)
+
+    def _compile_moments(self, ports, reference, centroid):
+        """Lever arms r_i = position_i - O and the constant moments of the port pressures and
+        of the weight about O (on the fluid); what is missing for moments, if anything."""
+        o = np.asarray(reference, dtype=float)
+        if o.shape != (3,) or not np.all(np.isfinite(o)):
+            raise InputError("must be 3 finite components", argument="reference")
+        self.reference = o
+        need = []
+        if not ports.has_position:
+            need.append("the port positions: add the columns rx, ry, rz (a length unit in the "
+                        "unit row; a blank cell is 0) to the port table")
+        g = None if centroid is None else np.asarray(centroid, dtype=float)
+        if g is not None and (g.shape != (3,) or not np.all(np.isfinite(g))):
+            raise InputError("must be 3 finite components", argument="fluid_centroid")
+        if g is None and np.any(self.weight != 0.0):
+            need.append("the centroid of the fluid inside the CV, where its weight acts: add "
+                        "the settings cg_x, cg_y, cg_z (or set fluid_mass 0)")
+        self.moment_need = "moments need " + "; and ".join(need) if need else ""
+        if need:
+            return
+        R = ports.position - o                           # (n, 3) lever arms
+        self.R = R
+        self.RxW0 = np.cross(R, self.W0)                 # (n, 3)
+        self.RxE = np.cross(R, self.E) if self.cl.size else np.zeros((self.n, 3))
+        m_loads = np.cross(R, self.pressure_force).sum(axis=0)
+        if g is not None:
+            m_loads = m_loads + np.cross(g - o, self.weight)
+        self.m_loads = m_loads                          # moment of pressures + weight on fluid
+
+    def require_moments(self):
+        """Raise :class:`InputError` (argument "ports") naming what moments still need."""
+        if self.moment_need:
+            raise InputError(self.moment_need, argument="ports")
 
     def _static_notes(self, c):
         """Warnings that do not depend on the CV velocity (closures against settings)."""
@@ -533,7 +592,8 @@ class Model:
         ``flux_relative`` (3, m) [N]; "ports": ``w``, ``v_abs``, ``momentum_flux`` (m, n, 3),
         ``inlet_outflow``, ``outlet_inflow`` (n, m), ``outflow`` (m,) [kg/s], ``weight``
         (3, m) [N]; "closure": ``closure_speed`` (n, m) [m/s], ``unreachable``,
-        ``reversed_flow`` (n, m), ``stream_area`` (n, m) [m^2].
+        ``reversed_flow`` (n, m), ``stream_area`` (n, m) [m^2]; "moment": ``support_moment``,
+        ``moment_on_body`` (3, m) [N m] about the reference point (port positions needed).
         Results at CV velocities where a Bernoulli outlet cannot be reached are NaN
         (``valid`` False); ``unreachable="raise"`` raises :class:`InputError` instead.
 
@@ -571,8 +631,9 @@ class Model:
             As in :meth:`evaluate`.
         dest : dict, optional
             Preallocated arrays for ``support_force`` and ``force_on_body`` (3, m) [N],
-            ``power`` (m,) [W] and ``jet_efficiency`` (m,) [-]: those results are written there
-            (a speed table's output columns, with no copy).
+            ``support_moment`` and ``moment_on_body`` (3, m) [N m], ``power`` (m,) [W] and
+            ``jet_efficiency`` (m,) [-]: those results are written there (a speed table's
+            output columns, with no copy).
 
         Examples
         --------
@@ -670,6 +731,25 @@ class Model:
         support += 0.0                                  # no negative zeros in outputs
         body = np.subtract(0.0, support, out=dest.get("force_on_body"))   # (0 - 0 = +0)
         out.update(support_force=support, force_on_body=body)
+        if MOMENT in want:
+            self.require_moments()
+            mom = self.RxW0.T @ kb                                  # sum r x W0 k
+            ARk = self.R.T @ (self.a[:, None] * kb)                 # (3, m): sum a k r
+            for c in active:                                        # - (sum a k r) x V
+                c1, c2 = (c + 1) % 3, (c + 2) % 3
+                mom[c1] -= ARk[c2] * VT[c]
+                mom[c2] += ARk[c1] * VT[c]
+            if q is not None:
+                mom += self.RxE[cl].T @ (kb[cl] * q)
+            if np.any(self.m_loads != 0.0):
+                mom -= self.m_loads[:, None] * touching
+            mom += 0.0
+            dm = dest.get("support_moment")
+            if dm is not None:
+                dm[...] = mom
+                mom = dm
+            out["support_moment"] = mom
+            out["moment_on_body"] = np.subtract(0.0, mom, out=dest.get("moment_on_body"))
         if PORTS in want:
             out["weight"] = self.weight[:, None] * touching
         if want & {POWER, JET, WAKE}:
@@ -1068,7 +1148,8 @@ class Model:
 
 
 #: Results set to NaN where a Bernoulli outlet cannot be reached (by their trailing shape).
-_BLANK = ("mass_flow", "momentum_flux", "support_force", "force_on_body", "flux_absolute",
+_BLANK = ("mass_flow", "momentum_flux", "support_force", "force_on_body", "support_moment",
+          "moment_on_body", "flux_absolute",
           "flux_relative", "power", "jet_efficiency", "propulsive_efficiency", "ke_flux_net",
           "outflow", "imbalance", "imbalance_rel")
 

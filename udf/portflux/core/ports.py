@@ -92,6 +92,9 @@ class Ports:
         Given mass flow [kg/s], signed positive out of the CV; NaN where computed from rho (w.n) A.
     height : ndarray (n,)
         Height of the port above the datum, measured against gravity [m] (used by closures).
+    position : ndarray (n, 3)
+        Position of the port's centroid [m] in the axes of the velocities (moments are taken
+        about a reference point given to the model); all NaN when no position was given.
     """
 
     names: tuple
@@ -108,6 +111,16 @@ class Ports:
     #: (n,) of bool: the normal follows the velocity as typed (set by the role, not typed);
     #: None where unknown (a subset)
     role_normal: np.ndarray = None
+    position: np.ndarray = None
+
+    def __post_init__(self):
+        if self.position is None:
+            object.__setattr__(self, "position", np.full((len(self.names), 3), np.nan))
+
+    @property
+    def has_position(self) -> bool:
+        """True when every port has a position (moments can be taken)."""
+        return bool(np.isfinite(self.position).all())
 
     @property
     def n(self) -> int:
@@ -122,7 +135,7 @@ class Ports:
     @classmethod
     def build(cls, *, area=None, density=None, velocity=None, relative=False, normal=None,
               role=None, beta=None, p_gauge=None, mass_flow=None, height=None, names=None,
-              flow_by_closure=None):
+              flow_by_closure=None, position=None):
         """Validate port data (SI) and resolve defaults and role-based normals.
 
         Parameters
@@ -153,6 +166,9 @@ class Ports:
             Port height against gravity [m]; default 0.
         names : sequence of str, optional
             Port labels; default "1", "2", ...
+        position : array_like (n, 3), optional
+            Port centroid positions [m]; blank (NaN) components are 0. None: no positions
+            (moments cannot be taken).
         flow_by_closure : array_like (n,) of bool, optional
             True where the port's mass flow will be set by a closure condition (an outlet whose
             flow is solved for, or that takes a share of the inflow; see
@@ -211,6 +227,13 @@ class Ports:
         beta[np.isnan(beta)] = 1.0
         p_gauge[np.isnan(p_gauge)] = 0.0
         height[np.isnan(height)] = 0.0
+        if position is not None:
+            position = _vectors(position, n)
+            position[np.isnan(position)] = 0.0
+            bad_r = _where(~np.isfinite(position).all(axis=1))
+            if bad_r:
+                raise InputError(f"must be finite numbers (got {position[bad_r[0]].tolist()})",
+                                 port=bad_r[0], field="position")
 
         # Checked for all ports at once; the ports flagged are then checked one by one, in
         # order, so the first bad port raises exactly the message of its first failed check.
@@ -234,14 +257,15 @@ class Ports:
         declared = has_m & (roles != UNKNOWN)
         mass_flow[declared] = roles[declared] * np.abs(mass_flow[declared])
         return cls(names, area, density, vel, rel, normal, roles, beta, p_gauge, mass_flow, height,
-                   by_role)
+                   by_role, position)
 
     def subset(self, index) -> "Ports":
         """The ports at ``index`` (an index array or boolean mask), in that order."""
         idx = np.arange(self.n)[index]
+        rn = None if self.role_normal is None else self.role_normal[idx]
         return Ports(tuple(self.names[i] for i in idx), *(getattr(self, f)[idx] for f in (
             "area", "density", "velocity", "relative", "normal", "role", "beta", "p_gauge",
-            "mass_flow", "height")))
+            "mass_flow", "height")), role_normal=rn, position=self.position[idx])
 
 
 def _where(mask) -> list:

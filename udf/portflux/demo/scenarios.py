@@ -32,19 +32,22 @@ def carriage_vane():
 
     A 2.5 in water jet at 110 ft/s from a fixed nozzle meets a vane that runs away from the nozzle
     at 30 ft/s and turns the jet through 135 degrees, throwing it 10 degrees upward. The vane is
-    frictionless (closure ``free``): the relative speed leaves as it arrived.
+    frictionless (closure ``free``): the relative speed leaves as it arrived. The vane's ports
+    sit 1.5 to 1.8 ft above the carriage mount (the origin, where moments are taken), and the
+    water on the vane (0.04 slug) acts 1.6 ft above it.
     """
     return Scenario(
         title="Deflector on a test carriage (invented demo scenario)",
         ports=(
-            ("port", "role", "frame", "area", "density", "speed", "angle", "tilt", "closure"),
-            (None, None, None, "in^2", "slug/ft^3", "ft/s", "deg", "deg", None),
-            ("nozzle jet", "in", "abs", 4.908739, 1.94, 110.0, 0.0, 0.0, None),
-            ("vane exit", "out", "rel", 4.908739, 1.94, None, 135.0, 10.0, "free"),
+            ("port", "role", "frame", "area", "density", "speed", "angle", "tilt", "closure",
+             "rx", "ry"),
+            (None, None, None, "in^2", "slug/ft^3", "ft/s", "deg", "deg", None, "ft", "ft"),
+            ("nozzle jet", "in", "abs", 4.908739, 1.94, 110.0, 0.0, 0.0, None, -0.4, 1.5),
+            ("vane exit", "out", "rel", 4.908739, 1.94, None, 135.0, 10.0, "free", 0.3, 1.8),
         ),
         cv_velocity=(30.0, 0.0, 0.0), cv_unit="ft/s", units="US",
         settings={"fluid_mass": (0.04, "slug"), "gx": (0.0, "ft/s^2"), "gy": (0.0, "ft/s^2"),
-                  "gz": (-32.174049, "ft/s^2")},
+                  "gz": (-32.174049, "ft/s^2"), "cg_x": (0.0, "ft"), "cg_y": (1.6, "ft")},
         sweep=dict(low=0.0, high=110.0, unit="ft/s", direction=0.0, force=500.0, units="US"),
         triangle_port=2,
         note="Invented scenario for the demo: a 2.5 in jet at 110 ft/s, carriage at 30 ft/s, "

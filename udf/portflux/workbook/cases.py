@@ -39,6 +39,10 @@ PLATE = ("inclined flat plate split, standard fluid-mechanics texts, e.g. White,
 WHEEL = ("impulse turbine (bucket wheel) theory, S. L. Dixon, Fluid Mechanics and "
          "Thermodynamics of Turbomachinery, Pelton wheel section (from memory)")
 TRADE = "common practice, no source"
+ANGULAR = ("F. M. White, Fluid Mechanics, sec. 3.5, the angular momentum theorem for a control "
+           "volume (from memory)")
+SPRINKLER = ("held (non-rotating) two-arm sprinkler, T = 2 mdot_arm r w_t; White, Fluid "
+             "Mechanics, sec. 3.5 (from memory)")
 
 
 @dataclass
@@ -251,8 +255,86 @@ def _statics_cases(s: Sheet):
           "g_n = 9.80665 m/s^2, NIST SP 330 (3rd CGPM, 1901); statics (" + TRADE + ")")
 
 
-#: The parts of this module, in sheet order (each adds its blocks and cases to a Sheet).
+def _support_load_cases(s: Sheet):
+    # Invented 90-degree reducing bend, water at rest in the pipe frame (V_cv = 0), inlet and
+    # outlet gauge pressures; moments about a chosen point O = (ref_x, ref_y).
+    cols = ("port", "role", "area", "density", "vx", "vy", "p_gauge", "rx", "ry")
+    t, cv, _, sref, c = s.block(
+        "O. reducing bend: anchor moment about a chosen point", cols,
+        (None, None, "m^2", "kg/m^3", "m/s", "m/s", "kPa", "m", "m"),
+        (("in", "in", 0.02, 998.0, 3.0, 0.0, 150.0, 0.0, 0.4),
+         ("out", "out", 0.01, 998.0, 0.0, 6.0, 120.0, 0.6, 1.0)),
+        (0.0, 0.0, 0.0), "m/s", settings=(("ref_x", 0.1, "m"), ("ref_y", -0.2, "m")))
+    rho, A1, V1, p1 = (t.at(0, k) for k in ("density", "area", "vx", "p_gauge"))
+    A2, V2, p2 = (t.at(1, k) for k in ("area", "vy", "p_gauge"))
+    y1, x2, ox, oy = t.at(0, "ry"), t.at(1, "rx"), c["ref_x"], c["ref_y"]
+    m = f"{rho}*{A1}*{V1}"
+    mz = (f"({x2}-{ox})*({m}*{V2}+{p2}*1000*{A2})+({y1}-{oy})*({m}*{V1}+{p1}*1000*{A1})")
+    s.add("bend: support moment M_R,z = sum r x (mdot V + p A) about O", "PFX_SUPPORTMOMENT",
+          f'=PFX_SUPPORTMOMENT({t.ref},{cv},"z",,{sref})', f"={mz}", 1e-12, ANGULAR)
+    s.add("bend: moment on the bend about O = -M_R,z", "PFX_MOMENT",
+          f'=INDEX(PFX_MOMENT({t.ref},{cv},,,{sref}),1,3)', f"=-({mz})", 1e-12, ANGULAR)
+
+    # Invented lawn sprinkler held still: supply from below at the hub, two nozzles at +-r.
+    cols = ("port", "role", "area", "density", "vy", "vz", "volume_flow", "rx")
+    t, cv, _, _, _ = s.block(
+        "P. held two-arm sprinkler", cols,
+        (None, None, "m^2", "kg/m^3", "m/s", "m/s", "m^3/s", "m"),
+        (("supply", "in", None, 998.0, 0.0, 1.0, 6e-4, 0.0),
+         ("east", "out", 5e-5, 998.0, -6.0, 0.0, None, 0.15),
+         ("west", "out", 5e-5, 998.0, 6.0, 0.0, None, -0.15)),
+        (0.0, 0.0, 0.0), "m/s")
+    rho, An, w, r = t.at(1, "density"), t.at(1, "area"), t.at(2, "vy"), t.at(2, "rx")
+    s.add("sprinkler held still: torque on it T = 2 mdot_arm r w_t", "PFX_MOMENT",
+          f'=PFX_MOMENT({t.ref},{cv},"z")', f"=2*({rho}*{An}*{w})*ABS({r})*{w}", 1e-12,
+          SPRINKLER)
+
+    # Invented vane on a carriage, its mount h below the jet line; design factors set.
+    cols = ("port", "role", "area", "density", "speed", "angle", "closure", "ry")
+    t, cv, U, sref, c = s.block(
+        "Q. vane with its mount below the jet line; envelope", cols,
+        (None, None, "m^2", "kg/m^3", "m/s", "deg", None, "m"),
+        (("jet", "in", 3e-4, 998.0, 25.0, 0.0, None, 0.35),
+         ("exit", "out", 3e-4, 998.0, None, 135.0, "free", 0.35)),
+        (6.0, 0.0, 0.0), "m/s",
+        settings=(("dynamic_factor", 2.0, None), ("load_factor", 1.5, None)),
+        extra=(("low", 0.0), ("high", 20.0)))
+    rho, A, V, th, h = (t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"),
+                        t.at(1, "angle"), t.at(0, "ry"))
+    k = f"{rho}*{A}*({V}-{U})^2"
+    fx, fy = f"({k}*(1-{cos_deg(th)}))", f"(-{k}*{sin_deg(th)})"
+    lever = "moment of a force about a point below its line: M_z = -h F_x (" + TRADE + "); "
+    s.add("vane: moment about the mount = -h F_x", "PFX_MOMENT",
+          f'=PFX_MOMENT({t.ref},{cv},"z",,{sref})', f"=-{h}*{fx}", 1e-12, lever + WHITE)
+    s.add("vane: summary block, moment on body z (row 32)", "PFX_SUMMARY",
+          f"=INDEX(PFX_SUMMARY({t.ref},{cv},,{sref}),32,2)", f"=-{h}*{fx}", 1e-12,
+          lever + WHITE)
+    s.add("force resultant |F| = rho A (V-U)^2 sqrt(2 - 2 cos th)", "PFX_RESULTANT",
+          f"=INDEX(PFX_RESULTANT({t.ref},{cv},,,{sref}),1,1)", f"=SQRT({fx}^2+{fy}^2)", 1e-12,
+          WHITE + "; vector magnitude (" + TRADE + ")")
+    s.add("force direction: in-plane angle atan2(F_y, F_x) [deg]", "PFX_RESULTANT",
+          f'=INDEX(PFX_RESULTANT({t.ref},{cv},"force",,{sref}),1,2)',
+          f"=DEGREES(ATAN2({fx},{fy}))", 1e-12, WHITE + "; direction angles (" + TRADE + ")")
+    s.add("moment resultant: elevation -90 deg (M along -z)", "PFX_RESULTANT",
+          f'=INDEX(PFX_RESULTANT({t.ref},{cv},"moment",,{sref}),1,3)', "=-90", 1e-12,
+          lever + "direction angles")
+    low, high = c["low"], c["high"]
+    env = f"PFX_ENVELOPE({t.ref},{low},{high},,,{sref})"
+    f0 = f"{rho}*{A}*{V}^2*(1-{cos_deg(th)})"
+    s.add("envelope: largest F_x at U = 0, rho A V^2 (1 - cos th)", "PFX_ENVELOPE",
+          f"=INDEX({env},2,2)", f"={f0}", 1e-9, WHITE)
+    s.add("envelope: speed of the largest F_x is 0 (statics)", "PFX_ENVELOPE",
+          f"=INDEX({env},2,3)", "=0", 1e-9, WHITE)
+    s.add("envelope: factored = raw x dynamic factor x load factor", "PFX_ENVELOPE",
+          f"=INDEX({env},2,4)", f"={f0}*{c['dynamic_factor']}*{c['load_factor']}", 1e-9,
+          "design load = factors x load (" + TRADE + "); " + WHITE)
+
+
+#: The parts of this module, in sheet order (each adds its blocks and cases to a Sheet): the
+#: balance cases A-G come first, the support loads O-Q last (after the closure cases H-N of
+#: :mod:`.cases_closures`).
 PARTS = (_vane_cases, _us_vane_cases, _frame_cases, _propulsion_cases, _statics_cases)
+LOAD_PARTS = (_support_load_cases,)
 
 
 def write_cases(ws, parts=PARTS):
@@ -293,5 +375,5 @@ def write_cases(ws, parts=PARTS):
     return s.cases
 
 
-__all__ = ["INDEX_HEADER", "INDEX_TOP", "PARTS", "Case", "Sheet", "cos_deg", "sin_deg",
+__all__ = ["INDEX_HEADER", "INDEX_TOP", "LOAD_PARTS", "PARTS", "Case", "Sheet", "cos_deg", "sin_deg",
            "write_cases"]

@@ -12,7 +12,7 @@ It prints on one page, A4 or Letter (fit to one page). ``portflux report IN.xlsx
 from __future__ import annotations
 
 from openpyxl.chart import Reference, ScatterChart, Series
-from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
+from openpyxl.styles import Alignment, Border, Font, Side
 
 from ..cautions import CAUTION_LINES
 from .drawing import (BOLD, HEAD_FILL, INPUT_FILL, ITALIC, NUMBER, RATIO,
@@ -24,7 +24,6 @@ TITLE_FIELDS = ("project", "case", "author", "checker", "date", "revision")
 #: Port-table columns shown on the report (the others are listed by name when used).
 REPORT_COLUMNS = ("port", "role", "frame", "area", "density", "speed", "angle", "mass_flow",
                   "p_gauge", "closure")
-RESERVED_FILL = PatternFill("lightGray", fgColor="BFBFBF")
 NCOL = 10
 
 
@@ -130,13 +129,31 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
         formula(ws, 6, rr, f'=IFERROR(MID({fl},18,LEN({fl})-18),"")')
     big_numbers(ws, rng(2, r0 + 2, 5, r0 + 3))
     rr = r0 + 4
-    put(ws, 1, rr, "RESERVED: support moments", font=BOLD)
-    put(ws, 1, rr + 1, "RESERVED: factored load", font=BOLD)
-    for k in (rr, rr + 1):
-        for c in range(2, 7):
-            put(ws, c, k, None, fill=RESERVED_FILL)
-        put(ws, 7, k, "to be added with the support-loads feature", font=ITALIC)
-    rr += 2
+    ml = C(p["moment_label"])
+    put(ws, 1, rr, "moment on body (at support)", font=BOLD)
+    for j, c in enumerate(p["moment"]):
+        formula(ws, 2 + j, rr, f"={C(c)}", fmt=NUMBER, font=BOLD)
+    formula(ws, 6, rr, f'=IFERROR(MID({ml},19,LEN({ml})-19),"")')
+    sw = lay.sweep_cells
+    et = sw["envelope_top"]
+    E = lambda c, r: f"{q(sweep_sheet)}!{cell(c, r)}"    # noqa: E731
+    factor = E(4, et + 11)
+    for k, (name, first, skip) in enumerate((("design force (factored)", 1, 18),
+                                             ("design moment (factored)", 5, 19))):
+        r = rr + 1 + k
+        put(ws, 1, r, name, font=BOLD)
+        for j in range(4):
+            formula(ws, 2 + j, r, f"={E(6, et + first + j)}", fmt=NUMBER, font=BOLD)
+        lab = E(1, et + first)
+        formula(ws, 6, r, f'=IFERROR(MID({lab},{skip},LEN({lab})-{skip}),"")')
+    formula(ws, 7, rr + 1, f'=IFERROR("worst of sweep x "&{factor}&" (factors: your code)",'
+                           f'"")', font=ITALIC)
+    put(ws, 7, rr + 2, "each at its own worst speed", font=ITALIC)
+    put(ws, 7, rr, "about ref_x, ref_y, ref_z", font=ITALIC)
+    for k in range(3):
+        _merge(ws, rr + k, 7, NCOL)
+    big_numbers(ws, rng(2, rr, 5, rr + 2))
+    rr += 3
     items = (("power to the body", f"={C(p['power'])}", NUMBER,
               f'=IFERROR(MID({pl},16,LEN({pl})-16),"")'),
              ("jet efficiency", f"={C(p['jet'])}", RATIO, "-"),

@@ -62,7 +62,7 @@ WARNING_ROWS = MAX_PORTS + 4       #: one per port, no contact, imbalance and cl
 #: tests/test_template_ranges.py evaluates every function on the template's inputs and on its
 #: worst case and compares with these sizes.
 LARGEST = {
-    "PFX_SUMMARY": (23, 2),
+    "PFX_SUMMARY": (35, 2),
     "PFX_RELVELS": (MAX_PORTS + 1, 4),
     "PFX_ABSVEL": (MAX_PORTS + 1, 4),
     "PFX_MASSFLOWS": (MAX_PORTS + 1, 2),
@@ -74,13 +74,17 @@ LARGEST = {
     "PFX_SPEEDTABLE": (SWEEP_POINTS + 1, 10),
     "PFX_BESTSPEED": (8, 2),
     "PFX_SPEEDATFORCE": (7, 2),
+    "PFX_MOMENT": (1, 3),
+    "PFX_SUPPORTMOMENT": (1, 3),
+    "PFX_RESULTANT": (1, 3),
+    "PFX_ENVELOPE": (13, 4),
 }
 
 # Where shown blocks sit: (column, row, rows, columns). cli.py and the tests read these.
-SUMMARY_AT = (1, 44, 23, 2)        #: summary block (label | value) on 'Control volume'
-RELVEL_AT = (4, 44, MAX_PORTS + 1, 4)     #: relative velocities of every port (header + ports)
-ABSVEL_AT = (9, 44, MAX_PORTS + 1, 4)     #: absolute velocities
-MASSFLOW_AT = (14, 44, MAX_PORTS + 1, 2)  #: mass flows of every port (header + ports)
+SUMMARY_AT = (1, 50, 35, 2)        #: summary block (label | value) on 'Control volume'
+RELVEL_AT = (4, 50, MAX_PORTS + 1, 4)     #: relative velocities of every port (header + ports)
+ABSVEL_AT = (9, 50, MAX_PORTS + 1, 4)     #: absolute velocities
+MASSFLOW_AT = (14, 50, MAX_PORTS + 1, 2)  #: mass flows of every port (header + ports)
 BEST_AT = (15, 12, 8, 2)           #: best-speed block on 'Speed sweep'
 SPEEDFORCE_AT = (15, 23, 7, 2)     #: speed-at-force block on 'Speed sweep'
 
@@ -216,18 +220,21 @@ def _about(wb):
 #: Default port table of the template: an invented vane on a carriage, SI units.
 CV_COLUMNS = ("port", "role", "frame", "area", "density", "speed", "angle", "tilt", "vx", "vy",
               "vz", "nx", "ny", "nz", "p_gauge", "beta", "mass_flow", "closure", "loss", "source",
-              "share", "height")
+              "share", "height", "rx", "ry", "rz")
 CV_UNITS = (None, None, None, "m^2", "kg/m^3", "m/s", "deg", "deg", "m/s", "m/s", "m/s", None,
-            None, None, "Pa", None, "kg/s", None, None, None, None, "m")
+            None, None, "Pa", None, "kg/s", None, None, None, None, "m", "m", "m", "m")
 _BLANK = (None,) * 14
+#: The vane's ports sit 0.4 m above its mount (the support, the origin) on the jet line.
 CV_ROWS = (
-    ("nozzle jet", "in", "abs", 0.003, 998.0, 25.0, 0.0) + _BLANK + (None,),
+    ("nozzle jet", "in", "abs", 0.003, 998.0, 25.0, 0.0) + _BLANK + (None, 0.0, 0.4, 0.0),
     ("vane exit", "out", "rel", 0.003, 998.0, None, 135.0) + _BLANK[:10] + ("free",)
-    + (None,) * 4,
+    + (None,) * 4 + (0.0, 0.4, 0.0),
 )
 CV_SETTINGS = (("fluid_mass", 0.0, "kg"), ("gx", 0.0, "m/s^2"), ("gy", 0.0, "m/s^2"),
                ("gz", -9.80665, "m/s^2"), ("tolerance", 0.001, None), ("intercept", "single",
-                                                                        None))
+                                                                        None),
+               ("ref_x", 0.0, "m"), ("ref_y", 0.0, "m"), ("ref_z", 0.0, "m"),
+               ("dynamic_factor", 1.0, None), ("load_factor", 1.0, None))
 SETTINGS_ROWS = len(CV_SETTINGS) + SPARE_SETTINGS   #: rows of the settings range (then spare)
 
 
@@ -385,11 +392,46 @@ def _control_volume(wb, lay: Layout):
                        end_column=12)
     last = rw + 1 + WARNING_ROWS
     lay.panel["warnings"] = tuple(cell(1, rw + 2 + i) for i in range(WARNING_ROWS))
+    last = _support_loads(ws, lay, raw, args, Uq, Sq, last + 2)
 
     _results_panel(ws, lay, ncol)
     _velocity_triangle(ws, 17, top - 1, top, lay)
     print_setup(ws, rng(1, 1, ncol, last), landscape=True, title_rows="1:3", fit_height=1)
     return last
+
+
+def _support_loads(ws, lay, raw, args, Uq, Sq, top):
+    """The support-loads block: moments about the reference point (settings ref_x, ref_y,
+    ref_z) and the resultants of the force and the moment on the body; returns its last row."""
+    put(ws, 1, top, "Support loads about the reference point (settings ref_x, ref_y, ref_z; "
+                    "port positions rx, ry, rz)", font=BOLD)
+    heads = ("x", "y", "z", "resultant", "angle", "elevation")
+    for j, h in enumerate(heads):
+        put(ws, 4 + j, top + 1, h, font=BOLD, align="center")
+    put(ws, 10, top + 1, "(units as in the Summary; angles: in-plane from +x toward +y, "
+                         "elevation toward +z)", font=ITALIC)
+    rows = (("moment on the body -M_R (fluid on body)", "PFX_MOMENT", "moment on body"),
+            ("support moment M_R (solid on fluid)", "PFX_SUPPORTMOMENT", "support moment"))
+    for i, (label, function, name) in enumerate(rows):
+        r = top + 2 + i
+        put(ws, 1, r, label, font=BOLD)
+        ws.merge_cells(start_row=r, end_row=r, start_column=1, end_column=3)
+        raw.show(name, function, f"={function}({args},,{Uq},{Sq})", ws, _block_at(4, r))
+    r = top + 2
+    raw.show("moment resultant", "PFX_RESULTANT", f'=PFX_RESULTANT({args},"moment",{Uq},{Sq})',
+             ws, _block_at(7, r))
+    r = top + 4
+    put(ws, 1, r, "force on the body -R: resultant and direction", font=BOLD)
+    ws.merge_cells(start_row=r, end_row=r, start_column=1, end_column=3)
+    raw.show("force resultant", "PFX_RESULTANT", f'=PFX_RESULTANT({args},"force",{Uq},{Sq})',
+             ws, _block_at(7, r))
+    big_numbers(ws, rng(4, top + 2, 7, top + 4))
+    lay.panel["moment"] = tuple(cell(4 + j, top + 2) for j in range(4))
+    lay.panel["moment_label"] = cell(1, SUMMARY_AT[1] + 29)    # "moment on body x [unit]"
+    put(ws, 1, top + 5, "Design factors (settings dynamic_factor, load_factor) default to 1: set "
+                        "them from your governing code. The envelope over the speed range is on "
+                        "sheet 'Speed sweep'.", font=ITALIC)
+    return top + 5
 
 
 def _results_panel(ws, lay, ncol):
@@ -624,16 +666,28 @@ def _speed_sweep(wb, lay: Layout):
           (10,), cell(bl, stop + 28, absolute=False), point=(bl + 1, btop + 1, bl + 1, btop + 2))
     lay.sweep_cells.update(best=best, power_header=cell(10, top), speed_header=cell(3, top),
                            table_top=top, force_title=cell(bl + 1, stop + 8, SWEEP))
+    et = last + 3                               # the envelope block below the speed table
+    put(ws, 1, et - 1, "Support-load envelope over the speed range (lowest to highest speed, "
+                       "U = 0 included when inside): worst value, its speed, raw and factored",
+        font=BOLD)
+    raw.show("envelope", "PFX_ENVELOPE",
+             f"=PFX_ENVELOPE({P},{Sh(low)},{Sh(high)},{Sh(direc)},{Sh(U)},{S})", ws,
+             lambda i, j: (1 if j == 0 else 3 + j, et + i), fmts={3: NUMBER},
+             row_fmts={9: "General", 10: "General", 11: "General", 12: "General"})
+    for i in range(LARGEST["PFX_ENVELOPE"][0]):
+        ws.merge_cells(start_row=et + i, end_row=et + i, start_column=1, end_column=3)
+    lay.sweep_cells.update(envelope_top=et)
+    last = et + LARGEST["PFX_ENVELOPE"][0] - 1
     print_setup(ws, rng(1, 1, bl + 7, max(last, stop + 45)), landscape=True, title_rows="1:2",
                 fit_height=1)
 
 
 def _checks(wb):
     ws = wb.create_sheet(CHECKS)
-    found = cases.write_cases(ws, cases.PARTS + cases_closures.PARTS)
+    found = cases.write_cases(ws, cases.PARTS + cases_closures.PARTS + cases.LOAD_PARTS)
     last = cases.INDEX_TOP + len(found)
     print_setup(ws, rng(1, 1, len(cases.INDEX_HEADER), last), landscape=True,
-                title_rows=f"{cases.INDEX_TOP}:{cases.INDEX_TOP}")
+                title_rows=f"{cases.INDEX_TOP}:{cases.INDEX_TOP}", fit_height=1)
     for c in range(cases.INDEX_TOP + 1, last + 1):
         ws.cell(row=c, column=1).alignment = Alignment(wrap_text=True, vertical="top")
         ws.cell(row=c, column=7).alignment = Alignment(wrap_text=True, vertical="top")
