@@ -56,6 +56,30 @@ def closed_split(row_number=None, **cells):
     return tuple(map(tuple, rows))
 
 
+# A fixed nozzle fed at 3 bar (C_v 0.96, C_c 0.9) striking a 120 degree vane; outlet typed relative.
+NOZZLE = (("port", "role", "frame", "area", "diameter", "density", "speed", "angle",
+           "supply_pressure", "velocity_coef", "contraction_coef"),
+          (None, None, None, "cm^2", "mm", "kg/m^3", "m/s", "deg", "bar", None, None),
+          ("jet", "in", "abs", None, 20.0, 998.0, None, 0.0, 3.0, 0.96, 0.9),
+          ("exit", "out", "rel", 3.0, None, 998.0, 20.0, 120.0, None, None, None))
+
+
+def nozzle(**cells):
+    """NOZZLE with some cells of its jet row (sheet row 3) replaced, by column name."""
+    jet = list(NOZZLE[2])
+    for k, v in cells.items():
+        jet[NOZZLE[0].index(k)] = v
+    return NOZZLE[:2] + (tuple(jet),) + NOZZLE[3:]
+
+
+def _closed_with_supply():
+    """SPLIT with a supply pressure on the solved outlet of row 4."""
+    head = SPLIT[0] + ("supply_pressure",)
+    units = SPLIT[1] + ("bar",)
+    rows = [r + (2.0 if i == 1 else None,) for i, r in enumerate(SPLIT[2:])]
+    return (head, units) + tuple(rows)
+
+
 DATE = datetime.datetime(2024, 3, 1, 0, 0)   # xlwings hands a date cell over as datetime
 P = C.PFX_POWER
 KNOWN = "known columns: port, role, frame, area, density, vx"
@@ -408,6 +432,30 @@ CATALOGUE = [
       "'sideways')"]),
     ("bracket of one speed", C.PFX_SPEEDATFORCE, (VANE, 10.0, 5.0, 5.0),
      ["low, high: low must be below high (got low 5 m/s, high 5 m/s)"]),
+    # ---- nozzles given by supply pressure and diameter ---------------------------------------
+    ("supply pressure and a speed both given", P,
+     (nozzle(speed=30.0), 0.0),
+     ["ports row 3, supply_pressure: give the jet's speed (speed, or vx, vy, vz) or its "
+      "supply_pressure, not both"]),
+    ("supply pressure not positive", P, (nozzle(supply_pressure=-2.0), 0.0),
+     ["ports row 3, supply_pressure: must be > 0", "(got -2 bar)"]),
+    ("supply pressure without density", P, (nozzle(density=None), 0.0),
+     ["ports row 3, density: a jet from supply_pressure needs the density"]),
+    ("velocity coefficient above one", P, (nozzle(velocity_coef=1.2), 0.0),
+     ["ports row 3, velocity_coef: must be in (0, 1] (got 1.2)"]),
+    ("velocity coefficient without supply pressure", P,
+     (nozzle(supply_pressure=None, speed=30.0), 0.0),
+     ["ports row 3, velocity_coef: a velocity coefficient is given without supply_pressure"]),
+    ("contraction coefficient of zero", P, (nozzle(contraction_coef=0.0), 0.0),
+     ["ports row 3, contraction_coef: must be in (0, 1] (got 0)"]),
+    ("area and diameter disagree", P, (nozzle(area=4.0), 0.0),
+     ["ports row 3, diameter: area and diameter disagree: area 4 cm^2 but pi d^2 / 4 = 3.14159 "
+      "cm^2", "give one of them"]),
+    ("diameter not positive", P, (nozzle(diameter=0.0), 0.0),
+     ["ports row 3, diameter: must be > 0 (got 0 mm)"]),
+    ("supply pressure on a closed outlet", C.PFX_SPLIT,
+     (_closed_with_supply(), 0.0),
+     ["ports row 4, supply_pressure: closure 'solve' sets this outlet's speed"]),
     # ---- flags: a normal result that carries the word ----------------------------------------
     ("flag: body outruns the jet (status)", C.PFX_IMBALANCE, (VANE, 40.0), ["no contact"]),
     ("flag: body outruns the jet (warnings)", C.PFX_WARNINGS, (VANE, 40.0),

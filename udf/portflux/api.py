@@ -30,7 +30,8 @@ from .core import speed_table as _core_speed_table
 from .core.geometry import direction
 
 __all__ = ["ControlVolumeResult", "SpeedTableResult", "best_speed", "cv_velocity_si",
-           "format_report", "problem", "solve", "speed_at_force", "speed_table", "ureg"]
+           "format_report", "jet_speed", "problem", "solve", "speed_at_force", "speed_table",
+           "ureg"]
 
 
 def ureg():
@@ -391,6 +392,48 @@ def speed_at_force(ports, value, bracket, *, component="along", force_unit="N",
     lo, hi = (float(U.to_si(float(x), speed_unit, "velocity")) for x in bracket)
     target = float(U.to_si(float(value), force_unit, "force"))
     return _core_speed_at_force(pb.model, target, (lo, hi), direction, component=component)
+
+
+def jet_speed(supply_pressure, density, velocity_coef=1.0, *, pressure_unit="Pa",
+              density_unit="kg/m^3", speed_unit="m/s"):
+    """Jet speed of a nozzle from its supply gauge pressure: V = C_v sqrt(2 dp / rho).
+
+    The same rule a port row applies to its ``supply_pressure`` and ``velocity_coef`` columns
+    (:func:`portflux.problem.jet_speed`), with units.
+
+    Parameters
+    ----------
+    supply_pressure : float or array_like
+        Gauge pressure upstream of the nozzle, > 0 [pressure_unit].
+    density : float or array_like
+        Fluid density, > 0 [density_unit].
+    velocity_coef : float or array_like
+        Nozzle velocity coefficient C_v, 0 < C_v <= 1 [-].
+    pressure_unit, density_unit, speed_unit : str
+        Units of the pressure, the density and the answer.
+
+    Returns
+    -------
+    float or ndarray
+        Jet speed relative to the nozzle [speed_unit].
+
+    Examples
+    --------
+    >>> round(jet_speed(100.0, 1.94, 0.98, pressure_unit="psi", density_unit="slug/ft^3",
+    ...                 speed_unit="ft/s"), 2)
+    119.4
+
+    Reference: nozzle/orifice relation, F. M. White, *Fluid Mechanics*, sec. 6.12 (from memory).
+    """
+    dp = U.to_si(supply_pressure, pressure_unit, "pressure")
+    rho = U.to_si(density, density_unit, "density")
+    c = np.asarray(velocity_coef, dtype=float)
+    if np.any(~(np.asarray(dp) > 0)) or np.any(~(np.asarray(rho) > 0)) or np.any(
+            ~((c > 0) & (c <= 1))):
+        raise InputError("jet_speed needs supply_pressure > 0, density > 0 and "
+                         "0 < velocity_coef <= 1", argument="supply_pressure")
+    v = U.from_si(P.jet_speed(dp, rho, c), speed_unit, "velocity")
+    return float(v) if np.ndim(v) == 0 else v
 
 
 def _fmt(x) -> str:
