@@ -111,5 +111,35 @@ def closure_cases(s) -> None:
           1e-12, "Bernoulli equation along a streamline in the moving frame; " + WHITE)
 
 
+NOZZLE = ("nozzle/orifice relation V = C_v sqrt(2 dp / rho), F. M. White, Fluid Mechanics, "
+          "sec. 6.12 (from memory); jet area C_c pi d^2 / 4")
+
+
+def nozzle_cases(s) -> None:
+    """Jets given by the nozzle's supply pressure, diameter and coefficients."""
+    # M. Invented: a 20 mm nozzle fed at 300 kPa (C_v 0.96, C_c 0.9) on a frictionless 150 deg
+    # vane moving at 6 m/s.
+    cols = ("port", "role", "frame", "diameter", "density", "angle", "supply_pressure",
+            "velocity_coef", "contraction_coef", "closure")
+    units = (None, None, None, "mm", "kg/m^3", "deg", "kPa", None, None, None)
+    t, cv, U, _, _ = s.block("M. nozzle fed at a supply pressure", cols, units,
+                             (("nozzle", "in", "abs", 20.0, 998.0, 0.0, 300.0, 0.96, 0.9, None),
+                              ("exit", "out", "rel", None, 998.0, 150.0, None, None, None,
+                               "free")),
+                             (6.0, 0.0, 0.0), "m/s")
+    d, rho, p = t.at(0, "diameter"), t.at(0, "density"), t.at(0, "supply_pressure")
+    cv_, cc, th = t.at(0, "velocity_coef"), t.at(0, "contraction_coef"), t.at(1, "angle")
+    V = f"{cv_}*SQRT(2*{p}*1000/{rho})"
+    A = f"{cc}*PI()*({d}/1000)^2/4"
+    s.add("jet speed from supply pressure: V = C_v sqrt(2 dp / rho)", "PFX_ABSVEL",
+          f"=INDEX(PFX_ABSVEL({t.ref},{cv}),1,1)", f"={V}", 1e-12, NOZZLE)
+    s.add("nozzle jet on a moving vane: mdot = -rho C_c (pi d^2/4) (V - U)", "PFX_MASSFLOWS",
+          f"=INDEX(PFX_MASSFLOWS({t.ref},{cv}),1,1)", f"=-{rho}*{A}*({V}-{U})", 1e-12,
+          NOZZLE + "; " + WHITE)
+    s.add("nozzle jet on a moving vane: F_x = rho A_j (V-U)^2 (1 - cos th)", "PFX_BODYFORCE",
+          f'=PFX_BODYFORCE({t.ref},{cv},"x")',
+          f"={rho}*{A}*({V}-{U})^2*(1-{cos_deg(th)})", 1e-12, NOZZLE + "; " + WHITE)
+
+
 #: The parts of this module, in sheet order (see :data:`.cases.PARTS`).
-PARTS = (closure_cases,)
+PARTS = (closure_cases, nozzle_cases)
