@@ -456,6 +456,22 @@ CATALOGUE = [
     ("supply pressure on a closed outlet", C.PFX_SPLIT,
      (_closed_with_supply(), 0.0),
      ["ports row 4, supply_pressure: closure 'solve' sets this outlet's speed"]),
+    # ---- wheels typed in rpm -----------------------------------------------------------------
+    ("rpm CV velocity without a wheel radius", P, (VANE, (300.0, "rpm")),
+     ["cv_velocity, unit cell 2: unit 'rpm' is a rotational speed, which needs the wheel "
+      "radius: add a settings row wheel_radius"]),
+    ("rpm speeds without a wheel radius", C.PFX_SPEEDTABLE, (VANE, ("rpm", 0.0, 100.0)),
+     ["speeds cell 1 (the unit cell): unit 'rpm' is a rotational speed", "wheel_radius"]),
+    ("rpm bracket without a wheel radius", C.PFX_BESTSPEED, (VANE, (0.0, "rpm"), (500.0, "rpm")),
+     ["low, unit: unit 'rpm' is a rotational speed", "add a settings row wheel_radius"]),
+    ("a frequency as a rotational speed", P, (VANE, (5.0, "Hz")),
+     ["cv_velocity, unit cell 2: unit 'Hz' is not a rotational speed", "give rpm, rad/s"]),
+    ("wheel radius of zero", P, (VANE, (300.0, "rpm"), None, (("wheel_radius", 0.0, "m"),)),
+     ["settings row 1, wheel_radius: must be > 0, the radius at the jet's centre line (got 0 m)"]),
+    ("wheel radius in a speed unit", P, (VANE, 3.0, None, (("wheel_radius", 0.5, "m/s"),)),
+     ["settings row 1, wheel_radius unit: unit 'm/s' is a velocity unit, expected a length"]),
+    ("shaft torque without a wheel radius", C.PFX_SHAFTTORQUE, (VANE, 3.0),
+     ["settings: the shaft torque needs the wheel radius; add a settings row wheel_radius"]),
     # ---- flags: a normal result that carries the word ----------------------------------------
     ("flag: body outruns the jet (status)", C.PFX_IMBALANCE, (VANE, 40.0), ["no contact"]),
     ("flag: body outruns the jet (warnings)", C.PFX_WARNINGS, (VANE, 40.0),

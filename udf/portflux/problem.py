@@ -288,6 +288,100 @@ class Settings:
     tolerance: float = DEFAULT_IMBALANCE_TOL                #: relative imbalance tolerance [-]
     intercept: str = SINGLE                                 #: "single" vane or vane "train"
     no_force: tuple = ()     #: unit directions (3-tuples) along which the support force is zero
+    #: radius at which the jet meets a wheel [m] (None: not a wheel); with it, speeds may be
+    #: typed as rotational speeds (rpm, rad/s, rev/s): peripheral speed U = omega r
+    wheel_radius: float | None = None
+
+
+ROTATION_HINT = ("add a settings row wheel_radius | <radius> | <unit> (the radius at the "
+                 "jet's centre line; api: wheel_radius=), so that the peripheral speed is "
+                 "U = omega r")
+
+
+def speed_kind(unit) -> str:
+    """"velocity" or "angular_speed": the kind of a typed speed unit (blank: velocity); any
+    other unit is an :class:`InputError` (a frequency such as Hz is refused as ambiguous).
+
+    >>> speed_kind("mph"), speed_kind("rev/s")
+    ('velocity', 'angular_speed')
+
+    Reference: common practice, no source (input rules of this package).
+    """
+    try:
+        U.factor(unit, "velocity")
+        return "velocity"
+    except InputError as e:
+        try:
+            U.factor(unit, "angular_speed")
+            return "angular_speed"
+        except InputError as rot:
+            raise (rot if "rotational speed" in rot.message else e) from None
+
+
+def speed_factor(unit, wheel_radius=None) -> tuple[float, bool]:
+    """Multiplier from a typed speed to the peripheral speed U [m/s], and whether the unit is
+    rotational.
+
+    A velocity unit (m/s, ft/s, ...) converts as usual. A rotational unit (rpm, rad/s, rev/s,
+    rps) means the speed of a wheel whose jet acts at ``wheel_radius``: U = omega r along the
+    direction of motion; without a radius it is an :class:`InputError` saying what to add.
+
+    Parameters
+    ----------
+    unit : str or None
+        The unit as typed (blank: m/s).
+    wheel_radius : float, optional
+        Radius at which the jet meets the wheel [m].
+
+    Examples
+    --------
+    >>> speed_factor("ft/s")
+    (0.30479999999999996, False)
+    >>> f, rotational = speed_factor("rpm", 0.5)     # 2 pi / 60 x 0.5 m
+    >>> round(f, 12), rotational
+    (0.05235987756, True)
+
+    Reference: peripheral speed of a rotating point U = omega r (common practice, no source);
+    1 r/min = 2 pi / 60 rad/s, NIST SP 811 (2008), Appendix B (from memory).
+    """
+    if speed_kind(unit) == "velocity":
+        return U.factor(unit, "velocity"), False
+    w = U.factor(unit, "angular_speed")
+    if wheel_radius is None:
+        raise InputError(f"unit {shown(str(unit))} is a rotational speed, which needs the wheel "
+                         f"radius: {ROTATION_HINT}", argument="wheel_radius")
+    return w * wheel_radius, True
+
+
+def shaft_torque(force_along, wheel_radius):
+    """Shaft torque of a wheel: T = F_along r.
+
+    The force on the body (the buckets) along the direction of motion, times the radius at
+    which it acts: positive when the fluid drives the wheel in its direction of rotation (a
+    turbine), negative when the wheel works on the fluid or is braked by it.
+
+    Parameters
+    ----------
+    force_along : float or array_like
+        Force on the body along the direction of motion [N].
+    wheel_radius : float
+        Radius at which the jet meets the wheel [m].
+
+    Returns
+    -------
+    float or ndarray
+        Torque on the shaft about the wheel's axis, + along the rotation [N m].
+
+    Examples
+    --------
+    >>> shaft_torque(1200.0, 0.4)
+    480.0
+
+    Reference: Euler's turbine equation T = mdot r (V_theta1 - V_theta2), S. L. Dixon,
+    *Fluid Mechanics and Thermodynamics of Turbomachinery*, Euler work equation (from memory).
+    """
+    return np.asarray(force_along, dtype=float) * wheel_radius if np.ndim(force_along) else \
+        float(force_along) * wheel_radius
 
 
 @dataclass(frozen=True, eq=False)

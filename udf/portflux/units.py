@@ -68,14 +68,20 @@ QUANTITIES = {q.name: q for q in (
     Quantity("acceleration", "[length] / [time] ** 2", "m/s^2", "m/s^2", "ft/s^2",
              "m/s^2, ft/s^2"),
     Quantity("angle", "angle", "rad", "deg", "deg", "deg, rad"),
+    Quantity("angular_speed", "1 / [time]", "rad/s", "rpm", "rpm", "rpm, rad/s, rev/s, rps"),
+    Quantity("torque", "[length] ** 2 * [mass] / [time] ** 2", "N*m", "N*m", "lbf*ft",
+             "N*m, kN*m, lbf*ft"),
     Quantity("ratio", "", "", "", "", "blank (dimensionless)"),
 )}
 
 _ANGLE_UNITS = {"radian", "degree", "arcminute", "arcsecond", "turn", "gradian"}
+#: pint's rotational-speed units that carry their angle in the name (rpm, rps).
+_ROTATION_UNITS = {"revolutions_per_minute", "revolutions_per_second"}
 _EXTRA_DEFINITIONS = (
     "lbm = pound",                 # trade spelling of pound-mass
     "psig = psi",                  # gauge pressure column: psig reads as psi
     "gpm = gallon / minute",       # US gallons per minute
+    "rev = revolution",            # trade spelling of a revolution (rev/s, rev/min)
 )
 
 _lock = threading.Lock()
@@ -333,6 +339,9 @@ TABLE = {
     **{n: (1852.0 / 3600.0, _dim(1, 0, -1), False) for n in ("knot", "kn")},
     **{n: (math.pi / 180.0, _dim(), True) for n in ("deg", "degree", "°")},
     **{n: (1.0, _dim(), True) for n in ("rad", "radian")},
+    **{n: (2 * math.pi, _dim(), True) for n in ("rev", "revolution", "turn")},
+    "rpm": (2 * math.pi / 60.0, _dim(time=-1), True),
+    "rps": (2 * math.pi, _dim(time=-1), True),
     **{n: (0.01, _dim(), False) for n in ("%", "percent")},
 }
 
@@ -359,6 +368,9 @@ _PINNED = {
     'cm': 0.01, 'mm': 0.001, 'km': 1000.0, 'in': 0.0254, 'ft': 0.30479999999999996, 'yd': 0.9144,
     'mi': 1609.344, 'm/s^2': 1.0, 'ft/s^2': 0.30479999999999996, 'deg': 0.017453292519943295,
     'rad': 1.0, '°': 0.017453292519943295, '%': 0.01, 'percent': 0.01,
+    'rpm': 0.10471975511965977, 'rev/min': 0.10471975511965977, 'rps': 6.283185307179586,
+    'rev/s': 6.283185307179586, 'rad/s': 1.0, 'N*m': 1.0, 'kN*m': 1000.0,
+    'lbf*ft': 1.3558179483314001, 'ft*lbf': 1.3558179483314001,
 }
 _pinned_powers = {}
 
@@ -377,7 +389,7 @@ _KIND_DIMS = {
     "area": _dim(2), "density": _dim(-3, 1), "velocity": _dim(1, 0, -1),
     "pressure": _dim(-1, 1, -2), "mass_flow": _dim(0, 1, -1), "volume_flow": _dim(3, 0, -1),
     "force": _dim(1, 1, -2), "power": _dim(2, 1, -3), "mass": _dim(mass=1), "length": _dim(1),
-    "acceleration": _dim(1, 0, -2), "ratio": _dim(),
+    "acceleration": _dim(1, 0, -2), "ratio": _dim(), "torque": _dim(2, 1, -2),
 }
 
 
@@ -418,6 +430,9 @@ def _factor(unit: str, kind: str) -> float:
         if q.dimension == "angle":
             if len(powers) == 1 and angle == 1.0 and dim == _dim():
                 return f
+        elif kind == "angular_speed":
+            if angle == 1.0 and dim == _dim(time=-1):
+                return _check_factor(f, unit)
         elif angle == 0.0 and dim == _KIND_DIMS[kind]:
             return _check_factor(f, unit)
     return _pint_factor(unit, kind)       # other names, and the wording of every error
@@ -442,6 +457,12 @@ def _pint_factor(unit: str, kind: str) -> float:
         except Exception:
             raise InputError(f"unit {unit!r} is not an angle; expected {q.examples}") from None
     want = reg.get_dimensionality(q.dimension) if q.dimension else reg.get_dimensionality("")
+    if kind == "angular_speed" and u.dimensionality == want:
+        names = set(u._units.keys()) if hasattr(u, "_units") else set()
+        if not names & (_ANGLE_UNITS | _ROTATION_UNITS):
+            raise InputError(f"unit {unit!r} is not a rotational speed (a frequency such as Hz "
+                             f"does not say whether it counts radians or revolutions); give "
+                             f"{q.examples}")
     if u.dimensionality != want:
         got = _describe_dimension(u.dimensionality)
         raise InputError(f"unit {unit!r} is {got}, expected {_a(kind)} unit "

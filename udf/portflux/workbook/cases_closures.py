@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 from .cases import PLATE, TRADE, WHEEL, WHITE, cos_deg
+from openpyxl.utils import column_index_from_string, get_column_letter
+
 from .drawing import put, rng
 
 COLS = ("port", "role", "frame", "area", "density", "speed", "angle", "closure", "loss",
@@ -10,10 +12,10 @@ COLS = ("port", "role", "frame", "area", "density", "speed", "angle", "closure",
 UNITS = (None, None, None, "m^2", "kg/m^3", "m/s", "deg", None, None, "m")
 
 
-def _speeds(s, left, top, values):
+def _speeds(s, left, top, values, unit="m/s"):
     """A speeds column led by its unit cell; ``values`` are formulas or numbers."""
     put(s.ws, left, top - 1, "speeds", font=None)
-    put(s.ws, left, top, "m/s")
+    put(s.ws, left, top, unit)
     for i, v in enumerate(values):
         put(s.ws, left, top + 1 + i, v)
     return rng(left, top, left, top + len(values))
@@ -141,5 +143,47 @@ def nozzle_cases(s) -> None:
           f"={rho}*{A}*({V}-{U})^2*(1-{cos_deg(th)})", 1e-12, NOZZLE + "; " + WHITE)
 
 
+EULER = ("Euler's turbine equation T = mdot r (V_theta1 - V_theta2), S. L. Dixon, Fluid "
+         "Mechanics and Thermodynamics of Turbomachinery, Euler work equation (from memory); "
+         "1 rpm = 2 pi / 60 rad/s, NIST SP 811 Appendix B")
+
+
+def _with_unit(ws, ref, unit):
+    """A value cell and a unit cell written to its right: the range of both."""
+    col, row = ref.replace("$", " ").split()
+    right = get_column_letter(column_index_from_string(col) + 1)
+    put(ws, column_index_from_string(col) + 1, int(row), unit)
+    return f"{ref}:${right}${row}"
+
+
+def wheel_rpm_cases(s) -> None:
+    """A bucket wheel typed in rpm with its radius: torque and best speed in rpm."""
+    # N. Invented: the wheel of case I, 0.5 m pitch radius, turning at 240 rpm.
+    left = s.col
+    t, cv, n, sref, ex = s.block("N. bucket wheel in rpm (wheel_radius)", COLS, UNITS,
+                                 (("nozzle", "in", "abs", 0.002, 998.0, 30.0, 0.0, None, None,
+                                   None),
+                                  ("bucket exit", "out", "rel", 0.002, 998.0, None, 165.0,
+                                   "free", None, None)),
+                                 (240.0, 0.0, 0.0), "rpm",
+                                 settings=(("intercept", "train", None),
+                                           ("wheel_radius", 0.5, "m")),
+                                 extra=(("low [rpm]", 0.0), ("high [rpm]", 1000.0)))
+    P = t.ref
+    rho, A, V, b = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"), t.at(1, "angle")
+    r = ex["wheel_radius"]
+    lo, hi = (_with_unit(s.ws, ex[k], "rpm") for k in ("low [rpm]", "high [rpm]"))
+    U = f"({n}*2*PI()/60*{r})"
+    euler = f"{rho}*{A}*{V}*{r}*({V}-({U}+({V}-{U})*{cos_deg(b)}))"
+    s.add("wheel shaft torque = mdot r (V_theta1 - V_theta2) at n rpm", "PFX_SHAFTTORQUE",
+          f"=PFX_SHAFTTORQUE({P},{cv},,{sref})", f"={euler}", 1e-12, EULER)
+    s.add("best speed of a bucket wheel in rpm: V/2 / r x 60 / (2 pi)", "PFX_BESTSPEED",
+          f"=INDEX(PFX_BESTSPEED({P},{lo},{hi},,,{sref}),2,2)",
+          f"={V}/2/{r}*60/(2*PI())", 1e-6, WHEEL + "; " + EULER)
+    sp = _speeds(s, left + 8, 78, (0.0, f"={n}", f"=2*{n}"), unit="rpm")
+    s.add("speed table in rpm: shaft torque column at n rpm", "PFX_SPEEDTABLE",
+          f"=INDEX(PFX_SPEEDTABLE({P},{sp},,,{sref}),3,11)", f"={euler}", 1e-12, EULER)
+
+
 #: The parts of this module, in sheet order (see :data:`.cases.PARTS`).
-PARTS = (closure_cases, nozzle_cases)
+PARTS = (closure_cases, nozzle_cases, wheel_rpm_cases)
