@@ -80,6 +80,13 @@ def _closed_with_supply():
     return (head, units) + tuple(rows)
 
 
+def fluid_table(unit="degC", **cells):
+    """One water inlet named by its fluid and temperature, some cells replaced by column name."""
+    head = ("port", "role", "area", "density", "fluid", "temperature", "vx")
+    jet = dict(zip(head, ("jet", "in", 0.01, None, "water", 20.0, 10.0)), **cells)
+    return (head, (None, None, "m^2", None, None, unit, "m/s"), tuple(jet[k] for k in head))
+
+
 DATE = datetime.datetime(2024, 3, 1, 0, 0)   # xlwings hands a date cell over as datetime
 P = C.PFX_POWER
 KNOWN = "known columns: port, role, frame, area, density, vx"
@@ -175,7 +182,7 @@ CATALOGUE = [
      ["ports row 2, vx: unit 'kg' is a mass unit, expected a velocity unit"]),
     ("temperature unit for a velocity", P,
      (table(JET, units=(None, None, "ft^2", "slug/ft^3", "degC")), 10.0),
-     ["ports row 2, vx: unit 'degC' is of dimension [temperature], expected a velocity unit"]),
+     ["ports row 2, vx: unit 'degC' is a temperature unit, expected a velocity unit"]),
     ("number in the unit row", P, (table(JET, units=(None, None, 0.05, None, None)), 10.0),
      ["ports row 2, area: expected a unit (text) or a blank cell, got the number 0.05"]),
     ("unit on a text column", P, (table(JET, units=(None, "m") + UNITS[2:]), 10.0),
@@ -307,7 +314,7 @@ CATALOGUE = [
      ((HEAD + ("mass_flow",), UNITS + ("kg",), JET + (1.0,), EXIT + (None,)), 0.0),
      ["ports row 2, mass_flow: unit 'kg' is a mass unit, expected a mass flow unit"]),
     ("temperature unit for the CV velocity", P, (GOOD, (10.0, "degC")),
-     ["cv_velocity, unit cell 2: unit 'degC' is of dimension [temperature]"]),
+     ["cv_velocity, unit cell 2: unit 'degC' is a temperature unit, expected a velocity unit"]),
     ("CV velocity given as a word", C.PFX_FRAMECHECK, (GOOD, "fast"),
      ["cv_velocity: expected a speed or velocity components, got text 'fast'"]),
     # ---- closures, shares and no-force directions (PFX_SPLIT and the balance) --------------
@@ -472,6 +479,19 @@ CATALOGUE = [
      ["settings row 1, wheel_radius unit: unit 'm/s' is a velocity unit, expected a length"]),
     ("shaft torque without a wheel radius", C.PFX_SHAFTTORQUE, (VANE, 3.0),
      ["settings: the shaft torque needs the wheel radius; add a settings row wheel_radius"]),
+    # ---- fluids by name (checked before the property library is needed) ---------------------
+    ("temperature without a fluid name", P, (fluid_table(fluid=None), 0.0),
+     ["ports row 3, temperature: temperature is given without a fluid name"]),
+    ("density and a fluid name both", P, (fluid_table(density=998.0), 0.0),
+     ["ports row 3, density: give the density or the fluid's name, not both"]),
+    ("fluid name without a temperature", P, (fluid_table(temperature=None), 0.0),
+     ["ports row 3, temperature: a named fluid needs its temperature"]),
+    ("unknown fluid name", P, (fluid_table(fluid="mercury"), 0.0),
+     ["ports row 3, fluid: unknown fluid 'mercury'; known: water, seawater, air"]),
+    ("temperature below absolute zero", P, (fluid_table(temperature=-300.0), 0.0),
+     ["ports row 3, temperature: must be above absolute zero (got -300 degC)"]),
+    ("temperature in a mass unit", P, (fluid_table(unit="kg"), 0.0),
+     ["ports row 2, temperature: unknown temperature unit 'kg'; give degC, K, degF"]),
     # ---- flags: a normal result that carries the word ----------------------------------------
     ("flag: body outruns the jet (status)", C.PFX_IMBALANCE, (VANE, 40.0), ["no contact"]),
     ("flag: body outruns the jet (warnings)", C.PFX_WARNINGS, (VANE, 40.0),

@@ -37,7 +37,7 @@ SCENARIOS = {
                ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
                ("exit", "out", 2.0, 998.0, None, 150.0, "free"),
                (None,) * 7, (None,) * 7),
-        settings=(("fluid_mass", 0.5, "kg"), ("gz", -9.81, "m/s^2"), (None, None, None)),
+        settings=(("fluid_mass", 0.5, "kg"), ("gz", -9.81, "m/s^2"), ("wheel_radius", 0.5, "m")),
         speeds=(("m/s",), (0.0,), (None,), (10.0,), (50.0,)),
         cv=((10.0, 0.0, 0.0, "m/s"),),
         scalars={"port": ('"exit"', "exit"), "units": ('"SI; force=kN"', "SI; force=kN"),
@@ -51,7 +51,8 @@ SCENARIOS = {
                ("fwd", "out", None, 1.94, None, 60.0, "solve"),
                ("back", "out", None, 1.94, None, 240.0, "solve"),
                (None,) * 7),
-        settings=(("slip_angle", 60.0, "deg"), ("fluid_mass", 0.0, "slug"), (None, None, None)),
+        settings=(("slip_angle", 60.0, "deg"), ("fluid_mass", 0.0, "slug"),
+                  ("wheel_radius", 1.5, "ft")),
         speeds=(("ft/s",), (0.0,), (5.0,), (None,), (20.0,)),
         cv=((5.0, 0.0, 0.0, "ft/s"),),
         scalars={"port": ("2", 2.0), "units": ('"US"', "US"), "axis": ('"x"', "x"),
@@ -122,8 +123,10 @@ def test_each_function_as_array_and_single_cell_formula_matches_python(doc, name
     # all arguments, then only the required ones (omitted optionals arrive as None)
     required = sum(1 for p in inspect.signature(getattr(C, name)).parameters.values()
                    if p.default is inspect.Parameter.empty)
-    # (the plate needs its settings: its two solved streams need the slip direction)
-    for k in sorted({n, required} if scenario == "vane" else {n}, reverse=True):
+    # (the plate needs its settings: its two solved streams need the slip direction; the shaft
+    # torque needs the wheel_radius setting)
+    alone = scenario == "vane" and name != "PFX_SHAFTTORQUE"
+    for k in sorted({n, required} if alone else {n}, reverse=True):
         formula, values = _formula(name, k, args)
         want = adapter.to_calc(getattr(C, name)(*values))
         assert not (len(want) == 1 and isinstance(want[0][0], str)

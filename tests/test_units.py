@@ -118,7 +118,7 @@ def test_pinned_factors_are_pints_bit_for_bit(reg, text):
                 and k == "angle"
                 or rotation and k == "angular_speed"
                 or text in ("%", "percent") and k == "ratio"
-                or q.dimension not in ("", "angle", "1 / [time]")
+                or k in U._KIND_DIMS and q.dimension not in ("", "angle", "1 / [time]")
                 and _pint_si(reg, text)[1] == U._KIND_DIMS[k])
     assert U.factor(text, kind) == pf
 
@@ -219,3 +219,12 @@ def test_a_frequency_or_a_speed_is_not_a_rotational_speed(text):
 def test_rpm_is_not_a_velocity():
     with pytest.raises(InputError, match="angular speed unit, expected a velocity unit"):
         U.factor("rpm", "velocity")
+
+
+@pytest.mark.parametrize("value, unit", [(20.0, "degC"), (68.0, "degF"), (293.15, "K"),
+                                         (527.67, "degR")])
+def test_temperatures_convert_with_their_offsets_as_pint_does(reg, value, unit):
+    # pint (package registry) is the reference; 0 degC = 273.15 K, 1 degF = 5/9 K (NIST SP 811)
+    expected = float(reg.Quantity(value, unit).to("kelvin").magnitude)
+    assert U.to_kelvin(value, unit) == pytest.approx(expected, rel=1e-14)
+    assert U.to_kelvin(value, unit) == pytest.approx(293.15, rel=1e-12)

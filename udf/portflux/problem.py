@@ -82,7 +82,18 @@ COLUMNS = {c.key: c for c in (
     Column("contraction_coef", "ratio", "jet contraction coefficient C_c, 0 < C_c <= 1: the "
                                         "jet's area is C_c x area (or C_c x pi d^2 / 4); "
                                         "default 1", ("cc_coef",)),
+    Column("fluid", None, "fluid by name instead of density: water, seawater, air, nitrogen, "
+                          "co2 (needs pip install 'portflux[fluids]')"),
+    Column("temperature", "temperature", "fluid temperature for a named fluid's density "
+                                         "(default unit degC)", ("temp",)),
+    Column("abs_pressure", "pressure", "absolute pressure for a named fluid's density "
+                                       "(default 101.325 kPa + p_gauge)",
+           ("absolute_pressure",)),
 )}
+
+#: Standard atmosphere [Pa] (ISO 2533; exact by definition of the atmosphere unit): the
+#: absolute pressure of a named fluid where none is typed is this plus the port's gauge pressure.
+STANDARD_ATMOSPHERE = 101_325.0
 
 #: Relative tolerance within which a typed area and pi d^2 / 4 of a typed diameter agree
 #: (three significant figures of either).
@@ -515,6 +526,13 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
             if not is_blank(unit):
                 raise InputError(f"is a text column and takes no unit (got {shown(unit)})", field=key)
             continue
+        if kind == "temperature":            # an offset unit: converted in _fluid_density
+            try:
+                U.to_kelvin(0.0, unit)
+            except InputError as e:
+                raise InputError(e.message, field=f"{key} unit") from None
+            factors[key] = 1.0
+            continue
         try:
             factors[key] = U.factor(unit, kind)
         except InputError as e:
@@ -569,7 +587,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
     comps = np.stack([num("vx"), num("vy"), num("vz")], axis=1)
     speed, angle, tilt = num("speed"), num("angle"), num("tilt")
     has_c = ~np.isnan(comps).all(axis=1)
-    density = num("density")
+    density = _fluid_density(table, units, words, num, num("density"))
     speed = _nozzle_speed(num, table, units, speed, has_c, density, closed, kinds)
     has_s = ~np.isnan(speed)
     has_a = ~np.isnan(angle) | ~np.isnan(tilt)
@@ -650,6 +668,45 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
                      share=share, units={k: units.get(k) for k in table},
                      flow_by_closure=np.zeros(n, dtype=bool) if flow_set is None else flow_set,
                      headers=dict(headers or {}))
+
+
+def _fluid_density(table, units, words, num, density):
+    """Densities [kg/m^3] with those of named fluids filled in (fluid, temperature and absolute
+    pressure; the property library is imported only when a row names a fluid)."""
+    names = words("fluid") if "fluid" in table else None
+    temp = num("temperature")
+    has_f = np.array([bool(x) for x in names]) if names else np.zeros(len(density), dtype=bool)
+    for col, vals in (("temperature", temp), ("abs_pressure", num("abs_pressure"))):
+        for i in _where(~np.isnan(vals) & ~has_f):
+            raise InputError(f"{col} is given without a fluid name; name the fluid (fluid column) "
+                             f"or clear {col}", port=i, field=col)
+    if not has_f.any():
+        return density
+    for i in _where(has_f & ~np.isnan(density)):
+        raise InputError("give the density or the fluid's name, not both", port=i,
+                         field="density")
+    for i in _where(has_f & np.isnan(temp)):
+        raise InputError("a named fluid needs its temperature (temperature column, default "
+                         "unit degC)", port=i, field="temperature")
+    kelvin = U.to_kelvin(temp, units.get("temperature"))
+    for i in _where(has_f & ~(kelvin > 0)):
+        raise _in_user_units(InputError(f"must be above absolute zero (got {temp[i]})", port=i,
+                                        field="temperature"), table, units)
+    p_abs = num("abs_pressure")
+    p_abs = np.where(np.isnan(p_abs), STANDARD_ATMOSPHERE + _nan_zero(num("p_gauge")), p_abs)
+    for i in _where(has_f & ~(p_abs > 0)):
+        raise InputError(f"the fluid's absolute pressure must be > 0 (got {p_abs[i]:g} Pa); "
+                         f"give abs_pressure", port=i, field="abs_pressure")
+    from . import fluids          # imports nothing heavy; the library loads on first use
+    rows = _where(has_f)
+    try:
+        rho = fluids.density([names[i] for i in rows], kelvin[rows], p_abs[rows])
+    except InputError as e:
+        raise InputError(e.message, port=rows[0 if e.port is None else e.port],
+                         field="fluid") from None
+    density = density.copy()
+    density[rows] = rho
+    return density
 
 
 def _nozzle_speed(num, table, units, speed, has_c, density, closed, kinds):

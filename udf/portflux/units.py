@@ -68,6 +68,7 @@ QUANTITIES = {q.name: q for q in (
     Quantity("acceleration", "[length] / [time] ** 2", "m/s^2", "m/s^2", "ft/s^2",
              "m/s^2, ft/s^2"),
     Quantity("angle", "angle", "rad", "deg", "deg", "deg, rad"),
+    Quantity("temperature", "[temperature]", "K", "degC", "degF", "degC, K, degF"),
     Quantity("angular_speed", "1 / [time]", "rad/s", "rpm", "rpm", "rpm, rad/s, rev/s, rps"),
     Quantity("torque", "[length] ** 2 * [mass] / [time] ** 2", "N*m", "N*m", "lbf*ft",
              "N*m, kN*m, lbf*ft"),
@@ -486,6 +487,44 @@ def _describe_dimension(dim) -> str:
     return f"of dimension {dim}" if str(dim) != "dimensionless" else "dimensionless"
 
 
+#: Temperature units (they have offsets, so no factor): name -> (scale, offset), with
+#: T [K] = scale x (t + offset). Exact by definition: 0 degC = 273.15 K, 1 degF = 5/9 K,
+#: 0 degF = 459.67 degR (NIST SP 811 (2008), sec. 4.2.1.1 and Appendix B.9; from memory).
+TEMPERATURES = {
+    **{n: (1.0, 0.0) for n in ("K", "kelvin")},
+    **{n: (1.0, 273.15) for n in ("degC", "°C", "celsius", "degree_Celsius")},
+    **{n: (5.0 / 9.0, 459.67) for n in ("degF", "°F", "fahrenheit", "degree_Fahrenheit")},
+    **{n: (5.0 / 9.0, 0.0) for n in ("degR", "°R", "rankine")},
+}
+
+
+def to_kelvin(value, unit):
+    """A temperature in ``unit`` (blank: degC) as kelvin.
+
+    Parameters
+    ----------
+    value : float or array_like
+        Temperature [unit].
+    unit : str or None
+        One of :data:`TEMPERATURES` (degC, K, degF, degR); blank means degC.
+
+    Examples
+    --------
+    >>> to_kelvin(20.0, "degC"), round(to_kelvin(68.0, "degF"), 12)
+    (293.15, 293.15)
+
+    Reference: NIST SP 811 (2008), sec. 4.2.1.1 (T = t + 273.15) and Appendix B.9 (from memory).
+    """
+    u = "degC" if unit is None or not str(unit).strip() else _clean(unit, "temperature")
+    if u not in TEMPERATURES:
+        raise InputError(f"unknown temperature unit {excerpt(u)!r}; give "
+                         f"{quantity('temperature').examples} or degR")
+    scale, offset = TEMPERATURES[u]
+    if np.ndim(value) == 0:
+        return scale * (float(value) + offset)
+    return scale * (np.asarray(value, dtype=float) + offset)
+
+
 def factor(unit, kind: str) -> float:
     """Multiplier that takes a value in ``unit`` to SI for quantity ``kind``.
 
@@ -506,6 +545,11 @@ def factor(unit, kind: str) -> float:
     >>> factor(None, "angle") == factor("deg", "angle")
     True
     """
+    if kind == "temperature":    # offset units: the factor of a difference; see to_kelvin
+        u = "degC" if unit is None or not str(unit).strip() else _clean(unit, kind)
+        if u not in TEMPERATURES:
+            to_kelvin(0.0, u)      # the message
+        return TEMPERATURES[u][0]
     return _factor(_clean(unit, kind), kind)
 
 

@@ -628,7 +628,7 @@ def _checks(wb):
     found = cases.write_cases(ws, cases.PARTS + cases_closures.PARTS)
     last = cases.INDEX_TOP + len(found)
     print_setup(ws, rng(1, 1, len(cases.INDEX_HEADER), last), landscape=True,
-                title_rows=f"{cases.INDEX_TOP}:{cases.INDEX_TOP}")
+                title_rows=f"{cases.INDEX_TOP}:{cases.INDEX_TOP}", fit_height=1)
     for c in range(cases.INDEX_TOP + 1, last + 1):
         ws.cell(row=c, column=1).alignment = Alignment(wrap_text=True, vertical="top")
         ws.cell(row=c, column=7).alignment = Alignment(wrap_text=True, vertical="top")
