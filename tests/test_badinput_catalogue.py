@@ -477,6 +477,9 @@ CATALOGUE = [
      ["settings row 1, wheel_radius: must be > 0, the radius at the jet's centre line (got 0 m)"]),
     ("wheel radius in a speed unit", P, (VANE, 3.0, None, (("wheel_radius", 0.5, "m/s"),)),
      ["settings row 1, wheel_radius unit: unit 'm/s' is a velocity unit, expected a length"]),
+    ("rpm for the one function without settings", C.PFX_RELVEL, (VANE, (300.0, "rpm"), "in"),
+     ["cv_velocity, unit cell 2: PFX_RELVEL takes no settings, so a rotational speed (rpm) has "
+      "no wheel radius; use PFX_RELVELS"]),
     ("shaft torque without a wheel radius", C.PFX_SHAFTTORQUE, (VANE, 3.0),
      ["settings: the shaft torque needs the wheel radius; add a settings row wheel_radius"]),
     # ---- fluids by name (checked before the property library is needed) ---------------------

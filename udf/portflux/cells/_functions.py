@@ -110,6 +110,12 @@ def settings_names():
 
 
 def relvel(ports, cv_velocity, port, units=None):
+    cv = cv_input(cv_velocity)
+    if problem.speed_kind(cv.unit) == "angular_speed":     # no settings, so no wheel radius
+        raise CellError(f"cv_velocity, unit cell {cv.cell}: PFX_RELVEL takes no settings, so a "
+                        f"rotational speed ({cv.unit}) has no wheel radius; use PFX_RELVELS "
+                        f"with a settings range holding wheel_radius, or type the peripheral "
+                        f"speed (m/s)")
     t, b = evaluate(ports, cv_velocity, kinematic=True)
     k = _port_index(t, port)
     return _matrix(unit_system(units).out(b.w[k], "velocity"))
