@@ -75,6 +75,37 @@ def posed(row_number, **cells):
     return tuple(map(tuple, rows))
 
 
+# A fixed nozzle fed at 3 bar (C_v 0.96, C_c 0.9) striking a 120 degree vane; outlet typed relative.
+NOZZLE = (("port", "role", "frame", "area", "diameter", "density", "speed", "angle",
+           "supply_pressure", "velocity_coef", "contraction_coef"),
+          (None, None, None, "cm^2", "mm", "kg/m^3", "m/s", "deg", "bar", None, None),
+          ("jet", "in", "abs", None, 20.0, 998.0, None, 0.0, 3.0, 0.96, 0.9),
+          ("exit", "out", "rel", 3.0, None, 998.0, 20.0, 120.0, None, None, None))
+
+
+def nozzle(**cells):
+    """NOZZLE with some cells of its jet row (sheet row 3) replaced, by column name."""
+    jet = list(NOZZLE[2])
+    for k, v in cells.items():
+        jet[NOZZLE[0].index(k)] = v
+    return NOZZLE[:2] + (tuple(jet),) + NOZZLE[3:]
+
+
+def _closed_with_supply():
+    """SPLIT with a supply pressure on the solved outlet of row 4."""
+    head = SPLIT[0] + ("supply_pressure",)
+    units = SPLIT[1] + ("bar",)
+    rows = [r + (2.0 if i == 1 else None,) for i, r in enumerate(SPLIT[2:])]
+    return (head, units) + tuple(rows)
+
+
+def fluid_table(unit="degC", **cells):
+    """One water inlet named by its fluid and temperature, some cells replaced by column name."""
+    head = ("port", "role", "area", "density", "fluid", "temperature", "vx")
+    jet = dict(zip(head, ("jet", "in", 0.01, None, "water", 20.0, 10.0)), **cells)
+    return (head, (None, None, "m^2", None, None, unit, "m/s"), tuple(jet[k] for k in head))
+
+
 DATE = datetime.datetime(2024, 3, 1, 0, 0)   # xlwings hands a date cell over as datetime
 P = C.PFX_POWER
 KNOWN = "known columns: port, role, frame, area, density, vx"
@@ -170,7 +201,7 @@ CATALOGUE = [
      ["ports row 2, vx: unit 'kg' is a mass unit, expected a velocity unit"]),
     ("temperature unit for a velocity", P,
      (table(JET, units=(None, None, "ft^2", "slug/ft^3", "degC")), 10.0),
-     ["ports row 2, vx: unit 'degC' is of dimension [temperature], expected a velocity unit"]),
+     ["ports row 2, vx: unit 'degC' is a temperature unit, expected a velocity unit"]),
     ("number in the unit row", P, (table(JET, units=(None, None, 0.05, None, None)), 10.0),
      ["ports row 2, area: expected a unit (text) or a blank cell, got the number 0.05"]),
     ("unit on a text column", P, (table(JET, units=(None, "m") + UNITS[2:]), 10.0),
@@ -302,7 +333,7 @@ CATALOGUE = [
      ((HEAD + ("mass_flow",), UNITS + ("kg",), JET + (1.0,), EXIT + (None,)), 0.0),
      ["ports row 2, mass_flow: unit 'kg' is a mass unit, expected a mass flow unit"]),
     ("temperature unit for the CV velocity", P, (GOOD, (10.0, "degC")),
-     ["cv_velocity, unit cell 2: unit 'degC' is of dimension [temperature]"]),
+     ["cv_velocity, unit cell 2: unit 'degC' is a temperature unit, expected a velocity unit"]),
     ("CV velocity given as a word", C.PFX_FRAMECHECK, (GOOD, "fast"),
      ["cv_velocity: expected a speed or velocity components, got text 'fast'"]),
     # ---- closures, shares and no-force directions (PFX_SPLIT and the balance) --------------
@@ -463,6 +494,62 @@ CATALOGUE = [
      ["low, high: low must be below high (got low 30 m/s, high 0 m/s)"]),
     ("envelope bracket end in psi", C.PFX_ENVELOPE, (POSED, 0.0, (30.0, "psi")),
      ["high, unit: unit 'psi' is a pressure unit, expected a velocity unit"]),
+    # ---- nozzles given by supply pressure and diameter ---------------------------------------
+    ("supply pressure and a speed both given", P,
+     (nozzle(speed=30.0), 0.0),
+     ["ports row 3, supply_pressure: give the jet's speed (speed, or vx, vy, vz) or its "
+      "supply_pressure, not both"]),
+    ("supply pressure not positive", P, (nozzle(supply_pressure=-2.0), 0.0),
+     ["ports row 3, supply_pressure: must be > 0", "(got -2 bar)"]),
+    ("supply pressure without density", P, (nozzle(density=None), 0.0),
+     ["ports row 3, density: a jet from supply_pressure needs the density"]),
+    ("velocity coefficient above one", P, (nozzle(velocity_coef=1.2), 0.0),
+     ["ports row 3, velocity_coef: must be in (0, 1] (got 1.2)"]),
+    ("velocity coefficient without supply pressure", P,
+     (nozzle(supply_pressure=None, speed=30.0), 0.0),
+     ["ports row 3, velocity_coef: a velocity coefficient is given without supply_pressure"]),
+    ("contraction coefficient of zero", P, (nozzle(contraction_coef=0.0), 0.0),
+     ["ports row 3, contraction_coef: must be in (0, 1] (got 0)"]),
+    ("area and diameter disagree", P, (nozzle(area=4.0), 0.0),
+     ["ports row 3, diameter: area and diameter disagree: area 4 cm^2 but pi d^2 / 4 = 3.14159 "
+      "cm^2", "give one of them"]),
+    ("diameter not positive", P, (nozzle(diameter=0.0), 0.0),
+     ["ports row 3, diameter: must be > 0 (got 0 mm)"]),
+    ("supply pressure on a closed outlet", C.PFX_SPLIT,
+     (_closed_with_supply(), 0.0),
+     ["ports row 4, supply_pressure: closure 'solve' sets this outlet's speed"]),
+    # ---- wheels typed in rpm -----------------------------------------------------------------
+    ("rpm CV velocity without a wheel radius", P, (VANE, (300.0, "rpm")),
+     ["cv_velocity, unit cell 2: unit 'rpm' is a rotational speed, which needs the wheel "
+      "radius: add a settings row wheel_radius"]),
+    ("rpm speeds without a wheel radius", C.PFX_SPEEDTABLE, (VANE, ("rpm", 0.0, 100.0)),
+     ["speeds cell 1 (the unit cell): unit 'rpm' is a rotational speed", "wheel_radius"]),
+    ("rpm bracket without a wheel radius", C.PFX_BESTSPEED, (VANE, (0.0, "rpm"), (500.0, "rpm")),
+     ["low, unit: unit 'rpm' is a rotational speed", "add a settings row wheel_radius"]),
+    ("a frequency as a rotational speed", P, (VANE, (5.0, "Hz")),
+     ["cv_velocity, unit cell 2: unit 'Hz' is not a rotational speed", "give rpm, rad/s"]),
+    ("wheel radius of zero", P, (VANE, (300.0, "rpm"), None, (("wheel_radius", 0.0, "m"),)),
+     ["settings row 1, wheel_radius: must be > 0, the radius at the jet's centre line (got 0 m)"]),
+    ("wheel radius in a speed unit", P, (VANE, 3.0, None, (("wheel_radius", 0.5, "m/s"),)),
+     ["settings row 1, wheel_radius unit: unit 'm/s' is a velocity unit, expected a length"]),
+    ("rpm for the one function without settings", C.PFX_RELVEL, (VANE, (300.0, "rpm"), "in"),
+     ["cv_velocity, unit cell 2: PFX_RELVEL takes no settings, so a rotational speed (rpm) has "
+      "no wheel radius; use PFX_RELVELS"]),
+    ("shaft torque without a wheel radius", C.PFX_SHAFTTORQUE, (VANE, 3.0),
+     ["settings: the shaft torque needs the wheel radius; add a settings row wheel_radius"]),
+    # ---- fluids by name (checked before the property library is needed) ---------------------
+    ("temperature without a fluid name", P, (fluid_table(fluid=None), 0.0),
+     ["ports row 3, temperature: temperature is given without a fluid name"]),
+    ("density and a fluid name both", P, (fluid_table(density=998.0), 0.0),
+     ["ports row 3, density: give the density or the fluid's name, not both"]),
+    ("fluid name without a temperature", P, (fluid_table(temperature=None), 0.0),
+     ["ports row 3, temperature: a named fluid needs its temperature"]),
+    ("unknown fluid name", P, (fluid_table(fluid="mercury"), 0.0),
+     ["ports row 3, fluid: unknown fluid 'mercury'; known: water, seawater, air"]),
+    ("temperature below absolute zero", P, (fluid_table(temperature=-300.0), 0.0),
+     ["ports row 3, temperature: must be above absolute zero (got -300 degC)"]),
+    ("temperature in a mass unit", P, (fluid_table(unit="kg"), 0.0),
+     ["ports row 2, temperature: unknown temperature unit 'kg'; give degC, K, degF"]),
     # ---- flags: a normal result that carries the word ----------------------------------------
     ("flag: body outruns the jet (status)", C.PFX_IMBALANCE, (VANE, 40.0), ["no contact"]),
     ("flag: body outruns the jet (warnings)", C.PFX_WARNINGS, (VANE, 40.0),

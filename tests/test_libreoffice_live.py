@@ -20,10 +20,10 @@ from portflux.addins.libreoffice.registry import functions
 
 pytestmark = needs_libreoffice
 
-# Where the inputs go on the sheet: ports A1:H6, settings I1:K3, speeds M1:M5, CV velocity
+# Where the inputs go on the sheet: ports A1:H6, settings I1:K4, speeds M1:M5, CV velocity
 # O1:R1. Each argument is a formula operand and the value Calc hands the add-in (a range as
 # rows with None for blanks, TRUE as 1.0).
-RANGES = {"ports": "$A$1:$H$6", "settings": "$I$1:$K$3", "speeds": "$M$1:$M$5",
+RANGES = {"ports": "$A$1:$H$6", "settings": "$I$1:$K$4", "speeds": "$M$1:$M$5",
           "cv_velocity": "$O$1:$R$1"}
 COMMON = {"labels": ("TRUE()", 1.0), "tolerance": ("0.002", 0.002), "kind": ('"jet"', "jet"),
           "direction": ("0", 0.0), "low": ("0", 0.0), "high": ("40", 40.0),
@@ -37,7 +37,8 @@ SCENARIOS = {
                ("jet", "in", 2.0, 998.0, 40.0, 0.0, None, 0.3),
                ("exit", "out", 2.0, 998.0, None, 150.0, "free", 0.35),
                (None,) * 8, (None,) * 8),
-        settings=(("fluid_mass", 0.5, "kg"), ("gz", -9.81, "m/s^2"), ("cg_y", 0.3, "m")),
+        settings=(("fluid_mass", 0.5, "kg"), ("gz", -9.81, "m/s^2"), ("cg_y", 0.3, "m"),
+                  ("wheel_radius", 0.5, "m")),
         speeds=(("m/s",), (0.0,), (None,), (10.0,), (50.0,)),
         cv=((10.0, 0.0, 0.0, "m/s"),),
         scalars={"port": ('"exit"', "exit"), "units": ('"SI; force=kN"', "SI; force=kN"),
@@ -51,7 +52,8 @@ SCENARIOS = {
                ("fwd", "out", None, 1.94, None, 60.0, "solve", 0.5),
                ("back", "out", None, 1.94, None, 240.0, "solve", None),
                (None,) * 8),
-        settings=(("slip_angle", 60.0, "deg"), ("fluid_mass", 0.0, "slug"), (None, None, None)),
+        settings=(("slip_angle", 60.0, "deg"), ("fluid_mass", 0.0, "slug"),
+                  ("wheel_radius", 1.5, "ft"), (None, None, None)),
         speeds=(("ft/s",), (0.0,), (5.0,), (None,), (20.0,)),
         cv=((5.0, 0.0, 0.0, "ft/s"),),
         scalars={"port": ("2", 2.0), "units": ('"US"', "US"), "axis": ('"x"', "x"),
@@ -122,8 +124,10 @@ def test_each_function_as_array_and_single_cell_formula_matches_python(doc, name
     # all arguments, then only the required ones (omitted optionals arrive as None)
     required = sum(1 for p in inspect.signature(getattr(C, name)).parameters.values()
                    if p.default is inspect.Parameter.empty)
-    # (the plate needs its settings: its two solved streams need the slip direction)
-    for k in sorted({n, required} if scenario == "vane" else {n}, reverse=True):
+    # (the plate needs its settings: its two solved streams need the slip direction; the shaft
+    # torque needs the wheel_radius setting)
+    alone = scenario == "vane" and name != "PFX_SHAFTTORQUE"
+    for k in sorted({n, required} if alone else {n}, reverse=True):
         formula, values = _formula(name, k, args)
         want = adapter.to_calc(getattr(C, name)(*values))
         assert not (len(want) == 1 and isinstance(want[0][0], str)

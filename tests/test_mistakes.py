@@ -264,7 +264,10 @@ EXPECTED = {
     "template K. jet split on an inclined flat plate": "none",
     "template L. Bernoulli outlet above the inlet": "none",
     # cases added later, with these checks in place: each is a balanced, correctly typed case
-    # (a fixed bend, a held sprinkler, a vane on a mount), so none may warn
+    # (a nozzle from its supply pressure, a wheel in rpm, a fixed bend, a held sprinkler, a vane
+    # on a mount), so none may warn
+    "template M. nozzle fed at a supply pressure": "none",
+    "template N. bucket wheel in rpm (wheel_radius)": "none",
     "template O. reducing bend: anchor moment about a chosen point": "none",
     "template P. held two-arm sprinkler": "none",
     "template Q. vane with its mount below the jet line; envelope": "none",

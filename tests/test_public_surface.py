@@ -19,9 +19,9 @@ def test_every_name_in_all_resolves():
 def test_the_surface_is_the_api_and_the_result_types():
     assert set(portflux.__all__) == {
         "__version__", "solve", "speed_table", "best_speed", "speed_at_force", "problem", "ureg",
-        "ControlVolumeResult", "SpeedTableResult", "format_report", "Balance", "BestSpeed",
-        "ForceSpeed", "InputError", "Model", "OutsideScopeError", "Ports", "SpeedTable",
-        "envelope", "Envelope"}
+        "jet_speed", "ControlVolumeResult", "SpeedTableResult", "format_report", "Balance",
+        "BestSpeed", "ForceSpeed", "InputError", "Model", "OutsideScopeError", "Ports",
+        "SpeedTable", "envelope", "Envelope"}
     assert "PortRow" not in portflux.__all__
     assert not hasattr(portflux, "PortRow")
 

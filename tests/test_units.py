@@ -1,5 +1,6 @@
 """Units layer: NIST SP 811 factors, dimension errors, output systems, lazy registry."""
 
+import math
 import subprocess
 import sys
 
@@ -101,7 +102,8 @@ def test_every_table_entry_matches_pint(reg, name):
     pf, pdim = _pint_si(reg, name)
     assert f == pytest.approx(pf, rel=1e-15)
     assert dim == pdim
-    assert is_angle == (name in ("deg", "degree", "°", "rad", "radian"))
+    assert is_angle == (name in ("deg", "degree", "°", "rad", "radian", "rev", "revolution",
+                                 "turn", "rpm", "rps"))
 
 
 @pytest.mark.parametrize("text", sorted(U._PINNED))
@@ -110,10 +112,14 @@ def test_pinned_factors_are_pints_bit_for_bit(reg, text):
     # a last bit whether or not pint is loaded.
     pf, _ = _pint_si(reg, text)
     assert U._PINNED[text] == pf
+    rotation = reg.parse_units(text).dimensionality == reg.get_dimensionality("1 / [time]")
     kind = next(k for k, q in U.QUANTITIES.items()
-                if text in U.TABLE and U.TABLE[text][2] and k == "angle"
+                if text in U.TABLE and U.TABLE[text][2] and U.TABLE[text][1] == (0, 0, 0)
+                and k == "angle"
+                or rotation and k == "angular_speed"
                 or text in ("%", "percent") and k == "ratio"
-                or q.dimension not in ("", "angle") and _pint_si(reg, text)[1] == U._KIND_DIMS[k])
+                or k in U._KIND_DIMS and q.dimension not in ("", "angle", "1 / [time]")
+                and _pint_si(reg, text)[1] == U._KIND_DIMS[k])
     assert U.factor(text, kind) == pf
 
 
@@ -190,3 +196,35 @@ def test_pint_never_writes_an_on_disk_cache(tmp_path):
     assert out.returncode == 0, out.stderr
     assert out.stdout.strip() in ("True", "n/a")
     assert not any(tmp_path.rglob("*")), list(tmp_path.rglob("*"))
+
+
+@pytest.mark.parametrize("text, rad_per_s", [
+    # NIST SP 811 (2008), Appendix B.8 (from memory): 1 r/min = 0.1047198 rad/s; one
+    # revolution is 2 pi rad (exact).
+    ("rpm", 2 * math.pi / 60), ("rev/min", 2 * math.pi / 60), ("rps", 2 * math.pi),
+    ("rev/s", 2 * math.pi), ("rad/s", 1.0), ("deg/s", math.pi / 180),
+])
+def test_rotational_speed_units_match_pint_and_nist(reg, text, rad_per_s):
+    assert U.factor(text, "angular_speed") == pytest.approx(rad_per_s, rel=1e-15)
+    assert U.factor(text, "angular_speed") == pytest.approx(
+        float(reg.Quantity(1.0, text).to("rad/s").magnitude), rel=1e-15)   # pint (registry)
+
+
+@pytest.mark.parametrize("text", ["Hz", "1/s", "m/s"])
+def test_a_frequency_or_a_speed_is_not_a_rotational_speed(text):
+    with pytest.raises(InputError, match="rotational speed|angular speed"):
+        U.factor(text, "angular_speed")
+
+
+def test_rpm_is_not_a_velocity():
+    with pytest.raises(InputError, match="angular speed unit, expected a velocity unit"):
+        U.factor("rpm", "velocity")
+
+
+@pytest.mark.parametrize("value, unit", [(20.0, "degC"), (68.0, "degF"), (293.15, "K"),
+                                         (527.67, "degR")])
+def test_temperatures_convert_with_their_offsets_as_pint_does(reg, value, unit):
+    # pint (package registry) is the reference; 0 degC = 273.15 K, 1 degF = 5/9 K (NIST SP 811)
+    expected = float(reg.Quantity(value, unit).to("kelvin").magnitude)
+    assert U.to_kelvin(value, unit) == pytest.approx(expected, rel=1e-14)
+    assert U.to_kelvin(value, unit) == pytest.approx(293.15, rel=1e-12)

@@ -33,7 +33,8 @@ from .core.geometry import direction
 from .core.model import JET_NA
 
 __all__ = ["ControlVolumeResult", "SpeedTableResult", "best_speed", "cv_velocity_si",
-           "envelope", "format_report", "problem", "solve", "speed_at_force", "speed_table", "ureg"]
+           "envelope", "format_report", "jet_speed", "problem", "solve", "speed_at_force",
+           "speed_table", "ureg"]
 
 
 def ureg():
@@ -61,7 +62,7 @@ def _columns(ports) -> dict:
     return {k: [r.get(k) for r in rows] for k in keys}
 
 
-def cv_velocity_si(cv_velocity, cv_unit="m/s"):
+def cv_velocity_si(cv_velocity, cv_unit="m/s", wheel_radius=None):
     """CV velocity [m/s] from a speed along +x, a 3-vector, or a stack (m, 3), in ``cv_unit``.
 
     Parameters
@@ -69,7 +70,10 @@ def cv_velocity_si(cv_velocity, cv_unit="m/s"):
     cv_velocity : float or array_like (3,) or (m, 3)
         CV velocity [cv_unit].
     cv_unit : str
-        Its unit (pint string).
+        Its unit (pint string); a rotational unit (rpm, rad/s, rev/s) needs ``wheel_radius``
+        and means the peripheral speed U = omega r.
+    wheel_radius : float, optional
+        Radius at which the jet meets the wheel [m].
 
     Examples
     --------
@@ -84,7 +88,8 @@ def cv_velocity_si(cv_velocity, cv_unit="m/s"):
     if v.shape[-1] != 3:
         raise InputError(f"must be a speed or 3 components (got shape {v.shape})",
                          argument="cv_velocity")
-    return U.to_si(v, cv_unit, "velocity")
+    f, _ = P.speed_factor(cv_unit, wheel_radius)
+    return v * f
 
 
 def _slip(slip_angles, slip_directions):
@@ -102,7 +107,8 @@ def problem(ports, *, units=None, fluid_mass=0.0, mass_unit="kg",
             gravity=(0.0, 0.0, -STANDARD_GRAVITY), gravity_unit="m/s^2",
             tolerance=DEFAULT_IMBALANCE_TOL, intercept="single", slip_angles=(),
             slip_directions=(), reference=(0.0, 0.0, 0.0), fluid_centroid=None,
-            length_unit="m", dynamic_factor=1.0, load_factor=1.0) -> P.Problem:
+            length_unit="m", dynamic_factor=1.0, load_factor=1.0, wheel_radius=None,
+            radius_unit="m") -> P.Problem:
     """Port rows, units, closures and settings built into a compiled problem (SI inside).
 
     Parameters
@@ -140,6 +146,11 @@ def problem(ports, *, units=None, fluid_mass=0.0, mass_unit="kg",
     dynamic_factor, load_factor : float
         Design factors [-] for :func:`envelope` (a suddenly applied jet; the governing code's
         safety / load factor); default 1 each. Their values are the user's responsibility.
+    wheel_radius : float, optional
+        Radius at which the jet meets a wheel [radius_unit]; with it, speeds may be given in
+        rpm, rad/s or rev/s (peripheral speed U = omega r) and shaft torques are reported.
+    radius_unit : str
+        Unit of ``wheel_radius``.
 
     Returns
     -------
@@ -155,7 +166,13 @@ def problem(ports, *, units=None, fluid_mass=0.0, mass_unit="kg",
     Reference: common practice, no source (input handling of this package).
     """
     table = P.build(_columns(ports), units)
-    settings = P.Settings(
+    radius = None
+    if wheel_radius is not None:
+        radius = float(U.to_si(float(wheel_radius), radius_unit, "length"))
+        if not radius > 0:
+            raise InputError(f"must be > 0 (got {wheel_radius:g} {radius_unit})",
+                             argument="wheel_radius")
+    settings = P.Settings(wheel_radius=radius,
         fluid_mass=float(U.to_si(fluid_mass, mass_unit, "mass")),
         gravity=tuple(U.to_si(np.asarray(gravity, float), gravity_unit, "acceleration")),
         tolerance=tolerance, intercept=intercept, no_force=_slip(slip_angles, slip_directions),
@@ -177,11 +194,24 @@ class ControlVolumeResult:
 
     table: P.PortTable
     balance: Balance
+    wheel_radius: float | None = None     #: [m], None when no wheel radius was given
 
     def __getattr__(self, name):  # delegate SI arrays (force_on_body, power, ...) to Balance
-        if name in ("table", "balance"):
+        if name in ("table", "balance", "wheel_radius"):
             raise AttributeError(name)
         return getattr(self.balance, name)
+
+    def shaft_torque(self, direction=None, unit="N*m"):
+        """Shaft torque T = (F_body . d) r of a wheel [unit], + along the rotation.
+
+        ``direction`` d of motion defaults to that of the CV velocity (+x at rest).
+        """
+        if self.wheel_radius is None:
+            raise InputError("the shaft torque needs the wheel radius; give wheel_radius= to "
+                             "solve", argument="wheel_radius")
+        d = _motion(self.balance.v_cv if direction is None else direction)
+        t = P.shaft_torque(np.asarray(self.balance.force_on_body) @ d, self.wheel_radius)
+        return U.from_si(t, unit, "moment")
 
     def force_on_body_in(self, unit="N"):
         """Force of the fluid on the body, in ``unit``."""
@@ -256,8 +286,15 @@ def solve(ports, cv_velocity, *, units=None, cv_unit="m/s", **settings) -> Contr
     Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
     pb = problem(ports, units=units, **settings)
-    v = cv_velocity_si(cv_velocity, cv_unit)
-    return ControlVolumeResult(pb.table, pb.model.balance(v))
+    v = cv_velocity_si(cv_velocity, cv_unit, pb.settings.wheel_radius)
+    return ControlVolumeResult(pb.table, pb.model.balance(v), pb.settings.wheel_radius)
+
+
+def _motion(v) -> np.ndarray:
+    """Unit direction of a velocity or direction (+x for zero length)."""
+    d = np.asarray(v, dtype=float).reshape(-1, 3)[0]
+    n = float(np.linalg.norm(d))
+    return d / n if n > 0 else np.array([1.0, 0.0, 0.0])
 
 
 @dataclass(frozen=True, eq=False)
@@ -265,11 +302,21 @@ class SpeedTableResult:
     """A speed table (SI arrays of :class:`~portflux.core.SpeedTable`) with unit helpers."""
 
     table: SpeedTable
+    wheel_radius: float | None = None     #: [m], None when no wheel radius was given
 
     def __getattr__(self, name):  # delegate SI arrays (speed, force_on_body, ...) to the table
-        if name == "table":
+        if name in ("table", "wheel_radius"):
             raise AttributeError(name)
         return getattr(self.table, name)
+
+    @property
+    def shaft_torque(self):
+        """Shaft torque T = (F_body . d) r at each speed [N m], + along the rotation."""
+        if self.wheel_radius is None:
+            raise InputError("the shaft torque needs the wheel radius; give wheel_radius= to "
+                             "speed_table", argument="wheel_radius")
+        return P.shaft_torque(self.table.force_on_body @ _motion(self.table.direction),
+                              self.wheel_radius)
 
     def columns(self, units=None) -> dict:
         """The columns as 1-D arrays in an output unit system ("SI", "US", "US; force=kN").
@@ -292,6 +339,8 @@ class SpeedTableResult:
             if key.startswith(("support_moment", "moment_on_body")):
                 kind = "moment"
             out[key] = us.out(a, kind) if kind else a
+        if self.wheel_radius is not None:
+            out["shaft_torque"] = us.out(self.shaft_torque, "moment")
         return out
 
 
@@ -336,8 +385,9 @@ def speed_table(ports, speeds, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", u
     Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
     pb = problem(ports, units=units, **settings)
-    u = U.to_si(np.asarray(speeds, dtype=float), speed_unit, "velocity")
-    return SpeedTableResult(_core_speed_table(pb.model, u, direction, moments=moments))
+    u = np.asarray(speeds, dtype=float) * P.speed_factor(speed_unit, pb.settings.wheel_radius)[0]
+    return SpeedTableResult(_core_speed_table(pb.model, u, direction, moments=moments),
+                            pb.settings.wheel_radius)
 
 
 def envelope(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", units=None,
@@ -386,8 +436,9 @@ def envelope(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", uni
     Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
     pb = problem(ports, units=units, **settings)
-    lo, hi = (float(U.to_si(float(x), speed_unit, "velocity")) for x in bracket)
     s = pb.settings
+    f = P.speed_factor(speed_unit, s.wheel_radius)[0]
+    lo, hi = (float(x) * f for x in bracket)
     return _core_envelope(pb.model, (lo, hi), direction, dynamic_factor=s.dynamic_factor,
                           load_factor=s.load_factor)
 
@@ -407,7 +458,8 @@ def best_speed(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", u
     direction : array_like (3,)
         Direction of motion d [-].
     speed_unit : str
-        Unit of ``bracket``; the result is in SI (m/s, W).
+        Unit of ``bracket`` (rpm, rad/s or rev/s with ``wheel_radius=``); the result is in SI
+        (m/s, W): divide its speed by ``portflux.problem.speed_factor(unit, r)[0]`` for rpm.
     units : dict, optional
         Column -> unit string of the port rows.
     **settings
@@ -428,11 +480,22 @@ def best_speed(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", u
     >>> round(best_speed(rows, (0.0, 30.0)).speed, 6)
     10.0
 
+    A bucket wheel of 0.5 m radius is best at half the jet speed, 15 m/s = 286.48 rpm:
+
+    >>> wheel = [{"role": "in", "area": 2e-4, "density": 998.0, "speed": 30.0},
+    ...          {"role": "out", "closure": "free", "angle": 165.0, "area": 2e-4,
+    ...           "density": 998.0, "frame": "rel"}]
+    >>> b = best_speed(wheel, (0.0, 1000.0), speed_unit="rpm", wheel_radius=0.5,
+    ...                intercept="train")
+    >>> round(b.speed / P.speed_factor("rpm", 0.5)[0], 2)
+    286.48
+
     Reference: single moving vane, optimum U = V/3, White, *Fluid Mechanics*, ch. 3 (from
     memory).
     """
     pb = problem(ports, units=units, **settings)
-    lo, hi = (float(U.to_si(float(x), speed_unit, "velocity")) for x in bracket)
+    f = P.speed_factor(speed_unit, pb.settings.wheel_radius)[0]
+    lo, hi = (float(x) * f for x in bracket)
     return _core_best_speed(pb.model, (lo, hi), direction)
 
 
@@ -482,9 +545,52 @@ def speed_at_force(ports, value, bracket, *, component="along", force_unit="N",
     Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
     pb = problem(ports, units=units, **settings)
-    lo, hi = (float(U.to_si(float(x), speed_unit, "velocity")) for x in bracket)
+    f = P.speed_factor(speed_unit, pb.settings.wheel_radius)[0]
+    lo, hi = (float(x) * f for x in bracket)
     target = float(U.to_si(float(value), force_unit, "force"))
     return _core_speed_at_force(pb.model, target, (lo, hi), direction, component=component)
+
+
+def jet_speed(supply_pressure, density, velocity_coef=1.0, *, pressure_unit="Pa",
+              density_unit="kg/m^3", speed_unit="m/s"):
+    """Jet speed of a nozzle from its supply gauge pressure: V = C_v sqrt(2 dp / rho).
+
+    The same rule a port row applies to its ``supply_pressure`` and ``velocity_coef`` columns
+    (:func:`portflux.problem.jet_speed`), with units.
+
+    Parameters
+    ----------
+    supply_pressure : float or array_like
+        Gauge pressure upstream of the nozzle, > 0 [pressure_unit].
+    density : float or array_like
+        Fluid density, > 0 [density_unit].
+    velocity_coef : float or array_like
+        Nozzle velocity coefficient C_v, 0 < C_v <= 1 [-].
+    pressure_unit, density_unit, speed_unit : str
+        Units of the pressure, the density and the answer.
+
+    Returns
+    -------
+    float or ndarray
+        Jet speed relative to the nozzle [speed_unit].
+
+    Examples
+    --------
+    >>> round(jet_speed(100.0, 1.94, 0.98, pressure_unit="psi", density_unit="slug/ft^3",
+    ...                 speed_unit="ft/s"), 2)
+    119.4
+
+    Reference: nozzle/orifice relation, F. M. White, *Fluid Mechanics*, sec. 6.12 (from memory).
+    """
+    dp = U.to_si(supply_pressure, pressure_unit, "pressure")
+    rho = U.to_si(density, density_unit, "density")
+    c = np.asarray(velocity_coef, dtype=float)
+    if np.any(~(np.asarray(dp) > 0)) or np.any(~(np.asarray(rho) > 0)) or np.any(
+            ~((c > 0) & (c <= 1))):
+        raise InputError("jet_speed needs supply_pressure > 0, density > 0 and "
+                         "0 < velocity_coef <= 1", argument="supply_pressure")
+    v = U.from_si(P.jet_speed(dp, rho, c), speed_unit, "velocity")
+    return float(v) if np.ndim(v) == 0 else v
 
 
 def _fmt(x) -> str:

@@ -74,10 +74,71 @@ COLUMNS = {c.key: c for c in (
                            "(settings ref_x, ref_y, ref_z; blank = 0)"),
     Column("ry", "length", "y of the port's centroid (blank = 0)"),
     Column("rz", "length", "z of the port's centroid (blank = 0)"),
+    Column("diameter", "length", "nozzle (port) diameter instead of area: area = pi d^2 / 4; "
+                                 "with both, they must agree within 0.5 %", ("bore",)),
+    Column("supply_pressure", "pressure", "gauge pressure upstream of a nozzle instead of a "
+                                          "speed: jet speed = velocity_coef x sqrt(2 x "
+                                          "supply_pressure / density), in the row's frame, "
+                                          "along angle and tilt", ("p_supply",)),
+    Column("velocity_coef", "ratio", "nozzle velocity coefficient C_v, 0 < C_v <= 1 (with "
+                                     "supply_pressure; default 1, an ideal nozzle)",
+           ("cv_coef",)),
+    Column("contraction_coef", "ratio", "jet contraction coefficient C_c, 0 < C_c <= 1: the "
+                                        "jet's area is C_c x area (or C_c x pi d^2 / 4); "
+                                        "default 1", ("cc_coef",)),
+    Column("fluid", None, "fluid by name instead of density: water, seawater, air, nitrogen, "
+                          "co2 (needs pip install 'portflux[fluids]')"),
+    Column("temperature", "temperature", "fluid temperature for a named fluid's density "
+                                         "(default unit degC)", ("temp",)),
+    Column("abs_pressure", "pressure", "absolute pressure for a named fluid's density "
+                                       "(default 101.325 kPa + p_gauge)",
+           ("absolute_pressure",)),
 )}
 
 #: Columns of the port positions; a table with any of them can give moments.
 POSITION_COLUMNS = ("rx", "ry", "rz")
+
+#: Standard atmosphere [Pa] (ISO 2533; exact by definition of the atmosphere unit): the
+#: absolute pressure of a named fluid where none is typed is this plus the port's gauge pressure.
+STANDARD_ATMOSPHERE = 101_325.0
+
+#: Relative tolerance within which a typed area and pi d^2 / 4 of a typed diameter agree
+#: (three significant figures of either).
+DIAMETER_TOL = 5e-3
+
+
+def jet_speed(supply_pressure, density, velocity_coef=1.0):
+    """Jet speed of a nozzle fed at a supply gauge pressure: V = C_v sqrt(2 dp / rho).
+
+    Bernoulli from the supply (at rest, gauge pressure dp) to the jet at atmospheric pressure,
+    with the nozzle's velocity coefficient C_v for its losses. The speed is the jet's speed
+    relative to the nozzle.
+
+    Parameters
+    ----------
+    supply_pressure : float or array_like
+        Gauge pressure upstream of the nozzle, dp > 0 [Pa].
+    density : float or array_like
+        Fluid density, rho > 0 [kg/m^3].
+    velocity_coef : float or array_like
+        Velocity coefficient C_v, 0 < C_v <= 1 [-].
+
+    Returns
+    -------
+    float or ndarray
+        Jet speed [m/s].
+
+    Examples
+    --------
+    >>> round(float(jet_speed(2.0e6, 998.0, 0.97)), 4)     # a 20 bar washer nozzle
+    61.4096
+
+    Reference: nozzle/orifice relation V = C_v sqrt(2 dp / rho), F. M. White, *Fluid
+    Mechanics*, sec. 6.12 (flow meters; from memory); ISO 5167-1 (velocity of approach
+    apart).
+    """
+    return velocity_coef * np.sqrt(2.0 * np.asarray(supply_pressure, dtype=float)
+                                   / np.asarray(density, dtype=float))
 
 TEXT_COLUMNS = tuple(k for k, c in COLUMNS.items() if c.kind is None)
 
@@ -249,6 +310,101 @@ class Settings:
     fluid_centroid: tuple | None = None  #: centroid of the fluid inside the CV [m] (None: not given)
     dynamic_factor: float = 1.0          #: factor for a suddenly applied jet [-] (set by the user)
     load_factor: float = 1.0             #: safety / load factor of the governing code [-]
+    #: radius at which the jet meets a wheel [m] (None: not a wheel); with it, speeds may be
+    #: typed as rotational speeds (rpm, rad/s, rev/s): peripheral speed U = omega r
+    wheel_radius: float | None = None
+
+
+
+ROTATION_HINT = ("add a settings row wheel_radius | <radius> | <unit> (the radius at the "
+                 "jet's centre line; api: wheel_radius=), so that the peripheral speed is "
+                 "U = omega r")
+
+
+def speed_kind(unit) -> str:
+    """"velocity" or "angular_speed": the kind of a typed speed unit (blank: velocity); any
+    other unit is an :class:`InputError` (a frequency such as Hz is refused as ambiguous).
+
+    >>> speed_kind("mph"), speed_kind("rev/s")
+    ('velocity', 'angular_speed')
+
+    Reference: common practice, no source (input rules of this package).
+    """
+    try:
+        U.factor(unit, "velocity")
+        return "velocity"
+    except InputError as e:
+        try:
+            U.factor(unit, "angular_speed")
+            return "angular_speed"
+        except InputError as rot:
+            raise (rot if "rotational speed" in rot.message else e) from None
+
+
+def speed_factor(unit, wheel_radius=None) -> tuple[float, bool]:
+    """Multiplier from a typed speed to the peripheral speed U [m/s], and whether the unit is
+    rotational.
+
+    A velocity unit (m/s, ft/s, ...) converts as usual. A rotational unit (rpm, rad/s, rev/s,
+    rps) means the speed of a wheel whose jet acts at ``wheel_radius``: U = omega r along the
+    direction of motion; without a radius it is an :class:`InputError` saying what to add.
+
+    Parameters
+    ----------
+    unit : str or None
+        The unit as typed (blank: m/s).
+    wheel_radius : float, optional
+        Radius at which the jet meets the wheel [m].
+
+    Examples
+    --------
+    >>> speed_factor("ft/s")
+    (0.30479999999999996, False)
+    >>> f, rotational = speed_factor("rpm", 0.5)     # 2 pi / 60 x 0.5 m
+    >>> round(f, 12), rotational
+    (0.05235987756, True)
+
+    Reference: peripheral speed of a rotating point U = omega r (common practice, no source);
+    1 r/min = 2 pi / 60 rad/s, NIST SP 811 (2008), Appendix B (from memory).
+    """
+    if speed_kind(unit) == "velocity":
+        return U.factor(unit, "velocity"), False
+    w = U.factor(unit, "angular_speed")
+    if wheel_radius is None:
+        raise InputError(f"unit {shown(str(unit))} is a rotational speed, which needs the wheel "
+                         f"radius: {ROTATION_HINT}", argument="wheel_radius")
+    return w * wheel_radius, True
+
+
+def shaft_torque(force_along, wheel_radius):
+    """Shaft torque of a wheel: T = F_along r.
+
+    The force on the body (the buckets) along the direction of motion, times the radius at
+    which it acts: positive when the fluid drives the wheel in its direction of rotation (a
+    turbine), negative when the wheel works on the fluid or is braked by it.
+
+    Parameters
+    ----------
+    force_along : float or array_like
+        Force on the body along the direction of motion [N].
+    wheel_radius : float
+        Radius at which the jet meets the wheel [m].
+
+    Returns
+    -------
+    float or ndarray
+        Torque on the shaft about the wheel's axis, + along the rotation [N m].
+
+    Examples
+    --------
+    >>> shaft_torque(1200.0, 0.4)
+    480.0
+
+    Reference: Euler's turbine equation T = mdot r (V_theta1 - V_theta2), S. L. Dixon,
+    *Fluid Mechanics and Thermodynamics of Turbomachinery*, Euler work equation (from memory).
+    """
+    return np.asarray(force_along, dtype=float) * wheel_radius if np.ndim(force_along) else \
+        float(force_along) * wheel_radius
 
 
 @dataclass(frozen=True, eq=False)
@@ -383,6 +539,13 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
             if not is_blank(unit):
                 raise InputError(f"is a text column and takes no unit (got {shown(unit)})", field=key)
             continue
+        if kind == "temperature":            # an offset unit: converted in _fluid_density
+            try:
+                U.to_kelvin(0.0, unit)
+            except InputError as e:
+                raise InputError(e.message, field=f"{key} unit") from None
+            factors[key] = 1.0
+            continue
         try:
             factors[key] = U.factor(unit, kind)
         except InputError as e:
@@ -437,6 +600,8 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
     comps = np.stack([num("vx"), num("vy"), num("vz")], axis=1)
     speed, angle, tilt = num("speed"), num("angle"), num("tilt")
     has_c = ~np.isnan(comps).all(axis=1)
+    density = _fluid_density(table, units, words, num, num("density"))
+    speed = _nozzle_speed(num, table, units, speed, has_c, density, closed, kinds)
     has_s = ~np.isnan(speed)
     has_a = ~np.isnan(angle) | ~np.isnan(tilt)
     for i in _where(closed):
@@ -470,7 +635,6 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
 
     mass_flow = num("mass_flow")
     qv = num("volume_flow")
-    density = num("density")
     for i in _where(~np.isnan(qv)):
         if not np.isnan(mass_flow[i]):
             raise InputError("give mass_flow or volume_flow, not both", port=i,
@@ -505,7 +669,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
     position = None
     if any(k in table for k in POSITION_COLUMNS):
         position = np.stack([_nan_zero(num(k)) for k in POSITION_COLUMNS], axis=1)
-    area = num("area")
+    area = _nozzle_area(num, table, units)
     # a closed outlet without area or mass flow gets its flow from continuity (solved)
     flow_set = (np.array([c == "solve" for c in kinds], dtype=bool) | ~np.isnan(share)
                 | (closed & np.isnan(area) & np.isnan(mass_flow)) if closures else None)
@@ -520,6 +684,111 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
                      share=share, units={k: units.get(k) for k in table},
                      flow_by_closure=np.zeros(n, dtype=bool) if flow_set is None else flow_set,
                      headers=dict(headers or {}))
+
+
+def _fluid_density(table, units, words, num, density):
+    """Densities [kg/m^3] with those of named fluids filled in (fluid, temperature and absolute
+    pressure; the property library is imported only when a row names a fluid)."""
+    names = words("fluid") if "fluid" in table else None
+    temp = num("temperature")
+    has_f = np.array([bool(x) for x in names]) if names else np.zeros(len(density), dtype=bool)
+    for col, vals in (("temperature", temp), ("abs_pressure", num("abs_pressure"))):
+        for i in _where(~np.isnan(vals) & ~has_f):
+            raise InputError(f"{col} is given without a fluid name; name the fluid (fluid column) "
+                             f"or clear {col}", port=i, field=col)
+    if not has_f.any():
+        return density
+    for i in _where(has_f & ~np.isnan(density)):
+        raise InputError("give the density or the fluid's name, not both", port=i,
+                         field="density")
+    for i in _where(has_f & np.isnan(temp)):
+        raise InputError("a named fluid needs its temperature (temperature column, default "
+                         "unit degC)", port=i, field="temperature")
+    kelvin = U.to_kelvin(temp, units.get("temperature"))
+    for i in _where(has_f & ~(kelvin > 0)):
+        raise _in_user_units(InputError(f"must be above absolute zero (got {temp[i]})", port=i,
+                                        field="temperature"), table, units)
+    p_abs = num("abs_pressure")
+    p_abs = np.where(np.isnan(p_abs), STANDARD_ATMOSPHERE + _nan_zero(num("p_gauge")), p_abs)
+    for i in _where(has_f & ~(p_abs > 0)):
+        raise InputError(f"the fluid's absolute pressure must be > 0 (got {p_abs[i]:g} Pa); "
+                         f"give abs_pressure", port=i, field="abs_pressure")
+    from . import fluids          # imports nothing heavy; the library loads on first use
+    rows = _where(has_f)
+    try:
+        rho = fluids.density([names[i] for i in rows], kelvin[rows], p_abs[rows])
+    except InputError as e:
+        raise InputError(e.message, port=rows[0 if e.port is None else e.port],
+                         field="fluid") from None
+    density = density.copy()
+    density[rows] = rho
+    return density
+
+
+def _nozzle_speed(num, table, units, speed, has_c, density, closed, kinds):
+    """Speeds with the jets given by supply_pressure (and velocity_coef) filled in [m/s]."""
+    ps, cv = num("supply_pressure"), num("velocity_coef")
+    has_p = ~np.isnan(ps)
+
+    def bad(msg, i, col):
+        return _in_user_units(InputError(msg, port=i, field=col), table, units)
+
+    for i in _where(~np.isnan(cv) & ~has_p):
+        raise bad("a velocity coefficient is given without supply_pressure; give the nozzle's "
+                  "supply pressure or clear velocity_coef", i, "velocity_coef")
+    if not has_p.any():
+        return speed
+    for i in _where(has_p):
+        if closed[i]:
+            raise bad(f"closure {kinds[i]!r} sets this outlet's speed; a supply pressure gives a "
+                      f"nozzle's jet speed: clear supply_pressure or the closure", i,
+                      "supply_pressure")
+        if not np.isnan(speed[i]) or has_c[i]:
+            raise bad("give the jet's speed (speed, or vx, vy, vz) or its supply_pressure, not "
+                      "both; with supply_pressure, angle and tilt give the direction", i,
+                      "supply_pressure")
+        if not ps[i] > 0.0:
+            raise bad(f"must be > 0, the gauge pressure upstream of the nozzle (got {ps[i]})",
+                      i, "supply_pressure")
+        if not np.isnan(cv[i]) and not 0.0 < cv[i] <= 1.0:
+            raise bad(f"must be in (0, 1] (got {cv[i]})", i, "velocity_coef")
+        if np.isnan(density[i]):
+            raise bad("a jet from supply_pressure needs the density (V = C_v sqrt(2 dp / rho)); "
+                      "give it", i, "density")
+        if not density[i] > 0.0:
+            raise bad(f"must be > 0 (got {density[i]})", i, "density")
+    with np.errstate(invalid="ignore", divide="ignore"):
+        jet = jet_speed(ps, density, np.where(np.isnan(cv), 1.0, cv))
+    return np.where(has_p, jet, speed)
+
+
+def _nozzle_area(num, table, units):
+    """Port areas [m^2] from area or diameter (checked against each other), times the
+    contraction coefficient where one is given."""
+    area, d, cc = num("area"), num("diameter"), num("contraction_coef")
+
+    def bad(msg, i, col):
+        return _in_user_units(InputError(msg, port=i, field=col), table, units)
+
+    if not np.isnan(d).all():
+        for i in _where(~np.isnan(d) & ~(d > 0.0)):
+            raise bad(f"must be > 0 (got {d[i]})", i, "diameter")
+        by_d = math.pi / 4.0 * d * d
+        for i in _where(~np.isnan(d) & ~np.isnan(area)):
+            if abs(area[i] - by_d[i]) > DIAMETER_TOL * max(area[i], by_d[i]):
+                u = units.get("area")
+                raise bad(f"area and diameter disagree: area {U.from_si(area[i], u, 'area'):.6g} "
+                          f"{U.display(u, 'area')} but pi d^2 / 4 = "
+                          f"{U.from_si(by_d[i], u, 'area'):.6g} {U.display(u, 'area')} (more than {DIAMETER_TOL:.1%} apart); give "
+                          f"one of them", i, "diameter")
+        area = np.where(np.isnan(area), by_d, area)
+    for i in _where(~np.isnan(cc)):
+        if not 0.0 < cc[i] <= 1.0:
+            raise bad(f"must be in (0, 1] (got {cc[i]})", i, "contraction_coef")
+        if np.isnan(area[i]):
+            raise bad("a contraction coefficient needs the nozzle's area or diameter; give "
+                      "one", i, "contraction_coef")
+    return np.where(np.isnan(cc), area, cc * area)
 
 
 def _in_user_units(e: InputError, table: dict, units: dict) -> InputError:

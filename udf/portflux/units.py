@@ -63,6 +63,7 @@ QUANTITIES = {q.name: q for q in (
     Quantity("force", "[length] * [mass] / [time] ** 2", "N", "N", "lbf", "N, kN, lbf"),
     Quantity("power", "[length] ** 2 * [mass] / [time] ** 3", "W", "W", "hp",
              "W, kW, hp, ft*lbf/s"),
+    # moments about a support and shaft torques: one quantity (same dimension, same units)
     Quantity("moment", "[length] ** 2 * [mass] / [time] ** 2", "N*m", "N*m", "lbf*ft",
              "N*m, kN*m, lbf*ft, lbf*in"),
     Quantity("mass", "[mass]", "kg", "kg", "slug", "kg, lbm, slug"),
@@ -70,14 +71,19 @@ QUANTITIES = {q.name: q for q in (
     Quantity("acceleration", "[length] / [time] ** 2", "m/s^2", "m/s^2", "ft/s^2",
              "m/s^2, ft/s^2"),
     Quantity("angle", "angle", "rad", "deg", "deg", "deg, rad"),
+    Quantity("temperature", "[temperature]", "K", "degC", "degF", "degC, K, degF"),
+    Quantity("angular_speed", "1 / [time]", "rad/s", "rpm", "rpm", "rpm, rad/s, rev/s, rps"),
     Quantity("ratio", "", "", "", "", "blank (dimensionless)"),
 )}
 
 _ANGLE_UNITS = {"radian", "degree", "arcminute", "arcsecond", "turn", "gradian"}
+#: pint's rotational-speed units that carry their angle in the name (rpm, rps).
+_ROTATION_UNITS = {"revolutions_per_minute", "revolutions_per_second"}
 _EXTRA_DEFINITIONS = (
     "lbm = pound",                 # trade spelling of pound-mass
     "psig = psi",                  # gauge pressure column: psig reads as psi
     "gpm = gallon / minute",       # US gallons per minute
+    "rev = revolution",            # trade spelling of a revolution (rev/s, rev/min)
 )
 
 _lock = threading.Lock()
@@ -335,6 +341,9 @@ TABLE = {
     **{n: (1852.0 / 3600.0, _dim(1, 0, -1), False) for n in ("knot", "kn")},
     **{n: (math.pi / 180.0, _dim(), True) for n in ("deg", "degree", "°")},
     **{n: (1.0, _dim(), True) for n in ("rad", "radian")},
+    **{n: (2 * math.pi, _dim(), True) for n in ("rev", "revolution", "turn")},
+    "rpm": (2 * math.pi / 60.0, _dim(time=-1), True),
+    "rps": (2 * math.pi, _dim(time=-1), True),
     **{n: (0.01, _dim(), False) for n in ("%", "percent")},
 }
 
@@ -361,7 +370,10 @@ _PINNED = {
     'cm': 0.01, 'mm': 0.001, 'km': 1000.0, 'in': 0.0254, 'ft': 0.30479999999999996, 'yd': 0.9144,
     'mi': 1609.344, 'm/s^2': 1.0, 'ft/s^2': 0.30479999999999996, 'deg': 0.017453292519943295,
     'rad': 1.0, '°': 0.017453292519943295, '%': 0.01, 'percent': 0.01,
-    'N*m': 1.0, 'kN*m': 1000.0, 'lbf*ft': 1.3558179483314001, 'lbf*in': 0.11298482902761671,
+    'rpm': 0.10471975511965977, 'rev/min': 0.10471975511965977, 'rps': 6.283185307179586,
+    'rev/s': 6.283185307179586, 'rad/s': 1.0, 'N*m': 1.0, 'kN*m': 1000.0,
+    'lbf*ft': 1.3558179483314001, 'ft*lbf': 1.3558179483314001,
+    'lbf*in': 0.11298482902761671,
 }
 _pinned_powers = {}
 
@@ -421,6 +433,9 @@ def _factor(unit: str, kind: str) -> float:
         if q.dimension == "angle":
             if len(powers) == 1 and angle == 1.0 and dim == _dim():
                 return f
+        elif kind == "angular_speed":
+            if angle == 1.0 and dim == _dim(time=-1):
+                return _check_factor(f, unit)
         elif angle == 0.0 and dim == _KIND_DIMS[kind]:
             return _check_factor(f, unit)
     return _pint_factor(unit, kind)       # other names, and the wording of every error
@@ -445,6 +460,12 @@ def _pint_factor(unit: str, kind: str) -> float:
         except Exception:
             raise InputError(f"unit {unit!r} is not an angle; expected {q.examples}") from None
     want = reg.get_dimensionality(q.dimension) if q.dimension else reg.get_dimensionality("")
+    if kind == "angular_speed" and u.dimensionality == want:
+        names = set(u._units.keys()) if hasattr(u, "_units") else set()
+        if not names & (_ANGLE_UNITS | _ROTATION_UNITS):
+            raise InputError(f"unit {unit!r} is not a rotational speed (a frequency such as Hz "
+                             f"does not say whether it counts radians or revolutions); give "
+                             f"{q.examples}")
     if u.dimensionality != want:
         got = _describe_dimension(u.dimensionality)
         raise InputError(f"unit {unit!r} is {got}, expected {_a(kind)} unit "
@@ -468,6 +489,44 @@ def _describe_dimension(dim) -> str:
     return f"of dimension {dim}" if str(dim) != "dimensionless" else "dimensionless"
 
 
+#: Temperature units (they have offsets, so no factor): name -> (scale, offset), with
+#: T [K] = scale x (t + offset). Exact by definition: 0 degC = 273.15 K, 1 degF = 5/9 K,
+#: 0 degF = 459.67 degR (NIST SP 811 (2008), sec. 4.2.1.1 and Appendix B.9; from memory).
+TEMPERATURES = {
+    **{n: (1.0, 0.0) for n in ("K", "kelvin")},
+    **{n: (1.0, 273.15) for n in ("degC", "°C", "celsius", "degree_Celsius")},
+    **{n: (5.0 / 9.0, 459.67) for n in ("degF", "°F", "fahrenheit", "degree_Fahrenheit")},
+    **{n: (5.0 / 9.0, 0.0) for n in ("degR", "°R", "rankine")},
+}
+
+
+def to_kelvin(value, unit):
+    """A temperature in ``unit`` (blank: degC) as kelvin.
+
+    Parameters
+    ----------
+    value : float or array_like
+        Temperature [unit].
+    unit : str or None
+        One of :data:`TEMPERATURES` (degC, K, degF, degR); blank means degC.
+
+    Examples
+    --------
+    >>> to_kelvin(20.0, "degC"), round(to_kelvin(68.0, "degF"), 12)
+    (293.15, 293.15)
+
+    Reference: NIST SP 811 (2008), sec. 4.2.1.1 (T = t + 273.15) and Appendix B.9 (from memory).
+    """
+    u = "degC" if unit is None or not str(unit).strip() else _clean(unit, "temperature")
+    if u not in TEMPERATURES:
+        raise InputError(f"unknown temperature unit {excerpt(u)!r}; give "
+                         f"{quantity('temperature').examples} or degR")
+    scale, offset = TEMPERATURES[u]
+    if np.ndim(value) == 0:
+        return scale * (float(value) + offset)
+    return scale * (np.asarray(value, dtype=float) + offset)
+
+
 def factor(unit, kind: str) -> float:
     """Multiplier that takes a value in ``unit`` to SI for quantity ``kind``.
 
@@ -488,6 +547,11 @@ def factor(unit, kind: str) -> float:
     >>> factor(None, "angle") == factor("deg", "angle")
     True
     """
+    if kind == "temperature":    # offset units: the factor of a difference; see to_kelvin
+        u = "degC" if unit is None or not str(unit).strip() else _clean(unit, kind)
+        if u not in TEMPERATURES:
+            to_kelvin(0.0, u)      # the message
+        return TEMPERATURES[u][0]
     return _factor(_clean(unit, kind), kind)
 
 

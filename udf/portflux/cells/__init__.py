@@ -43,7 +43,8 @@ ARG_DOCS = {
     "ports": "Port table: row 1 column names, row 2 units (blank = default unit), one port per "
              "row below. Blank rows/columns after the table are ignored.",
     "cv_velocity": "Control-volume velocity: 3 components (1x3 or 3x1), a speed along +x, or "
-                   "speed and angle [deg]; an optional last text cell gives the unit (default m/s).",
+                   "speed and angle [deg]; an optional last text cell gives the unit (default m/s; rpm, "
+                   "rad/s or rev/s with a wheel_radius setting: U = omega r).",
     "port": "Port label (text) or its 1-based number in the table.",
     "units": "Output units: SI (default), US, or unit overrides such as 'US; force=kN' or "
              "'SI; power=kW'.",
@@ -51,17 +52,18 @@ ARG_DOCS = {
     "tolerance": "Relative mass-imbalance tolerance [-] for the status word (default 0.001, or "
                  "the tolerance in settings).",
     "axis": "x, y or z for one component; blank returns all three (1x3).",
-    "settings": "Optional rows name | value | unit: fluid_mass, gx, gy, gz, tolerance, "
-                "intercept (single/train), slip_angle [deg] (repeatable), slip_x/y/z "
-                "(no-force directions), ref_x/y/z (moment point), cg_x/y/z (fluid centroid), "
-                "dynamic_factor, load_factor.",
+    "settings": "Optional rows name | value | unit: fluid_mass, gx/gy/gz, tolerance, "
+                "intercept, slip_angle (repeatable), slip_x/y/z (no-force), ref_x/y/z "
+                "(moment point), cg_x/y/z (fluid centroid), dynamic_factor, load_factor, "
+                "wheel_radius; see PFX_SETTINGS().",
     "kind": "jet (power / kinetic-energy flux of the incoming jet, default) or propulsive.",
     "speeds": "One column (or row) of CV speeds along the direction, optionally led by one text "
-              "cell with their unit (default m/s). Blank cells give blank output rows.",
+              "cell with their unit (default m/s; rpm etc. with wheel_radius). Blank cells give "
+              "blank output rows.",
     "direction": "Direction of motion: an in-plane angle from +x toward +y [deg] or 3 "
                  "components (1x3 or 3x1); default +x.",
     "low": "Lowest speed of the search bracket [m/s], or a number and a unit cell such as "
-           "{0,\"ft/s\"}.",
+           "{0,\"ft/s\"} (or {0,\"rpm\"} with wheel_radius).",
     "high": "Highest speed of the search bracket [m/s unless a unit cell follows]; above low.",
     "value": "Force on the body to reach, in the force unit of units (N for SI, lbf for US), or "
              "a number and a unit cell such as {500,\"lbf\"}.",
@@ -162,8 +164,8 @@ def PFX_SETTINGS():
 
     >>> [r[0] for r in PFX_SETTINGS()[1:]]
     ['fluid_mass', 'gx', 'gy', 'gz', 'tolerance', 'intercept', 'slip_angle', 'slip_x', \
-'slip_y', 'slip_z', 'ax', 'ay', 'az', 'ref_x', 'ref_y', 'ref_z', 'cg_x', 'cg_y', 'cg_z', \
-'dynamic_factor', 'load_factor']
+'slip_y', 'slip_z', 'wheel_radius', 'ax', 'ay', 'az', 'ref_x', 'ref_y', 'ref_z', 'cg_x', \
+'cg_y', 'cg_z', 'dynamic_factor', 'load_factor']
 
     No equation: a listing of the settings names.
 
@@ -380,6 +382,29 @@ def PFX_POWER(ports, cv_velocity, units=None, settings=None):
     (from memory).
     """
     return _guarded("PFX_POWER", F.power, ports, cv_velocity, units, settings)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "units", "settings")
+def PFX_SHAFTTORQUE(ports, cv_velocity, units=None, settings=None):
+    """Shaft torque of a wheel, T = (F_body . direction of motion) x wheel_radius [N*m (SI),
+    lbf*ft (US)]; + when the fluid drives the wheel in its direction of rotation.
+
+    Needs the settings row wheel_radius; the CV velocity may then be typed in rpm, rad/s or
+    rev/s (peripheral speed U = omega r along +x, or along the angle typed after the speed).
+
+    >>> t = (("port", "role", "frame", "area", "density", "speed", "angle", "closure"),
+    ...      (None,) * 8, ("jet", "in", "abs", 0.002, 998.0, 30.0, 0.0, None),
+    ...      ("bucket", "out", "rel", 0.002, 998.0, None, 180.0, "free"))
+    >>> s = (("intercept", "train", None), ("wheel_radius", 0.5, "m"))
+    >>> round(PFX_SHAFTTORQUE(t, (0.0, "rpm"), None, s), 3)   # held wheel: 2 rho A V^2 r
+    1796.4
+
+    Source: Euler's turbine equation T = mdot r (V_theta1 - V_theta2), S. L. Dixon, *Fluid
+    Mechanics and Thermodynamics of Turbomachinery*, Euler work equation (from memory).
+    """
+    return _guarded("PFX_SHAFTTORQUE", F.shafttorque, ports, cv_velocity, units, settings)
 
 
 @_excel_help

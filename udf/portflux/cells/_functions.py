@@ -16,7 +16,8 @@ from ..core.model import JET_NA
 from ..cautions import CAUTION
 from ..core import resultant as _resultant
 from ._grid import CellError, describe, error_value, flag, is_number, one_cell, scalar_text
-from ._inputs import SETTINGS, evaluate, evaluate_closed, tolerance, unit_system
+from ._inputs import SETTINGS, cv_input, evaluate, evaluate_closed, tolerance, unit_system
+from ._inputs import settings as parse_settings
 
 AXES = {"x": 0, "y": 1, "z": 2, "1": 0, "2": 1, "3": 2}
 
@@ -111,6 +112,12 @@ def settings_names():
 
 
 def relvel(ports, cv_velocity, port, units=None):
+    cv = cv_input(cv_velocity)
+    if problem.speed_kind(cv.unit) == "angular_speed":     # no settings, so no wheel radius
+        raise CellError(f"cv_velocity, unit cell {cv.cell}: PFX_RELVEL takes no settings, so a "
+                        f"rotational speed ({cv.unit}) has no wheel radius; use PFX_RELVELS "
+                        f"with a settings range holding wheel_radius, or type the peripheral "
+                        f"speed (m/s)")
     t, b = evaluate(ports, cv_velocity, kinematic=True)
     k = _port_index(t, port)
     return _matrix(unit_system(units).out(b.w[k], "velocity"))
@@ -252,14 +259,14 @@ def summary(ports, cv_velocity, units=None, settings=None):
     us = unit_system(units)
     t, b = evaluate(ports, cv_velocity, settings)
     lab = us.label
-    vel = us.out(b.v_cv, "velocity")
+    vel, vlab = cv_shown(cv_velocity, settings, us, b.v_cv)
     sup = us.out(b.support_force, "force")
     body = us.out(b.force_on_body, "force")
     m = lab("mass_flow")
     f = lab("force")
     w = b.warnings()
     out = [["quantity [unit]", "value"]]
-    out += [[f"CV velocity {c} [{lab('velocity')}]", cell_value(x)] for c, x in zip("xyz", vel)]
+    out += [[f"CV velocity {c} [{vlab}]", cell_value(x)] for c, x in zip("xyz", vel)]
     out += [
         ["ports", t.n],
         ["intercept", b.intercept],
@@ -301,6 +308,28 @@ def summary(ports, cv_velocity, units=None, settings=None):
                 f"moment on body elevation [{a}]"])
     out += [[n_, v_] for n_, v_ in zip(names, rows_)]
     return out
+
+
+def cv_shown(cv_velocity, settings, us, v_cv):
+    """The CV velocity to show, and its unit label: in the rotational unit typed (rpm, ...) when
+    it was typed so, else in the output units."""
+    cv = cv_input(cv_velocity)
+    f, rotational = cv.factor(parse_settings(settings).wheel_radius)
+    if rotational:
+        return v_cv / f + 0.0, cv.unit
+    return us.out(v_cv, "velocity"), us.label("velocity")
+
+
+def shafttorque(ports, cv_velocity, units=None, settings=None):
+    """Shaft torque T = (force on body . direction of motion) x wheel_radius."""
+    us = unit_system(units)
+    r = parse_settings(settings).wheel_radius
+    if r is None:
+        raise CellError(f"settings: the shaft torque needs the wheel radius; "
+                        f"{problem.ROTATION_HINT}")
+    _, b = evaluate(ports, cv_velocity, settings)
+    d = cv_input(cv_velocity).direction
+    return cell_value(us.out(problem.shaft_torque(b.force_on_body @ d, r), "moment"))
 
 
 def split(ports, cv_velocity, units=None, settings=None):

@@ -168,8 +168,32 @@ _CV_FORMS = ("3 components (1x3 or 3x1), a speed along +x, or a speed and an ang
              "optionally followed by a unit cell such as 'ft/s'")
 
 
+@dataclass(frozen=True, eq=False)
+class CvInput:
+    """The ``cv_velocity`` argument as typed: the velocity in the typed unit (direction
+    applied), the unit text, and the direction of motion (a unit vector; +x or the typed angle
+    for a CV at rest)."""
+
+    typed: np.ndarray       #: (3,) velocity in the typed unit
+    unit: str | None        #: unit as typed (None: m/s)
+    direction: np.ndarray   #: (3,) unit direction of motion [-]
+    cell: int               #: position of the unit cell (for messages)
+
+    def si(self, wheel_radius=None) -> np.ndarray:
+        """The CV velocity [m/s]; a rotational unit needs ``wheel_radius`` [m]."""
+        f, _ = self.factor(wheel_radius)
+        return self.typed * f + 0.0
+
+    def factor(self, wheel_radius=None) -> tuple[float, bool]:
+        """Typed unit -> m/s factor and whether the unit is rotational."""
+        try:
+            return P.speed_factor(self.unit, wheel_radius)
+        except InputError as e:
+            raise CellError(f"cv_velocity, unit cell {self.cell}: {e.message}") from None
+
+
 @_cached(1024)
-def _cv(key) -> np.ndarray:
+def _cv(key) -> CvInput:
     grid = trim(rows(key))
     if not grid:
         raise CellError(f"cv_velocity: is blank; give {_CV_FORMS} (0 for a CV at rest)")
@@ -191,23 +215,32 @@ def _cv(key) -> np.ndarray:
     if len(nums) > 3:
         raise CellError(f"cv_velocity: expected 1, 2 or 3 numbers, got {len(nums)}; give {_CV_FORMS}")
     try:
-        f = U.factor(unit, "velocity")
+        P.speed_kind(unit)
     except InputError as e:
         raise CellError(f"cv_velocity, unit cell {len(cells) + 1}: {e.message}") from None
     if len(nums) == 1:
-        v = np.array([nums[0], 0.0, 0.0])
+        v, d = np.array([nums[0], 0.0, 0.0]), np.array([1.0, 0.0, 0.0])
     elif len(nums) == 2:
         v = polar_velocity(nums[0], math.radians(nums[1]))
+        d = polar_velocity(1.0, math.radians(nums[1]))
     else:
         v = np.array(nums)
-    v = v * f + 0.0
-    v.setflags(write=False)
-    return v
+        size = float(np.linalg.norm(v))
+        d = v / size if size > 0 else np.array([1.0, 0.0, 0.0])
+    v = v + 0.0
+    for a in (v, d):
+        a.setflags(write=False)
+    return CvInput(v, unit, d, len(cells) + 1)
 
 
-def cv_velocity(raw) -> np.ndarray:
-    """CV velocity [m/s], shape (3,), of a ``cv_velocity`` argument (cached)."""
+def cv_input(raw) -> CvInput:
+    """The ``cv_velocity`` argument as typed (cached); :meth:`CvInput.si` gives m/s."""
     return _cv(freeze(raw))
+
+
+def cv_velocity(raw, wheel_radius=None) -> np.ndarray:
+    """CV velocity [m/s], shape (3,), of a ``cv_velocity`` argument (cached parse)."""
+    return _cv(freeze(raw)).si(wheel_radius)
 
 
 # --------------------------------------------------------------------------------------------
@@ -230,6 +263,11 @@ SETTINGS = {  # normalised name -> (name shown, quantity kind or None for text, 
                                  "slip_z; blank components are 0)"),
     "slipy": ("slip_y", "ratio", "y component of that no-force direction"),
     "slipz": ("slip_z", "ratio", "z component of that no-force direction"),
+    "wheelradius": ("wheel_radius", "length", "radius at which the jet meets a wheel (its "
+                                              "buckets' pitch radius); with it, the CV velocity "
+                                              "and speeds may be typed in rpm, rad/s or rev/s "
+                                              "(peripheral speed U = omega r) and shaft torques "
+                                              "are reported"),
     "ax": ("ax", "acceleration", "CV acceleration x component: must be 0 (an accelerating CV "
                                  "is outside the steady inertial form)"),
     "ay": ("ay", "acceleration", "CV acceleration y component: must be 0"),
@@ -278,6 +316,10 @@ def _setting_value(name, kind, value, unit, where):
     if name in ("dynamic_factor", "load_factor") and not si > 0:
         raise CellError(f"{where}: must be > 0 (got {x:g}); take the factor from your "
                         f"governing code (1 = none)")
+    if name == "wheel_radius" and not si > 0:
+        shown = f" {unit.strip()}" if isinstance(unit, str) and unit.strip() else ""
+        raise CellError(f"{where}: must be > 0, the radius at the jet's centre line (got "
+                        f"{x:g}{shown})")
     return si
 
 
@@ -425,8 +467,8 @@ def _problem(t: PortTable, s: Settings, tol=None, kinematic=False) -> Problem:
 def _evaluate(pkey, ckey, skey, tol, kinematic=False):
     try:
         t = _table(pkey)
-        v = _cv(ckey)
-        _settings(skey)
+        cv = _cv(ckey)
+        v = cv.si(_settings(skey).wheel_radius)
         pb = _compiled(t, skey, tol, kinematic)      # one model per table and settings
         try:
             cb = pb.model.balance(v, closed=True)

@@ -23,6 +23,7 @@ from ..core import (ENVELOPE_ROWS, InputError, OutsideScopeError, best_speed, en
                     speed_at_force, speed_table)
 from ..core.model import JET_NA, NA_NO_JET
 from ..excel import shown
+from ..problem import shaft_torque, speed_factor, speed_kind
 from ._functions import cell_value
 from ._grid import (CellError, describe, error_value, freeze, is_blank, is_number, number, rows,
                     scalar_text, trim)
@@ -109,12 +110,14 @@ def _slow_numbers(cells, start, word):
     return np.array(out, dtype=float)
 
 
-def parse_speeds(raw):
-    """Speeds argument -> (speeds [m/s] with NaN at blank cells, unit as typed or "").
+def parse_speeds(raw, wheel_radius=None):
+    """Speeds argument -> (speeds [m/s] with NaN at blank cells, unit as typed or "", index of
+    the first speed cell, factor typed -> m/s, rotational).
 
     One column (or row) of numbers, optionally led by one text cell with their unit (default
-    m/s). Blank cells after the last speed are dropped; blank cells between speeds stay (their
-    output rows are blank, so every output row stays level with its speed).
+    m/s; a rotational unit such as rpm with ``wheel_radius`` [m]: U = omega r). Blank cells
+    after the last speed are dropped; blank cells between speeds stay (their output rows are
+    blank, so every output row stays level with its speed).
     """
     cells, word = _flat_cells(raw)
     end = len(cells)
@@ -149,7 +152,7 @@ def parse_speeds(raw):
     if np.isnan(u).all():
         raise CellError("speeds: holds no speed, only blank cells")
     try:
-        f = U.factor(unit or None, "velocity")
+        f, rotational = speed_factor(unit or None, wheel_radius)
     except InputError as e:
         raise CellError(f"speeds {word} 1 (the unit cell): {e.message}") from None
     si = u * f if f != 1.0 else u
@@ -158,13 +161,14 @@ def parse_speeds(raw):
     if fast.size:
         k = int(fast[0])
         raise CellError(f"speeds {word} {k + start + 1}: {_LIMIT_TEXT} (got {u[k]:g} "
-                        f"{U.display(unit, 'velocity')}); check the cell")
-    return si, unit, start
+                        f"{unit or U.display(unit, 'velocity')}); check the cell")
+    return si, unit, start, f, rotational
 
 
-def _number_and_unit(raw, where, kind, default):
+def _number_and_unit(raw, where, kind, default, wheel_radius=None):
     """A one-number argument with an optional unit cell after it -> (SI value, typed value, unit
-    label shown)."""
+    label shown). A speed (kind "velocity") may be rotational (rpm, ...) with ``wheel_radius``
+    [m]; the SI value is then the peripheral speed."""
     grid = trim(rows(freeze(raw)))
     cells = [c for r in grid for c in r]
     if len(grid) > 1 and len(grid[0]) > 1:
@@ -187,7 +191,8 @@ def _number_and_unit(raw, where, kind, default):
                         f"{len(cells) + (unit is not None)} cells")
     x = number(cells[0], where)
     try:
-        f = U.factor(unit or default, kind)
+        f = (speed_factor(unit or default, wheel_radius)[0] if kind == "velocity" else
+             U.factor(unit or default, kind))
     except InputError as e:
         raise CellError(f"{where}, unit: {e.message}") from None
     return x * f, x, unit or U.display(default, kind)
@@ -223,9 +228,9 @@ def parse_component(raw) -> str:
     return c
 
 
-def _bracket(low, high):
-    lo, lo_typed, lo_unit = _number_and_unit(low, "low", "velocity", "m/s")
-    hi, hi_typed, hi_unit = _number_and_unit(high, "high", "velocity", "m/s")
+def _bracket(low, high, wheel_radius=None):
+    lo, lo_typed, lo_unit = _number_and_unit(low, "low", "velocity", "m/s", wheel_radius)
+    hi, hi_typed, hi_unit = _number_and_unit(high, "high", "velocity", "m/s", wheel_radius)
     for name, si, typed, unit in (("low", lo, lo_typed, lo_unit), ("high", hi, hi_typed, hi_unit)):
         if not abs(si) < SPEED_LIMIT:
             raise CellError(f"{name}: the bracket's {name} end is out of range: {_LIMIT_TEXT} "
@@ -234,6 +239,38 @@ def _bracket(low, high):
         raise CellError(f"low, high: low must be below high (got low {lo_typed:g} {lo_unit}, "
                         f"high {hi_typed:g} {hi_unit})")
     return lo, hi
+
+
+class SpeedShown:
+    """How speeds are shown: in the rotational unit typed (rpm, ...) when a speed argument was
+    typed so, else in the output units; and the wheel radius for shaft torques."""
+
+    def __init__(self, us, radius=None, units=()):
+        self.us, self.radius = us, radius
+        self.unit = next((u for u in units if u and speed_kind(u) == "angular_speed"), None)
+        self.factor = speed_factor(self.unit, radius)[0] if self.unit else None
+
+    @property
+    def rotational(self) -> bool:
+        return self.unit is not None
+
+    def label(self) -> str:
+        return self.unit or self.us.label("velocity")
+
+    def out(self, x):
+        return x / self.factor + 0.0 if self.unit else self.us.out(x, "velocity")
+
+    def torque_row(self, along):
+        """["shaft torque [unit]", T] for the rotational case (T = F_along r)."""
+        return [f"shaft torque, + along the rotation [{self.us.label('moment')}]",
+                cell_value(self.us.out(shaft_torque(along, self.radius), "moment"))]
+
+
+def _typed_unit(raw):
+    """The unit cell of a one-number argument ("" if none): which unit to answer in."""
+    cells = [c for r in trim(rows(freeze(raw))) for c in r]
+    last = cells[-1] if cells else None
+    return last.strip() if isinstance(last, str) and not error_value(last) else ""
 
 
 def _engine(call, t, *args, **kw):
@@ -247,7 +284,7 @@ def _engine(call, t, *args, **kw):
         raise CellError(str(e)) from None
 
 
-def _unmet(pb, d, lo, hi, us, sample=None) -> str:
+def _unmet(pb, d, lo, hi, us, sample=None, shown=None) -> str:
     """" ..." remark when a closure cannot be met at some speeds of the bracket ("" if none)."""
     if pb.closures is None:
         return ""
@@ -256,8 +293,9 @@ def _unmet(pb, d, lo, hi, us, sample=None) -> str:
     bad = ~np.asarray(sample.valid)
     if not bad.any():
         return ""
-    v = us.label("velocity")
-    s0, s1 = (us.out(float(x), "velocity") for x in sample.speed[bad][[0, -1]])
+    shown = shown or SpeedShown(us)
+    v = shown.label()
+    s0, s1 = (shown.out(float(x)) for x in sample.speed[bad][[0, -1]])
     return (f"; a Bernoulli outlet cannot be reached at speeds about {s0:.4g} to {s1:.4g} {v} "
             f"(no result there)")
 
@@ -269,11 +307,12 @@ def speedtable(ports, speeds, direction=None, units=None, settings=None):
     us = unit_system(units)
     d = parse_direction(direction)
     pb = setup(ports, settings)
-    u, _, _ = parse_speeds(speeds)
+    radius = pb.settings.wheel_radius
+    u, unit, _, sf, rotational = parse_speeds(speeds, radius)
     blank = np.isnan(u)
     some_blank = bool(blank.any())
     r = _engine(speed_table, pb.table, pb.model, u[~blank] if some_blank else u, d)
-    width = 2 + len(TABLE_COLUMNS)
+    width = 2 + len(TABLE_COLUMNS) + rotational
     out = np.zeros((u.size, width))
     rows_ = out[~blank] if some_blank else out
     rows_[:, 0] = r.speed
@@ -282,8 +321,14 @@ def speedtable(ports, speeds, direction=None, units=None, settings=None):
     rows_[:, 7] = r.power
     rows_[:, 8] = r.jet_efficiency
     rows_[:, 9] = r.contact
-    for cols, kind in ((slice(0, 1), "velocity"), (slice(1, 7), "force"), (slice(7, 8), "power"),
-                       (slice(8, 9), "ratio")):
+    scales = [(slice(1, 7), "force"), (slice(7, 8), "power"), (slice(8, 9), "ratio")]
+    if rotational:                     # speeds back in the unit typed; shaft torque T = F r
+        rows_[:, 0] /= sf
+        rows_[:, 10] = shaft_torque(_along(r), radius)
+        scales.append((slice(10, 11), "moment"))
+    else:
+        scales.append((slice(0, 1), "velocity"))
+    for cols, kind in scales:
         f = U.factor(us.unit(kind), kind)            # one division per column, none for SI
         if f != 1.0:
             rows_[:, cols] /= f
@@ -293,8 +338,10 @@ def speedtable(ports, speeds, direction=None, units=None, settings=None):
     nan_rows = np.flatnonzero(~np.isfinite(out).all(axis=1) & ~blank)
     met = np.ones(u.size, dtype=bool)
     met[~blank] = r.valid
-    head = [f"speed [{us.label('velocity')}]"] + [
+    head = [f"speed [{unit if rotational else us.label('velocity')}]"] + [
         f"{name} [{us.label(kind)}]" for name, kind in TABLE_COLUMNS] + ["contact [1/0]"]
+    if rotational:
+        head.append(f"shaft torque, + along the rotation [{us.label('moment')}]")
     with no_gc():
         body = out.tolist()
         for i in np.flatnonzero(blank).tolist():
@@ -310,7 +357,8 @@ def speedtable(ports, speeds, direction=None, units=None, settings=None):
 def _text_row(row, met, jet_na=NA_NO_JET):
     """A table row with its non-numbers as short texts (Excel shows no NaN or infinity)."""
     if not met:
-        return [row[0]] + ["n/a: closure not met"] * (len(row) - 2) + [row[-1]]
+        return [row[0]] + ["n/a: closure not met"] * 8 + [row[9]] + (
+            ["n/a: closure not met"] if len(row) > 10 else [])
     out = []
     for k, x in enumerate(row):
         if math.isinf(x):
@@ -329,11 +377,13 @@ def _along(r):
 def bestspeed(ports, low, high, direction=None, units=None, settings=None):
     us = unit_system(units)
     d = parse_direction(direction)
-    lo, hi = _bracket(low, high)
     pb = setup(ports, settings)
+    radius = pb.settings.wheel_radius
+    lo, hi = _bracket(low, high, radius)
+    sp = SpeedShown(us, radius, (_typed_unit(low), _typed_unit(high)))
     best = _engine(best_speed, pb.table, pb.model, (lo, hi), d)
-    v, p, f, e = (us.label(k) for k in ("velocity", "power", "force", "ratio"))
-    show = lambda x: cell_value(us.out(x, "velocity"))   # noqa: E731
+    v, p, f, e = sp.label(), *(us.label(k) for k in ("power", "force", "ratio"))
+    show = lambda x: cell_value(sp.out(x))   # noqa: E731
     if best.delivers:
         at = _engine(speed_table, pb.table, pb.model, [best.speed], d)
         if best.edge:
@@ -350,8 +400,8 @@ def bestspeed(ports, low, high, direction=None, units=None, settings=None):
                 f"speeds {show(lo):g} to {show(hi):g} {v} (largest "
                 f"{cell_value(us.out(best.power, 'power')):.6g} {p})")
         speed = along = eff = "n/a: no power delivered"
-    note += _unmet(pb, d, lo, hi, us)
-    return [
+    note += _unmet(pb, d, lo, hi, us, shown=sp)
+    out = [
         ["quantity [unit]", "value"],
         [f"speed of maximum power [{v}]", speed],
         [f"power to body [{p}]", cell_value(us.out(best.power, "power")) if best.delivers else
@@ -362,6 +412,10 @@ def bestspeed(ports, low, high, direction=None, units=None, settings=None):
         [f"bracket high [{v}]", show(hi)],
         ["note", note],
     ]
+    if sp.rotational:
+        out.insert(5, sp.torque_row(_along(at)[0]) if best.delivers else
+                   [sp.torque_row(0.0)[0], "n/a: no power delivered"])
+    return out
 
 
 def _component_values(r, component):
@@ -378,10 +432,12 @@ def speedatforce(ports, value, low, high, component=None, direction=None, units=
     comp = parse_component(component)
     d = parse_direction(direction)
     target, typed, funit = _number_and_unit(value, "value", "force", us.unit("force"))
-    lo, hi = _bracket(low, high)
     pb = setup(ports, settings)
+    radius = pb.settings.wheel_radius
+    lo, hi = _bracket(low, high, radius)
+    sp = SpeedShown(us, radius, (_typed_unit(low), _typed_unit(high)))
     t = pb.table
-    v, f = us.label("velocity"), us.label("force")
+    v, f = sp.label(), us.label("force")
     try:
         r = speed_at_force(pb.model, target, (lo, hi), d, component=comp)
     except InputError as e:
@@ -393,28 +449,32 @@ def speedatforce(ports, value, low, high, component=None, direction=None, units=
         fv = us.out(_component_values(sample, comp), "force")
         fv = fv[np.isfinite(fv)]
         if not fv.size:
-            raise CellError(f"low, high: no speed in {us.out(lo, 'velocity'):g} to "
-                            f"{us.out(hi, 'velocity'):g} {v} gives a result (a Bernoulli outlet "
+            raise CellError(f"low, high: no speed in {sp.out(lo):g} to "
+                            f"{sp.out(hi):g} {v} gives a result (a Bernoulli outlet "
                             f"cannot be reached anywhere in the bracket)") from None
         raise CellError(f"value: the force on the body ({comp}) runs from {fv.min():.6g} to "
-                        f"{fv.max():.6g} {f} over speeds {us.out(lo, 'velocity'):g} to "
-                        f"{us.out(hi, 'velocity'):g} {v} and never reaches {typed:g} {funit}"
-                        f"{_unmet(pb, d, lo, hi, us, sample)}; widen the bracket (low, "
+                        f"{fv.max():.6g} {f} over speeds {sp.out(lo):g} to "
+                        f"{sp.out(hi):g} {v} and never reaches {typed:g} {funit}"
+                        f"{_unmet(pb, d, lo, hi, us, sample, sp)}; widen the bracket (low, "
                         f"high) or check the value") from None
     except OutsideScopeError as e:
         raise CellError(str(e)) from None
     note = (f"the force reaches {typed:g} {funit} {r.crossings} times in the bracket; this is "
             f"the lowest speed" if r.crossings > 1 else "single crossing in the bracket")
-    note += _unmet(pb, d, lo, hi, us)
-    return [
+    note += _unmet(pb, d, lo, hi, us, shown=sp)
+    out = [
         ["quantity [unit]", "value"],
-        [f"speed [{v}]", cell_value(us.out(r.speed, "velocity"))],
+        [f"speed [{v}]", cell_value(sp.out(r.speed))],
         [f"force on body, {comp} [{f}]", cell_value(us.out(r.force, "force"))],
         ["crossings in the bracket", int(r.crossings)],
-        [f"bracket low [{v}]", cell_value(us.out(lo, "velocity"))],
-        [f"bracket high [{v}]", cell_value(us.out(hi, "velocity"))],
+        [f"bracket low [{v}]", cell_value(sp.out(lo))],
+        [f"bracket high [{v}]", cell_value(sp.out(hi))],
         ["note", note],
     ]
+    if sp.rotational:
+        at = _engine(speed_table, t, pb.model, [r.speed], d)
+        out.insert(3, sp.torque_row(_along(at)[0]))
+    return out
 
 
 def envelopeblock(ports, low, high, direction=None, units=None, settings=None):
@@ -422,16 +482,17 @@ def envelopeblock(ports, low, high, direction=None, units=None, settings=None):
     the speed where it occurs, and the value times the design factors of the settings."""
     us = unit_system(units)
     d = parse_direction(direction)
-    lo, hi = _bracket(low, high)
     pb = setup(ports, settings)
     s = pb.settings
+    lo, hi = _bracket(low, high, s.wheel_radius)
+    sp = SpeedShown(us, s.wheel_radius, (_typed_unit(low), _typed_unit(high)))
     env = _engine(envelope, pb.table, pb.model, (lo, hi), d,
                   dynamic_factor=s.dynamic_factor, load_factor=s.load_factor)
-    v = us.label("velocity")
+    v = sp.label()
     out = [["load on the body [unit]", "largest (raw)", f"at speed [{v}]", "factored"]]
     for (name, kind, _), x, u, fx in zip(ENVELOPE_ROWS, env.value, env.speed, env.factored):
         out.append([f"{name} [{us.label(kind)}]", cell_value(us.out(x, kind)),
-                    cell_value(us.out(u, "velocity")), cell_value(us.out(fx, kind))])
+                    cell_value(sp.out(u)), cell_value(us.out(fx, kind))])
     statics = ("U = 0 (statics, start-up) included" if env.statics else
                "U = 0 is outside the bracket: start-up not checked")
     out += [
@@ -440,7 +501,7 @@ def envelopeblock(ports, low, high, direction=None, units=None, settings=None):
         ["load factor (governing code) [-]", env.load_factor, "-",
          "setting load_factor: take it from your governing code (default 1)"],
         ["combined factor [-]", env.factor, "-", "dynamic factor x load factor"],
-        [f"bracket [{v}]", cell_value(us.out(lo, "velocity")), cell_value(us.out(hi, "velocity")),
-         statics + _unmet(pb, d, lo, hi, us)],
+        [f"bracket [{v}]", cell_value(sp.out(lo)), cell_value(sp.out(hi)),
+         statics + _unmet(pb, d, lo, hi, us, shown=sp)],
     ]
     return out

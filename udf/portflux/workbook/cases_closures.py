@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 from .cases import PLATE, TRADE, WHEEL, WHITE, cos_deg
+from openpyxl.utils import column_index_from_string, get_column_letter
+
 from .drawing import put, rng
 
 COLS = ("port", "role", "frame", "area", "density", "speed", "angle", "closure", "loss",
@@ -10,10 +12,10 @@ COLS = ("port", "role", "frame", "area", "density", "speed", "angle", "closure",
 UNITS = (None, None, None, "m^2", "kg/m^3", "m/s", "deg", None, None, "m")
 
 
-def _speeds(s, left, top, values):
+def _speeds(s, left, top, values, unit="m/s"):
     """A speeds column led by its unit cell; ``values`` are formulas or numbers."""
     put(s.ws, left, top - 1, "speeds", font=None)
-    put(s.ws, left, top, "m/s")
+    put(s.ws, left, top, unit)
     for i, v in enumerate(values):
         put(s.ws, left, top + 1 + i, v)
     return rng(left, top, left, top + len(values))
@@ -111,5 +113,77 @@ def closure_cases(s) -> None:
           1e-12, "Bernoulli equation along a streamline in the moving frame; " + WHITE)
 
 
+NOZZLE = ("nozzle/orifice relation V = C_v sqrt(2 dp / rho), F. M. White, Fluid Mechanics, "
+          "sec. 6.12 (from memory); jet area C_c pi d^2 / 4")
+
+
+def nozzle_cases(s) -> None:
+    """Jets given by the nozzle's supply pressure, diameter and coefficients."""
+    # M. Invented: a 20 mm nozzle fed at 300 kPa (C_v 0.96, C_c 0.9) on a frictionless 150 deg
+    # vane moving at 6 m/s.
+    cols = ("port", "role", "frame", "diameter", "density", "angle", "supply_pressure",
+            "velocity_coef", "contraction_coef", "closure")
+    units = (None, None, None, "mm", "kg/m^3", "deg", "kPa", None, None, None)
+    t, cv, U, _, _ = s.block("M. nozzle fed at a supply pressure", cols, units,
+                             (("nozzle", "in", "abs", 20.0, 998.0, 0.0, 300.0, 0.96, 0.9, None),
+                              ("exit", "out", "rel", None, 998.0, 150.0, None, None, None,
+                               "free")),
+                             (6.0, 0.0, 0.0), "m/s")
+    d, rho, p = t.at(0, "diameter"), t.at(0, "density"), t.at(0, "supply_pressure")
+    cv_, cc, th = t.at(0, "velocity_coef"), t.at(0, "contraction_coef"), t.at(1, "angle")
+    V = f"{cv_}*SQRT(2*{p}*1000/{rho})"
+    A = f"{cc}*PI()*({d}/1000)^2/4"
+    s.add("jet speed from supply pressure: V = C_v sqrt(2 dp / rho)", "PFX_ABSVEL",
+          f"=INDEX(PFX_ABSVEL({t.ref},{cv}),1,1)", f"={V}", 1e-12, NOZZLE)
+    s.add("nozzle jet on a moving vane: mdot = -rho C_c (pi d^2/4) (V - U)", "PFX_MASSFLOWS",
+          f"=INDEX(PFX_MASSFLOWS({t.ref},{cv}),1,1)", f"=-{rho}*{A}*({V}-{U})", 1e-12,
+          NOZZLE + "; " + WHITE)
+    s.add("nozzle jet on a moving vane: F_x = rho A_j (V-U)^2 (1 - cos th)", "PFX_BODYFORCE",
+          f'=PFX_BODYFORCE({t.ref},{cv},"x")',
+          f"={rho}*{A}*({V}-{U})^2*(1-{cos_deg(th)})", 1e-12, NOZZLE + "; " + WHITE)
+
+
+EULER = ("Euler's turbine equation T = mdot r (V_theta1 - V_theta2), S. L. Dixon, Fluid "
+         "Mechanics and Thermodynamics of Turbomachinery, Euler work equation (from memory); "
+         "1 rpm = 2 pi / 60 rad/s, NIST SP 811 Appendix B")
+
+
+def _with_unit(ws, ref, unit):
+    """A value cell and a unit cell written to its right: the range of both."""
+    col, row = ref.replace("$", " ").split()
+    right = get_column_letter(column_index_from_string(col) + 1)
+    put(ws, column_index_from_string(col) + 1, int(row), unit)
+    return f"{ref}:${right}${row}"
+
+
+def wheel_rpm_cases(s) -> None:
+    """A bucket wheel typed in rpm with its radius: torque and best speed in rpm."""
+    # N. Invented: the wheel of case I, 0.5 m pitch radius, turning at 240 rpm.
+    left = s.col
+    t, cv, n, sref, ex = s.block("N. bucket wheel in rpm (wheel_radius)", COLS, UNITS,
+                                 (("nozzle", "in", "abs", 0.002, 998.0, 30.0, 0.0, None, None,
+                                   None),
+                                  ("bucket exit", "out", "rel", 0.002, 998.0, None, 165.0,
+                                   "free", None, None)),
+                                 (240.0, 0.0, 0.0), "rpm",
+                                 settings=(("intercept", "train", None),
+                                           ("wheel_radius", 0.5, "m")),
+                                 extra=(("low [rpm]", 0.0), ("high [rpm]", 1000.0)))
+    P = t.ref
+    rho, A, V, b = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"), t.at(1, "angle")
+    r = ex["wheel_radius"]
+    lo, hi = (_with_unit(s.ws, ex[k], "rpm") for k in ("low [rpm]", "high [rpm]"))
+    U = f"({n}*2*PI()/60*{r})"
+    euler = f"{rho}*{A}*{V}*{r}*({V}-({U}+({V}-{U})*{cos_deg(b)}))"
+    s.add("wheel shaft torque = mdot r (V_theta1 - V_theta2) at n rpm", "PFX_SHAFTTORQUE",
+          f"=PFX_SHAFTTORQUE({P},{cv},,{sref})", f"={euler}", 1e-12, EULER)
+    s.add("best speed of a bucket wheel in rpm: V/2 / r x 60 / (2 pi)", "PFX_BESTSPEED",
+          f"=INDEX(PFX_BESTSPEED({P},{lo},{hi},,,{sref}),2,2)",
+          f"={V}/2/{r}*60/(2*PI())", 1e-6, WHEEL + "; " + EULER)
+    sp = _speeds(s, left + 8, 78, (0.0, f"={n}", f"=2*{n}"), unit="rpm")
+    s.add("speed table in rpm: shaft torque column at n rpm", "PFX_SPEEDTABLE",
+          f"=INDEX(PFX_SPEEDTABLE({P},{sp},,,{sref}),3,11)", f"={euler}", 1e-12, EULER)
+
+
 #: The parts of this module, in sheet order (see :data:`.cases.PARTS`).
-PARTS = (closure_cases,)
+PARTS = (closure_cases, nozzle_cases, wheel_rpm_cases)
