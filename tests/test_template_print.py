@@ -90,7 +90,10 @@ def test_report_command_writes_a_one_page_pdf_of_the_demo_case(tmp_path, capsys)
 
 
 def test_report_without_libreoffice_says_what_to_install(tmp_path, monkeypatch, capsys):
+    import portflux.workbook.report as R
+
     monkeypatch.setattr(shutil, "which", lambda name: None)
+    monkeypatch.setattr(R, "soffice_path", lambda: None)   # nor in LibreOffice's usual folders
     out = tmp_path / "r.pdf"
     assert cli.main(["report", COMMITTED, "-o", str(out), "-q"]) == 2
     err = capsys.readouterr().err

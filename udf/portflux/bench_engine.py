@@ -27,12 +27,13 @@ from __future__ import annotations
 
 import json
 import os
-import shutil
 import statistics
 import subprocess
 import sys
 import tempfile
 import time
+
+from .workbook.soffice import soffice_path
 
 _PROFILE_XCU = """<?xml version="1.0" encoding="UTF-8"?>
 <oor:items xmlns:oor="http://openoffice.org/2001/registry"
@@ -130,7 +131,7 @@ def run(figure, quick=False) -> list:
     n_small, n_large = (300, 1500) if quick else (10_000, 50_000)
     reps = 1 if quick else 3
     edits = 5 if quick else 40
-    soffice = shutil.which("soffice") or shutil.which("libreoffice")
+    soffice = soffice_path()
     rows = []
     recalc = [sys.executable, "-m", "portflux.cli", "recalc", "-q"]
     with tempfile.TemporaryDirectory(prefix="portflux-bench-") as tmp:

@@ -37,18 +37,17 @@ from dataclasses import dataclass
 from typing import Callable, Mapping
 
 from . import writeback
-from .output import same_file, write_atomic
+from .output import write_atomic
 from .contain import CONTAINED, run_contained
 from .package import read_package, split_coord
 from .recalc import Recalculator, check_functions, collector_paused
-from .safety import WorkbookFileError, read_workbook_bytes
+from .safety import WorkbookFileError, check_output_path, read_workbook_bytes
 from .xlvalues import RecalcError
 from ..excel import ERROR_VALUES
 
 __all__ = ["CONTAINED", "ERROR_VALUES", "RecalcError", "RecalcSummary", "Recalculator",
            "recalc_file"]
 
-_SUFFIXES = (".xlsx", ".xlsm")
 
 
 @dataclass(frozen=True)
@@ -146,17 +145,10 @@ def recalc_file(in_path, out_path, functions: Mapping[str, Callable], *,
         Nothing is written then.
     """
     in_path, out_path = os.fspath(in_path), os.fspath(out_path)
-    if same_file(in_path, out_path):
-        raise RecalcError(f"{out_path}: refusing to write over the input workbook; choose "
-                          f"another output path")
-    in_ext = os.path.splitext(in_path)[1].lower()
-    if in_ext not in _SUFFIXES:
-        raise RecalcError(f"{in_path}: expected an .xlsx or .xlsm workbook")
-    if os.path.splitext(out_path)[1].lower() != in_ext:
-        raise RecalcError(f"{out_path}: the output must keep the input's extension {in_ext!r}")
-    out_dir = os.path.dirname(os.path.abspath(out_path))
-    if not os.path.isdir(out_dir):
-        raise RecalcError(f"{out_path}: folder {out_dir} does not exist")
+    try:
+        check_output_path(in_path, out_path, check_input_suffix=True)
+    except WorkbookFileError as exc:
+        raise RecalcError(str(exc)) from None
     check_functions(functions)
     try:
         data = read_workbook_bytes(in_path)

@@ -47,7 +47,6 @@ from ..excel import ERROR_VALUES
 __all__ = ["Recalculator", "check_functions", "collector_paused"]
 
 Key = tuple  # (sheet title, "A1")
-_SUFFIXES = (".xlsx", ".xlsm")
 _AGGREGATES = {"SUM", "MIN", "MAX", "AVERAGE", "PRODUCT", "SUMSQ", "COUNT", "COUNTA",
                "SUMPRODUCT", "AND", "OR", "XOR", "ROWS", "COLUMNS"}
 _RANGE_ARGS = {"INDEX": {0}, "MATCH": {1}, "VLOOKUP": {1}, "HLOOKUP": {1}, "COUNTIF": {0},
@@ -319,13 +318,14 @@ class Recalculator:
     def __init__(self, path, functions: Mapping[str, Callable], *, package: Package = None):
         self._udfs = check_functions(functions)
         if package is None:
-            from .safety import WorkbookFileError, read_workbook_bytes
+            from .safety import WorkbookFileError, input_suffix_problem, read_workbook_bytes
 
             path = os.fspath(path)
             if not os.path.isfile(path):
                 raise RecalcError(f"{path}: no such workbook file")
-            if os.path.splitext(path)[1].lower() not in _SUFFIXES:
-                raise RecalcError(f"{path}: expected an .xlsx or .xlsm workbook")
+            problem = input_suffix_problem(path)
+            if problem:
+                raise RecalcError(f"{path}: {problem}")
             try:  # zip bomb, XML entity bomb, duplicate parts: refused before anything parses
                 data = read_workbook_bytes(path)
             except WorkbookFileError as exc:

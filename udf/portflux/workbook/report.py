@@ -22,6 +22,7 @@ import zipfile
 from ..core import PortfluxError
 from .check import recalc
 from .output import write_atomic
+from .soffice import soffice_path
 from .report_sheet import REPORT
 
 PAPER = {"a4": "9", "letter": "1"}       #: OOXML paperSize codes
@@ -34,7 +35,7 @@ class ReportError(PortfluxError):
 
 def find_soffice(soffice=None) -> str:
     """Path of LibreOffice's ``soffice``, or ReportError with what to install."""
-    path = soffice or shutil.which("soffice") or shutil.which("libreoffice")
+    path = soffice or soffice_path()
     if not path or not (os.path.isfile(path) or shutil.which(path)):
         raise ReportError("the report is rendered to PDF by LibreOffice, which was not found "
                           "(no 'soffice' on the PATH): install LibreOffice Calc (e.g. 'apt-get "

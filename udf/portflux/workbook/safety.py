@@ -312,12 +312,27 @@ def read_workbook_bytes(path, **limits) -> bytes:
     return data
 
 
-def check_output_path(in_path, out_path) -> None:
-    """Refuse an output path that is the input (however spelled: relative, ``..``, a symbolic
-    or hard link), has another extension, or lies in a folder that does not exist.
+#: Workbook files the embedded engine reads (what openpyxl writes and Excel saves).
+WORKBOOK_SUFFIXES = (".xlsx", ".xlsm")
 
-    The rule of every recalculation engine (the LibreOffice engine calls it; the messages are
-    the embedded engine's).
+
+def input_suffix_problem(in_path) -> str | None:
+    """Why ``in_path`` is not a workbook the embedded engine reads (by its extension), or None.
+
+    >>> input_suffix_problem("a.xlsx"), input_suffix_problem("a.ods")
+    (None, 'expected an .xlsx or .xlsm workbook')
+    """
+    if os.path.splitext(os.fspath(in_path))[1].lower() not in WORKBOOK_SUFFIXES:
+        return "expected an .xlsx or .xlsm workbook"
+    return None
+
+
+def check_output_path(in_path, out_path, *, check_input_suffix=False) -> None:
+    """Refuse an output path that is the input (however spelled: relative, ``..``, a symbolic
+    or hard link), has another extension, or lies in a folder that does not exist; with
+    ``check_input_suffix``, also an input that is not .xlsx or .xlsm (after the first check).
+
+    The rule of every recalculation engine (both engines call it).
 
     >>> check_output_path("a.xlsx", "b.xlsx")
     >>> try:
@@ -332,6 +347,9 @@ def check_output_path(in_path, out_path) -> None:
     if same_file(in_path, out_path):
         raise WorkbookFileError(out_path, "refusing to write over the input workbook; choose "
                                           "another output path")
+    problem = input_suffix_problem(in_path) if check_input_suffix else None
+    if problem:
+        raise WorkbookFileError(in_path, problem)
     in_ext = os.path.splitext(in_path)[1].lower()
     if os.path.splitext(out_path)[1].lower() != in_ext:
         raise WorkbookFileError(out_path, f"the output must keep the input's extension "

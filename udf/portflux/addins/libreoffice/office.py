@@ -28,23 +28,11 @@ MIN_VERSION = (25, 2)
 from ...core import PortfluxError
 
 
+from ...workbook.soffice import soffice_path  # noqa: E402  (one finder for every user)
+
+
 class OfficeError(PortfluxError):
     """LibreOffice is missing, too old, or failed; the message says what to install or do."""
-
-
-def soffice_path():
-    """The ``soffice`` executable, or None."""
-    for name in ("soffice", "libreoffice"):
-        p = shutil.which(name)
-        if p:
-            return os.path.realpath(p)
-    for p in ("/usr/lib/libreoffice/program/soffice", "/opt/libreoffice/program/soffice",
-              *sorted(glob.glob("/opt/libreoffice*/program/soffice"), reverse=True),
-              "/Applications/LibreOffice.app/Contents/MacOS/soffice",
-              r"C:\Program Files\LibreOffice\program\soffice.exe"):
-        if os.path.isfile(p):
-            return p
-    return None
 
 
 def program_dir():
