@@ -107,28 +107,13 @@ def _range_keys(sheet: str, ref: str) -> list[list[Key]]:
 
 
 def read_formulas(path) -> tuple[dict, dict]:
-    """``({(sheet, cell): formula text}, {(sheet, anchor): "A1:B3"})`` of a workbook's input file.
+    """``({(sheet, cell): formula text}, {(sheet, anchor): "A1:B3"})`` of a workbook's input file,
+    read by the engine's one package reader."""
+    from .package import formulas_of, read_package
+    from .safety import read_workbook_bytes
 
-    Read with openpyxl in read-only mode (the engine has already checked the file).
-    """
-    import openpyxl
-    from openpyxl.worksheet.formula import ArrayFormula
-
-    formulas, arrays = {}, {}
-    wb = openpyxl.load_workbook(os.fspath(path), read_only=True)
-    try:
-        for ws in wb.worksheets:
-            title = ws.title
-            for row in ws.iter_rows():
-                for c in row:
-                    v = getattr(c, "value", None)
-                    if isinstance(v, ArrayFormula):
-                        formulas[(title, c.coordinate)] = v.text or ""
-                        arrays[(title, c.coordinate)] = v.ref or c.coordinate
-                    elif getattr(c, "data_type", None) == "f" and isinstance(v, str):
-                        formulas[(title, c.coordinate)] = v
-    finally:
-        wb.close()
+    formulas, arrays, _ = formulas_of(read_package(read_workbook_bytes(path),
+                                                   os.path.basename(os.fspath(path))))
     return formulas, arrays
 
 

@@ -35,8 +35,8 @@ from defusedxml.ElementTree import fromstring as _safe_fromstring
 from .formula import column_number
 from .xlvalues import RecalcError, error
 
-__all__ = ["Package", "Sheet", "SheetCells", "read_package", "read_sheet_cells", "coord_name",
-           "split_coord"]
+__all__ = ["Package", "Sheet", "SheetCells", "formulas_of", "read_package", "read_sheet_cells",
+           "coord_name", "split_coord"]
 
 _NS_REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
 _REL_OFFICE_DOC = _NS_REL + "/officeDocument"
@@ -412,3 +412,19 @@ def read_package(data: bytes, where: str) -> Package:
             names[(title, name)] = el.text or ""
     return Package(book_part, sheets, names, strings)
 
+
+def formulas_of(pkg: Package) -> tuple[dict, dict, dict]:
+    """What a package's formulas are, as every consumer of them sees them.
+
+    Returns ``({(sheet, cell): formula text}, {(sheet, anchor): "A1:B3"}, {name: text})``:
+    every formula cell (array anchors once, shared formulas expanded), every array range, and
+    the defined names (``"Sheet!NAME"`` for a name local to a sheet).
+    """
+    formulas, arrays = {}, {}
+    for sh in pkg.sheets:
+        for (r, c), text in sh.cells.formulas.items():
+            formulas[(sh.title, coord_name(r, c))] = text
+        for (r, c), (r1, c1, r2, c2) in sh.cells.arrays.items():
+            arrays[(sh.title, coord_name(r, c))] = f"{coord_name(r1, c1)}:{coord_name(r2, c2)}"
+    names = {(f"{t}!{n}" if t else n): text for (t, n), text in pkg.names.items()}
+    return formulas, arrays, names

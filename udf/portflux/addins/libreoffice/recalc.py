@@ -41,29 +41,18 @@ OUTSIDE_PARTS = ("xl/externalLinks/", "xl/connections.xml", "xl/queryTables/")
 
 
 def _formulas(path):
-    """``({(sheet, cell): formula}, number of array formulas, {defined name: text})``."""
-    import openpyxl
-    from openpyxl.worksheet.formula import ArrayFormula
+    """``({(sheet, cell): formula}, number of array formulas, {defined name: text})``, read by
+    the embedded engine's one package reader (so both engines check the same formulas)."""
+    from ...workbook.package import formulas_of, read_package
+    from ...workbook.safety import WorkbookFileError, read_workbook_bytes
+    from ...workbook.xlvalues import RecalcError
 
-    wb = openpyxl.load_workbook(path, read_only=False, data_only=False)
+    name = os.path.basename(os.fspath(path))
     try:
-        out, arrays = {}, 0
-        for ws in wb.worksheets:
-            for row in ws.iter_rows():
-                for c in row:
-                    v = c.value
-                    if isinstance(v, ArrayFormula):
-                        arrays += 1
-                        out[(ws.title, c.coordinate)] = v.text or ""
-                    elif isinstance(v, str) and v.startswith("="):
-                        out[(ws.title, c.coordinate)] = v
-        names = {n: d.attr_text or "" for n, d in wb.defined_names.items()}
-        for ws in wb.worksheets:
-            names.update({f"{ws.title}!{n}": d.attr_text or ""
-                          for n, d in ws.defined_names.items()})
-        return out, arrays, names
-    finally:
-        wb.close()
+        formulas, arrays, names = formulas_of(read_package(read_workbook_bytes(path), name))
+    except (WorkbookFileError, RecalcError) as e:
+        raise LibreOfficeRecalcError(str(e)) from None
+    return formulas, len(arrays), names
 
 
 def _refuse_outside_reach(text: str, where: str) -> None:
