@@ -194,3 +194,45 @@ def test_a_unit_text_payload_never_runs(tmp_path, monkeypatch):
         assert isinstance(C.PFX_POWER(GOOD, 1.0, p), str)
         assert isinstance(C.PFX_SPEEDTABLE(GOOD, (p, 1.0)), str)
     assert not marker.exists()
+
+
+# ---- the port columns added for support loads, nozzles, wheels and named fluids ---------------
+
+@pytest.mark.parametrize("fluid", [
+    "REFPROP::{marker}",                  # a property-library backend that loads files
+    "INCOMP::{marker}",
+    "HEOS::Water[0.5]&{marker}[0.5]",     # a mixture string naming a file as a fluid
+    "water" + "x" * 32767,
+])
+def test_a_fluid_name_outside_the_list_never_reaches_the_property_library(fluid, tmp_path):
+    import subprocess
+    import sys
+
+    marker = tmp_path / "marker"
+    name = fluid.format(marker=marker)
+    # in a fresh process: the property library must not even be imported for a refused name
+    code = ("import sys, portflux.cells as C\n"
+            f"out = C.PFX_MASSFLOWS(((\"port\", \"role\", \"area\", \"fluid\", \"temperature\", "
+            f"\"vx\"), (None, None, \"m^2\", None, \"degC\", \"m/s\"), (\"jet\", \"in\", 0.01, "
+            f"{name!r}, 20.0, 10.0)), 0.0)\n"
+            "print(repr(out)); print('CoolProp' in sys.modules)")
+    t0 = time.perf_counter()
+    p = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+    assert p.returncode == 0, p.stderr
+    out, imported = p.stdout.strip().splitlines()
+    assert "ports row 3, fluid: unknown fluid" in out and len(out) <= MAX_MESSAGE + 10
+    assert imported == "False" and not marker.exists()
+    assert time.perf_counter() - t0 < 30         # a whole fresh process, generously bounded
+
+
+@pytest.mark.parametrize("col, value", [("rx", 1e308), ("supply_pressure", 1e308),
+                                        ("diameter", 1e308), ("velocity_coef", float("nan")),
+                                        ("rx", "z" * 10 ** 6)])
+def test_hostile_values_in_the_new_port_columns_are_answered_quickly(col, value):
+    grid = ((HEAD + (col,)), UNITS + (None,), JET + (value,), EXIT + (None,))
+    for f in (C.PFX_MOMENT, C.PFX_BODYFORCE, C.PFX_SUMMARY):
+        t0 = time.perf_counter()
+        out = f(grid, 0.0)
+        assert time.perf_counter() - t0 < BOUND_S
+        text = out if isinstance(out, str) else " ".join(str(c) for r in out for c in r)
+        assert "internal error" not in text and len(text) < 20_000
