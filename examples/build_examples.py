@@ -4,7 +4,12 @@ Three invented scenarios (not measurements of any device):
 
 - ``carriage_vane.xlsx``: a water jet on a frictionless deflector riding a test carriage (SI);
 - ``bucket_wheel.xlsx``: a bucket wheel (vane train) swept over wheel speed, with bucket losses;
-- ``waterjet_craft.xlsx``: a water-jet craft at cruise, swept over craft speed (US customary).
+- ``waterjet_craft.xlsx``: a water-jet craft at cruise, swept over craft speed (US customary);
+- ``wheel_rpm.xlsx``: a bucket wheel typed in rpm with its pitch radius: shaft torque, best
+  wheel speed in rpm;
+- ``nozzle_carriage.xlsx``: a nozzle fed at 5 bar gauge (diameter, velocity and contraction
+  coefficients) on a deflector riding a carriage, with port positions (the mount below the jet
+  line), a bucket loss and design factors.
 
 Each is the template with its input cells filled; ``portflux recalc`` computes it and
 ``tests/test_examples.py`` checks it against closed forms.
@@ -57,6 +62,42 @@ SCENARIOS = {
         note="Invented example: the pump moves 30 slug/s; the jet leaves at 70 ft/s relative to "
              "the hull; the craft cruises at 40 ft/s. Thrust mdot (Vj - V0), Froude efficiency "
              "2 / (1 + Vj/V0)."),
+    "wheel_rpm.xlsx": Scenario(
+        report=dict(project="portflux examples (invented)", case="bucket wheel at 600 rpm",
+                    revision="A"),
+        title="Example: bucket wheel typed in rpm, 0.45 m pitch radius (invented)",
+        ports=(("port", "role", "frame", "area", "density", "speed", "angle", "closure", "loss"),
+               (None, None, None, "mm^2", "kg/m^3", "m/s", "deg", None, None),
+               ("jet", "in", "abs", 1256.6, 998.0, 60.0, 0.0, None, None),
+               ("bucket exit", "out", "rel", None, 998.0, None, 165.0, "loss", 0.05)),
+        cv_velocity=(600.0, 0.0, 0.0), cv_unit="rpm", units="SI; power=kW",
+        settings={"intercept": ("train", None), "wheel_radius": (0.45, "m")},
+        sweep=dict(low=0.0, high=1400.0, unit="rpm", direction=0.0, force=2000.0,
+                   units="SI; power=kW"),
+        note="Invented example: a 40 mm jet at 60 m/s on a wheel of 165 deg buckets (5 % loss "
+             "of the relative speed) turning at 600 rpm, pitch radius 0.45 m (U = omega r = "
+             "28.3 m/s). Shaft torque T = mdot r (V - U)(1 - (1 - k) cos b); best speed near "
+             "V / 2, in rpm."),
+    "nozzle_carriage.xlsx": Scenario(
+        report=dict(project="portflux examples (invented)",
+                    case="nozzle at 5 bar gauge on a carriage deflector", revision="A"),
+        title="Example: nozzle fed at 5 bar gauge on a deflector riding a carriage (invented)",
+        ports=(("port", "role", "frame", "diameter", "supply_pressure", "velocity_coef",
+                "contraction_coef", "density", "angle", "closure", "loss", "rx", "ry", "rz"),
+               (None, None, None, "mm", "bar", None, None, "kg/m^3", "deg", None, None, "m",
+                "m", "m"),
+               ("nozzle", "in", "abs", 30.0, 5.0, 0.98, 0.95, 998.0, 0.0, None, None, 0.0,
+                0.6, 0.0),
+               ("deflector lip", "out", "rel", None, None, None, None, 998.0, 150.0, "loss",
+                0.05, 0.0, 0.6, 0.0)),
+        cv_velocity=(8.0, 0.0, 0.0), cv_unit="m/s", units="SI; force=kN; moment=kN*m",
+        settings={"dynamic_factor": (2.0, None), "load_factor": (1.5, None)},
+        sweep=dict(low=0.0, high=30.0, unit="m/s", direction=0.0, force=1.0,
+                   units="SI; force=kN; moment=kN*m"),
+        note="Invented example: a 30 mm nozzle fed at 5 bar gauge (C_v 0.98, C_c 0.95) on a "
+             "150 deg deflector losing 5 % of the relative speed, riding a carriage at 8 m/s; "
+             "the mount is 0.6 m below the jet line. Design factors 2 (suddenly applied jet) "
+             "and 1.5 (invented; take yours from your code)."),
 }
 
 

@@ -494,6 +494,10 @@ CATALOGUE = [
      ["low, high: low must be below high (got low 30 m/s, high 0 m/s)"]),
     ("envelope bracket end in psi", C.PFX_ENVELOPE, (POSED, 0.0, (30.0, "psi")),
      ["high, unit: unit 'psi' is a pressure unit, expected a velocity unit"]),
+    # ---- the input checksum ---------------------------------------------------------------------
+    ("checksum over more than a million cells", C.PFX_CHECKSUM,
+     (VANE, 0.0, None, None, ((0.0,) * 1000,) * 1001),
+     ["inputs: more than 1,000,000 cells selected in all", "select the input ranges only"]),
     # ---- nozzles given by supply pressure and diameter ---------------------------------------
     ("supply pressure and a speed both given", P,
      (nozzle(speed=30.0), 0.0),

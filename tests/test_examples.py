@@ -81,3 +81,57 @@ def test_waterjet_craft_thrust_and_froude_efficiency(tmp_path):
     assert s["propulsive efficiency [-]"] == pytest.approx(2 / (1 + Vj / V0), rel=1e-12)
     assert s["power to body [hp]"] == pytest.approx(m * (Vj - V0) * V0 / 550, rel=1e-12)
     assert best["speed of maximum power [ft/s]"] == pytest.approx(Vj / 2, rel=1e-6)
+
+
+def test_wheel_in_rpm_shaft_torque_and_best_speed(tmp_path):
+    # Vane train (bucket wheel) with bucket loss k, U = omega r: the shaft torque is
+    # T = mdot r (V - U)(1 - (1-k) cos b) with mdot = rho A V (Euler's turbine equation; Dixon,
+    # Fluid Mechanics and Thermodynamics of Turbomachinery, from memory); the power
+    # mdot (V-U) U (1 - (1-k) cos b) is largest at U = V/2; 1 rpm = 2 pi / 60 rad/s (NIST SP 811).
+    out, s, best = _solve("wheel_rpm.xlsx", tmp_path)
+    rho, A, V, r, b, k = 998.0, 1256.6e-6, 60.0, 0.45, math.radians(165), 0.05
+    U = 600.0 * 2 * math.pi / 60 * r
+    mdot = rho * A * V
+    torque = mdot * r * (V - U) * (1 - (1 - k) * math.cos(b))
+    wb = openpyxl.load_workbook(out, data_only=True)
+    lay = T_layout()
+    shown_torque = wb[T.CV][lay.panel["torque"].replace("$", "")].value
+    assert shown_torque == pytest.approx(torque, rel=1e-9)
+    assert s["power to body [kW]"] == pytest.approx(torque * U / r / 1000, rel=1e-9)
+    assert best["speed of maximum power [rpm]"] == pytest.approx(V / 2 / r * 60 / (2 * math.pi),
+                                                                 rel=1e-6)
+    # the panel's torque is the one on the Report
+    rep = wb["Report"]
+    shown = [c.value for row in rep.iter_rows() for c in row if isinstance(c.value, float)
+             and c.value == pytest.approx(torque, rel=1e-12)]
+    assert shown, "the shaft torque is not on the Report"
+
+
+def test_nozzle_from_supply_pressure_with_positions_loss_and_factors(tmp_path):
+    # Nozzle: V = C_v sqrt(2 dp / rho), A = C_c pi d^2 / 4 (White, Fluid Mechanics, sec. 6.12,
+    # from memory); single vane with loss k: F_x = rho A (V-U)^2 (1 - (1-k) cos th); the ports
+    # sit h above the mount: M_z = -h F_x (moment of a force about a point below its line,
+    # common practice, no source); the worst F_x of the sweep is at U = 0: rho A V^2 (...),
+    # factored by 2 x 1.5 (the example's invented factors).
+    out, s, best = _solve("nozzle_carriage.xlsx", tmp_path)
+    rho, d, dp, cv, cc, U, th, k, h = 998.0, 0.03, 5e5, 0.98, 0.95, 8.0, math.radians(150), \
+        0.05, 0.6
+    V = cv * math.sqrt(2 * dp / rho)
+    A = cc * math.pi * d ** 2 / 4
+    turn = 1 - (1 - k) * math.cos(th)
+    fx = rho * A * (V - U) ** 2 * turn
+    assert s["force on body x [kN]"] == pytest.approx(fx / 1000, rel=1e-9)
+    assert s["moment on body z [kN*m]"] == pytest.approx(-h * fx / 1000, rel=1e-9)
+    wb = openpyxl.load_workbook(out, data_only=True)
+    et = T_layout().sweep_cells["envelope_top"]
+    sw = wb[T.SWEEP]
+    assert sw.cell(row=et + 1, column=1).value == "force on body x [kN]"
+    assert sw.cell(row=et + 1, column=4).value == pytest.approx(rho * A * V ** 2 * turn / 1000,
+                                                                rel=1e-9)
+    assert sw.cell(row=et + 1, column=5).value == 0.0          # at U = 0
+    assert sw.cell(row=et + 1, column=6).value == pytest.approx(
+        3.0 * rho * A * V ** 2 * turn / 1000, rel=1e-9)
+
+
+def T_layout():
+    return T.layout()

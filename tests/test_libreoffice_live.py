@@ -66,6 +66,7 @@ def _args(sc):
     for key, table in (("ports", sc["ports"]), ("settings", sc["settings"]),
                        ("speeds", sc["speeds"]), ("cv_velocity", sc["cv"])):
         args[key] = (RANGES[key], table)
+    args["inputs"] = (RANGES["speeds"], sc["speeds"])      # PFX_CHECKSUM's further range
     return args
 
 
@@ -197,7 +198,8 @@ def test_bad_input_shows_the_same_message_in_the_cell_as_in_python(doc, what, ta
     assert sheet.getCellRangeByName("H3").getString() == want
 
 
-def test_function_wizard_shows_the_registry_names_and_help(office):
+def _wizard(office):
+    """{name: properties} of every PFX_ function as Calc's function wizard describes it."""
     descs = office.ctx.ServiceManager.createInstanceWithContext(
         "com.sun.star.sheet.FunctionDescriptions", office.ctx)
     shown = {}
@@ -205,9 +207,40 @@ def test_function_wizard_shows_the_registry_names_and_help(office):
         props = {p.Name: p.Value for p in descs.getByIndex(i)}
         if str(props.get("Name", "")).startswith("PFX_"):
             shown[props["Name"]] = props
+    return shown
+
+
+def test_function_wizard_shows_the_registry_names_and_help(office):
+    shown = _wizard(office)
     reg = functions()
     assert set(shown) == set(reg)
     for name, f in reg.items():
         assert shown[name]["Description"] == f.help
         args = shown[name]["Arguments"] or ()
         assert [(a.Name, a.Description) for a in args] == [(a.name, a.doc) for a in f.args]
+
+
+def test_function_wizard_marks_the_required_and_the_optional_arguments(office):
+    # Calc's wizard marks an argument "(optional)" when FunctionDescriptions says IsOptional;
+    # it must say so for exactly the arguments with a default in Python
+    shown = {name: [(a.Name, bool(a.IsOptional)) for a in props["Arguments"] or ()]
+             for name, props in _wizard(office).items()}
+    for name, f in functions().items():
+        assert shown[name] == [(a.name, a.optional) for a in f.args], name
+    assert ("ports", False) in shown["PFX_SUMMARY"] and ("units", True) in shown["PFX_SUMMARY"]
+
+
+def test_a_failing_array_formula_repeats_its_message_in_every_cell_as_readme_says(doc):
+    # README: an array formula over a fixed range repeats a message in every cell
+    sheet = doc.Sheets.getByIndex(0)
+    table = BAD[0][1]
+    sheet.getCellRangeByPosition(0, 0, 4, 2).setDataArray(calc_rows(table))
+    sheet.getCellRangeByName("H3:J4").setArrayFormula("=PFX_BODYFORCE($A$1:$E$3;5)")
+    doc.calculateAll()
+    want = C.PFX_BODYFORCE(table, 5.0)
+    got = [sheet.getCellRangeByName(c).getString() for c in ("H3", "J3", "H4", "J4")]
+    assert got == [want] * 4
+    import os
+    readme = open(os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))),
+                               "README.md"), encoding="utf-8").read()
+    assert "repeats it in every cell" in readme

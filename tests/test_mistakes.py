@@ -274,6 +274,8 @@ EXPECTED = {
     "example carriage_vane.xlsx": "none",
     "example bucket_wheel.xlsx": "none",
     "example waterjet_craft.xlsx": "none",
+    "example wheel_rpm.xlsx": "none",
+    "example nozzle_carriage.xlsx": "none",
     "demo carriage_vane": "none",
 }
 

@@ -198,7 +198,7 @@ def test_values_only_copy_keeps_values_and_charts_but_no_formulas(tmp_path):
     import zipfile
 
     with zipfile.ZipFile(out) as z:
-        assert sum(n.startswith("xl/charts/chart") for n in z.namelist()) == 5
+        assert sum(n.startswith("xl/charts/chart") for n in z.namelist()) == 6
     c, r, n, _ = T.SUMMARY_AT
     vals = dict(r for r in wb[T.CV].iter_rows(min_row=r, max_row=r + n - 1, max_col=2,
                                               values_only=True))

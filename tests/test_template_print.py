@@ -67,10 +67,15 @@ def test_each_sheet_prints_on_its_planned_pages(tmp_path, paper):
     assert _pages_per_sheet(pdf) == PAGES
     text = subprocess.run([PDFTOTEXT, "-layout", str(pdf), "-"], capture_output=True,
                           text=True, check=True).stdout
-    # the template's vane: support force x = -1477.10 N, power 11816.81 W (values of
-    # PFX_SUPPORT / PFX_POWER); shown with one decimal from 100 up, the sign kept, and no
+    # the template's vane: support force x = -1477.10 N (resultant 1598.80 N), power 11816.81 W
+    # (values of PFX_SUPPORT / PFX_POWER): four significant figures of each quantity's largest
+    # magnitude, no decimals from 1,000 up, the sign kept, the same text on every sheet that
+    # shows the quantity (the panel and forces block of 'Control volume', the Report), and no
     # float noise in exponent form anywhere
-    assert "-1,477.1" in text and "11,816.8" in text
+    pages = {p.strip().splitlines()[-1].split()[1]: p for p in text.split("\f") if p.strip()}
+    for page in (pages["Report"], pages["Control"]):
+        assert "-1,477" in page and "1,599" in page and "11,817" in page
+        assert "-1,477.1" not in page and "11,816.8" not in page
     shown = [p for p in text.split("\f") if T.CHECKS not in p]   # tolerances there are 1E-12
     assert not any(re.search(r"\dE-\d\d", p) for p in shown)
 
@@ -83,7 +88,8 @@ def test_report_command_writes_a_one_page_pdf_of_the_demo_case(tmp_path, capsys)
                           text=True, check=True).stdout
     assert text.count("\f") == 1                     # one page
     for phrase in ("Calculation report", "force on the body", "support force R",
-                   "PASS of", "moment on body (at support)", "design force (factored)",
+                   "PASS of", "moment on the body (about ref)", "factored (design)",
+                   "at speed [m/s]", "input checksum (SHA-256)", "shaft torque",
                    "licensed engineering practice", "best speed"):
         assert phrase in text, phrase
     assert "report written" in capsys.readouterr().out

@@ -34,8 +34,25 @@ def inputs():
     low, high = (sw[lay.sweep_cells[k].replace("$", "")].value for k in ("low", "high"))
     speeds = (("m/s",),) + tuple((low + k * (high - low) / (T.SWEEP_POINTS - 1),)
                                  for k in range(T.SWEEP_POINTS))
-    return dict(P=_grid(cv, lay.ports.ref), cv=((x, y, z, unit),), U="SI",
-                S=_grid(cv, lay.settings_ref), speeds=speeds, low=low, high=high, lay=lay)
+    P, S = _grid(cv, lay.ports.ref), _grid(cv, lay.settings_ref)
+    # a wheel in rpm: the same table, the settings with a wheel radius in a spare row, the CV
+    # velocity, the speeds and the bracket in rpm (the speed functions answer one more row or
+    # column: the shaft torque)
+    spare = next(i for i, r in enumerate(S) if i and all(c in (None, "") for c in r))
+    S_rpm = S[:spare] + (("wheel_radius", 0.6, "m"),) + S[spare + 1:]
+    rpm = (("rpm",),) + tuple((k * 1000.0 / (T.SWEEP_POINTS - 1),)
+                              for k in range(T.SWEEP_POINTS))
+    # nozzles: the first port's jet from a supply pressure and a diameter, no speed typed
+    cols = [str(h).strip() for h in P[0]]
+    row = list(P[2])
+    for name, v in (("speed", None), ("area", None), ("supply_pressure", 300.0),
+                    ("diameter", 20.0), ("velocity_coef", 0.97), ("contraction_coef", 0.9)):
+        row[cols.index(name)] = v
+    P_noz = P[:2] + (tuple(row),) + P[3:]
+    return dict(P=P, cv=((x, y, z, unit),), U="SI", S=S, speeds=speeds,
+                low=(low, "m/s"), high=(high, "m/s"), lay=lay, S_rpm=S_rpm,
+                cv_rpm=((240.0, 0.0, 0.0, "rpm"),), speeds_rpm=rpm, low_rpm=(0.0, "rpm"),
+                high_rpm=(1000.0, "rpm"), P_noz=P_noz)
 
 
 #: Ten ports: one jet split over nine outlets (invented), the template's largest port table.
@@ -61,6 +78,48 @@ def _shape(result):
 
 
 def _answers(i):
+    """Each function's answers on the template's inputs, its worst cases, a wheel in rpm and
+    a nozzle from supply pressure."""
+    out = _linear(i)
+    for name, more in _rpm_and_nozzles(i).items():
+        out[name] = out[name] + more
+    return out
+
+
+def _rpm_and_nozzles(i):
+    P, S, U, cv = i["P"], i["S_rpm"], i["U"], i["cv_rpm"]
+    lo, hi = i["low_rpm"], i["high_rpm"]
+    N = i["P_noz"]
+    return {
+        "PFX_SUMMARY": [cells.PFX_SUMMARY(P, cv, U, S), cells.PFX_SUMMARY(N, i["cv"], U, i["S"])],
+        "PFX_RELVELS": [cells.PFX_RELVELS(P, cv, U, True, S),
+                        cells.PFX_RELVELS(N, i["cv"], U, True, i["S"])],
+        "PFX_ABSVEL": [cells.PFX_ABSVEL(P, cv, U, True, S),
+                       cells.PFX_ABSVEL(N, i["cv"], U, True, i["S"])],
+        "PFX_MASSFLOWS": [cells.PFX_MASSFLOWS(P, cv, U, True, S),
+                          cells.PFX_MASSFLOWS(N, i["cv"], U, True, i["S"])],
+        "PFX_IMBALANCE": [cells.PFX_IMBALANCE(P, cv, None, U, S)],
+        "PFX_SUPPORT": [cells.PFX_SUPPORT(P, cv, None, U, S)],
+        "PFX_BODYFORCE": [cells.PFX_BODYFORCE(P, cv, None, U, S),
+                          cells.PFX_BODYFORCE(N, i["cv"], None, U, i["S"])],
+        "PFX_FRAMECHECK": [cells.PFX_FRAMECHECK(P, cv, U, S)],
+        "PFX_WARNINGS": [cells.PFX_WARNINGS(P, cv, S), cells.PFX_WARNINGS(N, i["cv"], i["S"])],
+        "PFX_SPEEDTABLE": [cells.PFX_SPEEDTABLE(P, i["speeds_rpm"], 0.0, U, S),
+                           cells.PFX_SPEEDTABLE(N, i["speeds"], 0.0, U, i["S"])],
+        "PFX_BESTSPEED": [cells.PFX_BESTSPEED(P, lo, hi, 0.0, U, S),
+                          cells.PFX_BESTSPEED(P, lo, (50.0, "rpm"), 0.0, U, S),
+                          cells.PFX_BESTSPEED(N, i["low"], i["high"], 0.0, U, i["S"])],
+        "PFX_SPEEDATFORCE": [cells.PFX_SPEEDATFORCE(P, (500.0, "N"), lo, hi, "along", 0.0, U,
+                                                    S)],
+        "PFX_MOMENT": [cells.PFX_MOMENT(P, cv, None, U, S)],
+        "PFX_SUPPORTMOMENT": [cells.PFX_SUPPORTMOMENT(P, cv, None, U, S)],
+        "PFX_RESULTANT": [cells.PFX_RESULTANT(P, cv, "moment", U, S)],
+        "PFX_ENVELOPE": [cells.PFX_ENVELOPE(P, lo, hi, 0.0, U, S),
+                         cells.PFX_ENVELOPE(N, i["low"], i["high"], 0.0, U, i["S"])],
+    }
+
+
+def _linear(i):
     P, cv, U, S = i["P"], i["cv"], i["U"], i["S"]
     lo, hi = i["low"], i["high"]
     far = ((40.0, 0.0, 0.0, "m/s"),)
@@ -82,11 +141,12 @@ def _answers(i):
         "PFX_SPEEDTABLE": [cells.PFX_SPEEDTABLE(P, i["speeds"], 0.0, U, S)],
         # inside the bracket; an edge maximum (the note must show: 8 rows); a bad bracket
         "PFX_BESTSPEED": [cells.PFX_BESTSPEED(P, lo, hi, 0.0, U, S),
-                          cells.PFX_BESTSPEED(P, 0.0, 4.0, 0.0, U, S),
+                          cells.PFX_BESTSPEED(P, (0.0, "m/s"), (4.0, "m/s"), 0.0, U, S),
                           cells.PFX_BESTSPEED(P, hi, lo, 0.0, U, S)],
-        "PFX_SPEEDATFORCE": [cells.PFX_SPEEDATFORCE(P, 500.0, lo, hi, "along", 0.0, U, S),
-                             cells.PFX_SPEEDATFORCE(P, 5e6, lo, hi, "along", 0.0, U, S),
-                             cells.PFX_SPEEDATFORCE(P, 1.0, lo, hi, "along", 0.0, U, S)],
+        "PFX_SPEEDATFORCE": [cells.PFX_SPEEDATFORCE(P, (500.0, "N"), lo, hi, "along", 0.0, U, S),
+                             cells.PFX_SPEEDATFORCE(P, (5e6, "N"), lo, hi, "along", 0.0, U, S),
+                             cells.PFX_SPEEDATFORCE(P, (1.0, "N"), lo, hi, "along", 0.0, U,
+                                                    S)],
         # a table without positions answers with one message (1 x 1)
         "PFX_MOMENT": [cells.PFX_MOMENT(P, cv, None, U, S), cells.PFX_MOMENT(TEN, cv, None, U)],
         "PFX_SUPPORTMOMENT": [cells.PFX_SUPPORTMOMENT(P, cv, None, U, S)],
@@ -118,9 +178,18 @@ def test_every_array_range_fits_its_functions_largest_answer(inputs):
 
 
 def test_edge_maximum_note_is_inside_the_best_speed_range(inputs):
+    # the longest answer: an edge maximum of a wheel in rpm (its note and a shaft-torque row)
     i = inputs
-    r = cells.PFX_BESTSPEED(i["P"], 0.0, 4.0, 0.0, i["U"], i["S"])
+    r = cells.PFX_BESTSPEED(i["P"], (0.0, "rpm"), (50.0, "rpm"), 0.0, i["U"], i["S_rpm"])
     assert "edge" in str(r[-1][1]).lower() and len(r) == T.LARGEST["PFX_BESTSPEED"][0]
+    assert any("shaft torque" in str(row[0]) for row in r)
+
+
+def test_a_wheel_in_rpm_and_a_nozzle_give_numbers_in_every_block(inputs):
+    # the rpm and nozzle answers the range test sizes are results, not messages
+    for name, answers in _rpm_and_nozzles(inputs).items():
+        for a in answers:
+            assert isinstance(a, list) or a == "none", (name, a)    # 'none': no warning
 
 
 @pytest.fixture(scope="module")
@@ -147,7 +216,8 @@ def probed(tmp_path_factory):
     # the same template with a slip_angle typed on the first row below the settings range
     s_last = T.SETTINGS_TOP + T.SETTINGS_ROWS
     ws["A" + str(s_last + 1)], ws["B" + str(s_last + 1)] = "slip_angle", 30.0
-    ws["A" + str(T.PORTS_TOP + 2 + T.MAX_PORTS)] = "port 11"       # first row below the ports
+    below = T.get_column_letter(T.PORT_LEFT) + str(T.PORTS_TOP + 2 + T.MAX_PORTS)
+    ws[below] = "port 11"                                         # first row below the ports
     src2 = tmp / "stray.xlsx"
     wb.save(src2)
     out2 = tmp / "stray_out.xlsx"

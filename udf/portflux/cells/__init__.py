@@ -28,6 +28,7 @@ from __future__ import annotations
 
 import xlwings as xw
 
+from . import _checksum as H
 from . import _functions as F
 from . import _speeds as S
 from ._grid import CellError
@@ -71,6 +72,7 @@ ARG_DOCS = {
                  "magnitude.",
     "quantity": "force (the force on the body, default) or moment (the moment on the body about "
                 "the reference point).",
+    "inputs": "Any further range of input cells to include (e.g. the speed sweep's inputs).",
 }
 
 #: Read options passed to xlwings for every argument. ``err_to_str`` makes xlwings hand over a
@@ -780,6 +782,30 @@ def PFX_ENVELOPE(ports, low, high, direction=None, units=None, settings=None):
     """
     return _guarded("PFX_ENVELOPE", S.envelopeblock, ports, low, high, direction, units,
                     settings)
+
+
+# --------------------------------------------------------------------------------------------
+# the input checksum (cells/_checksum.py)
+# --------------------------------------------------------------------------------------------
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "units", "settings", "inputs")
+def PFX_CHECKSUM(ports, cv_velocity, units=None, settings=None, inputs=None):
+    """Input checksum: the SHA-256 (64 hexadecimal digits) of every cell a calculation depends
+    on (port table, CV velocity, output units, settings and a further input range).
+
+    Equation: checksum = SHA-256(canonical text of the cell values, row by row); the text is
+    the same whichever bridge hands the cells over (blank cells as None or '', TRUE as 1), so
+    Excel, LibreOffice and portflux recalc agree. Any changed number, text or unit changes it.
+
+    >>> t = (("port", "area"), (None, "m^2"), ("jet", 0.01))
+    >>> a = PFX_CHECKSUM(t, ((5.0, 0.0, 0.0, "m/s"),), "SI")
+    >>> len(a), a == PFX_CHECKSUM(t, ((5.0, 0.0, 0.0, "ft/s"),), "SI")
+    (64, False)
+
+    Reference: NIST FIPS 180-4, Secure Hash Standard (2015), SHA-256, through Python's hashlib.
+    """
+    return _guarded("PFX_CHECKSUM", H.checksum, ports, cv_velocity, units, settings, inputs)
 
 
 PUBLIC = tuple(sorted(n for n in dir() if n.startswith("PFX_")))

@@ -1043,7 +1043,16 @@ class Model:
 
     def suspects(self, V, bad, r) -> str:
         """The row most likely wrong when the mass does not balance at the CV velocities ``V``
-        (m, 3) where ``bad``: a port whose other frame, or other role, balances the mass."""
+        (m, 3) where ``bad``: a closed outlet whose area is typed as well, a port whose other
+        frame, or other role, balances the mass."""
+        fixed = [j for j in self.cl if not self.flow[j] and not self.given[j]
+                 and self.rho_a0[j] > 0]
+        if fixed:                    # its closure sets the speed, its typed area the flow
+            j, name = fixed[0], self.ports.names[fixed[0]]
+            rule = self.closures.rule[j]
+            return (f"port {name} has closure '{rule}', which sets its relative speed, and its "
+                    f"area is typed too, which then fixes its flow; leave the area of port "
+                    f"{name} blank so that continuity gives its flow")
         if self.train or self.flow.any():
             return ""
         VT = V[bad].T

@@ -19,7 +19,7 @@ from openpyxl.utils import get_column_letter
 
 from .. import __version__
 from .drawing import (BOLD, HEAD_FILL, INPUT_FILL, OUTPUT_FILL, TITLE_FONT, cell, cv_row,
-                      port_table, put, settings_block)
+                      port_table, put, rng, settings_block)
 
 INDEX_TOP = 4
 #: Output and expected values: six decimals (the comparison itself uses full precision).
@@ -78,10 +78,13 @@ class Sheet:
             extras.update({name: cell(left + 1, r + 1 + i)
                            for i, (name, _, _) in enumerate(settings)})
             r += len(settings) + 2
-        for name, value in (extra or ()):
+        for name, value, *unit in (extra or ()):
             put(ws, left, r, name, font=BOLD)
             put(ws, left + 1, r, value, fill=INPUT_FILL)
             extras[name] = cell(left + 1, r)
+            if unit:                # a value with its unit cell beside it: both are read
+                put(ws, left + 2, r, unit[0], fill=INPUT_FILL)
+                extras[name + " and unit"] = rng(left + 1, r, left + 2, r)
             r += 1
         self.col += max(len(columns), 5) + 1
         return t, cvref, cvx, sref, extras
@@ -164,6 +167,18 @@ def _vane_cases(s: Sheet):
     s.add("body faster than the jet: warning names the outrun inlet", "PFX_WARNINGS",
           f"=LEFT(INDEX(PFX_WARNINGS({t2.ref},{cv2}),1,1),27)", "port nozzle: declared inlet",
           None, TRADE)
+    # the input checksum: a SHA-256 digest is 64 hexadecimal digits; blocks A and B type the
+    # same port table (same digest) at other CV speeds (other digest)
+    sha = "NIST FIPS 180-4, Secure Hash Standard, SHA-256 (256-bit digest)"
+    s.add("input checksum: 64 hexadecimal digits (SHA-256)", "PFX_CHECKSUM",
+          f"=LEN(PFX_CHECKSUM({P},{cv}))", "=256/4", 0.0, sha)
+    s.add("input checksum: the same port table typed twice gives one digest", "PFX_CHECKSUM",
+          f'=IF(EXACT(PFX_CHECKSUM({P},{cv})&"",PFX_CHECKSUM({t2.ref},{cv})&""),"same",'
+          f'"differs")',
+          "same", None, sha + "; " + TRADE)
+    s.add("input checksum: another CV speed gives another digest", "PFX_CHECKSUM",
+          f'=IF(EXACT(PFX_CHECKSUM({P},{cv})&"",PFX_CHECKSUM({t2.ref},{cv2})&""),"same",'
+          f'"differs")', "differs", None, sha + "; " + TRADE)
 
 
 def _us_vane_cases(s: Sheet):
@@ -298,7 +313,7 @@ def _support_load_cases(s: Sheet):
          ("exit", "out", 3e-4, 998.0, None, 135.0, "free", 0.35)),
         (6.0, 0.0, 0.0), "m/s",
         settings=(("dynamic_factor", 2.0, None), ("load_factor", 1.5, None)),
-        extra=(("low", 0.0), ("high", 20.0)))
+        extra=(("low", 0.0, "m/s"), ("high", 20.0, "m/s")))
     rho, A, V, th, h = (t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"),
                         t.at(1, "angle"), t.at(0, "ry"))
     k = f"{rho}*{A}*({V}-{U})^2"
@@ -318,7 +333,7 @@ def _support_load_cases(s: Sheet):
     s.add("moment resultant: elevation -90 deg (M along -z)", "PFX_RESULTANT",
           f'=INDEX(PFX_RESULTANT({t.ref},{cv},"moment",,{sref}),1,3)', "=-90", 1e-12,
           lever + "direction angles")
-    low, high = c["low"], c["high"]
+    low, high = c["low and unit"], c["high and unit"]
     env = f"PFX_ENVELOPE({t.ref},{low},{high},,,{sref})"
     f0 = f"{rho}*{A}*{V}^2*(1-{cos_deg(th)})"
     s.add("envelope: largest F_x at U = 0, rho A V^2 (1 - cos th)", "PFX_ENVELOPE",

@@ -3,8 +3,6 @@
 from __future__ import annotations
 
 from .cases import PLATE, TRADE, WHEEL, WHITE, cos_deg
-from openpyxl.utils import column_index_from_string, get_column_letter
-
 from .drawing import put, rng
 
 COLS = ("port", "role", "frame", "area", "density", "speed", "angle", "closure", "loss",
@@ -30,10 +28,11 @@ def closure_cases(s) -> None:
                                ("exit", "out", "rel", 0.002, 998.0, None, 120.0, "free", None,
                                 None)),
                               (10.0, 0.0, 0.0), "m/s",
-                              extra=(("force to find [N]", 500.0), ("low [m/s]", 0.0),
-                                     ("high [m/s]", 30.0)))
+                              extra=(("force to find", 500.0, "N"), ("low", 0.0, "m/s"),
+                                     ("high", 30.0, "m/s")))
     rho, A, V, th = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"), t.at(1, "angle")
-    F, lo, hi = ex["force to find [N]"], ex["low [m/s]"], ex["high [m/s]"]
+    F, Fu = ex["force to find"], ex["force to find and unit"]
+    lo, hi = ex["low and unit"], ex["high and unit"]
     sp = _speeds(s, left + 8, 78, (0.0, f"={V}/3", f"=2*{V}/3", f"=1.2*{V}"))
     pmax = f"4/27*{rho}*{A}*{V}^3*(1-{cos_deg(th)})"
     P = t.ref
@@ -46,7 +45,7 @@ def closure_cases(s) -> None:
     s.add("maximum power of a single vane (4/27) rho A V^3 (1 - cos th)", "PFX_BESTSPEED",
           f"=INDEX(PFX_BESTSPEED({P},{lo},{hi}),3,2)", f"={pmax}", 1e-9, WHITE)
     s.add("speed at which F_x falls to F: U = V - sqrt(F / (rho A (1 - cos th)))",
-          "PFX_SPEEDATFORCE", f'=INDEX(PFX_SPEEDATFORCE({P},{F},{lo},{hi},"x"),2,2)',
+          "PFX_SPEEDATFORCE", f'=INDEX(PFX_SPEEDATFORCE({P},{Fu},{lo},{hi},"x"),2,2)',
           f"={V}-SQRT({F}/({rho}*{A}*(1-{cos_deg(th)})))", 1e-6, WHITE)
 
     # I. Invented bucket wheel: the same jet, 165 deg buckets, a vane train.
@@ -56,9 +55,9 @@ def closure_cases(s) -> None:
                                   ("bucket exit", "out", "rel", 0.002, 998.0, None, 165.0, "free",
                                    None, None)),
                                  (15.0, 0.0, 0.0), "m/s", settings=(("intercept", "train", None),),
-                                 extra=(("low [m/s]", 0.0), ("high [m/s]", 30.0)))
+                                 extra=(("low", 0.0, "m/s"), ("high", 30.0, "m/s")))
     V, b = t.at(0, "speed"), t.at(1, "angle")
-    lo, hi = ex["low [m/s]"], ex["high [m/s]"]
+    lo, hi = ex["low and unit"], ex["high and unit"]
     s.add("best speed of a bucket wheel is V/2", "PFX_BESTSPEED",
           f"=INDEX(PFX_BESTSPEED({t.ref},{lo},{hi},,,{sref}),2,2)", f"={V}/2", 1e-6, WHEEL)
     s.add("ideal bucket-wheel efficiency (1 - cos beta)/2", "PFX_BESTSPEED",
@@ -148,14 +147,6 @@ EULER = ("Euler's turbine equation T = mdot r (V_theta1 - V_theta2), S. L. Dixon
          "1 rpm = 2 pi / 60 rad/s, NIST SP 811 Appendix B")
 
 
-def _with_unit(ws, ref, unit):
-    """A value cell and a unit cell written to its right: the range of both."""
-    col, row = ref.replace("$", " ").split()
-    right = get_column_letter(column_index_from_string(col) + 1)
-    put(ws, column_index_from_string(col) + 1, int(row), unit)
-    return f"{ref}:${right}${row}"
-
-
 def wheel_rpm_cases(s) -> None:
     """A bucket wheel typed in rpm with its radius: torque and best speed in rpm."""
     # N. Invented: the wheel of case I, 0.5 m pitch radius, turning at 240 rpm.
@@ -168,11 +159,11 @@ def wheel_rpm_cases(s) -> None:
                                  (240.0, 0.0, 0.0), "rpm",
                                  settings=(("intercept", "train", None),
                                            ("wheel_radius", 0.5, "m")),
-                                 extra=(("low [rpm]", 0.0), ("high [rpm]", 1000.0)))
+                                 extra=(("low", 0.0, "rpm"), ("high", 1000.0, "rpm")))
     P = t.ref
     rho, A, V, b = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"), t.at(1, "angle")
     r = ex["wheel_radius"]
-    lo, hi = (_with_unit(s.ws, ex[k], "rpm") for k in ("low [rpm]", "high [rpm]"))
+    lo, hi = ex["low and unit"], ex["high and unit"]
     U = f"({n}*2*PI()/60*{r})"
     euler = f"{rho}*{A}*{V}*{r}*({V}-({U}+({V}-{U})*{cos_deg(b)}))"
     s.add("wheel shaft torque = mdot r (V_theta1 - V_theta2) at n rpm", "PFX_SHAFTTORQUE",

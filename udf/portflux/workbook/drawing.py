@@ -10,7 +10,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from openpyxl.chart import Reference, ScatterChart, Series
 from openpyxl.chart.data_source import StrData, StrRef, StrVal
+from openpyxl.chart.layout import Layout as ChartLayout, ManualLayout
 from openpyxl.chart.text import Text
 from openpyxl.chart.title import Title
 from openpyxl.formatting.rule import Rule
@@ -29,22 +31,31 @@ BIG_FONT = Font(bold=True, size=13)
 BOLD = Font(bold=True)
 ITALIC = Font(italic=True)
 RED_BOLD = Font(bold=True, color="C00000")
+SMALL = Font(italic=True, color="808080", size=9)     # row labels, notes
 THIN = Side(style="thin", color="BFBFBF")
 BOX = Border(left=THIN, right=THIN, top=THIN, bottom=THIN)
 END_LINE = Border(bottom=Side(style="medium", color="808080"))
 WRAP = Alignment(wrap_text=True, vertical="top")
 
-# Number formats of computed cells. The rule (documented in DEVELOPERS.md): three decimals below
-# a magnitude of 100, one decimal with thousands separators from 100 up (a conditional format,
-# :func:`big_numbers`) — at least four significant figures for every value of 1 or more. Values
+# Number formats of computed cells: ONE rule for every computed number, documented in
+# DEVELOPERS.md. A quantity shows four significant figures of its largest magnitude, and every
+# cell of that quantity (the components and the resultant of a vector, a column of a table, the
+# same value on the panel, the sheet and the Report) gets the same number of decimals:
+# 0 decimals from 1,000 up, 1 from 100, 2 from 10, 3 from 1, 4 from 0.1, 5 from 0.01, and
+# scientific notation below. It is a conditional format keyed to the quantity's largest
+# magnitude (:func:`significant`): a number format cannot count significant figures, and
+# LibreOffice drops the minus sign of a format with [>=100] sections (seen with 25.2). Values
 # below the round-off of their block are set to 0 by the block's display formula, so no 3.4E-15
-# ever shows. Ratios (efficiencies) to three decimals. Inputs keep the General format: what the
-# user typed. (A number format with [>=100] conditions loses the minus sign of its last section in
-# LibreOffice, so the magnitude switch is a conditional format.)
-NUMBER = "#,##0.000;-#,##0.000"
-LARGE = "#,##0.0;-#,##0.0"
+# ever shows. Ratios (efficiencies) always three decimals; counts none. Inputs keep the General
+# format: what the user typed.
+NUMBER = "0"                              #: the format of a quantity that is exactly 0
 RATIO = "0.000"
-SPEED = "0.000"
+COUNT = "0"
+SPEED = NUMBER
+#: (lowest magnitude, format) from the largest down; below the last: scientific
+LADDER = ((1000.0, "#,##0"), (100.0, "#,##0.0"), (10.0, "#,##0.00"), (1.0, "0.000"),
+          (0.1, "0.0000"), (0.01, "0.00000"), (1e-300, "0.000E+00"))
+LARGE = LADDER[0][1]
 
 
 def q(sheet: str) -> str:
@@ -182,12 +193,54 @@ def end_of_range(ws, c1, c2, r, text):
         put(ws, c2 + 1, r, text, font=Font(italic=True, color="808080", size=9))
 
 
-def big_numbers(ws, ref: str) -> None:
-    """Show numbers of 100 and more in ``ref`` (computed cells only) with one decimal."""
-    first = ref.replace("$", "").split(":")[0]
-    ws.conditional_formatting.add(ref.replace("$", ""), Rule(
-        type="expression", formula=[f"ABS({first})>=100"],
-        dxf=DifferentialStyle(numFmt=NumberFormat(numFmtId=200, formatCode=LARGE))))
+def _plain(ref: str) -> str:
+    return ref.replace("$", "").split("!")[-1]
+
+
+def significant(ws, ref: str, by: str = "cell", group: str | None = None) -> None:
+    """Number formats of the computed cells in ``ref``: four significant figures of the
+    quantity's largest magnitude, the same decimals in every cell of the quantity (see
+    :data:`LADDER`). The quantity is ``group`` (a range, e.g. the x, y, z and resultant cells
+    of a vector shown elsewhere too), else each cell (``by="cell"``), each row of ``ref``
+    (``"row"``: the components of a vector) or each column (``"col"``: a table column)."""
+    a, b = _plain(ref).split(":") if ":" in ref else (_plain(ref), _plain(ref))
+    c1, r1 = _split(a)
+    c2, r2 = _split(b)
+    if group is not None:
+        g = group
+    elif by == "row":
+        g = f"${c1}{r1}:${c2}{r1}"
+    elif by == "col":
+        g = f"{c1}${r1}:{c1}${r2}"
+    else:
+        g = f"{c1}{r1}"
+    m = f"MAX(ABS(MAX({g})),ABS(MIN({g})))" if (":" in g) else f"ABS({g})"
+    target = f"{c1}{r1}:{c2}{r2}"
+    for low, fmt in LADDER:
+        ws.conditional_formatting.add(target, Rule(
+            type="expression", formula=[f"{m}>={low!r}"], stopIfTrue=True,
+            dxf=DifferentialStyle(numFmt=NumberFormat(numFmtId=_FMT_IDS[fmt],
+                                                      formatCode=fmt))))
+    for row in ws[target]:
+        for x in (row if isinstance(row, tuple) else (row,)):
+            x.number_format = NUMBER
+
+
+_FMT_IDS = {fmt: 200 + k for k, (_, fmt) in enumerate(LADDER)}
+
+
+def count_when(ws, ref: str, condition: str) -> None:
+    """Show the numbers of ``ref`` without decimals where ``condition`` holds (written for the
+    top-left cell, relative references), e.g. a count inside a block of quantities. Call it
+    before :func:`significant` on the same cells: the first true condition wins."""
+    ws.conditional_formatting.add(_plain(ref), Rule(
+        type="expression", formula=[condition.replace("$", "")], stopIfTrue=True,
+        dxf=DifferentialStyle(numFmt=NumberFormat(numFmtId=199, formatCode="0"))))
+
+
+def _split(coord: str):
+    col = "".join(ch for ch in coord if ch.isalpha())
+    return col, int(coord[len(col):])
 
 
 def print_setup(ws, area, *, landscape, title_rows=None, fit_height=0, paper="A4",
@@ -221,13 +274,62 @@ def title_from(ref, shown: str):
     return Title(tx=Text(strRef=StrRef(f=ref, strCache=cache)), overlay=False)
 
 
+def axes_visible(ch):
+    """openpyxl hides the axes by default (delete=True); show them."""
+    ch.x_axis.delete = False
+    ch.y_axis.delete = False
+
+
+def triangle_chart(src, lay, size=9.5):
+    """The velocity-triangle chart over the chart points of sheet ``src`` ('Control volume'):
+    V, V_cv and w as arrows of two points, and an invisible square frame for equal scales."""
+    t = lay.triangle
+    pc, p0 = t["points"]
+    _, fr = t["frame"]
+    ch = ScatterChart()
+    ch.title = "Velocity triangle"
+    ch.style = 13
+    vel = lay.chart_units.label("velocity")
+    ch.x_axis.title = title_from(t["titles"][0], f"x [{vel}]")
+    ch.y_axis.title = title_from(t["titles"][1], f"y [{vel}]")
+    colours = ("1F4E79", "7F7F7F", "C00000")
+    for kk in range(3):
+        r0 = p0 + 2 * kk
+        xs = Reference(src, min_col=pc, min_row=r0, max_row=r0 + 1)
+        ys = Reference(src, min_col=pc + 1, min_row=r0, max_row=r0 + 1)
+        s = Series(ys, xs, title=t["names"][kk])
+        s.marker.symbol = "triangle"
+        s.graphicalProperties.line.solidFill = colours[kk]
+        s.graphicalProperties.line.width = 28575
+        ch.series.append(s)
+    xs = Reference(src, min_col=pc, min_row=fr, max_row=fr + 1)
+    ys = Reference(src, min_col=pc + 1, min_row=fr, max_row=fr + 1)
+    s = Series(ys, xs, title="frame")
+    s.marker.symbol = "none"
+    s.graphicalProperties.line.noFill = True
+    ch.series.append(s)
+    axes_visible(ch)
+    for ax in (ch.x_axis, ch.y_axis):          # labels at the edge, plain numbers
+        ax.tickLblPos = "low"
+        ax.number_format = "General"
+    ch.height = ch.width = size
+    ch.legend.position = "b"
+    # a square plot area: with the frame series both axes get the same range, so equal scales
+    ch.plot_area.layout = ChartLayout(manualLayout=ManualLayout(
+        layoutTarget="inner", xMode="edge", yMode="edge", x=0.2, y=0.12, w=0.6, h=0.6))
+    return ch
+
+
 def widths(ws, spec: dict):
     """Column widths: {column number or letter: width}."""
     for k, w in spec.items():
         ws.column_dimensions[k if isinstance(k, str) else get_column_letter(k)].width = w
 
 
-__all__ = ["BIG_FONT", "BOLD", "BOX", "HEAD_FILL", "INPUT_FILL", "ITALIC", "LARGE", "NUMBER",
-           "OUTPUT_FILL", "PANEL_FILL", "PortBlock", "RATIO", "RED_BOLD", "SPEED", "TITLE_FONT",
-           "WRAP", "array", "big_numbers", "cell", "cv_row", "end_of_range", "formula", "port_table",
-           "print_setup", "put", "q", "rng", "settings_block", "title_from", "widths"]
+__all__ = ["BIG_FONT", "BOLD", "BOX", "COUNT", "HEAD_FILL", "INPUT_FILL", "ITALIC", "LADDER",
+           "LARGE", "NUMBER", "OUTPUT_FILL", "PANEL_FILL", "PortBlock", "RATIO", "RED_BOLD",
+           "SMALL", "SPEED", "TITLE_FONT", "WRAP", "array", "axes_visible", "cell", "count_when",
+           "cv_row", "triangle_chart",
+           "end_of_range",
+           "formula", "port_table", "print_setup", "put", "q", "rng", "settings_block",
+           "significant", "title_from", "widths"]

@@ -34,7 +34,7 @@ def fill(template_path, out_path, sc: Scenario) -> str:
     """
     out_path = os.fspath(out_path)
     if template_path is None:
-        wb = T.build_workbook(units=sc.units)
+        wb = T.build_workbook(units=sc.units, speed_unit=sc.sweep.get("unit"))
     else:
         template_path = os.fspath(template_path)
         if os.path.abspath(template_path) == os.path.abspath(out_path):
@@ -57,8 +57,8 @@ def apply(wb, sc: Scenario, lay) -> None:
     for i in range(T.MAX_PORTS):                      # clear the template's example ports
         for j in range(len(lay.ports.columns)):
             ws.cell(row=top + 2 + i, column=left + j).value = None
-    for j in range(len(lay.ports.columns)):
-        ws.cell(row=top + 1, column=left + j).value = None
+    # the unit row keeps the template's unit of every column the scenario does not fill (a
+    # user who types a value there sees its unit); the scenario's columns get the scenario's
     for k, h in enumerate(header):
         key = problem.resolve_header(h)
         if key not in cols:

@@ -1,106 +1,132 @@
 """The 'Report' sheet of the template: one printed page a reviewer signs.
 
-Title block (project, case, author, checker, date, revision: yellow inputs; the portflux version
-and an input checksum filled in by formulas at every recalculation), the inputs in a compact
-table with units, the key results, a small power/force chart, the reference-case verdict and the
-cautions. Every value is a formula on the other sheets, so the page is always the calculation's.
+Everything the answer depends on, on one page (A4 or Letter, fit to one page):
 
-It prints on one page, A4 or Letter (fit to one page). ``portflux report IN.xlsx -o OUT.pdf``
-(:mod:`.report`) renders it through LibreOffice.
+- the title block (project, case, author, checker, date, revision: yellow inputs), the portflux
+  version and the **input checksum**: the SHA-256 of every input cell (``PFX_CHECKSUM`` over the
+  port table, the CV velocity, the output units, the settings and the speed sweep's inputs),
+  computed at every recalculation by whichever engine recalculates (Excel through xlwings,
+  LibreOffice through the add-in, ``portflux recalc``);
+- the inputs: every column of the port table that holds something (and no other), with its
+  unit as typed, in two bands of :data:`BAND` columns; the CV velocity, output units,
+  settings and the speed sweep's inputs;
+- the results at the CV velocity (force, support force and moment on the body, power, shaft
+  torque of a wheel, efficiencies, mass balance), each with its unit;
+- each worst load of the speed sweep with the speed where it occurs, raw and factored;
+- the best speed, the status and warnings, the force and power charts and the velocity
+  diagram, the reference-case verdict, the cautions and the signature lines.
+
+Every value is a formula on the other sheets, so the page is always the calculation's. Numbers
+follow the template's one significant-figure rule (:func:`.drawing.significant`): every cell
+of a quantity is keyed to the same group of cells, so a value shows the same decimals here, on
+the results panel and on its own sheet. ``portflux report IN.xlsx -o OUT.pdf`` (:mod:`.report`)
+renders it through LibreOffice.
 """
 
 from __future__ import annotations
 
 from openpyxl.chart import Reference, ScatterChart, Series
-from openpyxl.styles import Alignment, Border, Font, Side
+from openpyxl.formatting.rule import Rule
+from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
+from openpyxl.styles.differential import DifferentialStyle
 
 from ..cautions import CAUTION_LINES
-from .drawing import (BOLD, HEAD_FILL, INPUT_FILL, ITALIC, NUMBER, RATIO,
-                      RED_BOLD, TITLE_FONT, big_numbers, cell, formula, print_setup, put, q, rng, title_from,
-                      widths)
+from .drawing import (BOLD, HEAD_FILL, INPUT_FILL, ITALIC, RATIO, RED_BOLD, SMALL, TITLE_FONT,
+                      cell, formula, print_setup, put, q, rng, significant, title_from,
+                      triangle_chart, widths)
 
 REPORT = "Report"
 TITLE_FIELDS = ("project", "case", "author", "checker", "date", "revision")
-#: Port-table columns shown on the report (the others are listed by name when used).
-REPORT_COLUMNS = ("port", "role", "frame", "area", "density", "speed", "angle", "mass_flow",
-                  "p_gauge", "closure")
-NCOL = 10
+BAND = 16                      #: port-table columns per band of the inputs table (two bands)
+NCOL = BAND                    #: the page's columns, A..P
+TABLE_FONT = Font(size=8)
+TABLE_BOLD = Font(size=7, bold=True)
+TABLE_ITALIC = Font(size=8, italic=True)
 
 
 def _merge(ws, r, c1, c2):
-    ws.merge_cells(start_row=r, end_row=r, start_column=c1, end_column=c2)
+    if c2 > c1:
+        ws.merge_cells(start_row=r, end_row=r, start_column=c1, end_column=c2)
 
 
-def _checksum(lay, cv_sheet, sweep_sheet) -> str:
-    """A formula checksum of every input: numbers weighted by position, text by its length.
-    Any changed number, or a text of another length, changes it (not a cryptographic hash)."""
-    blocks = [lay.ports.ref, rng(2, int(lay.cv_cells[0].split("$")[-1]), 5,
-                                 int(lay.cv_cells[0].split("$")[-1])),
-              lay.settings_ref]
-    terms = [f"LEN({q(cv_sheet)}!{lay.units_cell})*97"]
-    for k, b in enumerate(blocks, start=1):
-        r = f"{q(cv_sheet)}!{b}"
-        terms.append(f"SUMPRODUCT({r})*{k * 7 + 3}+SUMPRODUCT(LEN({r}))*{k * 13 + 1}")
-    cs = [c for k, c in lay.sweep_cells.items() if k in ("low", "high", "unit", "direction",
-                                                          "force", "units")]
-    rows = sorted(int(c.split("$")[-1]) for c in cs)
-    sw = f"{q(sweep_sheet)}!{rng(2, rows[0], 2, rows[-1])}"
-    terms.append(f"SUMPRODUCT({sw})*37+SUMPRODUCT(LEN({sw}))*41")
-    return f"=MOD(INT(ABS({'+'.join(terms)})*1000),999999937)"
-
-
-def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases, max_ports):
-    """Draw the report page on ``ws`` from the template's layout; returns its input cells."""
-    widths(ws, {1: 27, **{c: 10.5 for c in range(2, NCOL + 1)}})
+def _checksum(lay, cv_sheet) -> str:
+    """PFX_CHECKSUM of every input the answer depends on."""
     C = lambda ref: f"{q(cv_sheet)}!{ref}"        # noqa: E731
+    x = lay.cv_cells
+    cv = f"{x[0]}:{x[3]}"
+    return (f"=PFX_CHECKSUM({C(lay.ports.ref)},{C(cv)},{C(lay.units_cell)},"
+            f"{C(lay.settings_ref)},{lay.sweep_inputs})")
+
+
+def _title_block(ws, lay, cv_sheet):
+    cells = {}
     put(ws, 1, 1, "Calculation report: control volume moving at constant velocity",
         font=TITLE_FONT)
     put(ws, 1, 2, "Every value below is a formula on the sheets 'Control volume', 'Speed "
                   "sweep' and 'Check cases'. Sign conventions: sheet 'About'.", font=ITALIC)
-    cells = {}
+    half = NCOL // 2
     for i, name in enumerate(TITLE_FIELDS):
-        r, c = 4 + i // 2, 1 + 5 * (i % 2)
+        r, c = 3 + i // 2, 1 + half * (i % 2)
         put(ws, c, r, name, font=BOLD, fill=HEAD_FILL)
-        for cc in range(c + 1, c + 5):
+        _merge(ws, r, c, c + 1)
+        for cc in range(c + 2, c + half):
             put(ws, cc, r, None, fill=INPUT_FILL)
-        _merge(ws, r, c + 1, c + 4)
-        cells[name] = cell(c + 1, r)
-    put(ws, 1, 7, "portflux version", font=BOLD, fill=HEAD_FILL)
-    formula(ws, 2, 7, '=IFERROR(INDEX(PFX_ABOUT(),2,2),"(recalculate with portflux)")')
-    _merge(ws, 7, 2, 5)
-    put(ws, 6, 7, "checksum", font=BOLD, fill=HEAD_FILL)
-    formula(ws, 7, 7, _checksum(lay, cv_sheet, sweep_sheet), fmt="0")
-    _merge(ws, 7, 7, 10)
-    cells["version"], cells["checksum"] = cell(2, 7), cell(7, 7)
+        _merge(ws, r, c + 2, c + half - 1)
+        cells[name] = cell(c + 2, r)
+    put(ws, 1, 6, "portflux version", font=BOLD, fill=HEAD_FILL)
+    _merge(ws, 6, 1, 2)
+    formula(ws, 3, 6, '=IFERROR(INDEX(PFX_ABOUT(),2,2),"(recalculate with portflux)")')
+    _merge(ws, 6, 3, 5)
+    put(ws, 6, 6, "input checksum (SHA-256)", font=BOLD, fill=HEAD_FILL)
+    _merge(ws, 6, 6, 9)
+    formula(ws, 10, 6, _checksum(lay, cv_sheet), font=Font(size=7, name="DejaVu Sans Mono"))
+    _merge(ws, 6, 10, NCOL)
+    cells["version"], cells["checksum"] = cell(3, 6), cell(10, 6)
+    return cells
 
-    # inputs ------------------------------------------------------------------------------
-    put(ws, 1, 9, "Inputs", font=BOLD)
+
+def _inputs(ws, lay, cv_sheet, sweep_sheet, top, max_ports):
+    """The port table's columns in use (two bands), then the CV velocity, output units,
+    settings and sweep inputs. Returns the next free row."""
+    C = lambda ref: f"{q(cv_sheet)}!{ref}"        # noqa: E731
     P = lay.ports
-    top = 10
-    for j, name in enumerate(REPORT_COLUMNS):
-        src = P.left + P.columns.index(name)
-        formula(ws, 1 + j, top, f'={C(cell(src, P.top))}', font=BOLD).fill = HEAD_FILL
-        formula(ws, 1 + j, top + 1, f'=IF({C(cell(src, P.top + 1))}="","",'
-                                    f'{C(cell(src, P.top + 1))})', font=ITALIC)
-        for i in range(max_ports):
-            s = C(cell(src, P.top + 2 + i))
-            formula(ws, 1 + j, top + 2 + i, f'=IF({s}="","",{s})')
-    others = [n for n in P.columns if n not in REPORT_COLUMNS]
-    used = "&".join(
-        f'IF(SUMPRODUCT(LEN({C(rng(P.left + P.columns.index(n), P.top + 2, P.left + P.columns.index(n), P.top + 1 + max_ports))}))>0,"{n} ","")'
-        for n in others)
-    r = top + 2 + max_ports
-    put(ws, 1, r, "other columns in use", font=ITALIC)
-    formula(ws, 2, r, f'=IF(LEN({used})=0,"none",{used}&"(see Control volume)")')
-    _merge(ws, r, 2, NCOL)
+    put(ws, 1, top, "Inputs: every column of the port table in use, as typed on 'Control "
+                    "volume' (units in the second row)", font=BOLD)
+    mirror = lay.port_mirror           # header, units, ports; blanks as empty texts
+    r = top + 1
+    for band in range(2):
+        for s in range(BAND):
+            if band * BAND + s >= len(lay.used_columns):
+                continue
+            k = lay.used_columns[band * BAND + s]
+            c = 1 + s
+            for i, row in enumerate(mirror):
+                x = ws.cell(row=r + i, column=c, value=f'=IF({k}=0,"",INDEX({row},1,{k}))')
+                x.font = TABLE_BOLD if i == 0 else TABLE_ITALIC if i == 1 else TABLE_FONT
+                if i == 0:
+                    x.alignment = Alignment(wrap_text=True, vertical="top")
+                x.number_format = "General"
+        # the header of a column in use is shaded (a conditional format: only slots in use)
+        head = rng(1, r, BAND, r)
+        ws.conditional_formatting.add(head.replace("$", ""), Rule(
+            type="expression", formula=[f'LEN({cell(1, r, absolute=False)})>0'],
+            dxf=DifferentialStyle(fill=PatternFill("solid", bgColor="D9E1F2"))))
+        ws.row_dimensions[r].height = 21
+        for i in range(1, 2 + max_ports):
+            ws.row_dimensions[r + i].height = 10.5
+        r += 2 + max_ports
     cvx, cvy, cvz, cvu = lay.cv_cells
-    put(ws, 1, r + 1, "CV velocity x, y, z", font=BOLD)
-    for j, c in enumerate((cvx, cvy, cvz, cvu)):
-        formula(ws, 2 + j, r + 1, f"={C(c)}", fmt="General")
-    put(ws, 6, r + 1, "units", font=BOLD)
-    formula(ws, 7, r + 1, f"={C(lay.units_cell)}")
-    _merge(ws, r + 1, 7, NCOL)
-    put(ws, 1, r + 2, "settings", font=BOLD).alignment = Alignment(vertical="top")
+    put(ws, 1, r, "CV velocity x, y, z", font=BOLD)
+    _merge(ws, r, 1, 2)
+    for j, c in enumerate((cvx, cvy, cvz)):
+        formula(ws, 3 + j, r, f"={C(c)}", fmt="General")
+    formula(ws, 6, r, f"={C(cvu)}")
+    put(ws, 8, r, "output units", font=BOLD)
+    _merge(ws, r, 8, 9)
+    formula(ws, 10, r, f"={C(lay.units_cell)}")
+    _merge(ws, r, 10, NCOL)
+    r += 1
+    put(ws, 1, r, "settings", font=BOLD).alignment = Alignment(vertical="top")
     s_rows = lay.settings_ref.replace("$", "").split(":")
     first = int("".join(ch for ch in s_rows[0] if ch.isdigit())) + 1
     last = int("".join(ch for ch in s_rows[1] if ch.isdigit()))
@@ -108,135 +134,209 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
     for rr in range(first, last + 1):
         n, v, u = (C(cell(c, rr)) for c in (1, 2, 3))
         parts.append(f'IF({n}="","",{n}&" = "&{v}&" "&{u}&"; ")')
-    formula(ws, 2, r + 2, "=" + "&".join(parts))
-    _merge(ws, r + 2, 2, NCOL)
-    ws.cell(row=r + 2, column=2).alignment = Alignment(wrap_text=True, vertical="top")
-    ws.row_dimensions[r + 2].height = 30
+    formula(ws, 3, r, "=" + "&".join(parts), font=Font(size=9))
+    _merge(ws, r, 3, NCOL)
+    ws.cell(row=r, column=3).alignment = Alignment(wrap_text=True, vertical="top")
+    ws.row_dimensions[r].height = 24
+    r += 1
+    sw = lay.sweep_cells
+    S = lambda k: f"{q(sweep_sheet)}!{sw[k]}"     # noqa: E731
+    put(ws, 1, r, "speed sweep", font=BOLD)
+    formula(ws, 3, r, f'={S("low")}&" to "&{S("high")}&" "&{S("unit")}&", direction "&'
+                      f'{S("direction")}&" deg; force to find: "&IF(ISNUMBER({S("force")}),'
+                      f'{S("force")}&" "&{q(sweep_sheet)}!{sw["force_unit_cell"]},"not asked")'
+                      f'&"; output units "&{S("units")}', font=Font(size=9))
+    _merge(ws, r, 3, NCOL)
+    return r + 2
 
-    # results -----------------------------------------------------------------------------
-    r0 = r + 4
-    put(ws, 1, r0, "Key results", font=BOLD)
-    p = lay.panel
-    fl, pl = C(p["force_label"]), C(p["power_label"])
-    for j, h in enumerate(("x", "y", "z", "resultant", "unit")):
-        put(ws, 2 + j, r0 + 1, h, font=BOLD, fill=HEAD_FILL)
-    rows = (("force on the body (-R)", p["body"]), ("support force R (on fluid)", p["support"]))
-    for i, (name, cs) in enumerate(rows):
-        rr = r0 + 2 + i
-        put(ws, 1, rr, name, font=BOLD)
-        for j, c in enumerate(cs):
-            formula(ws, 2 + j, rr, f"={C(c)}", fmt=NUMBER, font=BOLD)
-        formula(ws, 6, rr, f'=IFERROR(MID({fl},18,LEN({fl})-18),"")')
-    big_numbers(ws, rng(2, r0 + 2, 5, r0 + 3))
-    rr = r0 + 4
-    ml = C(p["moment_label"])
-    put(ws, 1, rr, "moment on body (at support)", font=BOLD)
-    for j, c in enumerate(p["moment"]):
-        formula(ws, 2 + j, rr, f"={C(c)}", fmt=NUMBER, font=BOLD)
-    formula(ws, 6, rr, f'=IFERROR(MID({ml},19,LEN({ml})-19),"")')
-    sw = lay.sweep_cells
+
+def _vector_row(ws, r, name, cells, unit, group, font=BOLD):
+    put(ws, 1, r, name, font=BOLD)
+    _merge(ws, r, 1, 4)
+    for j, c in enumerate(cells):
+        formula(ws, 5 + 2 * j, r, f"={c}", font=font)
+        _merge(ws, r, 5 + 2 * j, 6 + 2 * j)
+    formula(ws, 13, r, f"={unit}", font=ITALIC)
+    _merge(ws, r, 13, 14)
+    significant(ws, rng(5, r, 12, r), group=group)
+
+
+def _results(ws, lay, cv_sheet, sweep_sheet, r):
+    """Results at the CV velocity; returns the next free row."""
+    C = lambda ref: f"{q(cv_sheet)}!{ref}"        # noqa: E731
+    p, u, g = lay.panel, lay.units, lay.groups
+    put(ws, 1, r, "Results at the CV velocity", font=BOLD)
+    for j, h in enumerate(("x", "y", "z", "resultant")):
+        put(ws, 5 + 2 * j, r, h, font=BOLD, fill=HEAD_FILL, align="center")
+        _merge(ws, r, 5 + 2 * j, 6 + 2 * j)
+    put(ws, 13, r, "unit", font=BOLD, fill=HEAD_FILL)
+    _merge(ws, r, 13, 14)
+    r += 1
+    _vector_row(ws, r, "force on the body (-R)", [C(c) for c in p["body"]], u["force"],
+                g["force"])
+    _vector_row(ws, r + 1, "support force R (solid on fluid)", [C(c) for c in p["support"]],
+                u["force"], g["force"])
+    _vector_row(ws, r + 2, "moment on the body (about ref)",
+                [C(c) for c in p["moment"]], u["moment"], g["moment"])
+    r += 3
+
+    def scalar(r, c, name, value, unit, group=None, fmt=None, span=3):
+        put(ws, c, r, name, font=BOLD)
+        _merge(ws, r, c, c + span)
+        x = formula(ws, c + span + 1, r, value, font=BOLD, fmt=fmt)
+        _merge(ws, r, c + span + 1, c + span + 2)
+        if unit:
+            formula(ws, c + span + 3, r, unit, font=ITALIC)
+        if group:
+            significant(ws, rng(c + span + 1, r, c + span + 1, r), group=group)
+        return x
+
+    scalar(r, 1, "power to the body", f"={C(p['power'])}", f"={u['power']}", g["power"])
+    scalar(r, 9, "shaft torque (wheel)", f"={C(p['torque'])}",
+           f'=IF(ISNUMBER({C(p["torque"])}),{u["moment"]},"not a wheel")', g["torque"],
+           span=2)
+    r += 1
+    for c, kind, key in ((1, "jet efficiency [-]", "jet"),
+                         (9, "propulsive efficiency [-]", "propulsive")):
+        v = C(p[key])
+        scalar(r, c, kind, f'=IF(ISNUMBER({v}),{v},"-")', None, fmt=RATIO, span=3 if c == 1
+               else 2)
+    r += 1
+    for c, key in ((1, "jet"), (9, "propulsive")):
+        v = C(p[key])
+        formula(ws, c, r, f'=IF(ISNUMBER({v}),"","{key} efficiency: "&{v})',
+                font=Font(size=7, italic=True, color="808080")).alignment = Alignment(
+            wrap_text=True, vertical="top")
+        _merge(ws, r, c, c + 7)
+    ws.row_dimensions[r].height = 18
+    r += 1
+    scalar(r, 1, "mass imbalance, out - in", f"={C(p['imbalance'])}", f"={u['mass_flow']}",
+           g["mass_flow"])
+    put(ws, 9, r, "mass balance", font=BOLD)
+    _merge(ws, r, 9, 11)
+    formula(ws, 12, r, f"={C(p['status'])}", font=BOLD)
+    _merge(ws, r, 12, NCOL)
+    return r + 2
+
+
+def _envelope(ws, lay, sweep_sheet, r):
+    """Each worst load of the sweep with the speed where it occurs, raw and factored."""
+    sw, g = lay.sweep_cells, lay.groups
+    E = lambda c: f"{q(sweep_sheet)}!{c}"          # noqa: E731
     et = sw["envelope_top"]
-    E = lambda c, r: f"{q(sweep_sheet)}!{cell(c, r)}"    # noqa: E731
-    factor = E(4, et + 11)
-    for k, (name, first, skip) in enumerate((("design force (factored)", 1, 18),
-                                             ("design moment (factored)", 5, 19))):
-        r = rr + 1 + k
-        put(ws, 1, r, name, font=BOLD)
-        for j in range(4):
-            formula(ws, 2 + j, r, f"={E(6, et + first + j)}", fmt=NUMBER, font=BOLD)
-        lab = E(1, et + first)
-        formula(ws, 6, r, f'=IFERROR(MID({lab},{skip},LEN({lab})-{skip}),"")')
-    formula(ws, 7, rr + 1, f'=IFERROR("worst of sweep x "&{factor}&" (factors: your code)",'
-                           f'"")', font=ITALIC)
-    put(ws, 7, rr + 2, "each at its own worst speed", font=ITALIC)
-    put(ws, 7, rr, "about ref_x, ref_y, ref_z", font=ITALIC)
-    for k in range(3):
-        _merge(ws, rr + k, 7, NCOL)
-    big_numbers(ws, rng(2, rr, 5, rr + 2))
-    rr += 3
-    items = (("power to the body", f"={C(p['power'])}", NUMBER,
-              f'=IFERROR(MID({pl},16,LEN({pl})-16),"")'),
-             ("jet efficiency", f"={C(p['jet'])}", RATIO, "-"),
-             ("propulsive efficiency", f"={C(p['propulsive'])}", RATIO, "-"))
-    for name, f, fmt, unit in items:
-        put(ws, 1, rr, name, font=BOLD)
-        formula(ws, 2, rr, f, fmt=fmt, font=BOLD)
-        formula(ws, 3, rr, unit)
-        if "efficiency" in name:               # its value may be an 'n/a: ...' explanation
-            ws.cell(row=rr, column=3).value = None
-            formula(ws, 2, rr, f'=IF(ISNUMBER({f[1:]}),{f[1:]},"-")', fmt=fmt, font=BOLD)
-            formula(ws, 4, rr, f'=IF(ISNUMBER({f[1:]}),"",{f[1:]})', font=ITALIC)
-            _merge(ws, rr, 4, NCOL)
-        rr += 1
-    sw = lay.sweep_cells
+    put(ws, 1, r, "Worst loads over the speed sweep (support-load envelope, sheet 'Speed "
+                  "sweep')", font=BOLD)
+    r += 1
+    heads = (("load on the body", 1, 5), ("worst (raw)", 6, 8),
+             (f'="at speed ["&{sw["speed_unit"]}&"]"', 9, 11), ("factored (design)", 12, 14))
+    for text, a, b in heads:
+        (formula if text.startswith("=") else put)(ws, a, r, text, font=BOLD)
+        ws.cell(row=r, column=a).fill = HEAD_FILL
+        _merge(ws, r, a, b)
+    for i in range(8):
+        rr = r + 1 + i
+        formula(ws, 1, rr, f"={E(cell(1, et + 1 + i))}")
+        _merge(ws, rr, 1, 5)
+        for k, (a, b) in enumerate(((6, 8), (9, 11), (12, 14))):
+            src = cell(4 + k, et + 1 + i)
+            formula(ws, a, rr, f"={E(src)}", font=BOLD if k == 2 else None)
+            _merge(ws, rr, a, b)
+    for a in (6, 12):
+        significant(ws, rng(a, r + 1, a, r + 4), group=g["design_force"])
+        significant(ws, rng(a, r + 5, a, r + 8), group=g["design_moment"])
+    significant(ws, rng(9, r + 1, 9, r + 8), group=g["worst_speed"])
+    rr = r + 9
+    formula(ws, 1, rr, f'="factored = worst x dynamic factor "&{E(cell(4, et + 9))}&" x load '
+                       f'factor "&{E(cell(4, et + 10))}&" (settings dynamic_factor, '
+                       f'load_factor: take both from your governing code); each load at its '
+                       f'own worst speed; "&{E(cell(1, et + 12))}&" "&{E(cell(4, et + 12))}&'
+                       f'" to "&{E(cell(5, et + 12))}', font=SMALL)
+    _merge(ws, rr, 1, NCOL)
+    rr += 1
     best = sw["best"]
-    S = lambda ref: f"{q(sweep_sheet)}!{ref}"    # noqa: E731
     bc, br = best.split("$")[1], int(best.split("$")[2])
     lab = f"{q(sweep_sheet)}!${chr(ord(bc) - 1)}${br}"
-    big_numbers(ws, rng(2, r0 + 6, 2, rr))
     put(ws, 1, rr, "best speed (maximum power)", font=BOLD)
-    formula(ws, 2, rr, f"={S(best)}", fmt=NUMBER, font=BOLD)
-    formula(ws, 3, rr, f'=IFERROR(MID({lab},25,LEN({lab})-25),"")')
-    note = f"{q(sweep_sheet)}!${chr(ord(bc))}${br + 6}"
-    formula(ws, 4, rr, f'=IFERROR("sweep "&{S(sw["low"])}&" to "&{S(sw["high"])}&" "&'
-                       f'{S(sw["unit"])}&": "&{note},"")', font=ITALIC)
-    _merge(ws, rr, 4, NCOL)
-    rr += 1
-    put(ws, 1, rr, "status", font=BOLD)
-    formula(ws, 2, rr, f"={C(p['status'])}", font=BOLD)
-    _merge(ws, rr, 2, 3)
-    formula(ws, 4, rr, f'=IF({C(lay.input_check)}="","",{C(lay.input_check)})', font=RED_BOLD)
-    _merge(ws, rr, 4, NCOL)
-    rr += 1
-    put(ws, 1, rr, "warnings", font=BOLD)
+    _merge(ws, rr, 1, 5)
+    formula(ws, 6, rr, f"={E(best)}", font=BOLD)
+    _merge(ws, rr, 6, 8)
+    significant(ws, cell(6, rr), group=E(best))
+    formula(ws, 9, rr, f'=IFERROR(MID({lab},25,LEN({lab})-25),"")', font=ITALIC)
+    # the note is the block's last row: 8 for linear speeds, 9 with a wheel's shaft torque
+    n8, n9 = (f"{q(sweep_sheet)}!${bc}${br + k}" for k in (6, 7))
+    formula(ws, 10, rr, f'=IFERROR("sweep "&{E(sw["low"])}&" to "&{E(sw["high"])}&" "&'
+                        f'{E(sw["unit"])}&": "&IF(LEN({n9}&"")>0,{n9},{n8}),"")', font=SMALL)
+    _merge(ws, rr, 10, NCOL)
+    return rr + 2
+
+
+def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases, max_ports):
+    """Draw the report page on ``ws`` from the template's layout; returns its input cells."""
+    widths(ws, {1: 15, **{c: 7.4 for c in range(2, NCOL + 1)}})
+    C = lambda ref: f"{q(cv_sheet)}!{ref}"        # noqa: E731
+    cells = _title_block(ws, lay, cv_sheet)
+    r = _inputs(ws, lay, cv_sheet, sweep_sheet, 8, max_ports)
+    r = _results(ws, lay, cv_sheet, sweep_sheet, r)
+    r = _envelope(ws, lay, sweep_sheet, r)
+    p = lay.panel
+    put(ws, 1, r, "status", font=BOLD)
+    formula(ws, 2, r, f"={C(p['status'])}", font=BOLD)
+    _merge(ws, r, 2, 4)
+    formula(ws, 5, r, f'=IF({C(lay.input_check)}="","",{C(lay.input_check)})', font=RED_BOLD)
+    _merge(ws, r, 5, NCOL)
+    r += 1
+    put(ws, 1, r, "warnings", font=BOLD)
     for i in range(3):
         w = C(p["warnings"][i])
-        formula(ws, 2, rr + i, f'=IF({w}="","",{w})')
-        _merge(ws, rr + i, 2, NCOL)
-    rr += 4
+        formula(ws, 2, r + i, f'=IF({w}="","",{w})', font=Font(size=9))
+        _merge(ws, r + i, 2, NCOL)
+    r += 4
 
-    # chart ---------------------------------------------------------------------------------
-    put(ws, 1, rr, "Force on the body and power against CV speed (sheet 'Speed sweep')",
-        font=BOLD)
-    cells["chart_row"] = rr + 1
-    _sweep_charts(ws, lay, sweep_sheet, rr + 1)
-    rr += 17
+    # charts ----------------------------------------------------------------------------------
+    put(ws, 1, r, "Force on the body and power against CV speed (sheet 'Speed sweep'); "
+                  "velocity diagram at the CV velocity (sheet 'Control volume')", font=BOLD)
+    cells["chart_row"] = r + 1
+    _charts(ws, lay, sweep_sheet, cv_sheet, r + 1)
+    r += 16
 
-    # verdict and cautions ------------------------------------------------------------------
+    # verdict, cautions, signatures -------------------------------------------------------------
     verdicts = rng(6, index_top + 1, 6, index_top + ncases, checks_sheet)
-    put(ws, 1, rr, "reference cases", font=BOLD)
-    formula(ws, 2, rr, f'=COUNTIF({verdicts},"PASS")&" PASS of {ncases}"&IF(COUNTIF('
-                       f'{verdicts},"PASS")={ncases},""," - CHECK THE FAILING CASES")',
+    put(ws, 1, r, "reference cases", font=BOLD)
+    formula(ws, 3, r, f'=COUNTIF({verdicts},"PASS")&" PASS of {ncases}"&IF(COUNTIF('
+                      f'{verdicts},"PASS")={ncases},""," - CHECK THE FAILING CASES")',
             font=BOLD)
-    _merge(ws, rr, 2, 5)
-    put(ws, 6, rr, "sheet 'Check cases': each function against a closed form", font=ITALIC)
-    cells["verdict"] = cell(2, rr)
-    rr += 2
-    put(ws, 1, rr, "CAUTIONS", font=RED_BOLD)
+    _merge(ws, r, 3, 7)
+    put(ws, 8, r, "sheet 'Check cases': each function against a closed form", font=ITALIC)
+    cells["verdict"] = cell(3, r)
+    r += 2
+    put(ws, 1, r, "CAUTIONS", font=RED_BOLD)
     for line in CAUTION_LINES:
-        rr += 1
-        put(ws, 1, rr, line, wrap=True)
-        _merge(ws, rr, 1, NCOL)
-        ws.row_dimensions[rr].height = 13 * (len(line) // 150 + 1)
-        ws.cell(row=rr, column=1).font = Font(size=9)
-    rr += 2
+        r += 1
+        put(ws, 1, r, line, wrap=True)
+        _merge(ws, r, 1, NCOL)
+        ws.row_dimensions[r].height = 12 * (len(line) // 150 + 1)
+        ws.cell(row=r, column=1).font = Font(size=8)
+    r += 2
+    half = NCOL // 2
     for j, name in enumerate(("calculated by", "checked by")):
-        put(ws, 1 + 5 * j, rr, name + " (signature, date)", font=BOLD)
-        for c in range(2 + 5 * j, 6 + 5 * j):
-            ws.cell(row=rr + 1, column=c).border = Border(bottom=Side(style="thin"))
-    print_setup(ws, rng(1, 1, NCOL, rr + 1), landscape=False, fit_height=1, page_count=False)
+        put(ws, 1 + half * j, r, name + " (signature, date)", font=BOLD)
+        for c in range(1 + half * j, half * (j + 1)):
+            ws.cell(row=r + 1, column=c).border = Border(bottom=Side(style="thin"))
+    ws.row_dimensions[r + 1].height = 22
+    print_setup(ws, rng(1, 1, NCOL, r + 1), landscape=False, fit_height=1, page_count=False)
     return cells
 
 
-def _sweep_charts(ws, lay, sweep_sheet, row):
-    """Two small charts from the sweep table: force on the body (x, y) and power, against speed."""
+def _charts(ws, lay, sweep_sheet, cv_sheet, row):
+    """Three small charts side by side: force on the body (x, y) and power against speed from
+    the sweep table, and the velocity diagram of the 'Control volume' sheet."""
     sw = lay.sweep_cells
     top = sw["table_top"]
     src = ws.parent[sweep_sheet]
     last = top + 41
     xs = Reference(src, min_col=3, min_row=top + 1, max_row=last)
     cu = lay.chart_units
-    xt = title_from(cell(3, top, sweep_sheet), f"speed [{cu.label('velocity')}]")
+    xt = title_from(cell(3, top, sweep_sheet), f"speed [{lay.chart_speed}]")
     plots = (((7, 8), title_from(sw["force_title"], f"force on body [{cu.label('force')}]"), 1),
              ((10,), title_from(cell(10, top, sweep_sheet),
                                 f"power to body [{cu.label('power')}]"), 6))
@@ -253,5 +353,8 @@ def _sweep_charts(ws, lay, sweep_sheet, row):
         ch.x_axis.tickLblPos = ch.y_axis.tickLblPos = "low"
         ch.x_axis.number_format = ch.y_axis.number_format = "General"
         ch.legend.position = "b"
-        ch.height, ch.width = 7.5, 9.3
+        ch.height, ch.width = 7.0, 7.6
         ws.add_chart(ch, cell(col, row, absolute=False))
+    tri = triangle_chart(ws.parent[cv_sheet], lay, size=7.0)
+    tri.title = None
+    ws.add_chart(tri, cell(11, row, absolute=False))

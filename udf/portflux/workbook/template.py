@@ -9,13 +9,17 @@ Sheets (all names are ours):
 ``About``
     What the workbook computes, the sign conventions, the assumptions and the cautions.
 ``Control volume``
-    A results panel (top right), the port table (up to :data:`MAX_PORTS` ports), the CV velocity,
-    output units and settings (yellow inputs, with a visible end of each range and a check of
-    anything typed just outside it), and the results: summary, per-port tables, forces, power,
-    efficiencies, frame cross-check, warnings, and the velocity triangle of the first outlet.
+    A results panel in the first screen (columns F-N, rows 1-9: force, moment, factored design
+    force and moment, power, shaft torque of a wheel, status), the port table (up to
+    :data:`MAX_PORTS` ports; column A counts its rows as messages do: "ports row 3" is the first
+    port), the CV velocity, output units and settings (yellow inputs, with a visible end of each
+    range and a check of anything typed just outside it), and the results: summary, per-port
+    tables, forces, power, shaft torque, efficiencies, frame cross-check, warnings, support
+    moments, and the velocity triangle of the first outlet.
 ``Speed sweep``
-    A table of CV speeds recalculated in one call, the best speed and the speed at a force, and
-    charts of force and power against speed with the optimum marked.
+    A table of CV speeds recalculated in one call (with the shaft torque of a wheel typed in
+    rpm), the best speed and the speed at a force, the envelope of the support loads, and charts
+    of force and power against speed with the optimum marked.
 ``Check cases``
     Reference cases covering every worksheet function (see :mod:`.cases`).
 ``Raw results`` (hidden)
@@ -36,7 +40,6 @@ from dataclasses import dataclass, field
 
 from openpyxl import Workbook
 from openpyxl.chart import Reference, ScatterChart, Series
-from openpyxl.chart.layout import Layout as ChartLayout, ManualLayout
 from openpyxl.chart.shapes import GraphicalProperties
 from openpyxl.styles import Alignment
 from openpyxl.worksheet.formula import ArrayFormula
@@ -46,10 +49,11 @@ from .. import __version__
 from ..cautions import CAUTION_LINES
 from ..units import UnitSystem
 from . import cases, cases_closures
-from .drawing import (BIG_FONT, BOLD, INPUT_FILL, ITALIC, NUMBER, OUTPUT_FILL,
-                      PANEL_FILL, RATIO, RED_BOLD, SPEED, TITLE_FONT, array, cell, cv_row,
-                      end_of_range, formula, port_table, print_setup, put, q, rng,
-                      settings_block, title_from, widths, big_numbers)
+from .drawing import (BIG_FONT, BOLD, COUNT, INPUT_FILL, ITALIC, NUMBER, OUTPUT_FILL,
+                      PANEL_FILL, RATIO, RED_BOLD, SMALL, TITLE_FONT, array, axes_visible,
+                      cell, count_when, cv_row, end_of_range, formula, port_table,
+                      print_setup, put, q, rng, settings_block, significant, title_from,
+                      triangle_chart, widths)
 from .report_sheet import REPORT, draw_report
 
 TEMPLATE_NAME = "portflux_template.xlsx"
@@ -58,9 +62,9 @@ SWEEP_POINTS = 41
 SPARE_SETTINGS = 4                 #: empty settings rows for the user's own settings
 WARNING_ROWS = MAX_PORTS + 4       #: one per port, no contact, imbalance and closure notes
 
-#: Largest answer of each multi-cell function as the template calls it: (rows, columns).
-#: tests/test_template_ranges.py evaluates every function on the template's inputs and on its
-#: worst case and compares with these sizes.
+#: Largest answer of each multi-cell function as the template calls it, in every unit mode
+#: (linear speeds, a wheel in rpm, nozzles): (rows, columns). tests/test_template_ranges.py
+#: evaluates every function on the template's inputs and on its worst cases and compares.
 LARGEST = {
     "PFX_SUMMARY": (35, 2),
     "PFX_RELVELS": (MAX_PORTS + 1, 4),
@@ -71,9 +75,9 @@ LARGEST = {
     "PFX_BODYFORCE": (1, 3),
     "PFX_FRAMECHECK": (5, 4),
     "PFX_WARNINGS": (WARNING_ROWS, 1),
-    "PFX_SPEEDTABLE": (SWEEP_POINTS + 1, 10),
-    "PFX_BESTSPEED": (8, 2),
-    "PFX_SPEEDATFORCE": (7, 2),
+    "PFX_SPEEDTABLE": (SWEEP_POINTS + 1, 11),   # 11th column: shaft torque (speeds in rpm)
+    "PFX_BESTSPEED": (9, 2),                     # a shaft-torque row in rpm
+    "PFX_SPEEDATFORCE": (8, 2),                  # a shaft-torque row in rpm
     "PFX_MOMENT": (1, 3),
     "PFX_SUPPORTMOMENT": (1, 3),
     "PFX_RESULTANT": (1, 3),
@@ -85,8 +89,8 @@ SUMMARY_AT = (1, 50, 35, 2)        #: summary block (label | value) on 'Control 
 RELVEL_AT = (4, 50, MAX_PORTS + 1, 4)     #: relative velocities of every port (header + ports)
 ABSVEL_AT = (9, 50, MAX_PORTS + 1, 4)     #: absolute velocities
 MASSFLOW_AT = (14, 50, MAX_PORTS + 1, 2)  #: mass flows of every port (header + ports)
-BEST_AT = (15, 12, 8, 2)           #: best-speed block on 'Speed sweep'
-SPEEDFORCE_AT = (15, 23, 7, 2)     #: speed-at-force block on 'Speed sweep'
+BEST_AT = (16, 12, 9, 2)           #: best-speed block on 'Speed sweep'
+SPEEDFORCE_AT = (16, 24, 8, 2)     #: speed-at-force block on 'Speed sweep'
 
 CV = "Control volume"
 SWEEP = "Speed sweep"
@@ -94,12 +98,30 @@ CHECKS = "Check cases"
 ABOUT = "About"
 RAW = "Raw results"
 
-NOTE_ROW = 5                       #: a scenario's note (merged over two rows)
-PORTS_TOP = 9                      #: header row of the port table (units below, then ports)
-CV_TOP = 23                        #: header row of the CV velocity
-UNITS_ROW = 26
-SETTINGS_TOP = 28
+NOTE_ROW = 5                       #: a scenario's note (merged over A5:E8)
+PORT_LEFT = 2                      #: the port table starts in column B; column A counts rows
+PORTS_TOP = 10                     #: header row of the port table (units below, then ports)
+CV_TOP = 24                        #: header row of the CV velocity
+UNITS_ROW = 27
+SETTINGS_TOP = 29
+PANEL_LEFT = 6                     #: the results panel: columns F-N, rows 1-9
 SWEEP_INPUTS = ("low", "high", "unit", "direction", "force", "units")
+
+#: Rows of PFX_SUMMARY (0-based, header = 0) that show one quantity: one number format each.
+SUMMARY_QUANTITIES = ((1, 2, 3), (6, 7, 8), (12, 13, 14, 15, 16, 17, 23), (18,), (24,), (25,),
+                      (26, 27, 28, 29, 30, 31, 32), (33,), (34,))
+SUMMARY_FORMATS = {4: COUNT, 5: "General", 9: RATIO, 10: RATIO, 11: "General", 19: RATIO,
+                   20: RATIO, 21: COUNT, 22: "General"}
+#: The unit texts the labels read, from the summary's own labels: (row, prefix of the label).
+SUMMARY_UNITS = {"mass_flow": (6, "mass inflow ["), "force": (15, "force on body x ["),
+                 "power": (18, "power to body ["), "moment": (29, "moment on body x [")}
+
+
+def unit_of_label(label: str, prefix: str) -> str:
+    """Spreadsheet text of the unit in a label 'prefix[unit]' (blank when it is not one)."""
+    n = len(prefix)
+    return (f'IFERROR(IF(LEFT({label},{n})="{prefix}",MID({label},{n + 1},LEN({label})-{n + 1}),'
+            f'""),"")')
 
 
 class RawSheet:
@@ -112,13 +134,20 @@ class RawSheet:
         put(ws, 1, 1, "Array formulas of the shown result blocks (do not edit; the shown blocks "
                       "read these cells)", font=BOLD)
 
-    def show(self, name, function, text, shown, where, fmt=NUMBER, fmts=None, row_fmts=None):
+    def show(self, name, function, text, shown, where, fmts=None, row_fmts=None,
+             quantities=None, by="row", label_col=True, sig=True):
         """Place ``text`` as an array formula of LARGEST[function] on this sheet, and plain
         formulas on sheet ``shown`` at ``where(i, j) -> (column, row)``; returns the raw range.
 
         A shown cell is blank text past the answer (the #N/A padding), the answer's only value
         once when the function gave one value (repeated through the range by the spreadsheet),
-        and 0 for a number below 1e-9 of the block's largest magnitude (round-off)."""
+        and 0 for a number below 1e-9 of the block's largest magnitude (round-off).
+
+        Number formats: ``fmts`` per column and ``row_fmts`` per row (columns after the first)
+        are fixed; every other cell follows the significant-figure rule of
+        :func:`.drawing.significant`, one quantity per row of the block (``by="row"``), per
+        cell or per column, or the groups of (i, j) cells in ``quantities``; ``sig=False``
+        leaves them to the caller."""
         rows, cols = LARGEST[function]
         ws, r0 = self.ws, self.row
         put(ws, 1, r0, name, font=ITALIC)
@@ -135,9 +164,7 @@ class RawSheet:
         ws[ref1] = ArrayFormula(f"{ref1}:{ref1}",
                                 f"=1E-9*MAX(IF(ISNUMBER({block}),ABS({block}),0))")
         flag, th = cell(fc, r0 + 1, RAW), cell(fc, r0 + 2, RAW)
-        spots = [where(i, j) for i in range(rows) for j in range(cols)]
-        big_numbers(shown, rng(min(c for c, _ in spots), min(r for _, r in spots),
-                               max(c for c, _ in spots), max(r for _, r in spots)))
+        fixed = {}
         for i in range(rows):
             for j in range(cols):
                 c, r = where(i, j)
@@ -148,14 +175,59 @@ class RawSheet:
                     f = (f'=IF({flag},"",IFERROR(IF(ISNUMBER({x}),IF(ABS({x})<{th},0,{x}),'
                          f'{x}),""))')
                 k = (row_fmts or {}).get(i) if j else None
-                k = k or (fmts or {}).get(j, fmt)
+                k = k or (fmts or {}).get(j)
+                if label_col and j == 0:
+                    k = k or "General"
                 formula(shown, c, r, f, fmt=k)
+                if k:
+                    fixed[(i, j)] = k
+        free = [(i, j) for i in range(rows) for j in range(cols) if (i, j) not in fixed]
+        if sig:
+            _numbers(shown, where, free, quantities, by)
         self.row = r0 + rows + 2
         return ref
 
 
+def _runs(cells_rc):
+    """Maximal vertical runs of (column, row) cells: [(column, first row, last row)]."""
+    out = []
+    for c, r in sorted(cells_rc):
+        if out and out[-1][0] == c and out[-1][2] == r - 1:
+            out[-1] = (c, out[-1][1], r)
+        else:
+            out.append((c, r, r))
+    return out
+
+
+def _numbers(ws, where, free, quantities, by):
+    """The significant-figure formats of a shown block's free cells."""
+    if not free:
+        return
+    if quantities:
+        done = set()
+        for group in quantities:
+            spots = [where(i, j) for i, j in group if (i, j) in free]
+            done.update((i, j) for i, j in group)
+            runs = _runs(spots)
+            g = ",".join(rng(c, a, c, b) for c, a, b in runs)
+            for c, a, b in runs:
+                significant(ws, rng(c, a, c, b), group=g)
+        free = [x for x in free if x not in done]
+        by = "cell"
+        if not free:
+            return
+    spots = [where(i, j) for i, j in free]
+    cs, rs = [c for c, _ in spots], [r for _, r in spots]
+    if by == "cell":
+        for c, a, b in _runs(spots):
+            significant(ws, rng(c, a, c, b), by="cell")
+    else:
+        significant(ws, rng(min(cs), min(rs), max(cs), max(rs)), by=by)
+
+
 def _block_at(c, r):
     return lambda i, j: (c + j, r + i)
+
 
 
 def _about(wb):
@@ -198,7 +270,12 @@ def _about(wb):
         ("How to use it", BOLD),
         ("Yellow cells are inputs; grey cells are computed by portflux worksheet functions "
          "(PFX_...). Row 2 of every port table holds the unit of each column (pint unit strings "
-         "such as ft^2, slug/ft^3, ft/s, psi; blank = SI default, angles in degrees). Multi-cell "
+         "such as ft^2, slug/ft^3, ft/s, psi, mm, kPa; type the unit of every column you fill). "
+         "Messages name the row as counted from the table's top (header = row 1, units = row "
+         "2): on 'Control volume' column A shows that count beside each row. A wheel: type the "
+         "CV velocity in rpm, rad/s or rev/s and add a settings row wheel_radius. A nozzle: "
+         "type supply_pressure, diameter, velocity_coef and contraction_coef instead of speed "
+         "and area. Multi-cell "
          "results are computed on the hidden sheet 'Raw results' and shown as plain cells: rows past "
          "the last port are blank, so SUM and SUMPRODUCT over a shown block work. The 'Report' "
          "sheet prints the calculation on one page ('portflux report IN.xlsx -o OUT.pdf').", None),
@@ -217,18 +294,30 @@ def _about(wb):
     print_setup(ws, rng(1, 1, 1, len(lines) + 4), landscape=False, fit_height=1)
 
 
-#: Default port table of the template: an invented vane on a carriage, SI units.
+#: Default port table of the template: an invented vane on a carriage, SI units. Every column
+#: that can hold a dimensional value shows its unit in the unit row (never a blank meaning SI).
 CV_COLUMNS = ("port", "role", "frame", "area", "density", "speed", "angle", "tilt", "vx", "vy",
               "vz", "nx", "ny", "nz", "p_gauge", "beta", "mass_flow", "closure", "loss", "source",
               "share", "height", "rx", "ry", "rz")
 CV_UNITS = (None, None, None, "m^2", "kg/m^3", "m/s", "deg", "deg", "m/s", "m/s", "m/s", None,
             None, None, "Pa", None, "kg/s", None, None, None, None, "m", "m", "m", "m")
+# --- nozzle columns (issue 18), added by hand: the schema issue derives CV_COLUMNS / CV_UNITS
+# --- from problem.COLUMNS; keep these additions together here for that merge.
+NOZZLE_COLUMNS = ("diameter", "supply_pressure", "velocity_coef", "contraction_coef", "fluid",
+                  "temperature", "abs_pressure")
+NOZZLE_UNITS = ("mm", "kPa", None, None, None, "degC", "kPa")
+CV_COLUMNS += NOZZLE_COLUMNS
+CV_UNITS += NOZZLE_UNITS
+# --- end of the nozzle columns
 _BLANK = (None,) * 14
-#: The vane's ports sit 0.4 m above its mount (the support, the origin) on the jet line.
+_NO_NOZZLE = (None,) * len(NOZZLE_COLUMNS)
+#: The vane's ports sit 0.4 m above its mount (the support, the origin) on the jet line; the
+#: exit's flow comes from continuity (its closure sets its speed, so its area stays blank).
 CV_ROWS = (
-    ("nozzle jet", "in", "abs", 0.003, 998.0, 25.0, 0.0) + _BLANK + (None, 0.0, 0.4, 0.0),
-    ("vane exit", "out", "rel", 0.003, 998.0, None, 135.0) + _BLANK[:10] + ("free",)
-    + (None,) * 4 + (0.0, 0.4, 0.0),
+    ("nozzle jet", "in", "abs", 0.003, 998.0, 25.0, 0.0) + _BLANK + (None, 0.0, 0.4, 0.0)
+    + _NO_NOZZLE,
+    ("vane exit", "out", "rel", None, 998.0, None, 135.0) + _BLANK[:10] + ("free",)
+    + (None,) * 4 + (0.0, 0.4, 0.0) + _NO_NOZZLE,
 )
 CV_SETTINGS = (("fluid_mass", 0.0, "kg"), ("gx", 0.0, "m/s^2"), ("gy", 0.0, "m/s^2"),
                ("gz", -9.80665, "m/s^2"), ("tolerance", 0.001, None), ("intercept", "single",
@@ -248,27 +337,35 @@ class Layout:
     settings_cells: dict = field(default_factory=dict)   # name -> (value cell, unit cell)
     settings_ref: str = ""                               # the settings range (spare rows too)
     sweep_cells: dict = field(default_factory=dict)      # low, high, unit, direction, force
+    sweep_inputs: str = ""                               # the sweep's input range (B3:C8)
     triangle_cell: str = ""                              # port number of the velocity triangle
     input_check: str = ""                                # cell: text typed outside a range
     panel: dict = field(default_factory=dict)            # result name -> cell(s) on CV
+    units: dict = field(default_factory=dict)            # quantity -> cell with its unit text
+    groups: dict = field(default_factory=dict)           # quantity -> cells keying its format
     report_cells: dict = field(default_factory=dict)     # title-block name -> cell on Report
     raw: object = None                                   # RawSheet
     chart_units: object = None     # UnitSystem of the charts' cached axis titles
+    chart_speed: str = ""          # the cached speed-axis unit (the sweep's, when rotational)
+    used_columns: tuple = ()      # raw cells: the k-th port column in use (0: none)
+    port_mirror: tuple = ()       # raw rows: the port table's rows, blanks as empty texts
+    triangle: dict = field(default_factory=dict)         # the velocity triangle's cells
 
 
 def _input_check(ws, lay, nports_cols):
     """A cell that warns when something is typed just outside an input range (it would be
     silently ignored): the row below the port table, the column right of it, the row below the
     settings."""
-    top, n = PORTS_TOP, MAX_PORTS
-    below = rng(1, top + 2 + n, nports_cols, top + 3 + n)
-    right = rng(nports_cols + 1, top, nports_cols + 1, top + 1 + n)
+    top, n, left = PORTS_TOP, MAX_PORTS, PORT_LEFT
+    last_col = left + nports_cols - 1
+    below = rng(left, top + 2 + n, last_col, top + 3 + n)
+    right = rng(last_col + 1, top, last_col + 1, top + 1 + n)
     s_last = SETTINGS_TOP + len(CV_SETTINGS) + SPARE_SETTINGS
     under = rng(1, s_last + 1, 3, s_last + 2)
     msgs = ((below, f"something is typed below the port table (rows {top + 2 + n}-{top + 3 + n})"
                     f"; the functions read rows {top + 2}-{top + 1 + n} only: move it up"),
             (right, f"something is typed right of the port table (column "
-                    f"{get_column_letter(nports_cols + 1)}); it is not read"),
+                    f"{get_column_letter(last_col + 1)}); it is not read"),
             (under, f"something is typed below the settings (rows {s_last + 1}-{s_last + 2}); "
                     f"the functions read rows {SETTINGS_TOP + 1}-{s_last} only: use a spare row"))
     parts = [f'IF(SUMPRODUCT(LEN({r}))>0,"{m}; ","")' for r, m in msgs]
@@ -276,26 +373,62 @@ def _input_check(ws, lay, nports_cols):
     return text
 
 
+def _row_labels(ws):
+    """Column A of the port table and column D of the settings: each row as the messages count
+    it ("ports row 4, area: ..." is the second port; "settings row 3" the second setting)."""
+    label = SMALL
+    put(ws, 1, PORTS_TOP, "ports row 1 (names) >", font=label, align="right")
+    put(ws, 1, PORTS_TOP + 1, "ports row 2 (units) >", font=label, align="right")
+    for i in range(MAX_PORTS):
+        put(ws, 1, PORTS_TOP + 2 + i, f"ports row {i + 3} >", font=label, align="right")
+    for i in range(SETTINGS_ROWS):
+        put(ws, 4, SETTINGS_TOP + 1 + i, f"< settings row {i + 2}", font=label)
+
+
+def _wheel(lay) -> str:
+    """Spreadsheet test: a settings row wheel_radius is typed (the template shows torques)."""
+    s = lay.settings_ref.replace("$", "").split(":")
+    col = "".join(ch for ch in s[0] if ch.isalpha())
+    r1 = int("".join(ch for ch in s[0] if ch.isdigit()))
+    r2 = int("".join(ch for ch in s[1] if ch.isdigit()))
+    return f'COUNTIF({q(CV)}!${col}${r1}:${col}${r2},"wheel_radius")>0'
+
+
 def _control_volume(wb, lay: Layout):
     ws = wb.create_sheet(CV)
     raw = lay.raw
     ncol = len(CV_COLUMNS)
-    widths(ws, {1: 30, **{c: 9.5 for c in range(2, ncol + 2)}})
-    put(ws, 1, 1, "Control volume moving at constant velocity", font=TITLE_FONT)
-    put(ws, 1, 2, "Yellow: inputs. Grey: computed by portflux. Units in row "
-                  f"{PORTS_TOP + 1} (pint unit strings; blank = SI default, angles in degrees).")
-    put(ws, 1, 3, "Sign conventions and cautions: sheet 'About'. Printable page: sheet 'Report'.")
-    ws.merge_cells(start_row=NOTE_ROW, end_row=NOTE_ROW + 1, start_column=1, end_column=14)
+    widths(ws, {1: 30, 2: 14, **{c: 9.5 for c in range(3, ncol + 3)}})
+    put(ws, 1, 1, "Control volume at constant velocity", font=TITLE_FONT, wrap=True)
+    ws.merge_cells(start_row=1, end_row=1, start_column=1, end_column=PANEL_LEFT - 1)
+    ws.row_dimensions[1].height = 36              # a scenario's title may take two lines
+    put(ws, 1, 2, f"Yellow: inputs. Grey: computed by portflux. Row {PORTS_TOP + 1} holds the "
+                  f"unit of each column (pint unit strings such as mm^2, kPa, ft/s; type the "
+                  f"unit of every column you fill). Sign conventions and cautions: sheet "
+                  f"'About'. Printable page: sheet 'Report'.", wrap=True)
+    ws.merge_cells(start_row=2, end_row=4, start_column=1, end_column=PANEL_LEFT - 1)
+    ws.merge_cells(start_row=NOTE_ROW, end_row=NOTE_ROW + 3, start_column=1,
+                   end_column=PANEL_LEFT - 1)
     ws.cell(row=NOTE_ROW, column=1).alignment = Alignment(wrap_text=True, vertical="top")
-    put(ws, 1, PORTS_TOP - 1, f"Port table: rows {PORTS_TOP + 2}-{PORTS_TOP + 1 + MAX_PORTS} "
-                              f"(up to {MAX_PORTS} ports), columns A-{get_column_letter(ncol)}; "
-                              f"leave unused cells blank. Nothing below the line or right of "
-                              f"the table is read.", font=BOLD)
-    lay.ports = port_table(ws, 1, PORTS_TOP, CV_COLUMNS, CV_UNITS, CV_ROWS, nrows=MAX_PORTS)
-    end_of_range(ws, 1, ncol, PORTS_TOP + 1 + MAX_PORTS, None)
+    put(ws, 1, PORTS_TOP - 1, f"Port table: rows {PORTS_TOP + 2}-{PORTS_TOP + 1 + MAX_PORTS}, "
+                              f"columns B-{get_column_letter(PORT_LEFT + ncol - 1)}; leave "
+                              f"unused cells blank.", font=BOLD)
+    ws.merge_cells(start_row=PORTS_TOP - 1, end_row=PORTS_TOP - 1, start_column=1,
+                   end_column=PANEL_LEFT - 1)
+    lay.ports = port_table(ws, PORT_LEFT, PORTS_TOP, CV_COLUMNS, CV_UNITS, CV_ROWS,
+                           nrows=MAX_PORTS)
+    for j in range(ncol):
+        ws.cell(row=PORTS_TOP, column=PORT_LEFT + j).alignment = Alignment(wrap_text=True,
+                                                                          vertical="top")
+    ws.row_dimensions[PORTS_TOP].height = 30
+    end_of_range(ws, PORT_LEFT, PORT_LEFT + ncol - 1, PORTS_TOP + 1 + MAX_PORTS, None)
     P = lay.ports.ref
     cv = cv_row(ws, 1, CV_TOP, (8.0, 0.0, 0.0), "m/s")
+    for j, h in enumerate(("x (cell 1)", "y (cell 2)", "z (cell 3)", "unit (cell 4)")):
+        put(ws, 2 + j, CV_TOP, h, font=BOLD)
     lay.cv_cells = tuple(cell(c, CV_TOP + 1) for c in range(2, 6))
+    put(ws, 6, CV_TOP + 1, "a wheel: type rpm, rad/s or rev/s and add a settings row "
+                           "wheel_radius | radius | unit (U = omega r)", font=SMALL)
     put(ws, 1, UNITS_ROW, "output units", font=BOLD)
     put(ws, 2, UNITS_ROW, "SI", fill=INPUT_FILL)
     for c in (3, 4):
@@ -307,10 +440,11 @@ def _control_volume(wb, lay: Layout):
     S = settings_block(ws, 1, SETTINGS_TOP, CV_SETTINGS, spare=SPARE_SETTINGS)
     lay.settings_ref = S
     s_last = SETTINGS_TOP + len(CV_SETTINGS) + SPARE_SETTINGS
-    end_of_range(ws, 1, 3, s_last, f"end of the settings (rows {SETTINGS_TOP + 1}-{s_last}; "
-                                   f"type your own in the spare yellow rows)")
-    put(ws, 5, SETTINGS_TOP, "settings: name | value | unit (see PFX_SETTINGS() for every name; "
-                             "slip_angle may repeat)", font=ITALIC)
+    end_of_range(ws, 1, 3, s_last, None)
+    put(ws, 6, SETTINGS_TOP, f"settings: name | value | unit, rows {SETTINGS_TOP + 1}-{s_last} "
+                             f"(type your own in the spare yellow rows; see PFX_SETTINGS() for "
+                             f"every name; slip_angle may repeat)", font=ITALIC)
+    _row_labels(ws)
     lay.settings_cells = {name: (cell(2, SETTINGS_TOP + 1 + i), cell(3, SETTINGS_TOP + 1 + i))
                           for i, (name, _, _) in enumerate(CV_SETTINGS)}
     args = f"{q(CV)}!{P},{q(CV)}!{cv}"
@@ -320,64 +454,80 @@ def _control_volume(wb, lay: Layout):
     top = SUMMARY_AT[1]
     put(ws, 1, top - 2, "Results", font=TITLE_FONT)
     put(ws, 1, top - 1, "Summary", font=BOLD)
+    quantities = [[(i, 1) for i in g] for g in SUMMARY_QUANTITIES]
     raw.show("summary", "PFX_SUMMARY", f"=PFX_SUMMARY({args},{Uq},{Sq})", ws,
-             _block_at(1, top), row_fmts={4: "0", 9: "General", 10: "General", 19: RATIO,
-                                          21: "0"})
+             _block_at(1, top), row_fmts=SUMMARY_FORMATS, quantities=quantities)
     for i in range(LARGEST["PFX_SUMMARY"][0]):
         ws.merge_cells(start_row=top + i, end_row=top + i, start_column=2, end_column=3)
+    lay.units = _unit_cells(raw, ws, top)
+    lay.groups = _summary_groups(top)
     put(ws, 4, top - 1, "Relative velocity w = V - V_cv of every port", font=BOLD)
-    raw.show("relative velocities", "PFX_RELVELS", f"=PFX_RELVELS({args},{Uq},TRUE)", ws,
+    raw.show("relative velocities", "PFX_RELVELS", f"=PFX_RELVELS({args},{Uq},TRUE,{Sq})", ws,
              _block_at(4, top))
     put(ws, 9, top - 1, "Absolute velocity V", font=BOLD)
-    raw.show("absolute velocities", "PFX_ABSVEL", f"=PFX_ABSVEL({args},{Uq},TRUE)", ws,
+    raw.show("absolute velocities", "PFX_ABSVEL", f"=PFX_ABSVEL({args},{Uq},TRUE,{Sq})", ws,
              _block_at(9, top))
     put(ws, 14, top - 1, "Mass flow (+ out)", font=BOLD)
     raw.show("mass flows", "PFX_MASSFLOWS", f"=PFX_MASSFLOWS({args},{Uq},TRUE,{Sq})", ws,
-             _block_at(14, top))
+             _block_at(14, top), by="col")
 
     r = top + MAX_PORTS + 2                     # forces block under the per-port tables
     lab = 4                                     # labels in D (merged D:G), values in H..K
     for j, h in enumerate(("x", "y", "z", "resultant")):
         put(ws, 8 + j, r, h, font=BOLD, align="center")
-    put(ws, 12, r, "(units as in the Summary)", font=ITALIC)
+    u = lay.units
 
-    def label(row, text):
-        put(ws, lab, row, text, font=BOLD)
+    def label(row, text, unit=None):
+        t = f'="{text} ["&{u[unit]}&"]"' if unit else text
+        (formula if unit else put)(ws, lab, row, t, font=BOLD)
         ws.merge_cells(start_row=row, end_row=row, start_column=lab, end_column=lab + 3)
 
-    label(r + 1, "force on the body -R (fluid on body)")
+    label(r + 1, "force on the body -R (fluid on body)", "force")
     raw.show("force on body", "PFX_BODYFORCE", f"=PFX_BODYFORCE({args},,{Uq},{Sq})", ws,
-             _block_at(8, r + 1))
-    label(r + 2, "support force R (solid on fluid)")
+             _block_at(8, r + 1), label_col=False, sig=False)
+    label(r + 2, "support force R (solid on fluid)", "force")
     raw.show("support force", "PFX_SUPPORT", f"=PFX_SUPPORT({args},,{Uq},{Sq})", ws,
-             _block_at(8, r + 2))
+             _block_at(8, r + 2), label_col=False, sig=False)
     for rr in (r + 1, r + 2):
         x, y, z = (cell(8 + j, rr) for j in range(3))
         formula(ws, 11, rr, f'=IF(AND(ISNUMBER({x}),ISNUMBER({y}),ISNUMBER({z})),'
-                            f'SQRT({x}^2+{y}^2+{z}^2),"")', fmt=NUMBER)
-    label(r + 3, "mass imbalance (out - in), relative, status")
+                            f'SQRT({x}^2+{y}^2+{z}^2),"")')
+        significant(ws, rng(8, rr, 11, rr), group=lay.groups["force"])
+    label(r + 3, "mass imbalance, out - in", "mass_flow")
+    label(r + 4, "relative imbalance [-]")
+    label(r + 5, "mass balance status")
     raw.show("imbalance", "PFX_IMBALANCE", f"=PFX_IMBALANCE({args},,{Uq},{Sq})", ws,
-             _block_at(8, r + 3), fmts={1: "General"})
-    big_numbers(ws, rng(11, r + 1, 11, r + 2))
-    label(r + 4, "power delivered to the body")
-    formula(ws, 8, r + 4, f"=PFX_POWER({args},{Uq},{Sq})", fmt=NUMBER)
-    label(r + 5, "jet efficiency")
-    formula(ws, 8, r + 5, f'=PFX_EFFICIENCY({args},"jet",{Sq},{Uq})', fmt=RATIO)
-    label(r + 6, "propulsive efficiency")
-    formula(ws, 8, r + 6, f'=PFX_EFFICIENCY({args},"propulsive",{Sq},{Uq})', fmt=RATIO)
+             lambda i, j: (8, r + 3 + j), fmts={1: RATIO, 2: "General"}, label_col=False,
+             sig=False)
+    significant(ws, cell(8, r + 3), group=lay.groups["mass_flow"])
+    label(r + 6, "power delivered to the body", "power")
+    formula(ws, 8, r + 6, f"=PFX_POWER({args},{Uq},{Sq})")
+    significant(ws, cell(8, r + 6), group=lay.groups["power"])
+    label(r + 7, "shaft torque of a wheel (settings wheel_radius)", "moment")
+    formula(ws, 8, r + 7, f'=IF({_wheel(lay)},PFX_SHAFTTORQUE({args},{Uq},{Sq}),"-")')
+    lay.groups["torque"] = cell(8, r + 7, CV)
+    significant(ws, cell(8, r + 7), group=lay.groups["torque"])
+    put(ws, 9, r + 7, "+ when the fluid drives the wheel; '-': not a wheel", font=SMALL)
+    label(r + 8, "jet efficiency [-]")
+    formula(ws, 8, r + 8, f'=PFX_EFFICIENCY({args},"jet",{Sq},{Uq})', fmt=RATIO)
+    label(r + 9, "propulsive efficiency [-]")
+    formula(ws, 8, r + 9, f'=PFX_EFFICIENCY({args},"propulsive",{Sq},{Uq})', fmt=RATIO)
     body, sup = (cell(8 + j, r + 1) for j in range(4)), (cell(8 + j, r + 2) for j in range(4))
-    lay.panel = dict(body=tuple(body), support=tuple(sup), power=cell(8, r + 4),
-                     jet=cell(8, r + 5), propulsive=cell(8, r + 6), status=cell(10, r + 3),
+    lay.panel = dict(body=tuple(body), support=tuple(sup), power=cell(8, r + 6),
+                     torque=cell(8, r + 7), jet=cell(8, r + 8), propulsive=cell(8, r + 9),
+                     status=cell(8, r + 5), imbalance=cell(8, r + 3),
                      force_label=cell(1, top + 15), power_label=cell(1, top + 18),
                      summary_top=top)
 
-    r2 = r + 8
+    r2 = r + 11
     put(ws, lab, r2, "Frame cross-check (sum mdot V - sum mdot w = V_cv x imbalance)", font=BOLD)
     raw.show("frame check", "PFX_FRAMECHECK", f"=PFX_FRAMECHECK({args},{Uq},{Sq})", ws,
              lambda i, j: (lab if j == 0 else 7 + j, r2 + 1 + i))
     for i in range(5):
         ws.merge_cells(start_row=r2 + 1 + i, end_row=r2 + 1 + i, start_column=lab,
                        end_column=lab + 3)
+        if i:
+            formula(ws, 11, r2 + 1 + i, f"={u['force']}", font=ITALIC)
     rw = max(r2 + 7, top + LARGEST["PFX_SUMMARY"][0] + 1)
     put(ws, 1, rw, "Warnings (each listed once; 'none' when there is nothing to say)",
         font=BOLD)
@@ -394,10 +544,42 @@ def _control_volume(wb, lay: Layout):
     lay.panel["warnings"] = tuple(cell(1, rw + 2 + i) for i in range(WARNING_ROWS))
     last = _support_loads(ws, lay, raw, args, Uq, Sq, last + 2)
 
-    _results_panel(ws, lay, ncol)
     _velocity_triangle(ws, 17, top - 1, top, lay)
-    print_setup(ws, rng(1, 1, ncol, last), landscape=True, title_rows="1:3", fit_height=1)
+    print_setup(ws, rng(1, 1, PORT_LEFT + ncol - 1, last), landscape=True, title_rows="1:3",
+                fit_height=1)
     return last
+
+
+def _unit_cells(raw, ws, top):
+    """Cells on the raw sheet holding the output unit of each quantity, read from the
+    summary's labels (so a label reads '... [' & unit & ']' in the unit the function used)."""
+    rs = raw.ws
+    r0 = raw.row
+    put(rs, 1, r0, "output units of the Control volume sheet (from the summary's labels)",
+        font=ITALIC)
+    out = {}
+    labels = [(name, cell(1, top + i, CV), prefix)
+              for name, (i, prefix) in SUMMARY_UNITS.items()]
+    # the velocity of the ports, from the relative-velocity table's header (the summary's CV
+    # velocity is in the unit typed, rpm for a wheel)
+    labels.append(("velocity", cell(RELVEL_AT[0] + 1, top, CV), "wx ["))
+    for k, (name, label, prefix) in enumerate(labels):
+        put(rs, 1, r0 + 1 + k, name)
+        formula(rs, 2, r0 + 1 + k, "=" + unit_of_label(label, prefix))
+        out[name] = cell(2, r0 + 1 + k, RAW)
+    raw.row = r0 + len(labels) + 2
+    return out
+
+
+def _summary_groups(top) -> dict:
+    """The cells of the summary that show each quantity repeated elsewhere (panel, forces
+    block, Report): every copy takes its number format from the same group."""
+    def rows(*ii):
+        runs = _runs([(2, top + i) for i in ii])
+        return ",".join(rng(c, a, c, b, CV) for c, a, b in runs)
+    return dict(velocity=rows(1, 2, 3), mass_flow=rows(6, 7, 8),
+                force=rows(12, 13, 14, 15, 16, 17, 23), power=rows(18),
+                moment=rows(26, 27, 28, 29, 30, 31, 32))
 
 
 def _support_loads(ws, lay, raw, args, Uq, Sq, top):
@@ -405,27 +587,37 @@ def _support_loads(ws, lay, raw, args, Uq, Sq, top):
     ref_z) and the resultants of the force and the moment on the body; returns its last row."""
     put(ws, 1, top, "Support loads about the reference point (settings ref_x, ref_y, ref_z; "
                     "port positions rx, ry, rz)", font=BOLD)
-    heads = ("x", "y", "z", "resultant", "angle", "elevation")
+    heads = ("x", "y", "z", "resultant", "angle [deg]", "elevation [deg]")
     for j, h in enumerate(heads):
         put(ws, 4 + j, top + 1, h, font=BOLD, align="center")
-    put(ws, 10, top + 1, "(units as in the Summary; angles: in-plane from +x toward +y, "
-                         "elevation toward +z)", font=ITALIC)
+    put(ws, 10, top + 1, "(angles: in-plane from +x toward +y, elevation toward +z)",
+        font=ITALIC)
+    u = lay.units
     rows = (("moment on the body -M_R (fluid on body)", "PFX_MOMENT", "moment on body"),
             ("support moment M_R (solid on fluid)", "PFX_SUPPORTMOMENT", "support moment"))
     for i, (label, function, name) in enumerate(rows):
         r = top + 2 + i
-        put(ws, 1, r, label, font=BOLD)
+        formula(ws, 1, r, f'="{label} ["&{u["moment"]}&"]"', font=BOLD)
         ws.merge_cells(start_row=r, end_row=r, start_column=1, end_column=3)
-        raw.show(name, function, f"={function}({args},,{Uq},{Sq})", ws, _block_at(4, r))
+        raw.show(name, function, f"={function}({args},,{Uq},{Sq})", ws, _block_at(4, r),
+                 label_col=False, sig=False)
     r = top + 2
     raw.show("moment resultant", "PFX_RESULTANT", f'=PFX_RESULTANT({args},"moment",{Uq},{Sq})',
-             ws, _block_at(7, r))
+             ws, _block_at(7, r), label_col=False, sig=False)
     r = top + 4
-    put(ws, 1, r, "force on the body -R: resultant and direction", font=BOLD)
+    formula(ws, 1, r, f'="force on the body -R: resultant and direction ["&{u["force"]}&"]"',
+            font=BOLD)
     ws.merge_cells(start_row=r, end_row=r, start_column=1, end_column=3)
     raw.show("force resultant", "PFX_RESULTANT", f'=PFX_RESULTANT({args},"force",{Uq},{Sq})',
-             ws, _block_at(7, r))
-    big_numbers(ws, rng(4, top + 2, 7, top + 4))
+             ws, _block_at(7, r), label_col=False, sig=False)
+    # one quantity each: the moment (both rows, components and resultant), the force's
+    # resultant with the components of the forces block (the panel's rule), each angle alone
+    g = lay.groups
+    significant(ws, rng(4, top + 2, 7, top + 2), group=g["moment"])
+    significant(ws, rng(4, top + 3, 6, top + 3), group=g["moment"])
+    significant(ws, cell(7, r), group=g["force"])
+    for rr in (top + 2, r):
+        significant(ws, rng(8, rr, 9, rr), by="cell")
     lay.panel["moment"] = tuple(cell(4 + j, top + 2) for j in range(4))
     lay.panel["moment_label"] = cell(1, SUMMARY_AT[1] + 29)    # "moment on body x [unit]"
     put(ws, 1, top + 5, "Design factors (settings dynamic_factor, load_factor) default to 1: set "
@@ -434,34 +626,60 @@ def _support_loads(ws, lay, raw, args, Uq, Sq, top):
     return top + 5
 
 
-def _results_panel(ws, lay, ncol):
-    """Force on the body and at the support, power and status at the top right, large type."""
-    left = ncol - 6                                   # P..V for 22 port columns
-    p = lay.panel
-    put(ws, left, 1, "RESULTS (output units)", font=BIG_FONT)
-    for j, h in enumerate(("x", "y", "z", "resultant")):
-        put(ws, left + 2 + j, 2, h, font=BOLD, align="center")
-    rows = (("force on body", p["body"]), ("support force R", p["support"]))
-    for i, (name, cells) in enumerate(rows):
-        rr = 3 + i
-        put(ws, left, rr, name, fill=PANEL_FILL, font=BOLD)
-        ws.merge_cells(start_row=rr, end_row=rr, start_column=left, end_column=left + 1)
+def _results_panel(ws, lay):
+    """The results in the first screen (columns F-N, rows 1-9), large type: force and moment on
+    the body at the CV velocity, the factored design force and moment (worst of the sweep),
+    power, shaft torque of a wheel and status, each with its unit."""
+    c0 = PANEL_LEFT
+    p, u, sw = lay.panel, lay.units, lay.sweep_cells
+    put(ws, c0, 1, "RESULTS at the CV velocity", font=BIG_FONT)
+    for j, h in enumerate(("x", "y", "z", "resultant", "unit")):
+        put(ws, c0 + 2 + j, 2, h, font=BOLD, align="center")
+
+    def name(r, text):
+        put(ws, c0, r, text, fill=PANEL_FILL, font=BOLD)
+        ws.merge_cells(start_row=r, end_row=r, start_column=c0, end_column=c0 + 1)
+
+    g = lay.groups
+
+    def vector(r, cells, unit, group):
         for j, c in enumerate(cells):
-            put(ws, left + 2 + j, rr, f"={c}", fill=PANEL_FILL, font=BIG_FONT, fmt=NUMBER)
-    put(ws, left, 5, "power to body", fill=PANEL_FILL, font=BOLD)
-    ws.merge_cells(start_row=5, end_row=5, start_column=left, end_column=left + 1)
-    put(ws, left + 2, 5, f"={p['power']}", fill=PANEL_FILL, font=BIG_FONT, fmt=NUMBER)
-    big_numbers(ws, rng(left + 2, 3, left + 5, 5))
-    put(ws, left + 3, 5, f'=IFERROR(MID({p["power_label"]},16,LEN({p["power_label"]})-16),"")',
+            put(ws, c0 + 2 + j, r, f"={c}", fill=PANEL_FILL, font=BIG_FONT)
+        put(ws, c0 + 6, r, f"={unit}", font=ITALIC)
+        significant(ws, rng(c0 + 2, r, c0 + 5, r), group=group)
+
+    name(3, "force on the body")
+    vector(3, p["body"], u["force"], g["force"])
+    name(4, "moment on the body")
+    vector(4, p["moment"], u["moment"], g["moment"])
+    put(ws, c0 + 7, 4, "about ref_x, ref_y, ref_z", font=SMALL)
+    name(5, "design force")
+    vector(5, sw["design_force"], sw["force_unit"], g["design_force"])
+    put(ws, c0 + 7, 5, "factored: worst of the sweep x factors", font=SMALL)
+    name(6, "design moment")
+    vector(6, sw["design_moment"], sw["moment_unit"], g["design_moment"])
+    put(ws, c0 + 7, 6, "factored; each at its own worst speed", font=SMALL)
+    name(7, "power to the body")
+    put(ws, c0 + 2, 7, f"={p['power']}", fill=PANEL_FILL, font=BIG_FONT)
+    significant(ws, cell(c0 + 2, 7), group=g["power"])
+    put(ws, c0 + 3, 7, f"={u['power']}", font=ITALIC)
+    put(ws, c0 + 4, 7, "shaft torque", fill=PANEL_FILL, font=BOLD)
+    ws.merge_cells(start_row=7, end_row=7, start_column=c0 + 4, end_column=c0 + 5)
+    put(ws, c0 + 6, 7, f"={p['torque']}", fill=PANEL_FILL, font=BIG_FONT, align="right")
+    significant(ws, cell(c0 + 6, 7), group=g["torque"])
+    put(ws, c0 + 7, 7, f'=IF(ISNUMBER({p["torque"]}),{u["moment"]},"not a wheel")',
         font=ITALIC)
-    fl = p["force_label"]
-    put(ws, left, 2, f'=IFERROR("unit: "&MID({fl},18,LEN({fl})-18),"")', font=ITALIC)
-    ws.merge_cells(start_row=2, end_row=2, start_column=left, end_column=left + 1)
-    put(ws, left, 6, "status", fill=PANEL_FILL, font=BOLD)
-    ws.merge_cells(start_row=6, end_row=6, start_column=left, end_column=left + 1)
-    put(ws, left + 2, 6, f"={p['status']}", fill=PANEL_FILL, font=BIG_FONT)
-    ws.merge_cells(start_row=6, end_row=6, start_column=left + 2, end_column=ncol)
-    put(ws, left, 7, f'=IF({lay.input_check}="","",{lay.input_check})', font=RED_BOLD)
+    name(8, "status")
+    put(ws, c0 + 2, 8, f"={p['status']}", fill=PANEL_FILL, font=BIG_FONT)
+    ws.merge_cells(start_row=8, end_row=8, start_column=c0 + 2, end_column=c0 + 5)
+    # &"": LibreOffice compares an add-in's texts wrongly; a text made by & compares right
+    put(ws, c0 + 6, 8, f'=IF({p["warnings"][0]}&""="none","no warnings",'
+                       f'"warnings: see row {p["warnings"][0].split("$")[-1]}")', font=ITALIC)
+    ws.merge_cells(start_row=8, end_row=8, start_column=c0 + 6, end_column=c0 + 8)
+    put(ws, c0, 9, f'=IF({lay.input_check}="","",{lay.input_check})', font=RED_BOLD)
+    ws.merge_cells(start_row=9, end_row=9, start_column=c0, end_column=c0 + 8)
+    for r in range(3, 9):
+        ws.row_dimensions[r].height = 18
 
 
 def _velocity_triangle(ws, left, top, table_top, lay=None):
@@ -477,7 +695,7 @@ def _velocity_triangle(ws, left, top, table_top, lay=None):
                 lay.ports.top + 1 + MAX_PORTS)
     put(ws, left, top + 1, "port shown", font=BOLD)
     formula(ws, left + 2, top + 1, f'=IF(ISNUMBER({typed}),{typed},'
-                                   f'IFERROR(MATCH("out",{roles},0),1))')
+                                   f'IFERROR(MATCH("out",{roles},0),1))', fmt=COUNT)
     k = cell(left + 2, top + 1)
     rows_w = (table_top + 1, table_top + MAX_PORTS)
 
@@ -486,6 +704,7 @@ def _velocity_triangle(ws, left, top, table_top, lay=None):
 
     w = (pick(5), pick(6))        # wx, wy of the relative-velocity table
     v = (pick(10), pick(11))      # Vx, Vy of the absolute-velocity table
+    vel = lay.units["velocity"]
     head = ("vector", "x start", "y start", "x end", "y end")
     w, v = [[f"IFERROR({e}+0,0)" for e in pair] for pair in (w, v)]   # a blank port is 0
     rows = (("V (absolute)", "=0", "=0", f"={v[0]}", f"={v[1]}"),
@@ -498,76 +717,46 @@ def _velocity_triangle(ws, left, top, table_top, lay=None):
         ws.merge_cells(start_row=base + 1 + i, end_row=base + 1 + i, start_column=left,
                        end_column=left + 1)
         for j, x in enumerate(row[1:]):
-            formula(ws, left + 2 + j, base + 1 + i, x, fmt=NUMBER)
+            formula(ws, left + 2 + j, base + 1 + i, x)
     for j, h in enumerate(head[1:]):
-        put(ws, left + 2 + j, base, h, font=BOLD)
+        formula(ws, left + 2 + j, base, f'="{h} ["&{vel}&"]"', font=BOLD)
     # chart points: each vector as two points (start, end); a square frame (-M..M) for equal scales
     pts, pc = base + 5, left + 7          # chart points right of the chart, columns X and Y
-    put(ws, pc, pts, "chart points (x, y)", font=ITALIC)
+    formula(ws, pc, pts, f'="chart points (x, y) ["&{vel}&"]"', font=ITALIC)
     for kk in range(3):
         src = base + 1 + kk
         for p, (cx, cy) in enumerate(((2, 3), (4, 5))):
             rr = pts + 1 + 2 * kk + p
-            formula(ws, pc, rr, f"={cell(left + cx, src)}", fmt=NUMBER)
-            formula(ws, pc + 1, rr, f"={cell(left + cy, src)}", fmt=NUMBER)
+            formula(ws, pc, rr, f"={cell(left + cx, src)}")
+            formula(ws, pc + 1, rr, f"={cell(left + cy, src)}")
     vals = rng(left + 2, base + 1, left + 5, base + 3)
-    big_numbers(ws, vals)
+    significant(ws, vals, group=vals)
+    significant(ws, rng(pc, pts + 1, pc + 1, pts + 6), group=vals)
     fr = pts + 7
-    put(ws, pc, fr, "equal-scale frame", font=ITALIC)
-    m = cell(pc + 2, fr)
-    formula(ws, pc + 2, fr, f"=1.05*MAX(1E-9,ABS(MAX({vals})),ABS(MIN({vals})))", fmt=NUMBER)
-    formula(ws, pc, fr + 1, f"=0-{m}", fmt=NUMBER)
-    formula(ws, pc + 1, fr + 1, f"=0-{m}", fmt=NUMBER)
-    formula(ws, pc, fr + 2, f"={m}", fmt=NUMBER)
-    formula(ws, pc + 1, fr + 2, f"={m}", fmt=NUMBER)
+    formula(ws, pc, fr, f'="equal-scale frame ["&{vel}&"]:"', font=ITALIC)
+    m = cell(pc + 1, fr)
+    formula(ws, pc + 1, fr, f"=1.05*MAX(1E-9,ABS(MAX({vals})),ABS(MIN({vals})))")
+    formula(ws, pc, fr + 1, f"=0-{m}")
+    formula(ws, pc + 1, fr + 1, f"=0-{m}")
+    formula(ws, pc, fr + 2, f"={m}")
+    formula(ws, pc + 1, fr + 2, f"={m}")
+    significant(ws, rng(pc, fr + 1, pc + 1, fr + 2), group=m)
+    significant(ws, m)
     fr += 1
-    ch = ScatterChart()
-    ch.title = "Velocity triangle"
-    ch.style = 13
-    vel = lay.chart_units.label("velocity")
-    hdr = cell(5, table_top)                  # 'wx [unit]' of the relative-velocity table
     for j, axis in enumerate("xy"):
-        formula(ws, pc + j, base, f'=IFERROR("{axis}"&MID({hdr},3,LEN({hdr})-2),"{axis}")')
-    ch.x_axis.title = title_from(cell(pc, base, CV), f"x [{vel}]")
-    ch.y_axis.title = title_from(cell(pc + 1, base, CV), f"y [{vel}]")
-    colours = ("1F4E79", "7F7F7F", "C00000")
-    for kk in range(3):
-        r0 = pts + 1 + 2 * kk
-        xs = Reference(ws, min_col=pc, min_row=r0, max_row=r0 + 1)
-        ys = Reference(ws, min_col=pc + 1, min_row=r0, max_row=r0 + 1)
-        s = Series(ys, xs, title=rows[kk][0])
-        s.marker.symbol = "triangle"
-        s.graphicalProperties.line.solidFill = colours[kk]
-        s.graphicalProperties.line.width = 28575
-        ch.series.append(s)
-    xs = Reference(ws, min_col=pc, min_row=fr, max_row=fr + 1)
-    ys = Reference(ws, min_col=pc + 1, min_row=fr, max_row=fr + 1)
-    s = Series(ys, xs, title="frame")
-    s.marker.symbol = "none"
-    s.graphicalProperties.line.noFill = True
-    ch.series.append(s)
-    _axes_visible(ch)
-    for ax in (ch.x_axis, ch.y_axis):          # labels at the edge, plain numbers
-        ax.tickLblPos = "low"
-        ax.number_format = "General"
-    ch.height = ch.width = 9.5
-    ch.legend.position = "b"
-    # a square plot area: with the frame series both axes get the same range, so equal scales
-    ch.plot_area.layout = ChartLayout(manualLayout=ManualLayout(
-        layoutTarget="inner", xMode="edge", yMode="edge", x=0.2, y=0.12, w=0.6, h=0.6))
-    ws.add_chart(ch, cell(left, pts, absolute=False))
-
-
-def _axes_visible(ch):
-    """openpyxl hides the axes by default (delete=True); show them."""
-    ch.x_axis.delete = False
-    ch.y_axis.delete = False
+        formula(ws, pc + j, base, f'="{axis} ["&{vel}&"]"')
+    lay.triangle = dict(points=(pc, pts + 1), frame=(pc, fr), titles=(cell(pc, base, CV),
+                                                                       cell(pc + 1, base, CV)),
+                        names=tuple(r[0] for r in rows))
+    ws.add_chart(triangle_chart(ws, lay), cell(left, pts, absolute=False))
 
 
 def _speed_sweep(wb, lay: Layout):
     ws = wb.create_sheet(SWEEP)
     raw = lay.raw
-    widths(ws, {1: 16, 2: 12, **{c: 11 for c in range(3, 13)}, 13: 7, 14: 2, 15: 36, 16: 14})
+    nrow, ncols = LARGEST["PFX_SPEEDTABLE"]
+    widths(ws, {1: 16, 2: 12, **{c: 11 for c in range(3, 3 + ncols)}, 3 + ncols: 7,
+                4 + ncols: 2, 5 + ncols: 38, 6 + ncols: 14})
     put(ws, 1, 1, "Speed sweep: the control volume of sheet 'Control volume' over a table of "
                   "speeds", font=TITLE_FONT)
     put(ws, 1, 2, "The port table, settings and closures of 'Control volume' are used at every "
@@ -579,12 +768,17 @@ def _speed_sweep(wb, lay: Layout):
         put(ws, 2, 3 + i, value, fill=INPUT_FILL)
     low, high, unit, direc, force, U = (cell(2, 3 + i) for i in range(6))
     lay.sweep_cells = dict(low=low, high=high, unit=unit, direction=direc, force=force, units=U)
+    lay.sweep_inputs = f"{q(SWEEP)}!{rng(2, 3, 3, 8)}"
     # the bracket ends carry the speed unit in the cell beside them: a (number, unit) pair is
-    # what PFX_BESTSPEED and PFX_SPEEDATFORCE read, so the bracket is in the unit typed above
+    # what PFX_BESTSPEED, PFX_SPEEDATFORCE and PFX_ENVELOPE read, so the bracket is in the unit
+    # typed above; the target force is in the output force unit, shown beside it
     for r in (3, 4):
         formula(ws, 3, r, f"={unit}", font=ITALIC)
     low_u, high_u = rng(2, 3, 3, 3, SWEEP), rng(2, 4, 3, 4, SWEEP)
-    put(ws, 3, 7, "force on the body along the direction, in the output force unit")
+    force_u = rng(2, 7, 3, 7, SWEEP)
+    put(ws, 4, 5, "m/s, km/h, ft/s, knot, or rpm with a settings row wheel_radius", font=SMALL)
+    put(ws, 4, 7, "(the output force unit; blank: not asked)", font=SMALL)
+    put(ws, 4, 8, "SI, US, or e.g. 'SI; power=kW'", font=SMALL)
     P = f"{q(CV)}!{lay.ports.ref}"
     S = f"{q(CV)}!{lay.settings_ref}"
     Sh = lambda c: f"{q(SWEEP)}!{c}"      # noqa: E731  (raw-sheet formulas name this sheet)
@@ -593,47 +787,79 @@ def _speed_sweep(wb, lay: Layout):
     put(ws, 1, top - 1, "speeds", font=BOLD)
     formula(ws, 1, top, f"={unit}")
     for k in range(SWEEP_POINTS):
-        formula(ws, 1, top + 1 + k, f"={low}+{k}*({high}-{low})/{SWEEP_POINTS - 1}", fmt=SPEED)
-    speeds = rng(1, top, 1, top + SWEEP_POINTS)
-    nrow, ncols = LARGEST["PFX_SPEEDTABLE"]
+        formula(ws, 1, top + 1 + k, f"={low}+{k}*({high}-{low})/{SWEEP_POINTS - 1}")
+    significant(ws, rng(1, top + 1, 1, top + SWEEP_POINTS), by="col")
+    speeds = rng(1, top, 1, top + SWEEP_POINTS, SWEEP)
     put(ws, 3, top - 1, "Speed table (one call)", font=BOLD)
-    array(ws, 3, top, nrow, ncols, f"=PFX_SPEEDTABLE({P},{speeds},{direc},{U},{S})", fmt=NUMBER)
-    raw.blocks["speed table"] = ("PFX_SPEEDTABLE",      # exact size: shown as it is
-                                 rng(3, top, 2 + ncols, top + nrow - 1, SWEEP))
-    big_numbers(ws, rng(4, top + 1, 10, top + nrow - 1))
-    for j, f in ((0, SPEED), (8, RATIO), (9, "0")):
-        for k in range(nrow):
-            ws.cell(row=top + k, column=3 + j).number_format = f
+    last = top + SWEEP_POINTS
+    table = [[(i, 0) for i in range(1, nrow)], [(i, j) for i in range(1, nrow)
+                                                 for j in range(1, 7)],
+             [(i, 7) for i in range(1, nrow)], [(i, 10) for i in range(1, nrow)]]
+    raw.show("speed table", "PFX_SPEEDTABLE",
+             f"=PFX_SPEEDTABLE({P},{speeds},{Sh(direc)},{Sh(U)},{S})", ws, _block_at(3, top),
+             fmts={8: RATIO, 9: COUNT}, row_fmts={0: "General"}, quantities=table,
+             label_col=False)
     for j in range(ncols):
         ws.cell(row=top, column=3 + j).alignment = Alignment(wrap_text=True, vertical="top")
     ws.row_dimensions[top].height = 45
-    put(ws, 3 + ncols, top - 1, "optimum", font=BOLD)
+    mark = 3 + ncols
+    put(ws, mark, top - 1, "optimum", font=BOLD)
+    # the sweep's own output units, read from the labels its functions wrote
+    rs, r0 = raw.ws, raw.row
+    put(rs, 1, r0, "output units of the Speed sweep sheet (from its labels)", font=ITALIC)
+    heads = {"force": (cell(7, top, SWEEP), "force on body x ["),
+             "power": (cell(10, top, SWEEP), "power to body ["),
+             "speed": (cell(3, top, SWEEP), "speed [")}
+    su = {}
+    for k, (name, (lab, prefix)) in enumerate(heads.items()):
+        put(rs, 1, r0 + 1 + k, name)
+        formula(rs, 2, r0 + 1 + k, "=" + unit_of_label(lab, prefix))
+        su[name] = cell(2, r0 + 1 + k, RAW)
+    raw.row = r0 + len(heads) + 2
+    formula(ws, 3, 7, f'=IF({su["force"]}="","N",{su["force"]})', font=ITALIC)
 
     bl, btop, brows, _ = BEST_AT
     put(ws, bl, btop - 1, "Speed of maximum power", font=BOLD)
     raw.show("best speed", "PFX_BESTSPEED",
              f"=PFX_BESTSPEED({P},{low_u},{high_u},{Sh(direc)},{Sh(U)},{S})", ws,
-             _block_at(bl, btop))
+             _block_at(bl, btop), row_fmts={3: RATIO}, by="cell")
     best = cell(bl + 1, btop + 1)
+    first, second = cell(3, top + 1), cell(3, top + 2)
     for k in range(SWEEP_POINTS):
         r = top + 1 + k
-        formula(ws, 3 + ncols, r,
-                f'=IF(ISNUMBER({best}),IF(ABS({cell(3, r)}-{best})<=({high}-{low})/'
-                f'{2 * (SWEEP_POINTS - 1)},"<- best",""),"")')
+        formula(ws, mark, r, f'=IFERROR(IF(ISNUMBER({best}),IF(ABS({cell(3, r)}-{best})<=ABS('
+                             f'{second}-{first})/2,"<- best",""),""),"")')
     sl, stop, _, _ = SPEEDFORCE_AT
     put(ws, sl, stop - 1, "Speed at which the force on the body falls to the given value",
         font=BOLD)
+    # the force reached along the motion at the table's speeds: a target outside it is a
+    # result ("not reached"), not a failure; a blank target is not asked
+    along = (f"IF(ISNUMBER({rng(7, top + 1, 7, last)}),{rng(7, top + 1, 7, last)}*COS(RADIANS("
+             f"{direc}))+{rng(8, top + 1, 8, last)}*SIN(RADIANS({direc})),\"\")")
+    put(rs, 1, raw.row, "force on the body along the motion at the table's speeds: min, max",
+        font=ITALIC)
+    lo_f, hi_f = cell(2, raw.row + 1, RAW), cell(3, raw.row + 1, RAW)
+    for j, fn in enumerate(("MIN", "MAX")):
+        ref1 = cell(2 + j, raw.row + 1, absolute=False)
+        rs[ref1] = ArrayFormula(f"{ref1}:{ref1}", f"={fn}({_on(SWEEP, along)})")
+    raw.row += 3
+    fq, force_at = Sh(force), force.replace("$", "")
+    count_when(ws, rng(sl + 1, stop, sl + 1, stop + LARGEST["PFX_SPEEDATFORCE"][0] - 1),
+               f'LEFT({cell(sl, stop, absolute=False)},9)="crossings"')
     raw.show("speed at force", "PFX_SPEEDATFORCE",
-             f'=PFX_SPEEDATFORCE({P},{Sh(force)},{low_u},{high_u},"along",{Sh(direc)},'
-             f'{Sh(U)},{S})', ws, _block_at(sl, stop), row_fmts={3: "0"})
+             f'=IF(NOT(ISNUMBER({fq})),"not asked: type a force to find (cell {force_at})",'
+             f'IF(AND({fq}>={lo_f}-1E-9*ABS({lo_f}),{fq}<={hi_f}+1E-9*ABS({hi_f})),'
+             f'PFX_SPEEDATFORCE({P},{force_u},{low_u},{high_u},"along",{Sh(direc)},{Sh(U)},{S}),'
+             f'"not reached: the force on the body along the motion runs from "&ROUND({lo_f},3)'
+             f'&" to "&ROUND({hi_f},3)&" "&{Sh(cell(3, 7))}&" at the table\'s speeds"))', ws,
+             _block_at(sl, stop), by="cell")
     # axis titles with units, read from the speed table's header
-    put(ws, bl, stop + 8, "chart axis titles", font=ITALIC)
-    formula(ws, bl + 1, stop + 8, f'=IFERROR("force on body ["&MID({cell(7, top)},18,'
-                                  f'LEN({cell(7, top)})-18)&"]","force on body")')
-    last = top + SWEEP_POINTS
+    put(ws, bl, stop + 9, "chart axis titles", font=ITALIC)
+    formula(ws, bl + 1, stop + 9, f'=IFERROR("force on body ["&{su["force"]}&"]",'
+                                  f'"force on body")')
     xs = Reference(ws, min_col=3, min_row=top + 1, max_row=last)
     cu = lay.chart_units
-    xt = title_from(cell(3, top, SWEEP), f"speed [{cu.label('velocity')}]")
+    xt = title_from(cell(3, top, SWEEP), f"speed [{lay.chart_speed}]")
 
     def chart(title, ytitle, cols, anchor, point=None):
         ch = ScatterChart()
@@ -651,38 +877,72 @@ def _speed_sweep(wb, lay: Layout):
             s.marker.graphicalProperties.line.solidFill = "C00000"
             s.graphicalProperties.line.noFill = True
             ch.series.append(s)
-        _axes_visible(ch)
+        axes_visible(ch)
         ch.height, ch.width = 8.5, 15
         ch.legend.position = "b"
         ws.add_chart(ch, anchor)
         return ch
 
     chart("Force on the body against speed",
-          title_from(cell(bl + 1, stop + 8, SWEEP), f"force on body [{cu.label('force')}]"),
+          title_from(cell(bl + 1, stop + 9, SWEEP), f"force on body [{cu.label('force')}]"),
           (7, 8, 9),
-          cell(bl, stop + 10, absolute=False))
+          cell(bl, stop + 11, absolute=False))
     chart("Power delivered to the body against speed",
           title_from(cell(10, top, SWEEP), f"power to body [{cu.label('power')}]"),
-          (10,), cell(bl, stop + 28, absolute=False), point=(bl + 1, btop + 1, bl + 1, btop + 2))
+          (10,), cell(bl, stop + 29, absolute=False), point=(bl + 1, btop + 1, bl + 1, btop + 2))
     lay.sweep_cells.update(best=best, power_header=cell(10, top), speed_header=cell(3, top),
-                           table_top=top, force_title=cell(bl + 1, stop + 8, SWEEP))
+                           table_top=top, force_title=cell(bl + 1, stop + 9, SWEEP),
+                           force_unit_cell=cell(3, 7))
     et = last + 3                               # the envelope block below the speed table
     put(ws, 1, et - 1, "Support-load envelope over the speed range (lowest to highest speed, "
                        "U = 0 included when inside): worst value, its speed, raw and factored",
         font=BOLD)
+    env = [[(i, j) for i in range(1, 5) for j in (1, 3)],
+           [(i, j) for i in range(5, 9) for j in (1, 3)],
+           [(i, 2) for i in range(1, 9)] + [(12, 1), (12, 2)]]
     raw.show("envelope", "PFX_ENVELOPE",
-             f"=PFX_ENVELOPE({P},{Sh(low)},{Sh(high)},{Sh(direc)},{Sh(U)},{S})", ws,
-             lambda i, j: (1 if j == 0 else 3 + j, et + i), fmts={3: NUMBER},
-             row_fmts={9: "General", 10: "General", 11: "General", 12: "General"})
+             f"=PFX_ENVELOPE({P},{low_u},{high_u},{Sh(direc)},{Sh(U)},{S})", ws,
+             lambda i, j: (1 if j == 0 else 3 + j, et + i), quantities=env,
+             row_fmts={0: "General", 9: RATIO, 10: RATIO, 11: RATIO})
     for i in range(LARGEST["PFX_ENVELOPE"][0]):
         ws.merge_cells(start_row=et + i, end_row=et + i, start_column=1, end_column=3)
-    lay.sweep_cells.update(envelope_top=et)
-    last = et + LARGEST["PFX_ENVELOPE"][0] - 1
-    print_setup(ws, rng(1, 1, bl + 7, max(last, stop + 45)), landscape=True, title_rows="1:2",
-                fit_height=1)
+    for i in (9, 10, 11):
+        for j in (5, 6):
+            ws.cell(row=et + i, column=j).number_format = "General"
+    eu = {}
+    for k, (name, row, prefix) in enumerate((("force", et + 1, "force on body x ["),
+                                             ("moment", et + 5, "moment on body x ["),
+                                             ("speed", et, "at speed ["))):
+        c = (1, 5)[name == "speed"]
+        put(rs, 1, raw.row + k, f"envelope {name} unit")
+        formula(rs, 2, raw.row + k, "=" + unit_of_label(cell(c, row, SWEEP), prefix))
+        eu[name] = cell(2, raw.row + k, RAW)
+    raw.row += 4
+    E = lambda r1, c1, r2: rng(c1, r1, c1, r2, SWEEP)     # noqa: E731
+    lay.groups.update(design_force=f"{E(et + 1, 4, et + 4)},{E(et + 1, 6, et + 4)}",
+                      design_moment=f"{E(et + 5, 4, et + 8)},{E(et + 5, 6, et + 8)}",
+                      worst_speed=f"{E(et + 1, 5, et + 8)},{rng(4, et + 12, 5, et + 12, SWEEP)}")
+    lay.sweep_cells.update(envelope_top=et, force_unit=eu["force"], moment_unit=eu["moment"],
+                           speed_unit=eu["speed"], power_unit=su["power"],
+                           design_force=tuple(cell(6, et + 1 + j, SWEEP) for j in range(4)),
+                           design_moment=tuple(cell(6, et + 5 + j, SWEEP) for j in range(4)),
+                           worst=tuple(cell(4, et + 1 + j, SWEEP) for j in range(8)),
+                           worst_speed=tuple(cell(5, et + 1 + j, SWEEP) for j in range(8)),
+                           factor=cell(4, et + 11, SWEEP))
+    lastrow = et + LARGEST["PFX_ENVELOPE"][0] - 1
+    print_setup(ws, rng(1, 1, bl + 7, max(lastrow, stop + 47)), landscape=True,
+                title_rows="1:2", fit_height=1)
 
 
-def _checks(wb):
+def _on(sheet, text):
+    """Qualify the bare $A$1-style references of ``text`` with ``sheet`` (for raw formulas)."""
+    import re
+
+    return re.sub(r"(?<![!A-Za-z$])(\$[A-Z]{1,3}\$[0-9]+(?::\$[A-Z]{1,3}\$[0-9]+)?)",
+                  lambda m: f"{q(sheet)}!{m.group(1)}", text)
+
+
+def _checks(wb, lay):
     ws = wb.create_sheet(CHECKS)
     found = cases.write_cases(ws, cases.PARTS + cases_closures.PARTS + cases.LOAD_PARTS)
     last = cases.INDEX_TOP + len(found)
@@ -694,8 +954,47 @@ def _checks(wb):
     return found
 
 
-def _assemble(lay: Layout, units=None) -> Workbook:
+def _used_columns(raw, lay):
+    """Raw cells: a copy of the port table whose blank cells are empty texts (INDEX over it
+    never turns a blank into 0), which of its columns hold something, and the k-th column in
+    use (0: none), so the Report lists every column in use and no other."""
+    rs, r0 = raw.ws, raw.row
+    P, n = lay.ports, len(lay.ports.columns)
+    put(rs, 1, r0, "port table as typed (blank: empty text); columns in use (1/0), their "
+                   "running count, the k-th column in use", font=ITALIC)
+    for i in range(MAX_PORTS + 2):
+        for j in range(n):
+            src = cell(P.left + j, P.top + i, CV)
+            formula(rs, 2 + j, r0 + 1 + i, f'=IF({src}="","",{src})')
+    mirror = r0 + 1
+    r1 = r0 + MAX_PORTS + 3
+    for j in range(n):
+        body = rng(P.left + j, P.top + 2, P.left + j, P.top + 1 + MAX_PORTS, CV)
+        formula(rs, 2 + j, r1, f"=IF(SUMPRODUCT(LEN({body}))>0,1,0)")
+        prev = f"+{cell(1 + j, r1 + 1)}" if j else ""
+        formula(rs, 2 + j, r1 + 1, f"={cell(2 + j, r1)}{prev}")
+    counts = rng(2, r1 + 1, 1 + n, r1 + 1)
+    out = []
+    for k in range(n):
+        formula(rs, 2 + k, r1 + 2, f"=IFERROR(MATCH({k + 1},{counts},0),0)")
+        out.append(cell(2 + k, r1 + 2, RAW))
+    raw.row = r1 + 4
+    lay.used_columns = tuple(out)
+    lay.port_mirror = tuple(rng(2, mirror + i, 1 + n, mirror + i, RAW)
+                            for i in range(MAX_PORTS + 2))
+
+
+def _assemble(lay: Layout, units=None, speed_unit=None) -> Workbook:
     lay.chart_units = UnitSystem(units)
+    lay.chart_speed = lay.chart_units.label("velocity")
+    if speed_unit:                 # a wheel's speed table answers in the rpm typed
+        from ..units import factor
+
+        try:
+            factor(speed_unit, "angular_speed")
+            lay.chart_speed = speed_unit
+        except Exception:          # noqa: BLE001 - a linear speed: the output unit
+            pass
     wb = Workbook()
     wb.remove(wb.active)
     report_ws = wb.create_sheet(REPORT)
@@ -705,19 +1004,21 @@ def _assemble(lay: Layout, units=None) -> Workbook:
     lay.raw = RawSheet(raw_ws)
     _control_volume(wb, lay)
     _speed_sweep(wb, lay)
-    found = _checks(wb)
+    _results_panel(wb[CV], lay)
+    _used_columns(lay.raw, lay)
+    found = _checks(wb, lay)
     wb.move_sheet(RAW, offset=len(wb.sheetnames) - 1 - wb.sheetnames.index(RAW))
     lay.report_cells = draw_report(report_ws, lay, CV, SWEEP, CHECKS, cases.INDEX_TOP,
                                    len(found), MAX_PORTS)
     return wb
 
 
-def build_workbook(units=None) -> Workbook:
+def build_workbook(units=None, speed_unit=None) -> Workbook:
     """The template as an openpyxl Workbook (deterministic).
 
     ``units`` (an output-units text such as "US") only sets the text the charts' axis titles
     show before a spreadsheet re-reads their cells; :func:`.fill.fill` passes the scenario's."""
-    wb = _assemble(Layout(), units)
+    wb = _assemble(Layout(), units, speed_unit)
     wb.active = wb.sheetnames.index(CV)
     for ws in wb.worksheets:
         ws.sheet_view.tabSelected = ws.title == CV

@@ -39,11 +39,20 @@ COMPONENT_PATH = os.path.join(HERE, "component.py")
 
 
 
+#: IDL type of a parameter by its being optional: Calc's wizard marks ``any`` "(optional)".
+ARG_TYPE = {True: "any", False: "sequence< sequence< any > >"}
+
+
 def idl_text() -> str:
     """The UNO IDL of the add-in interface: one method per public worksheet function.
 
-    Every parameter is ``any`` (a number, a text or a range arrives as Calc hands it) and every
-    method returns ``sequence< sequence< any > >``: a block, a scalar as a 1 x 1 block (a
+    A required parameter is ``sequence< sequence< any > >`` and an optional one ``any``: Calc's
+    function wizard marks every ``any`` parameter "(optional)" and no other (LibreOffice's
+    ``sc/source/core/tool/addincol.cxx``: an argument of type any is optional), so the wizard
+    shows which arguments a function needs. Both reach the function as Calc hands them: a range
+    as rows of cells in either type; a single value or cell as itself for ``any`` and as a
+    1 x 1 block for a required parameter, which every worksheet function reads like the value.
+    Every method returns ``sequence< sequence< any > >``: a block, a scalar as a 1 x 1 block (a
     method declared to return ``any`` shows #VALUE! for every block result in Calc 25.2).
 
     >>> print(idl_text().splitlines()[0])
@@ -55,7 +64,7 @@ def idl_text() -> str:
     lines.append(f"    interface {INTERFACE} : com::sun::star::uno::XInterface")
     lines.append("    {")
     for f in functions().values():
-        params = ", ".join(f"[in] any {a.idl_name}" for a in f.args)
+        params = ", ".join(f"[in] {ARG_TYPE[a.optional]} {a.idl_name}" for a in f.args)
         lines.append(f"        sequence< sequence< any > > {f.name}({params});")
     lines.append("    };")
     lines.append("".join("};" for _ in IDL_MODULE))
@@ -126,14 +135,15 @@ def site_dirs_of_this_python() -> list[str]:
 
     import portflux
 
-    dirs = []
+    # the folder portflux was imported from comes first: with an editable install elsewhere
+    # (a .pth in site-packages) or PYTHONPATH, the office then runs the very portflux that
+    # built the package
+    pkg_parent = os.path.dirname(os.path.dirname(os.path.abspath(portflux.__file__)))
+    dirs = [pkg_parent]
     for key in ("purelib", "platlib"):
         d = sysconfig.get_paths()[key]
         if d not in dirs and os.path.isdir(d):
             dirs.append(d)
-    pkg_parent = os.path.dirname(os.path.dirname(os.path.abspath(portflux.__file__)))
-    if pkg_parent not in dirs:
-        dirs.append(pkg_parent)
     return dirs
 
 
