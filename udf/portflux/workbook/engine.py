@@ -76,6 +76,10 @@ class RecalcSummary:
         anchors, not the rest of a range); None when the engine did not say.
     arrays : dict or None
         ``{(sheet, anchor): "E5:G9"}`` of every array formula; None when the engine did not say.
+    notes : tuple
+        What the output leaves out of the input (the LibreOffice engine: its copy's notes).
+    isolation : str or None
+        How LibreOffice ran (the LibreOffice engine), e.g. "in a network namespace ...".
     """
     in_path: str
     out_path: str
@@ -87,6 +91,8 @@ class RecalcSummary:
     contained: bool = CONTAINED
     formulas: dict | None = None
     arrays: dict | None = None
+    notes: tuple = ()
+    isolation: str | None = None
 
 
 def _evaluate(data: bytes, name: str, functions, freeze: bool, tmp: str, shown: str):
