@@ -301,7 +301,7 @@ def check_nothing_external(zf: zipfile.ZipFile, where: str) -> int:
                 if rtype == _REL_HYPERLINK:
                     hyperlinks += 1
                     continue
-                what = "a linked picture" if tail == "image" else f"a {tail!r} link"
+                what = "a picture" if tail == "image" else f"a {tail!r} relationship"
                 raise RecalcError(
                     f"{where}: part {name!r} links {what} to {shown!r} outside the workbook "
                     f"(relationship {rid!r}, TargetMode=\"External\"); refusing it: portflux "

@@ -33,7 +33,6 @@ __all__ = ["LIMITS", "PROFILE_SETTINGS", "bounded", "isolation", "isolated", "pr
 #: a LibreOffice configuration property (officecfg, LibreOffice 25.2 ``main.xcd``).
 PROFILE_SETTINGS = (
     ("/org.openoffice.Office.Common/Security/Scripting", "BlockUntrustedRefererLinks", "true"),
-    ("/org.openoffice.Office.Common/Security/Scripting", "DisableActiveContent", "true"),
     ("/org.openoffice.Office.Common/Security/Scripting", "MacroSecurityLevel", "3"),
     ("/org.openoffice.Office.Common/Security/Scripting", "DisableMacrosExecution", "true"),
     ("/org.openoffice.Office.Calc/Content/Update", "Link", "1"),            # 1 = never
