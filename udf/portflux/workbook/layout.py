@@ -1,7 +1,8 @@
 """The package reader's second half: what a renderer needs to draw the sheets.
 
-:func:`read_layout` runs inside :func:`portflux.workbook.package.read_package` (``layout=True``)
-after the cells are read, on the same checked package. It keeps, as parsed elements, only what
+:func:`read_with_layout` reads a package with :func:`portflux.workbook.package.read_package`
+(``layout=True``: every check of the reader, and each sheet's cell formats and parts) and then,
+on the same checked package, its layout. It keeps, as parsed elements, only what
 it understands and checked, every element in the namespace it checked:
 
 * the cell formats (``xl/styles.xml``: SpreadsheetML elements only, extensions dropped);
@@ -23,11 +24,13 @@ import re
 from dataclasses import dataclass, field
 from xml.etree.ElementTree import Element, SubElement
 
-from .package import (_NS_MAIN, _NS_REL, _local, _namespaces, _part, _rels, _resolve, _xml,
-                      rels_name)
+from .package import NS_MAIN as _NS_MAIN, NS_REL as _NS_REL, read_package, rels_name
+from .package import (checked_namespaces as _namespaces, local_name as _local,
+                      parse_xml as _xml, part_bytes as _part, relationships as _rels,
+                      resolve as _resolve)
 from .xlvalues import RecalcError
 
-__all__ = ["Drawing", "Layout", "SheetLayout", "read_layout", "NS"]
+__all__ = ["Drawing", "Layout", "SheetLayout", "read_layout", "read_with_layout", "NS"]
 
 NS = {"main": _NS_MAIN, "r": _NS_REL,
       "xdr": "http://schemas.openxmlformats.org/drawingml/2006/spreadsheetDrawing",
@@ -296,3 +299,20 @@ def _constant(text: str) -> bool:
     return bool(re.fullmatch(r'\s*(?:-?[0-9.]+(?:[eE][+-]?[0-9]+)?|"(?:[^"]|"")*"|TRUE|FALSE)'
                              r'\s*', text or "", re.I))
 
+
+
+def read_with_layout(data: bytes, where: str):
+    """The :class:`~portflux.workbook.package.Package` of a workbook's bytes with its
+    :attr:`~portflux.workbook.package.Package.layout` (see the module notes)."""
+    import io
+    import zipfile
+
+    pkg = read_package(data, where, layout=True)
+    with zipfile.ZipFile(io.BytesIO(data)) as zf:
+        book = _xml(_part(zf, pkg.book_part, where), f"{where}, part {pkg.book_part!r}")
+        rels = _rels(zf, pkg.book_part, where)
+        main = "{" + _NS_MAIN + "}"
+        local_ids = [el.get("name") or "" for g in book if g.tag == main + "sheets"
+                     for el in g if el.tag == main + "sheet"]
+        pkg.layout = read_layout(zf, pkg, book, rels, local_ids, where)
+    return pkg

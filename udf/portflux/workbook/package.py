@@ -173,7 +173,7 @@ class Package:
     strings: list = field(default_factory=list)     # the shared-string table
     spelled: dict = field(default_factory=dict)     # (sheet or None, NAME) -> (name, hidden)
     states: dict = field(default_factory=dict)      # sheet title -> "visible", "hidden", ...
-    layout: object = None                           # :class:`.layout.Layout` (layout=True)
+    layout: object = None                 # :class:`.layout.Layout` (layout.read_with_layout)
 
 
 def _local(tag) -> str:
@@ -599,8 +599,9 @@ def _array_cap(where, coord, ref, before=False) -> str:
 def read_package(data: bytes, where: str, *, layout: bool = False) -> Package:
     """Every worksheet of a workbook package (its bytes) with its cells, and the defined names.
 
-    ``where`` names the file in messages. ``layout``: also read what a renderer needs
-    (:mod:`.layout`), for the copy LibreOffice opens (:mod:`.rebuild`).
+    ``where`` names the file in messages. ``layout``: also keep each sheet's cell formats, row
+    attributes and other parts (:func:`.layout.read_with_layout` reads the rest of what a
+    renderer needs, for the copy LibreOffice opens: :mod:`.rebuild`).
     """
     try:
         zf = zipfile.ZipFile(io.BytesIO(data))
@@ -704,12 +705,14 @@ def read_package(data: bytes, where: str, *, layout: bool = False) -> Package:
                                   f"differently, so the workbook is refused")
             names[(title, name)] = el.text or ""
             spelled[(title, name)] = (spelling, el.get("hidden") in ("1", "true"))
-        pkg = Package(book_part, sheets, names, strings, spelled, states)
-        if layout:
-            from .layout import read_layout
+    return Package(book_part, sheets, names, strings, spelled, states)
 
-            pkg.layout = read_layout(zf, pkg, book, rels, local_ids, where)
-    return pkg
+
+#: Shared with the reader's second half (:mod:`.layout`): one XML parser, one relationship
+#: reader, one namespace check for every part read.
+NS_MAIN, NS_REL = _NS_MAIN, _NS_REL
+local_name, parse_xml, part_bytes, relationships, resolve, checked_namespaces = (
+    _local, _xml, _part, _rels, _resolve, _namespaces)
 
 
 def formulas_of(pkg: Package) -> tuple[dict, dict, dict]:

@@ -16,8 +16,8 @@ literal ``_xHHHH_``, so LibreOffice decodes exactly the text the reader decoded.
 >>> import io, openpyxl, zipfile
 >>> wb = openpyxl.Workbook(); wb.active["A1"] = 2.5; wb.active["B1"] = "=A1*2"
 >>> buf = io.BytesIO(); wb.save(buf)
->>> from portflux.workbook.package import read_package
->>> copy = rebuild(read_package(buf.getvalue(), "demo.xlsx", layout=True))
+>>> from portflux.workbook.layout import read_with_layout
+>>> copy = rebuild(read_with_layout(buf.getvalue(), "demo.xlsx"))
 >>> sheet = zipfile.ZipFile(io.BytesIO(copy)).read("xl/worksheets/sheet1.xml")
 >>> b'<c r="A1"><v>2.5</v></c><c r="B1"><f>A1*2</f></c>' in sheet
 True
@@ -31,8 +31,8 @@ import zipfile
 from dataclasses import dataclass
 from xml.etree.ElementTree import Element
 
-from .layout import NS, SHEET_PARTS
-from .package import coord_name, read_package
+from .layout import NS, SHEET_PARTS, read_with_layout
+from .package import coord_name
 from .xlvalues import XlError
 
 __all__ = ["Rebuilt", "rebuild", "rebuild_file"]
@@ -278,7 +278,7 @@ def rebuild_file(src, dst, *, paper: str | None = None, name: str | None = None)
     from .safety import read_workbook_bytes
 
     where = name or os.path.basename(os.fspath(src))
-    pkg = read_package(read_workbook_bytes(src), where, layout=True)
+    pkg = read_with_layout(read_workbook_bytes(src), where)
     data = rebuild(pkg, paper=paper)
     write_atomic(dst, lambda f: f.write(data))
     shown = [s.title for s in pkg.sheets if pkg.states.get(s.title, "visible") == "visible"]

@@ -77,6 +77,7 @@ def _checked(path, *, layout=False):
     from ...workbook import worksheet_functions
     from ...workbook.budget import check_work
     from ...workbook.formula import FormulaSyntaxError, calls, parse
+    from ...workbook.layout import read_with_layout
     from ...workbook.package import formulas_of, read_package
     from ...workbook.recalc import Recalculator, refusal_of_call
     from ...workbook.safety import WorkbookFileError, read_workbook_bytes
@@ -84,7 +85,8 @@ def _checked(path, *, layout=False):
 
     name = os.path.basename(os.fspath(path))
     try:
-        pkg = read_package(read_workbook_bytes(path), name, layout=layout)
+        data = read_workbook_bytes(path)
+        pkg = read_with_layout(data, name) if layout else read_package(data, name)
         formulas, arrays, names = formulas_of(pkg)
         for (sheet, cell), text in formulas.items():     # what reaches outside, in LibreOffice
             _refuse_outside_reach(text, f"{name}: sheet {sheet!r}, cell {cell}")
