@@ -291,7 +291,7 @@ def read_layout(zf, pkg, book, rels, local_ids, where) -> Layout:
         r.note("chart sheets", len(local_ids) - len(pkg.sheets))
     if any((t or "").endswith("/vbaProject") for t, _, _ in rels.values()):
         r.note("the VBA project (macros)")
-    notes = [f"{n} {what}" if n else what for what, n in r.notes.items()]
+    notes = [f"{what} ({n})" if n else what for what, n in r.notes.items()]
     return Layout(styles, sheets, names, active, date1904, notes)
 
 

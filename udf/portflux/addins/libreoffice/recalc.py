@@ -192,8 +192,9 @@ def _freeze(doc) -> None:
             block.setDataArray(data)
 
 
-def _compute(office, copy, out_tmp, values_only, macro_enabled) -> dict:
-    """Open the copy in ``office``, recalculate, read every formula cell, store the output."""
+def _compute(office, copy, out_tmp, values_only, macro_enabled, shown) -> dict:
+    """Open the copy in ``office``, recalculate, read every formula cell, store the output
+    (``shown``: the user's name of it, for messages)."""
     doc = office.load(copy)
     if doc is None:
         raise LibreOfficeRecalcError("LibreOffice could not open the rebuilt copy")
@@ -202,7 +203,13 @@ def _compute(office, copy, out_tmp, values_only, macro_enabled) -> dict:
         values, errors = _read_results(doc)
         if values_only:
             _freeze(doc)
-        office.store_xlsx(doc, out_tmp, macro_enabled=macro_enabled)
+        try:
+            office.store_xlsx(doc, out_tmp, macro_enabled=macro_enabled)
+        except Exception as e:  # noqa: BLE001 - UNO's IOException: name the user's file
+            raise LibreOfficeRecalcError(
+                f"{shown}: LibreOffice could not write the output ({type(e).__name__}: "
+                f"{' '.join(str(e).split())[:120]}); nothing was written (a full disk or the "
+                f"file-size limit, 'ulimit -f'?)") from None
     finally:
         try:
             doc.close(True)
@@ -212,7 +219,7 @@ def _compute(office, copy, out_tmp, values_only, macro_enabled) -> dict:
             "errors": [[s, c, v] for (s, c), v in errors.items()]}
 
 
-def _own_session(in_path, tmp, out_tmp, values_only, macro_enabled, timeout) -> dict:
+def _own_session(in_path, tmp, out_tmp, values_only, macro_enabled, timeout, shown) -> dict:
     """In the contained child: the checks, the copy, a private LibreOffice in this process
     group (ended with it), the computation."""
     from .package import OXT_NAME, build_oxt, site_dirs_of_this_python
@@ -225,7 +232,7 @@ def _own_session(in_path, tmp, out_tmp, values_only, macro_enabled, timeout) -> 
     try:
         office.start()
         got["isolation"] = office.isolation
-        got.update(_compute(office, copy, out_tmp, values_only, macro_enabled))
+        got.update(_compute(office, copy, out_tmp, values_only, macro_enabled, shown))
     except PortfluxError:
         raise
     except Exception as e:  # noqa: BLE001 - UNO errors: name the file, never a traceback
@@ -236,7 +243,8 @@ def _own_session(in_path, tmp, out_tmp, values_only, macro_enabled, timeout) -> 
     return got
 
 
-def _shared_session(office, in_path, tmp, out_tmp, values_only, macro_enabled, timeout):
+def _shared_session(office, in_path, tmp, out_tmp, values_only, macro_enabled, timeout,
+                    shown):
     """A running office (tests): the checks and the copy contained, LibreOffice here."""
     from ...workbook.contain import run_contained
 
@@ -247,7 +255,7 @@ def _shared_session(office, in_path, tmp, out_tmp, values_only, macro_enabled, t
     timer.start()
     t0 = time.monotonic()
     try:
-        got.update(_compute(office, copy, out_tmp, values_only, macro_enabled))
+        got.update(_compute(office, copy, out_tmp, values_only, macro_enabled, shown))
     except PortfluxError:
         if office.killed or time.monotonic() - t0 >= timeout:
             raise LibreOfficeRecalcError(f"{in_path}: LibreOffice did not finish within "
@@ -289,13 +297,14 @@ def recalc_file_libreoffice(in_path, out_path, *, values_only=False, office=None
         try:
             if office is not None:
                 got = _shared_session(office, in_path, tmp, out_tmp, values_only, macro,
-                                      timeout)
+                                      timeout, out_path)
             elif CONTAINED:
                 got = run_contained(lambda: _own_session(in_path, tmp, out_tmp, values_only,
-                                                         macro, timeout), in_path,
+                                                         macro, timeout, out_path), in_path,
                                     wall_seconds=timeout)
             else:
-                got = _own_session(in_path, tmp, out_tmp, values_only, macro, timeout)
+                got = _own_session(in_path, tmp, out_tmp, values_only, macro, timeout,
+                                   out_path)
         except RecalcError as e:
             text = str(e)
             if "took longer than" in text:
