@@ -50,6 +50,14 @@ def find_soffice(soffice=None) -> str:
     return path
 
 
+def _set_paper(path: str, paper: str) -> None:
+    """Set the paper size of every sheet of a workbook file: in place, by rebuilding it from
+    what the package reader parsed (what the report renders)."""
+    from .rebuild import rebuild_file
+
+    rebuild_file(path, path, paper=PAPER[paper])
+
+
 def _rebuild(frozen: str, copy: str, paper: str, in_path: str) -> dict:
     """The rebuilt copy of the frozen workbook (in a contained child: the reader and writer
     are bounded like the evaluation)."""
