@@ -336,7 +336,7 @@ def test_memory_and_time_are_bounded_in_the_child_process(tmp_path):
 
 # ------------------------------------------------------------------------ by construction --
 ENGINE_MODULES = ["engine", "formula", "xlvalues", "xlfunctions", "recalc", "package",
-                  "writeback", "contain", "output", "safety"]
+                  "writeback", "contain", "output", "safety", "layout", "rebuild", "budget"]
 FORBIDDEN = {"eval", "exec", "compile", "__import__", "getattr", "setattr", "globals", "locals",
              "vars", "__builtins__", "open"}
 

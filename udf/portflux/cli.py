@@ -20,18 +20,16 @@ def _template_source(tmp: str) -> str:
     return shipped_template() or build_template(os.path.join(tmp, "portflux_template.xlsx"))
 
 
-def _block(path, sheet, at) -> list[tuple]:
-    """Cached values of a (column, row, rows, columns) block of a recalculated workbook."""
-    import openpyxl
+def _block(values, sheet, at) -> list[tuple]:
+    """Computed values of a (column, row, rows, columns) block, from an engine's summary
+    (``RecalcSummary.values``): the output is never read back (it holds the input's parts,
+    which may be large)."""
+    from .workbook.package import coord_name
 
     c, r, nr, nc = at
-    wb = openpyxl.load_workbook(path, data_only=True, read_only=True)
-    try:
-        rows = [row[c - 1:c - 1 + nc] for row in wb[sheet].iter_rows(
-            min_row=r, max_row=r + nr - 1, max_col=c + nc - 1, values_only=True)]
-    finally:
-        wb.close()
-    return [row for row in rows if row[0] not in (None, "#N/A")]
+    rows = [tuple(values.get((sheet, coord_name(rr, cc))) for cc in range(c, c + nc))
+            for rr in range(r, r + nr)]
+    return [row for row in rows if row[0] not in (None, "", "#N/A")]
 
 
 def cmd_demo(args) -> int:
@@ -43,15 +41,15 @@ def cmd_demo(args) -> int:
                                       "portflux-demo.xlsx")
     with tempfile.TemporaryDirectory(prefix="portflux-fill-") as tmp:
         filled = fill(None, os.path.join(tmp, "demo-input.xlsx"), sc)   # fresh, charts kept
-        _recalc_into(filled, out, quiet=False, label="the demo scenario")
+        summary = _recalc_into(filled, out, quiet=False, label="the demo scenario")
     print(sc.title)
     print("=" * len(sc.title))
     print(sc.note)
     print()
     from .workbook import template as T
 
-    w = _block(out, T.CV, T.RELVEL_AT)
-    m = _block(out, T.CV, T.MASSFLOW_AT)
+    w = _block(summary.values, T.CV, T.RELVEL_AT)
+    m = _block(summary.values, T.CV, T.MASSFLOW_AT)
     print("Ports (relative velocity w = V - V_cv; mass flow + out of the CV)")
     table = [[f"{c:.6g}" if isinstance(c, float) else str(c) for c in (*wr, mr[1])]
              for wr, mr in zip(w, m)]
@@ -59,7 +57,7 @@ def cmd_demo(args) -> int:
     for r in table:
         print("  " + "  ".join(c.rjust(widths[j]) for j, c in enumerate(r)))
     print()
-    print("\n".join(_summary_lines(out)))
+    print("\n".join(_summary_lines(summary.values)))
     print()
     print(f"result workbook: {out}")
     print()
@@ -67,21 +65,15 @@ def cmd_demo(args) -> int:
     return 0
 
 
-def _summary_lines(path) -> list[str]:
-    """The template's summary block (and best speed) of a recalculated workbook; [] when the
-    workbook is not a template."""
-    import openpyxl
-
+def _summary_lines(values) -> list[str]:
+    """The template's summary block (and best speed) of a recalculation's values
+    (``RecalcSummary.values``); [] when the workbook is not a template."""
     from .workbook import template as T
 
-    wb = openpyxl.load_workbook(path, read_only=True)
-    try:
-        names = set(wb.sheetnames)
-    finally:
-        wb.close()
+    names = {sheet for sheet, _ in values}
     if T.CV not in names:
         return []
-    rows = _block(path, T.CV, T.SUMMARY_AT)
+    rows = _block(values, T.CV, T.SUMMARY_AT)
     if not rows or str(rows[0][0]).strip().lower() != "quantity [unit]":
         return []
 
@@ -89,7 +81,7 @@ def _summary_lines(path) -> list[str]:
         return f"  {q:46s} {v:.6g}" if isinstance(v, float) else f"  {q:46s} {v}"
 
     lines = [line(q, v) for q, v in rows]
-    best = _block(path, T.SWEEP, T.BEST_AT) if T.SWEEP in names else []
+    best = _block(values, T.SWEEP, T.BEST_AT) if T.SWEEP in names else []
     if best:
         lines += ["", f"Speed sweep (sheet {T.SWEEP!r}):"] + [line(q, v) for q, v in best]
     return lines
@@ -135,6 +127,11 @@ def _recalc_into(src, out, *, quiet, values_only=False, label=None, engine="embe
         print(f"  {summary.formula_cells} formulas, {summary.array_ranges} array ranges, "
               f"{summary.cells_written} cells written in {time.perf_counter() - t0:.2f} s "
               f"-> {out}", file=sys.stderr, flush=True)
+        if engine == "libreoffice":
+            from .addins.libreoffice.recalc import notes_of
+
+            for line in notes_of(summary):
+                print(f"  note: {line}", file=sys.stderr, flush=True)
     return summary
 
 
@@ -148,14 +145,15 @@ def cmd_recalc(args) -> int:
                             f"choose another output path")
     summary = _recalc_into(args.input, args.output, quiet=args.quiet,
                            values_only=args.values_only, engine=args.engine)
-    found = audit(args.input, summary.values, summary.formulas, summary.arrays)
+    found = audit(args.input, summary.values, summary.formulas, summary.arrays,
+                  summary.error_cells)
     if not found.clean:
         _report_cells(found)
         print(f"portflux: {args.output} written, but its cells report the problems above",
               file=sys.stderr)
         return 1
     if not args.quiet:
-        lines = _summary_lines(args.output)
+        lines = _summary_lines(summary.values)
         if lines:
             print("\n".join(lines))
     return 0
@@ -174,7 +172,7 @@ def cmd_check(args) -> int:
         print(f"checking {name} ...", file=sys.stderr, flush=True)
         try:
             summary = recalc(src, out)
-            results = read_cases(out)
+            results = _read_cases_contained(read_cases, out)
         except WorkbookError as e:
             raise WorkbookError(str(e).replace(out, os.fspath(name))
                                 .replace(os.fspath(src), os.fspath(name))) from None
@@ -182,6 +180,23 @@ def cmd_check(args) -> int:
     print(format_cases(results))
     _report_cells(found)
     return 0 if all(c.passed for c in results) and found.clean else 1
+
+
+def _read_cases_contained(read_cases, path):
+    """``read_cases(path)`` in a contained child (openpyxl reads the output's styles, which are
+    the input's and may be huge): memory, CPU and wall-clock bounded like the evaluation."""
+    import dataclasses
+
+    from .workbook.check import CaseResult, WorkbookError
+    from .workbook.contain import run_contained
+    from .workbook.xlvalues import RecalcError
+
+    try:
+        rows = run_contained(lambda: [dataclasses.asdict(c) for c in read_cases(path)],
+                             os.fspath(path))
+    except RecalcError as e:
+        raise WorkbookError(str(e)) from None
+    return [CaseResult(**row) for row in rows]
 
 
 def cmd_template(args) -> int:
@@ -287,7 +302,8 @@ class _QuietInternals:
 def main(argv=None) -> int:
     """Run the command line; returns the exit code (see README)."""
     from .core import PortfluxError
-    from .workbook.output import DISK_FULL, OutputError, Terminated, explain, signals_raise
+    from .workbook.output import (WRITE_REFUSED, OutputError, Terminated, explain,
+                                  signals_raise)
 
     args = build_parser().parse_args(argv)          # usage errors: argparse exits with 2
     try:
@@ -303,10 +319,12 @@ def main(argv=None) -> int:
         print(f"portflux: {e}", file=sys.stderr)
         return EXIT_REFUSED
     except OSError as e:
-        if e.errno in DISK_FULL:
-            print(f"portflux: {explain(e, e.filename or 'output')}", file=sys.stderr)
+        if e.errno in WRITE_REFUSED:
+            print(f"portflux: {explain(e, e.filename or 'the output')}", file=sys.stderr)
+        elif e.filename:
+            print(f"portflux: {e.filename}: {e.strerror or e}", file=sys.stderr)
         else:
-            print(f"portflux: {e.filename or ''}: {e.strerror or e}", file=sys.stderr)
+            print(f"portflux: {e.strerror or e}", file=sys.stderr)
         return EXIT_REFUSED
     except Exception as e:  # noqa: BLE001 - the last line of defence: one line, no traceback
         from . import __version__

@@ -31,6 +31,7 @@ import xlwings as xw
 from . import _checksum as H
 from . import _functions as F
 from . import _speeds as S
+from ._bounds import entry as _entry
 from ._grid import CellError
 from ._inputs import clear_caches
 from ._speeds import no_gc  # noqa: F401  (the collector pause, shared with the benchmark)
@@ -103,6 +104,20 @@ def _excel_help(f):
     return f
 
 
+_ARG_NAMES: dict = {}
+
+
+def _arg_names(name) -> tuple:
+    """The argument names of the worksheet function ``name`` (for messages), cached."""
+    names = _ARG_NAMES.get(name)
+    if names is None:
+        import inspect
+
+        f = globals().get(name)
+        names = _ARG_NAMES[name] = tuple(inspect.signature(f).parameters) if f else ()
+    return names
+
+
 def help_text(f) -> str:
     """A worksheet function's help as a function dialog shows it: the docstring's first
     paragraph on one line, at most 255 characters (Excel's limit; the Calc add-in uses it too)."""
@@ -110,11 +125,15 @@ def help_text(f) -> str:
 
 
 def _guarded(name, body, *args):
-    """Run a function body; turn every failure into a cell message (never raise)."""
+    """Run a function body; turn every failure into a cell message (never raise). The raw
+    arguments pass :func:`._bounds.entry` first (size, nesting, trailing blanks)."""
     try:
-        return body(*args)
+        return body(*_entry(_arg_names(name), args))
     except (CellError, PortfluxError) as e:
         return bounded_message(str(e))
+    except RecursionError:
+        return (f"portflux: {name}: an argument nests too deeply to be read; pass a range as "
+                f"rows of cells")
     except Exception as e:  # noqa: BLE001 - a worksheet function must not raise
         msg = " ".join(str(e).split())[:160]
         return f"portflux: internal error in {name}: {type(e).__name__}: {msg}"

@@ -1127,13 +1127,8 @@ class Model:
                              f"control volume; if it is a fixed nozzle's discharge, declare role "
                              f"'in' (the body then intercepts rho A ((V - V_cv).n) of it)")
         role_n = self._role_normal()
-        for i in np.flatnonzero(self.is_in & role_n & (self.a == 1.0) & ~self.closed):
-            w = self.W0[i][:, None] - VT
-            enters = contact & (wn[i] < 0)
-            if not enters.any():
-                continue
-            cos = np.clip(-wn[i][enters] / np.linalg.norm(w[:, enters], axis=0), -1.0, 1.0)
-            angle = float(np.degrees(np.max(np.arccos(cos))))
+        idx = np.flatnonzero(self.is_in & role_n & (self.a == 1.0) & ~self.closed)
+        for i, angle in self._entry_angles(idx, VT, wn, contact):
             if angle > 1e-3:
                 notes.append(f"port {names[i]}: its normal follows the velocity typed in the "
                              f"absolute frame (role 'in'), but the relative velocity "
@@ -1141,6 +1136,24 @@ class Model:
                              f"across the jet); right for a port cut square to a jet from a "
                              f"fixed nozzle, otherwise type the port's normal nx, ny, nz")
         return notes
+
+    def _entry_angles(self, idx, VT, wn, contact):
+        """``(port, largest angle [deg])`` between each port's normal (-w0 direction) and the
+        relative velocity where it enters, over the contact speeds; ports ``idx`` at once, in
+        chunks of about 10^6 values (no Python loop over ports)."""
+        m = VT.shape[1]
+        step = max(1, (1 << 20) // max(1, m))
+        for s in range(0, len(idx), step):
+            ii = idx[s:s + step]
+            w = self.W0[ii][:, :, None] - VT[None, :, :]          # (k, 3, m)
+            wni = wn[ii]                                           # (k, m)
+            enters = contact[None, :] & (wni < 0)
+            norm = np.sqrt(np.einsum("kjm,kjm->km", w, w))
+            with np.errstate(divide="ignore", invalid="ignore"):
+                cos = np.clip(np.where(enters, -wni / norm, 1.0), -1.0, 1.0)
+            angles = np.degrees(np.arccos(cos)).max(axis=1)
+            some = enters.any(axis=1)
+            yield from zip(ii[some].tolist(), angles[some].tolist())
 
     def notes(self, r) -> list:
         """Notes on the closures of an evaluation ``r`` holding the "closure" group."""

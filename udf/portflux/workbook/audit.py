@@ -133,7 +133,7 @@ def _padding(grid: list[list[Key]], values: Mapping) -> set:
 
 
 def audit(in_path, values: Mapping[Key, object], formulas: Mapping | None = None,
-          arrays: Mapping | None = None) -> Audit:
+          arrays: Mapping | None = None, errors: Mapping | None = None) -> Audit:
     """Find the portflux messages and the error values among a recalculation's cell values.
 
     Parameters
@@ -146,8 +146,13 @@ def audit(in_path, values: Mapping[Key, object], formulas: Mapping | None = None
     formulas, arrays : mapping, optional
         The formula texts and array ranges as the engine read them
         (:class:`~portflux.workbook.engine.RecalcSummary`); read from ``in_path`` when not given.
+    errors : mapping, optional
+        Cells the engine itself reports as errors (``RecalcSummary.error_cells``): LibreOffice's
+        own error values such as ``Err:502`` count as errors, though no Excel error reads so.
     """
     errs = [k for k, v in values.items() if is_error(v)]
+    if errors:
+        errs += sorted(set(errors) - set(errs))
     msgs = [k for k, v in values.items() if is_message(v)]
     if not errs and not msgs:
         return Audit()

@@ -8,6 +8,13 @@ sends). The parent waits at most ``wall_seconds`` and kills the child after that
 that runs out of memory, exceeds its CPU time, dies or is killed becomes a :class:`RecalcError`
 naming the workbook; a Python traceback never reaches the user.
 
+The child leads a process group of its own, and whatever it starts (LibreOffice, for
+``recalc --engine libreoffice``) stays in that group. However the parent leaves -- a result, a
+refusal, the wall-clock limit, SIGTERM or Ctrl-C (raised as exceptions in the parent, see
+:func:`portflux.workbook.output.signals_raise`) -- it kills the whole group before it returns,
+so no computing child outlives the command. A parent killed outright (SIGKILL) cannot do that:
+the child then sees its lifeline pipe close and kills its own group.
+
 Where ``os.fork`` or :mod:`resource` is missing (Windows), the function runs in the calling
 process without these limits; :data:`CONTAINED` says which, and ``portflux recalc`` states it.
 The formula interpreter itself never runs workbook content as code either way; the limits bound
@@ -25,6 +32,7 @@ import sys
 import time
 
 from .xlvalues import RecalcError
+from ..core.errors import PortfluxError
 
 try:
     import resource
@@ -52,6 +60,17 @@ def _mapped_bytes() -> int:
         return 0
 
 
+def _kill_group(pid: int) -> None:
+    for kill in (os.killpg, os.kill):
+        try:
+            kill(pid, signal.SIGKILL)
+            return
+        except ProcessLookupError:
+            return
+        except OSError:
+            continue
+
+
 def _limit(kind, value):
     soft, hard = resource.getrlimit(kind)
     if hard != resource.RLIM_INFINITY:
@@ -59,8 +78,30 @@ def _limit(kind, value):
     resource.setrlimit(kind, (value, hard))
 
 
-def _child(fn, write_fd, limits):
+def _watch_lifeline(fd):
+    """In the child: when the parent's end of the lifeline closes (the parent died), kill this
+    process group (the child and what it started)."""
+    import threading
+
+    def watch():
+        try:
+            while os.read(fd, 1):
+                pass
+        except OSError:
+            pass
+        os.killpg(0, signal.SIGKILL)
+    threading.Thread(target=watch, daemon=True, name="portflux-lifeline").start()
+
+
+def _child(fn, write_fd, limits, lifeline):
     status = 0
+    try:
+        os.setpgid(0, 0)
+    except OSError:
+        pass
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+    signal.signal(signal.SIGINT, signal.SIG_IGN)       # the parent decides, and kills the group
+    _watch_lifeline(lifeline)
     # The child lives for one evaluation and its memory is capped: the cyclic collector would
     # only traverse the (large, mostly acyclic) formula structures again and again.
     gc.disable()
@@ -71,10 +112,12 @@ def _child(fn, write_fd, limits):
                int(limits["cpu_seconds"]))
         try:
             payload = ("ok", fn())
-        except RecalcError as exc:
+        except (RecalcError, PortfluxError) as exc:
             payload = ("refused", str(exc))
         except MemoryError:
             payload = ("memory", None)
+        except OSError as exc:         # raised again in the parent, as the caller expects
+            payload = ("os", [exc.errno, exc.strerror if exc.errno else str(exc)])
         except RecursionError:
             payload = ("recursion", None)
         except BaseException as exc:  # noqa: BLE001 - reported to the parent, never shown raw
@@ -111,16 +154,24 @@ def run_contained(fn, what: str, **limits):
     if not CONTAINED:
         return fn()
     read_fd, write_fd = os.pipe()
+    life_r, life_w = os.pipe()
     sys.stdout.flush()
     sys.stderr.flush()
     pid = os.fork()
     if pid == 0:                                       # child
         os.close(read_fd)
-        _child(fn, write_fd, lim)
+        os.close(life_w)
+        _child(fn, write_fd, lim, life_r)
     os.close(write_fd)
+    os.close(life_r)
+    try:
+        os.setpgid(pid, pid)                           # also done by the child: no race
+    except OSError:
+        pass
     chunks = []
     deadline = time.monotonic() + float(lim["wall_seconds"])
     timed_out = False
+    status = None
     try:
         while True:
             left = deadline - time.monotonic()
@@ -135,13 +186,13 @@ def run_contained(fn, what: str, **limits):
                 break
             chunks.append(chunk)
     finally:
+        # whatever ends the wait (a result, the wall-clock limit, SIGTERM raised as an
+        # exception, Ctrl-C): the child's group goes first (the zombie keeps its id), then
+        # the child is reaped
+        _kill_group(pid)
         os.close(read_fd)
-        if timed_out:
-            try:
-                os.kill(pid, signal.SIGKILL)
-            except ProcessLookupError:
-                pass
         _, status = os.waitpid(pid, 0)
+        os.close(life_w)
     if timed_out:
         raise RecalcError(f"{what}: the recalculation took longer than "
                           f"{lim['wall_seconds']:g} s and was stopped")
@@ -160,6 +211,8 @@ def run_contained(fn, what: str, **limits):
         return value
     if kind == "refused":
         raise RecalcError(value)
+    if kind == "os":
+        raise OSError(*value) if value[0] is not None else OSError(value[1])
     if kind == "memory":
         raise RecalcError(f"{what}: the recalculation needs more than the memory limit of "
                           f"{lim['memory_bytes'] / 2**30:g} GiB; refusing the workbook")

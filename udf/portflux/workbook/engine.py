@@ -37,7 +37,8 @@ from dataclasses import dataclass
 from typing import Callable, Mapping
 
 from . import writeback
-from .output import write_atomic
+from .budget import check_work
+from .output import atomic_path, fill
 from .contain import CONTAINED, run_contained
 from .package import read_package, split_coord
 from .recalc import Recalculator, check_functions, collector_paused
@@ -75,6 +76,10 @@ class RecalcSummary:
         anchors, not the rest of a range); None when the engine did not say.
     arrays : dict or None
         ``{(sheet, anchor): "E5:G9"}`` of every array formula; None when the engine did not say.
+    notes : tuple
+        What the output leaves out of the input (the LibreOffice engine: its copy's notes).
+    isolation : str or None
+        How LibreOffice ran (the LibreOffice engine), e.g. "in a network namespace ...".
     """
     in_path: str
     out_path: str
@@ -86,34 +91,64 @@ class RecalcSummary:
     contained: bool = CONTAINED
     formulas: dict | None = None
     arrays: dict | None = None
+    notes: tuple = ()
+    isolation: str | None = None
 
 
-def _evaluate(data: bytes, name: str, functions, freeze: bool):
-    """Runs in the contained child: read, evaluate; plain results for the parent, with a digest
-    of each sheet's unchanged cells for the check of the written file."""
+def _evaluate(data: bytes, name: str, functions, freeze: bool, tmp: str, shown: str):
+    """Runs in the contained child: read, check the work budget, evaluate, write the output
+    into ``tmp`` (the parent's temporary file; ``shown`` names the user's) and prove it;
+    plain results for the parent."""
     with collector_paused():
         package = read_package(data, name)
+    check_work(package, name)
     calc = Recalculator(None, functions, package=package)
     values = calc.evaluate()
-    parts = {title: calc.sheet_part(title) for title in calc.sheets}
+    by_part: dict[str, dict] = {}
     written: dict = {}
-    for sheet, coord in values:
+    for (sheet, coord), v in values.items():
+        by_part.setdefault(calc.sheet_part(sheet), {})[coord] = v
         written.setdefault(sheet, set()).add(split_coord(coord))
+    titles = {s.part: s.title for s in package.sheets}
     digests = {s.part: writeback.cells_digest(s.cells, written.get(s.title, set()), freeze)
                for s in package.sheets if s.title in written}
-    return {"values": [[s, c, v] for (s, c), v in values.items()], "parts": parts,
-            "book_part": package.book_part, "strings": package.strings, "digests": digests,
+    _write(data, name, package, by_part, titles, digests, freeze, tmp, shown)
+    return {"values": [[s, c, v] for (s, c), v in values.items()],
             "formulas": len(calc.formula_cells), "arrays": len(calc.array_ranges),
             "texts": [[s, c, t] for (s, c), t in calc.formula_texts.items()],
             "array_refs": [[s, c, ref] for (s, c), ref in calc.array_ranges.items()]}
+
+
+def _write(data, name, package, by_part, titles, digests, freeze, tmp, shown):
+    """The input's parts with the computed values written (and read back to prove that
+    nothing else changed), into ``tmp``."""
+    import io
+
+    def write(raw):
+        with zipfile.ZipFile(io.BytesIO(data)) as zin, zipfile.ZipFile(raw, "w") as zout:
+            for info in zin.infolist():
+                part = zin.read(info)
+                if info.filename in by_part:
+                    where = f"{name}, sheet {titles[info.filename]!r}"
+                    new = writeback.patch_sheet_xml(part, by_part[info.filename], where, freeze)
+                    writeback.verify_patch(digests[info.filename], new, by_part[info.filename],
+                                           where, package.strings, freeze)
+                    part = new
+                elif info.filename == package.book_part:
+                    part = writeback.keep_cached_values_on_load(part)
+                zout.writestr(info, part)
+
+    with collector_paused():          # the XML trees of the check are large and acyclic
+        fill(tmp, write, shown)
 
 
 def recalc_file(in_path, out_path, functions: Mapping[str, Callable], *,
                 values_only: bool = False, limits: Mapping | None = None) -> RecalcSummary:
     """Recalculate a workbook and save a copy carrying the computed values.
 
-    The file is read once; the evaluation runs in a child process with bounded memory and time
-    (:mod:`.contain`; in-process where the OS has no ``fork``/``resource``). Every formula and
+    The file is read once; the evaluation and the writing of the output run in a child process
+    with bounded memory and time (:mod:`.contain`; in-process where the OS has no
+    ``fork``/``resource``), after the work budget (:func:`.budget.check_work`). Every formula and
     array formula is kept; each formula cell and each cell an array formula covers gets its
     computed value as cached value, and the result is read back to prove that nothing else
     changed. The workbook's "recalculate fully on load" flag is cleared so that opening the file
@@ -155,38 +190,11 @@ def recalc_file(in_path, out_path, functions: Mapping[str, Callable], *,
     except WorkbookFileError as exc:
         raise RecalcError(str(exc)) from None
     name = os.path.basename(in_path)
-    got = run_contained(lambda: _evaluate(data, name, functions, values_only), in_path,
-                        **dict(limits or {}))
+    with atomic_path(out_path) as tmp:
+        got = run_contained(lambda: _evaluate(data, name, functions, values_only, tmp, out_path),
+                            in_path, **dict(limits or {}))
     values = {(s, c): v for s, c, v in got["values"]}
-    parts, book_part, strings = got["parts"], got["book_part"], got["strings"]
     n_formulas, n_arrays = got["formulas"], got["arrays"]
-
-    by_part: dict[str, dict] = {}
-    titles = {}
-    for (sheet, coord), v in values.items():
-        part = parts[sheet]
-        titles[part] = sheet
-        by_part.setdefault(part, {})[coord] = v
-
-    def write(raw):
-        import io
-
-        with zipfile.ZipFile(io.BytesIO(data)) as zin, zipfile.ZipFile(raw, "w") as zout:
-            for info in zin.infolist():
-                part = zin.read(info)
-                if info.filename in by_part:
-                    where = f"{name}, sheet {titles[info.filename]!r}"
-                    new = writeback.patch_sheet_xml(part, by_part[info.filename], where,
-                                                    values_only)
-                    writeback.verify_patch(got["digests"][info.filename], new,
-                                           by_part[info.filename], where, strings, values_only)
-                    part = new
-                elif info.filename == book_part:
-                    part = writeback.keep_cached_values_on_load(part)
-                zout.writestr(info, part)
-
-    with collector_paused():          # the XML trees of the check are large and acyclic
-        write_atomic(out_path, write)
     errors = {k: v for k, v in values.items() if isinstance(v, str) and v in ERROR_VALUES}
     if errors:
         logging.getLogger(__name__).info("%s: %d cell(s) show Excel errors, first %s",

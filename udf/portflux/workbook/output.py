@@ -48,6 +48,8 @@ except AttributeError:
 
 #: errno values that mean "the disk (or the user's quota) is full".
 DISK_FULL = frozenset(e for e in (errno.ENOSPC, _EDQUOT) if e is not None)
+#: errno values of a write refused by the disk or by a limit: the message names the file.
+WRITE_REFUSED = DISK_FULL | {errno.EFBIG}
 
 _HANDLED = (signal.SIGTERM, signal.SIGINT)    # both exist on every platform Python runs on
 _umask_lock = threading.Lock()
@@ -92,6 +94,9 @@ def explain(exc: OSError, path) -> str:
         what = "the disk quota is exceeded" if exc.errno == _EDQUOT \
             else "the disk is full (no space left on device)"
         return f"{path}: {what}; nothing was written. Free some space or choose another folder."
+    if exc.errno == errno.EFBIG:
+        return (f"{path}: the file would be larger than this process may write (the file-size "
+                f"limit, 'ulimit -f'); nothing was written. Raise the limit or write less.")
     if exc.errno in (errno.EACCES, errno.EPERM, errno.EROFS):
         return f"{path}: cannot write here ({exc.strerror or exc}); choose another folder."
     return f"{path}: cannot write ({exc.strerror or exc})."
@@ -187,7 +192,7 @@ def atomic_path(path, *, overwrite: bool = True) -> Iterator[str]:
         tmp = None
     except OSError as e:
         ours = e.filename is not None and os.fspath(e.filename) in (tmp, path)
-        if e.errno in DISK_FULL or ours:
+        if e.errno in WRITE_REFUSED or ours:
             raise OutputError(explain(e, path)) from None
         raise                        # e.g. the writer could not read its input: not ours
     finally:
@@ -218,6 +223,21 @@ def _finish(tmp: str, path: str, overwrite: bool) -> None:
         os.replace(tmp, path)
         return
     _remove(tmp)
+
+
+def fill(tmp, writer: Callable[[object], object], shown) -> None:
+    """Write the temporary file ``tmp`` of an :func:`atomic_path` block through ``writer(f)``
+    (a binary file object), from wherever the data are made (a contained child process: the
+    parent keeps the file's name and removes it on any failure). A refused write becomes an
+    :class:`OutputError` naming ``shown``, the user's file."""
+    try:
+        with open(tmp, "wb") as f:
+            writer(f)
+            f.flush()
+    except OSError as e:
+        if e.errno in WRITE_REFUSED:
+            raise OutputError(explain(e, shown)) from None
+        raise
 
 
 def write_atomic(path, writer: Callable[[object], object], *, overwrite: bool = True) -> str:

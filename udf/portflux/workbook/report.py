@@ -1,28 +1,34 @@
 """``portflux report IN.xlsx -o OUT.pdf``: the workbook's 'Report' sheet as a one-page PDF.
 
 The workbook is recalculated headlessly into a frozen copy (values, no formulas: LibreOffice
-needs no add-in to show them), then LibreOffice renders the copy's first printed page — the
-'Report' sheet, first in the template and set to print on one page — to PDF. The input is never
-modified; the PDF is written to a temporary file beside ``OUT.pdf`` and renamed into place.
+needs no add-in to show them); from that copy the package reader's parse is **rebuilt**
+(:mod:`.rebuild`: the cells the engine computed, the formats, print set-up, charts and embedded
+pictures the reader checked, nothing else of the file), and LibreOffice renders the rebuilt
+workbook's first printed page — the 'Report' sheet, first in the template and set to print on
+one page — to PDF. So the page shows what the engine computed, never a value or a picture that
+only LibreOffice would read in the file. The input is never modified; the PDF is written to a
+temporary file beside ``OUT.pdf`` and renamed into place.
 
 LibreOffice (``soffice``) is found on the PATH or given with ``soffice=``; without it the command
 stops with a message saying what to install. LibreOffice runs with a private profile in a
-temporary folder and a time limit, so two runs do not share state and a stuck render cannot hang.
+temporary folder that blocks links and macros, without network where the platform allows, with
+bounded memory and CPU and a time limit (:mod:`.soffice`); it is ended with its process group
+on any failure, SIGTERM or Ctrl-C, so two runs do not share state and a stuck render cannot hang.
 """
 
 from __future__ import annotations
 
+import dataclasses
 import os
-import re
 import shutil
+import signal
 import subprocess
 import tempfile
-import zipfile
 
 from ..core import PortfluxError
 from .check import recalc
 from .output import write_atomic
-from .soffice import soffice_path
+from .soffice import bounded, isolated, private_profile, soffice_path
 from .report_sheet import REPORT
 
 PAPER = {"a4": "9", "letter": "1"}       #: OOXML paperSize codes
@@ -45,27 +51,45 @@ def find_soffice(soffice=None) -> str:
 
 
 def _set_paper(path: str, paper: str) -> None:
-    """Rewrite the paper size of every sheet of a workbook file (in place, a private copy)."""
-    code = PAPER[paper]
-    tmp = path + ".paper"
-    with zipfile.ZipFile(path) as zin, zipfile.ZipFile(tmp, "w", zipfile.ZIP_DEFLATED) as zout:
-        for info in zin.infolist():
-            data = zin.read(info)
-            if re.fullmatch(r"xl/worksheets/sheet\d+\.xml", info.filename):
-                data = re.sub(rb'paperSize="\d+"', b'paperSize="' + code.encode() + b'"', data)
-            zout.writestr(info, data)
-    os.replace(tmp, path)
+    """Set the paper size of every sheet of a workbook file: in place, by rebuilding it from
+    what the package reader parsed (what the report renders)."""
+    from .rebuild import rebuild_file
+
+    rebuild_file(path, path, paper=PAPER[paper])
 
 
-def _first_sheet_is_report(path: str) -> bool:
-    import openpyxl
+def _rebuild(frozen: str, copy: str, paper: str, in_path: str) -> dict:
+    """The rebuilt copy of the frozen workbook (in a contained child: the reader and writer
+    are bounded like the evaluation)."""
+    from .contain import run_contained
+    from .rebuild import rebuild_file
+    from .xlvalues import RecalcError
 
-    wb = openpyxl.load_workbook(path, read_only=True)
+    name = os.path.basename(in_path)
     try:
-        shown = [ws.title for ws in wb.worksheets if ws.sheet_state == "visible"]
+        return run_contained(lambda: dataclasses.asdict(
+            rebuild_file(frozen, copy, paper=PAPER[paper], name=name)), in_path)
+    except RecalcError as e:
+        raise ReportError(str(e)) from None
+
+
+def _render(cmd: list, outdir: str) -> subprocess.CompletedProcess:
+    """Run LibreOffice's converter in a process group of its own, ended with the group on a
+    timeout or any exception (SIGTERM raised as :class:`~.output.Terminated`, Ctrl-C)."""
+    proc = subprocess.Popen(cmd, stdin=subprocess.DEVNULL, stdout=subprocess.PIPE,
+                            stderr=subprocess.PIPE, text=True, start_new_session=True,
+                            preexec_fn=bounded(), cwd=outdir)
+    try:
+        out, err = proc.communicate(timeout=TIMEOUT)
+    except subprocess.TimeoutExpired:
+        raise ReportError(f"LibreOffice did not finish rendering within {TIMEOUT} s") from None
     finally:
-        wb.close()
-    return bool(shown) and shown[0] == REPORT
+        try:                          # the converter's helpers too (oosplash, soffice.bin)
+            os.killpg(proc.pid, signal.SIGKILL)
+        except OSError:
+            pass
+        proc.wait()
+    return subprocess.CompletedProcess(cmd, proc.returncode, out, err)
 
 
 def write_report(in_path, out_path, *, paper="a4", soffice=None, progress=False) -> str:
@@ -95,23 +119,21 @@ def write_report(in_path, out_path, *, paper="a4", soffice=None, progress=False)
     exe = find_soffice(soffice)
     with tempfile.TemporaryDirectory(prefix="portflux-report-") as tmp:
         stem = os.path.splitext(os.path.basename(in_path))[0] or "report"
-        frozen = os.path.join(tmp, stem + ".xlsx")     # the page header shows the file name
+        frozen = os.path.join(tmp, stem + ".xlsx")
         recalc(in_path, frozen, progress=progress, values_only=True)
-        if not _first_sheet_is_report(frozen):
+        outdir = os.path.join(tmp, "page")
+        os.mkdir(outdir)
+        copy = os.path.join(outdir, stem + ".xlsx")     # the page header shows the file name
+        rebuilt = _rebuild(frozen, copy, paper, in_path)
+        if rebuilt["first_visible"] != REPORT:
             raise ReportError(f"{in_path}: the first sheet is not {REPORT!r}; make the workbook "
                               f"from the portflux template ('portflux template')")
-        _set_paper(frozen, paper)
-        profile = "file://" + os.path.join(tmp, "profile").replace(os.sep, "/")
-        cmd = [exe, f"-env:UserInstallation={profile}", "--headless", "--norestore",
-               "--convert-to", 'pdf:calc_pdf_Export:{"PageRange":{"type":"string",'
-                               '"value":"1"}}', "--outdir", tmp, frozen]
-        try:
-            done = subprocess.run(cmd, capture_output=True, text=True, timeout=TIMEOUT,
-                                  stdin=subprocess.DEVNULL)
-        except subprocess.TimeoutExpired:
-            raise ReportError(f"LibreOffice did not finish rendering within {TIMEOUT} s") \
-                from None
-        pdf = os.path.join(tmp, stem + ".pdf")
+        profile = private_profile(os.path.join(tmp, "profile"))
+        cmd = isolated([exe, f"-env:UserInstallation={profile}", "--headless", "--norestore",
+                        "--convert-to", 'pdf:calc_pdf_Export:{"PageRange":{"type":"string",'
+                        '"value":"1"}}', "--outdir", outdir, copy], pipe=False)
+        done = _render(cmd, outdir)
+        pdf = os.path.join(outdir, stem + ".pdf")
         if done.returncode != 0 or not os.path.isfile(pdf):
             tail = (done.stderr or done.stdout or "").strip().splitlines()[-3:]
             raise ReportError("LibreOffice could not render the report: "

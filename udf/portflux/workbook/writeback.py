@@ -27,11 +27,17 @@ _ILLEGAL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
 _CHILD_RES: dict = {}
 
 
+_LITERAL = re.compile(r"_(x[0-9A-Fa-f]{4}_)")
+
+
 def _xml_text(text: str) -> bytes:
     """Escape text for element content; illegal XML characters become the
-    OOXML ``_xHHHH_`` escape."""
+    OOXML ``_xHHHH_`` escape, and a literal ``_xHHHH_`` is kept literal
+    (``_x005F_xHHHH_``), since the package reader decodes escapes as Excel does."""
     text = (text.replace("&", "&amp;").replace("<", "&lt;")
             .replace(">", "&gt;"))
+    if "_x" in text:
+        text = _LITERAL.sub(r"_x005F_\1", text)
     text = _ILLEGAL.sub(lambda m: "_x%04X_" % ord(m.group()), text)
     return text.encode("utf-8")
 

@@ -28,7 +28,8 @@ MIN_VERSION = (25, 2)
 from ...core import PortfluxError
 
 
-from ...workbook.soffice import soffice_path  # noqa: E402  (one finder for every user)
+from ...workbook.soffice import (bounded, isolated, isolation, private_profile,  # noqa: E402
+                                  soffice_path)   # one finder and one sandbox for every user
 
 
 class OfficeError(PortfluxError):
@@ -175,17 +176,25 @@ class HeadlessOffice:
     """One headless LibreOffice with a private profile and the portflux add-in installed.
 
     Use: ``with HeadlessOffice(oxt) as office: doc = office.load("book.xlsx")``; ``stop()``
-    (or leaving the block) ends that process only and deletes the profile.
+    (or leaving the block) ends that process only and deletes the profile. The profile holds
+    :data:`portflux.workbook.soffice.PROFILE_SETTINGS` (links blocked and never updated, no
+    macros, no active content); the process runs without network where
+    :func:`~portflux.workbook.soffice.isolation` can (``isolation`` says how it ran) and with
+    the memory and CPU bounds of :func:`~portflux.workbook.soffice.bounded`.
     """
 
-    def __init__(self, oxt_path=None, *, timeout=120.0):
+    def __init__(self, oxt_path=None, *, timeout=120.0, own_session=True, folder=None):
         reason = unavailable_reason()
         if reason:
             raise OfficeError(reason)
+        #: False: the office stays in the caller's process group (a contained recalculation
+        #: is ended, office included, by killing its group).
+        self.own_session = own_session
+        self.isolation = None
         self.uno = import_uno()
         self.timeout = timeout
         self.oxt_path = oxt_path
-        self.tmp = tempfile.mkdtemp(prefix="portflux-lo-")
+        self.tmp = tempfile.mkdtemp(prefix="portflux-lo-", dir=folder)
         self.profile = os.path.join(self.tmp, "profile")
         self.proc = None
         self.desktop = None
@@ -197,11 +206,13 @@ class HeadlessOffice:
         pipe = "portflux_" + uuid.uuid4().hex
         args = [soffice_path(), "--headless", "--invisible", "--nologo", "--norestore",
                 "--nodefault", "--nolockcheck", "--nofirststartwizard",
-                "-env:UserInstallation=" + _url(self.profile),
+                "-env:UserInstallation=" + private_profile(self.profile),
                 f"--accept=pipe,name={pipe};urp;StarOffice.ComponentContext"]
-        self.proc = subprocess.Popen(args, stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL,
-                                     stderr=subprocess.DEVNULL, env=clean_env(),
-                                     start_new_session=True)
+        self.isolation = isolation(pipe=True)[1]
+        self.proc = subprocess.Popen(isolated(args, pipe=True), stdin=subprocess.DEVNULL,
+                                     stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                                     env=clean_env(), start_new_session=self.own_session,
+                                     preexec_fn=bounded())
         local = self.uno.getComponentContext()
         resolver = local.ServiceManager.createInstanceWithContext(
             "com.sun.star.bridge.UnoUrlResolver", local)
@@ -271,6 +282,8 @@ class HeadlessOffice:
         proc = self.proc
         if proc is not None and proc.poll() is None:
             try:
+                if not self.own_session:
+                    raise AttributeError      # the caller's group: end this process only
                 os.killpg(proc.pid, signal.SIGKILL)
             except (OSError, AttributeError):
                 proc.kill()

@@ -1,20 +1,29 @@
 """``portflux recalc --engine libreoffice``: recalculate a workbook in headless LibreOffice.
 
 The same contract as the embedded engine (:func:`portflux.workbook.check.recalc`): the input is
-only read (LibreOffice opens a private copy), writing over it is refused, the output is written
-to a temporary file in its folder and renamed into place, and the file checks
-(:func:`portflux.workbook.safety.check_workbook_file`: zip and entity bombs, non-workbooks) and
-the formula check (Excel's functions and portflux's only) run before LibreOffice sees the file,
-with the same messages. LibreOffice-specific defences: macros never run, links are never
-updated, functions that reach outside the workbook in LibreOffice (WEBSERVICE, INDIRECT, ...)
-and references to other files are refused, and the whole run is bounded by a timeout that
-kills the private LibreOffice process.
+only read, writing over it is refused, the output is written to a temporary file in its folder
+and renamed into place, and the same refusals, with the same messages, come first.
+
+**LibreOffice never opens the user's file.** In a contained child process
+(:func:`portflux.workbook.contain.run_contained`: memory, CPU and wall-clock bounds, killed
+with its process group on any exit) the file checks, the package reader, the embedded engine's
+rules (its compiler: functions, ranges, names, circular references), the work budget and the
+checks below run, and the workbook LibreOffice gets is **rebuilt from what the reader parsed**
+(:mod:`portflux.workbook.rebuild`): both engines compute the same formulas on the same values.
+When portflux starts LibreOffice itself (the command line), LibreOffice runs inside that same
+child, in its process group, with a private profile that blocks links and macros, without
+network where the platform allows (:mod:`portflux.workbook.soffice`) and under the child's
+wall-clock limit: SIGTERM or Ctrl-C end it with the command.
+
+LibreOffice-specific refusals: functions that reach outside the workbook in LibreOffice
+(WEBSERVICE, INDIRECT, ...) and references to other files. LibreOffice's own error values
+(``Err:502``, ``#NUM!``, ...) are reported as errors (:attr:`RecalcSummary.error_cells`), so
+``recalc`` exits 1 naming the cell, as with the embedded engine.
 """
 
 from __future__ import annotations
 
 import os
-import shutil
 import sys
 import tempfile
 import threading
@@ -34,25 +43,6 @@ TIMEOUT = 300.0
 
 class LibreOfficeRecalcError(PortfluxError):
     """The workbook cannot be recalculated in LibreOffice; the message names file and place."""
-
-
-#: Package parts through which a workbook reaches other files or data sources.
-OUTSIDE_PARTS = ("xl/externalLinks/", "xl/connections.xml", "xl/queryTables/")
-
-
-def _formulas(path):
-    """``({(sheet, cell): formula}, number of array formulas, {defined name: text})``, read by
-    the embedded engine's one package reader (so both engines check the same formulas)."""
-    from ...workbook.package import formulas_of, read_package
-    from ...workbook.safety import WorkbookFileError, read_workbook_bytes
-    from ...workbook.xlvalues import RecalcError
-
-    name = os.path.basename(os.fspath(path))
-    try:
-        formulas, arrays, names = formulas_of(read_package(read_workbook_bytes(path), name))
-    except (WorkbookFileError, RecalcError) as e:
-        raise LibreOfficeRecalcError(str(e)) from None
-    return formulas, len(arrays), names
 
 
 def _refuse_outside_reach(text: str, where: str) -> None:
@@ -80,44 +70,69 @@ def _refuse_outside_reach(text: str, where: str) -> None:
                 f"evaluate the workbook")
 
 
+def _checked(path, *, layout=False):
+    """The package of ``path`` after every refusal of this engine (see :func:`check_formulas`);
+    raises :class:`LibreOfficeRecalcError`."""
+    from ... import cells
+    from ...workbook import worksheet_functions
+    from ...workbook.budget import check_work
+    from ...workbook.formula import FormulaSyntaxError, calls, parse
+    from ...workbook.layout import read_with_layout
+    from ...workbook.package import formulas_of, read_package
+    from ...workbook.recalc import Recalculator, refusal_of_call
+    from ...workbook.safety import WorkbookFileError, read_workbook_bytes
+    from ...workbook.xlvalues import RecalcError
+
+    name = os.path.basename(os.fspath(path))
+    try:
+        data = read_workbook_bytes(path)
+        pkg = read_with_layout(data, name) if layout else read_package(data, name)
+        formulas, arrays, names = formulas_of(pkg)
+        for (sheet, cell), text in formulas.items():     # what reaches outside, in LibreOffice
+            _refuse_outside_reach(text, f"{name}: sheet {sheet!r}, cell {cell}")
+        for n, text in names.items():
+            _refuse_outside_reach(text, f"{name}: defined name {n!r}")
+        for (sheet, cell), text in formulas.items():     # the embedded engine's rule and words
+            try:
+                called = calls(parse(text))
+            except FormulaSyntaxError as e:
+                raise LibreOfficeRecalcError(f"sheet {sheet!r}, cell {cell}: {e}") from None
+            for f in called:
+                why = refusal_of_call(f.removeprefix("_XLFN.").removeprefix("_XLWS."),
+                                      cells.PUBLIC)
+                if why:
+                    raise LibreOfficeRecalcError(f"sheet {sheet!r}, cell {cell}: {why}")
+        check_work(pkg, name)
+        Recalculator(None, worksheet_functions(), package=pkg)   # its other refusals
+    except (WorkbookFileError, RecalcError) as e:
+        raise LibreOfficeRecalcError(str(e)) from None
+    return pkg, formulas, arrays
+
+
 def check_formulas(path) -> tuple[int, int]:
     """Refuse what LibreOffice must not evaluate; return the number of formula cells (an
     array formula counted once, at its anchor) and of array formulas.
 
-    The embedded engine's rule (Excel's functions and portflux's only, same message), plus
-    the functions in :data:`OUTSIDE_REACH` and references into other files, in cell formulas
-    and defined names, and links to other files or data sources (:data:`OUTSIDE_PARTS`).
+    Everything the embedded engine refuses (the package reader: links to other files or data
+    sources, readers that could disagree; Excel's functions and portflux's only, with the
+    same message; ranges, names, circular references; the work budget), plus the functions in
+    :data:`OUTSIDE_REACH` and references into other files, in cell formulas and defined names.
     """
-    import zipfile
+    _, formulas, arrays = _checked(path)
+    return len(formulas), len(arrays)
 
-    from ... import cells
-    from ...workbook.formula import FormulaSyntaxError, calls, parse
-    from ...workbook.recalc import refusal_of_call
 
-    name = os.path.basename(os.fspath(path))
-    with zipfile.ZipFile(path) as z:
-        for part in z.namelist():
-            if part.startswith(OUTSIDE_PARTS):
-                raise LibreOfficeRecalcError(
-                    f"{name}: the workbook links to other files or data sources (part "
-                    f"{part!r}); refusing to evaluate it in LibreOffice (use the embedded "
-                    f"engine)")
-    formulas, arrays, names = _formulas(path)
-    for (sheet, cell), text in formulas.items():     # what reaches outside, in LibreOffice
-        _refuse_outside_reach(text, f"{name}: sheet {sheet!r}, cell {cell}")
-    for n, text in names.items():
-        _refuse_outside_reach(text, f"{name}: defined name {n!r}")
-    for (sheet, cell), text in formulas.items():     # the embedded engine's rule and words
-        try:
-            called = calls(parse(text))
-        except FormulaSyntaxError as e:
-            raise LibreOfficeRecalcError(f"sheet {sheet!r}, cell {cell}: {e}") from None
-        for f in called:
-            why = refusal_of_call(f.removeprefix("_XLFN.").removeprefix("_XLWS."),
-                                  cells.PUBLIC)
-            if why:
-                raise LibreOfficeRecalcError(f"sheet {sheet!r}, cell {cell}: {why}")
-    return len(formulas), arrays
+def _prepare(in_path, copy) -> dict:
+    """The checks, and the rebuilt copy written to ``copy``; plain data (runs contained)."""
+    from ...workbook.output import write_atomic
+    from ...workbook.rebuild import rebuild
+
+    pkg, formulas, arrays = _checked(in_path, layout=True)
+    data = rebuild(pkg)
+    write_atomic(copy, lambda f: f.write(data))
+    return {"formulas": [[s, c, t] for (s, c), t in formulas.items()],
+            "arrays": [[s, c, ref] for (s, c), ref in arrays.items()],
+            "notes": list(pkg.layout.notes)}
 
 
 def _read_results(doc):
@@ -177,78 +192,133 @@ def _freeze(doc) -> None:
             block.setDataArray(data)
 
 
+def _compute(office, copy, out_tmp, values_only, macro_enabled, shown) -> dict:
+    """Open the copy in ``office``, recalculate, read every formula cell, store the output
+    (``shown``: the user's name of it, for messages)."""
+    doc = office.load(copy)
+    if doc is None:
+        raise LibreOfficeRecalcError("LibreOffice could not open the rebuilt copy")
+    try:
+        doc.calculateAll()
+        values, errors = _read_results(doc)
+        if values_only:
+            _freeze(doc)
+        try:
+            office.store_xlsx(doc, out_tmp, macro_enabled=macro_enabled)
+        except Exception as e:  # noqa: BLE001 - UNO's IOException: name the user's file
+            raise LibreOfficeRecalcError(
+                f"{shown}: LibreOffice could not write the output ({type(e).__name__}: "
+                f"{' '.join(str(e).split())[:120]}); nothing was written (a full disk or the "
+                f"file-size limit, 'ulimit -f'?)") from None
+    finally:
+        try:
+            doc.close(True)
+        except Exception:  # noqa: BLE001 - the office may have been killed
+            pass
+    return {"values": [[s, c, v] for (s, c), v in values.items()],
+            "errors": [[s, c, v] for (s, c), v in errors.items()]}
+
+
+def _own_session(in_path, tmp, out_tmp, values_only, macro_enabled, timeout, shown) -> dict:
+    """In the contained child: the checks, the copy, a private LibreOffice in this process
+    group (ended with it), the computation."""
+    from .package import OXT_NAME, build_oxt, site_dirs_of_this_python
+
+    copy = os.path.join(tmp, "input.xlsx")
+    got = _prepare(in_path, copy)
+    office = HeadlessOffice(build_oxt(os.path.join(tmp, OXT_NAME), site_dirs_of_this_python()),
+                            timeout=timeout, own_session=False, folder=tmp)
+    got["isolation"] = None
+    try:
+        office.start()
+        got["isolation"] = office.isolation
+        got.update(_compute(office, copy, out_tmp, values_only, macro_enabled, shown))
+    except PortfluxError:
+        raise
+    except Exception as e:  # noqa: BLE001 - UNO errors: name the file, never a traceback
+        raise LibreOfficeRecalcError(f"{in_path}: LibreOffice failed: {type(e).__name__}: "
+                                     f"{e}") from None
+    finally:
+        office.stop()
+    return got
+
+
+def _shared_session(office, in_path, tmp, out_tmp, values_only, macro_enabled, timeout,
+                    shown):
+    """A running office (tests): the checks and the copy contained, LibreOffice here."""
+    from ...workbook.contain import run_contained
+
+    copy = os.path.join(tmp, "input.xlsx")
+    got = run_contained(lambda: _prepare(in_path, copy), in_path)
+    timer = threading.Timer(timeout, office.kill)
+    timer.daemon = True
+    timer.start()
+    t0 = time.monotonic()
+    try:
+        got.update(_compute(office, copy, out_tmp, values_only, macro_enabled, shown))
+    except PortfluxError:
+        if office.killed or time.monotonic() - t0 >= timeout:
+            raise LibreOfficeRecalcError(f"{in_path}: LibreOffice did not finish within "
+                                         f"{timeout:g} s; stopped") from None
+        raise
+    except Exception as e:  # noqa: BLE001 - UNO errors: name the file, never a traceback
+        if office.killed:
+            raise LibreOfficeRecalcError(f"{in_path}: LibreOffice did not finish within "
+                                         f"{timeout:g} s; stopped") from None
+        raise LibreOfficeRecalcError(f"{in_path}: LibreOffice failed: {type(e).__name__}: "
+                                     f"{e}") from None
+    finally:
+        timer.cancel()
+    return got
+
+
 def recalc_file_libreoffice(in_path, out_path, *, values_only=False, office=None,
                             timeout=TIMEOUT):
     """Recalculate ``in_path`` in headless LibreOffice (with the portflux add-in) into
     ``out_path`` (.xlsx; atomically) and return the embedded engine's
     :class:`~portflux.workbook.engine.RecalcSummary` of it. ``office``: a running
-    :class:`HeadlessOffice` to reuse (tests); by default a private one is started and stopped.
+    :class:`HeadlessOffice` to reuse (tests); by default a private one is started and stopped
+    inside the contained child (module notes). ``timeout``: seconds for the whole run.
 
     Raises a :class:`~portflux.core.PortfluxError` naming the file and place (bad paths, an
-    unsafe file, a refused formula, LibreOffice missing or failing).
+    unsafe file, a refused formula, LibreOffice missing or failing or too slow).
     """
+    from ...workbook.contain import CONTAINED, run_contained
+    from ...workbook.engine import RecalcSummary
     from ...workbook.safety import check_output_path, check_workbook_file
+    from ...workbook.xlvalues import RecalcError
 
     in_path, out_path = os.fspath(in_path), os.fspath(out_path)
     check_output_path(in_path, out_path)
     check_workbook_file(in_path)
-    n_formulas, n_arrays = check_formulas(in_path)
-    own = office is None
-    t0 = time.monotonic()
-    with tempfile.TemporaryDirectory(prefix="portflux-lo-recalc-") as tmp:
-        copy = os.path.join(tmp, "input" + os.path.splitext(in_path)[1].lower())
-        shutil.copyfile(in_path, copy)
-        if own:
-            from .package import OXT_NAME, build_oxt, site_dirs_of_this_python
-
-            office = HeadlessOffice(build_oxt(os.path.join(tmp, OXT_NAME),
-                                              site_dirs_of_this_python()), timeout=timeout)
-        timer = threading.Timer(timeout, office.kill)
-        timer.daemon = True
-        timer.start()
+    macro = in_path.lower().endswith(".xlsm")
+    with tempfile.TemporaryDirectory(prefix="portflux-lo-recalc-") as tmp, \
+            atomic_path(out_path) as out_tmp:
         try:
-            if own:
-                office.start()
-            doc = office.load(copy)
-            if doc is None:
-                raise LibreOfficeRecalcError(f"{in_path}: LibreOffice could not open it")
-            try:
-                doc.calculateAll()
-                values, errors = _read_results(doc)
-                if values_only:
-                    _freeze(doc)
-                with atomic_path(out_path) as tmp_out:
-                    office.store_xlsx(doc, tmp_out, macro_enabled=in_path.lower().endswith(
-                        ".xlsm"))
-            finally:
-                try:
-                    doc.close(True)
-                except Exception:  # noqa: BLE001 - the office may have been killed
-                    pass
-        except PortfluxError:
-            if office.killed or time.monotonic() - t0 >= timeout:
-                raise LibreOfficeRecalcError(
-                    f"{in_path}: LibreOffice did not finish within {timeout:g} s; "
-                    f"stopped") from None
-            raise
-        except Exception as e:  # noqa: BLE001 - UNO errors: name the file, never a traceback
-            if office.killed:
-                raise LibreOfficeRecalcError(
-                    f"{in_path}: LibreOffice did not finish within {timeout:g} s; "
-                    f"stopped") from None
-            raise LibreOfficeRecalcError(f"{in_path}: LibreOffice failed: "
-                                         f"{type(e).__name__}: {e}") from None
-        finally:
-            timer.cancel()
-            if own:
-                office.stop()
-    # the embedded engine's summary type: one shape for both engines (errors as LibreOffice
-    # shows them: "#N/A", "#VALUE!", "Err:502")
-    from ...workbook.engine import RecalcSummary
-
-    return RecalcSummary(in_path=in_path, out_path=out_path, formula_cells=n_formulas,
-                         array_ranges=n_arrays, cells_written=len(values), error_cells=errors,
-                         values=values)
+            if office is not None:
+                got = _shared_session(office, in_path, tmp, out_tmp, values_only, macro,
+                                      timeout, out_path)
+            elif CONTAINED:
+                got = run_contained(lambda: _own_session(in_path, tmp, out_tmp, values_only,
+                                                         macro, timeout, out_path), in_path,
+                                    wall_seconds=timeout)
+            else:
+                got = _own_session(in_path, tmp, out_tmp, values_only, macro, timeout,
+                                   out_path)
+        except RecalcError as e:
+            text = str(e)
+            if "took longer than" in text:
+                text = f"{in_path}: LibreOffice did not finish within {timeout:g} s; stopped"
+            raise LibreOfficeRecalcError(text) from None
+    values = {(s, c): v for s, c, v in got["values"]}
+    errors = {(s, c): v for s, c, v in got["errors"]}
+    formulas = {(s, c): t for s, c, t in got["formulas"]}
+    arrays = {(s, c): ref for s, c, ref in got["arrays"]}
+    return RecalcSummary(in_path=in_path, out_path=out_path, formula_cells=len(formulas),
+                         array_ranges=len(arrays), cells_written=len(values),
+                         error_cells=errors, values=values, formulas=formulas, arrays=arrays,
+                         contained=office is None and CONTAINED,
+                         notes=tuple(got.get("notes", ())), isolation=got.get("isolation"))
 
 
 def recalc_libreoffice(in_path, out_path, *, progress=False, values_only=False):
@@ -261,7 +331,21 @@ def recalc_libreoffice(in_path, out_path, *, progress=False, values_only=False):
         print(f"  {s.formula_cells} formulas, {s.array_ranges} array ranges, "
               f"{s.cells_written} cells written in {time.perf_counter() - t0:.2f} s "
               f"-> {out_path}", file=sys.stderr, flush=True)
+        for line in notes_of(s):
+            print(f"  note: {line}", file=sys.stderr, flush=True)
     return s
+
+
+def notes_of(summary) -> list:
+    """Progress lines: how LibreOffice ran, and what the copy it computed leaves out (the
+    output is what LibreOffice saved of that copy)."""
+    lines = []
+    if summary.isolation:
+        lines.append(f"LibreOffice ran {summary.isolation}")
+    if summary.notes:
+        lines.append("LibreOffice computed a copy rebuilt from what portflux read; the output "
+                     "has no " + ", ".join(summary.notes))
+    return lines
 
 
 __all__ = ["OfficeError", "LibreOfficeRecalcError", "check_formulas",
