@@ -252,14 +252,15 @@ def test_a_currency_cell_arrives_as_a_decimal_and_is_read_exactly(xl):
         ports = tuple(tuple(Currency(value) if c == 998.0 else c for c in r)
                       for r in sc["ports"])
         args = sheet_args(xl, dict(sc, ports=ports))
+        typed = xl.put("A30", tuple(tuple(value if c == 998.0 else c for c in r)
+                                    for r in sc["ports"]))       # the same, typed as numbers
         handed = args["ports"].com.Value[2][3]
-        assert isinstance(handed, decimal.Decimal)
+        assert isinstance(handed, decimal.Decimal) and typed.com.Value[2][3] == value
         assert float(handed) == value                # at most four decimals: exact
-        typed = sheet_args(xl, dict(sc, ports=tuple(
-            tuple(value if c == 998.0 else c for c in r) for r in sc["ports"])))
         for name in ("PFX_MASSFLOWS", "PFX_BODYFORCE", "PFX_SUMMARY"):
-            assert xl.call(name, args["ports"], args["cv_velocity"]) == xl.call(
-                name, typed["ports"], typed["cv_velocity"]), (name, value)
+            money = xl.call(name, args["ports"], args["cv_velocity"])
+            assert money == xl.call(name, typed, args["cv_velocity"]), (name, value)
+            assert not is_message(money), money
 
 
 ERROR_PLACES = {
@@ -381,3 +382,22 @@ def test_a_sheet_named_like_a_python_file_makes_xlwings_refuse_every_call(xl):
         xl.book = xl.new_book(("Ports", "Results"))
         xl.udfs.udf_modules.clear()
         xl.udfs.udf_modules.update(cached)
+
+
+def test_portflux_imports_only_classic_xlwings_never_its_licence_keyed_parts():
+    """The core stays permissively licensed: xlwings' server / custom-functions route (Excel
+    for Mac and the web) is in its separately licensed ``xlwings.pro`` and needs a key."""
+    import ast
+    import pathlib
+
+    root = pathlib.Path(C.__file__).parents[1]
+    used = set()
+    for path in root.rglob("*.py"):
+        for node in ast.walk(ast.parse(path.read_text(encoding="utf-8"))):
+            if isinstance(node, ast.Import):
+                used |= {a.name for a in node.names if a.name.split(".")[0] == "xlwings"}
+            elif isinstance(node, ast.ImportFrom) and (node.module or "").split(".")[0] == \
+                    "xlwings":
+                used |= {node.module} | {f"{node.module}.{a.name}" for a in node.names
+                                         if a.name in ("pro", "server")}
+    assert used == {"xlwings"}, used       # the walker sees the one classic import
