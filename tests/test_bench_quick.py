@@ -78,3 +78,19 @@ def test_main_quick_exits_zero_and_prints_the_table(capsys):
     assert bench.main(["--quick"]) == 0
     out = capsys.readouterr().out
     assert "2 speed table" in out and "4 recalc" in out
+
+
+def test_addin_benchmark_reports_its_ratio_and_where_the_time_goes_or_why_not(rows):
+    mine = [r for r in rows if r["benchmark"].startswith("6 LibreOffice add-in")]
+    ratio = next(r for r in mine if r["figure"] == "ratio add-in / native, edit latency")
+    assert ratio["target"] == "<= 2" or ratio["note"].startswith("n/a: ")
+    if not math.isfinite(ratio["value"]):
+        assert ratio["note"].startswith("n/a: ")        # no LibreOffice here: says why
+        return
+    addin = next(r for r in mine if r["figure"].startswith("edit latency") and "add-in" in
+                 r["figure"])
+    assert addin["note"] == "same total"                 # both tables hold the same numbers
+    for part in ("native array formula", "adapter.call", "from_calc", "PFX_SPEEDTABLE",
+                 "to_calc", "by difference"):
+        hit = next(r for r in mine if part in r["figure"])
+        assert math.isfinite(hit["value"]) and hit["value"] >= 0.0, hit

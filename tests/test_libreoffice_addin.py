@@ -151,11 +151,15 @@ def test_oxt_holds_manifest_type_library_component_configuration_and_site_record
         site = json.loads(z.read("portflux_site.json"))
         assert site["site_dirs"] == dirs
         assert site["python"] == f"{sys.version_info[0]}.{sys.version_info[1]}"
+        import portflux
+        assert site["portflux"] == os.path.dirname(os.path.dirname(portflux.__file__))
+        assert site["version"] == portflux.__version__
         with open(package.RDB_PATH, "rb") as f:
             assert z.read("portflux.rdb") == f.read()
     generic = package.build_oxt(tmp_path / "g.oxt")
     with zipfile.ZipFile(generic) as z:
-        assert json.loads(z.read("portflux_site.json")) == {"site_dirs": [], "python": None}
+        assert json.loads(z.read("portflux_site.json")) == {
+            "site_dirs": [], "python": None, "portflux": None, "version": None}
 
 
 def test_component_file_defines_nothing_outside_libreoffice():
@@ -178,6 +182,63 @@ def test_component_reports_in_the_cell_when_portflux_cannot_be_imported(tmp_path
     assert r.returncode == 0, r.stderr
     assert r.stdout.startswith("portflux: cannot import portflux in LibreOffice's Python")
     assert "portflux libreoffice install" in r.stdout
+
+
+def _bootstrap(tmp_path, record, first=None):
+    """Run the component's bootstrap in a fresh Python (``first`` put at the front of its
+    path, as LibreOffice's own folders are); print what _adapter() gives and where portflux
+    came from."""
+    comp = tmp_path / "portflux_calc.py"
+    comp.write_text(open(package.COMPONENT_PATH, encoding="utf-8").read())
+    (tmp_path / "portflux_site.json").write_text(json.dumps(record))
+    code = ("import sys; sys.path.insert(0, sys.argv[1]) if sys.argv[1] else None; "
+            "import portflux_calc as c; a = c._adapter(); "
+            "print(a if isinstance(a, str) else 'adapter'); "
+            "print(sys.modules['portflux'].__file__ if 'portflux' in sys.modules else '')")
+    env = dict(os.environ, PYTHONPATH="")
+    r = subprocess.run([sys.executable, "-c", code, str(first or "")], cwd=tmp_path,
+                       capture_output=True, text=True, timeout=120, env=env)
+    assert r.returncode == 0, r.stderr
+    return r.stdout.splitlines()
+
+
+def _home():
+    import portflux
+    return os.path.dirname(os.path.dirname(os.path.abspath(portflux.__file__)))
+
+
+def test_component_imports_the_portflux_it_was_built_from_ahead_of_another_copy(tmp_path):
+    """A copy of portflux earlier on LibreOffice's path (a system-wide one, an editable
+    install's .pth) must not shadow the recorded one; before, the site folders were appended
+    after LibreOffice's own and the first copy on the path won."""
+    import portflux
+
+    decoy = tmp_path / "decoy"
+    (decoy / "portflux").mkdir(parents=True)
+    (decoy / "portflux" / "__init__.py").write_text("__version__ = 'decoy'\n")
+    record = {"site_dirs": package.site_dirs_of_this_python(), "python":
+              f"{sys.version_info[0]}.{sys.version_info[1]}", "portflux": _home(),
+              "version": portflux.__version__}
+    shown, origin = _bootstrap(tmp_path, record, first=decoy)
+    assert shown == "adapter"
+    assert origin == os.path.join(_home(), "portflux", "__init__.py")
+
+
+def test_component_says_so_when_another_portflux_than_the_recorded_one_is_imported(tmp_path):
+    import portflux
+
+    base = {"site_dirs": package.site_dirs_of_this_python(),
+            "python": f"{sys.version_info[0]}.{sys.version_info[1]}"}
+    elsewhere = tmp_path / "moved"
+    elsewhere.mkdir()
+    shown, _ = _bootstrap(tmp_path, dict(base, portflux=str(elsewhere),
+                                         version=portflux.__version__), first=_home())
+    assert shown.startswith(f"portflux: the add-in was installed from portflux "
+                            f"{portflux.__version__} in {elsewhere}, but LibreOffice's Python "
+                            f"imports portflux {portflux.__version__} from {_home()}")
+    assert "portflux libreoffice install" in shown
+    shown, _ = _bootstrap(tmp_path, dict(base, portflux=_home(), version="0.0.1"))
+    assert shown.startswith("portflux: the add-in was installed from portflux 0.0.1 in ")
 
 
 def test_libreoffice_build_command_writes_an_oxt_without_the_sdk(tmp_path):

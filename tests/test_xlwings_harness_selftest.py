@@ -243,7 +243,8 @@ def test_several_modules_go_into_one_vba_module(toy, write_module):
 
 # ---- the harness leaves no trace -------------------------------------------------------------
 def test_harness_restores_no_op_decorators_and_leaves_no_stand_ins(toy):
-    originals = {a: getattr(xlwings, a) for a in ("func", "arg", "ret", "sub", "script")}
+    originals = {a: getattr(xlwings, a) for a in ("func", "arg", "ret", "sub", "script")
+                 if hasattr(xlwings, a)}              # xlwings 0.30 has no xlwings.script
     windows_before = {n for n in WINDOWS_ONLY_MODULES if n in sys.modules}
     had_udfs = "xlwings.udfs" in sys.modules
 
@@ -384,7 +385,10 @@ def test_union_type_hints_give_converters_xlwings_cannot_read(write_module):
             return [a]
         """
     )
-    problems = converter_problems(xlfunc_records(name))
+    records = xlfunc_records(name)
+    if "convert" not in records["PFX_TOY_HINTS"]["args"][0]["options"]:
+        pytest.skip(f"xlwings {xlwings.__version__} turns no type hint into a converter")
+    problems = converter_problems(records)
     assert [p.split(":")[0] for p in problems] == [
         "function 'PFX_TOY_HINTS', argument 'c'",
         "function 'PFX_TOY_HINTS', argument 'd'",

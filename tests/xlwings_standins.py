@@ -200,7 +200,11 @@ def _unlink_from_parent(name: str, removed: Any) -> None:
 
 @contextlib.contextmanager
 def recording_udf_decorators(
-    module_names: str | Sequence[str], *, fresh: Sequence[str] = ()
+    module_names: str | Sequence[str],
+    *,
+    fresh: Sequence[str] = (),
+    standins: dict[str, types.ModuleType] | None = None,
+    prepare: Any = None,
 ) -> Iterator[tuple[types.ModuleType, dict[str, types.ModuleType]]]:
     """Import UDF modules afresh under xlwings' recording decorators.
 
@@ -210,6 +214,11 @@ def recording_udf_decorators(
     ``fresh`` names more module prefixes to import afresh (e.g. a sibling module the
     UDF module re-exports decorated functions from); ``module_names`` and their
     submodules are always imported afresh.
+
+    ``standins`` replaces the default stand-ins with these modules (each must carry
+    :data:`STANDIN_MARK`; all are installed, e.g. the fuller pywin32 fakes of
+    ``xlwings_com.py``); ``prepare()`` runs after they are installed and before
+    ``xlwings.udfs`` is imported.
     """
     names = [module_names] if isinstance(module_names, str) else list(module_names)
     if not names:
@@ -236,7 +245,9 @@ def recording_udf_decorators(
         if "win32com.client" in missing and "win32com" not in missing:
             # a real win32com without a usable client: do not mix real and stand-in
             missing.remove("win32com.client")
-        sys.modules.update(_make_standins(missing))
+        sys.modules.update(_make_standins(missing) if standins is None else standins)
+        if prepare is not None:
+            prepare()
 
         udfs = importlib.import_module("xlwings.udfs")
         for attr, recorder in _DECORATOR_SWAP.items():
@@ -505,7 +516,7 @@ class VbaProcedure:
 _HEAD = re.compile(r"^(Function|Sub) ([A-Za-z_][A-Za-z0-9_]*)\((.*)\)$")
 _PARAM = re.compile(r"^(Optional |ParamArray )?([A-Za-z_][A-Za-z0-9_]*)(\(\))?$")
 _CALL = re.compile(
-    r'XLPy\.CallUDF\(?"(?P<mod>[^"]*)", "(?P<fn>[^"]*)", '
+    r'(?:XL)?Py\.CallUDF\(?"(?P<mod>[^"]*)", "(?P<fn>[^"]*)", '
     r"(?:Array\((?P<args>[^)]*)\)|argsArray), (?P<wb>ThisWorkbook|ActiveWorkbook)"
 )
 

@@ -30,6 +30,9 @@ median of each figure beside its target:
 
 5. **engine vs LibreOffice** -- native-formula sheets of 10,000 and 50,000 formulas: whole-file
    recalculation against LibreOffice, linearity, and edit latency (:mod:`portflux.bench_engine`).
+6. **LibreOffice add-in** -- edit latency of a 10^4-speed ``PFX_SPEEDTABLE`` block in Calc
+   against the same table in native formulas, with where the add-in's time goes
+   (:mod:`portflux.bench_addin`).
 
 ``--quick`` runs everything with tiny sizes and one or two repetitions (CI: the benchmark
 cannot rot). Timings are never asserted anywhere: machines are shared and noisy.
@@ -603,7 +606,15 @@ def bench_engine(quick):
 
 
 # --------------------------------------------------------------------------------------------
-BENCHMARKS = (bench_balance, bench_table, bench_import, bench_recalc, bench_engine)
+def bench_addin(quick):
+    """6: the LibreOffice add-in's edit latency (see :mod:`portflux.bench_addin`)."""
+    from . import bench_addin as A
+
+    return A.run(_figure, quick, vane_ports(), V_JET)
+
+
+BENCHMARKS = (bench_balance, bench_table, bench_import, bench_recalc, bench_engine,
+              bench_addin)
 
 
 def run(quick=False) -> list[dict]:

@@ -20,6 +20,28 @@ ERROR_VALUES = frozenset({
     "#CONNECT!", "#BUSY!", "#PYTHON!",
 })
 
+#: Excel's error values by their xlCVError number (Microsoft's XlCVError enumeration; from
+#: memory). Through COM (Excel with xlwings) an error cell is the int 0x800A0000 + number;
+#: xlwings turns only the seven classic ones into their text, the rest reach a function as ints.
+CV_ERRORS = {2000: "#NULL!", 2007: "#DIV/0!", 2015: "#VALUE!", 2023: "#REF!", 2029: "#NAME?",
+             2036: "#NUM!", 2042: "#N/A", 2043: "#GETTING_DATA", 2045: "#SPILL!",
+             2046: "#CONNECT!", 2047: "#BLOCKED!", 2048: "#UNKNOWN!", 2049: "#FIELD!",
+             2050: "#CALC!"}
+_COM_ERROR_BASE = 0x800A0000 - 2**32          # the HRESULT as the signed int pywin32 gives
+
+
+def com_error(v):
+    """The error text of an Excel error value handed over by COM as an int, else None; an error
+    number not in :data:`CV_ERRORS` reads as ``#UNKNOWN!`` (an error, never a number).
+
+    >>> com_error(-2146826246), com_error(-2146826243), com_error(-2146826200), com_error(7)
+    ('#N/A', '#SPILL!', '#UNKNOWN!', None)
+    """
+    if type(v) is int and 2000 <= v - _COM_ERROR_BASE < 3000:
+        return CV_ERRORS.get(v - _COM_ERROR_BASE, "#UNKNOWN!")
+    return None
+
+
 #: Most characters of a user's value a message repeats (a cell holds up to 32,767).
 EXCERPT = 60
 

@@ -145,10 +145,11 @@ def _guarded(name, body, *args):
 @_excel_help
 @xw.func(category=CATEGORY)
 def PFX_ABOUT():
-    """portflux version, sign conventions and cautions (a 2-column block).
+    """portflux version, the folder it runs from, sign conventions and cautions (a 2-column
+    block).
 
-    >>> PFX_ABOUT()[1][0]
-    'portflux'
+    >>> PFX_ABOUT()[1][0], PFX_ABOUT()[2][0]
+    ('portflux', 'installed at')
 
     No equation: a listing of the version, conventions and cautions.
 

@@ -8,6 +8,7 @@ a value that has no number (an efficiency without a jet) becomes a short "n/a: .
 from __future__ import annotations
 
 import math
+import os
 
 import numpy as np
 
@@ -80,9 +81,14 @@ def _port_index(table, raw) -> int:
 
 
 # --------------------------------------------------------------------------------------------
+#: The folder of the portflux package that runs (PFX_ABOUT: which copy Excel or Calc imported).
+_PACKAGE_DIR = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+
+
 def about():
     conventions = [
         ["portflux", __version__],
+        ["installed at", _PACKAGE_DIR],
         ["module", "portflux.cells (xlwings UDF module)"],
         ["model", "steady flow, control volume moving at constant velocity (inertial frame)"],
         ["relative velocity", "w = V - V_cv at each port"],

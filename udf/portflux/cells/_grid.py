@@ -11,11 +11,12 @@ table). Excel error values arrive as their display strings ("#N/A", "#DIV/0!", .
 from __future__ import annotations
 
 import math
+from decimal import Decimal
 from itertools import chain
 
 import numpy as np
 
-from ..excel import ERROR_VALUES as EXCEL_ERRORS, is_blank, shown
+from ..excel import ERROR_VALUES as EXCEL_ERRORS, com_error, is_blank, shown
 
 _SEQUENCES = (list, tuple, np.ndarray)
 
@@ -24,9 +25,23 @@ class CellError(ValueError):
     """Bad worksheet input; the message names the argument, row and column and is shown as is."""
 
 
-def _cell(v):
-    if isinstance(v, np.generic):
-        return v.item()
+def plain_cell(v):
+    """One cell as the functions read it, hashable (the one place raw cell types are mapped).
+
+    A currency- or accounting-formatted cell reaches Python from Excel as a ``Decimal`` (COM's
+    Currency type, four decimals): it is the number it shows, converted exactly (the nearest
+    float). An error value COM hands over as an int becomes its text. Dates stay dates (the
+    readers refuse them where a number is expected; see DEVELOPERS.md).
+
+    >>> plain_cell(Decimal("998.0000")), plain_cell(-2146826243), plain_cell(np.float64(-0.0))
+    (998.0, '#SPILL!', 0.0)
+    """
+    if isinstance(v, Decimal):
+        v = math.nan if v.is_snan() else float(v)
+    elif type(v) is int:
+        return com_error(v) or v
+    elif isinstance(v, np.generic):
+        v = v.item()
     if isinstance(v, float) and v == 0.0:
         return 0.0  # -0.0 and 0.0 give one cache key
     try:
@@ -38,8 +53,9 @@ def _cell(v):
 
 #: Cell types a bridge hands over that are already their own cache key (-0.0 aside). Rows of
 #: such cells are frozen at C speed (one set of types per range, one ``in`` per row); other
-#: cells (numpy scalars, unhashable objects) take :func:`_cell` one by one.
-_PLAIN = frozenset((float, str, int, bool, type(None)))
+#: cells (ints, which may be Excel error codes; Decimal; numpy scalars; unhashable objects)
+#: take :func:`plain_cell` one by one.
+_PLAIN = frozenset((float, str, bool, type(None)))
 
 
 def _zeros(r):
@@ -103,14 +119,15 @@ def freeze(value):
     if isinstance(value, np.ndarray):
         value = value.tolist()
     if not isinstance(value, _SEQUENCES):
-        return _cell(value)
+        return plain_cell(value)
     if not any(isinstance(r, _SEQUENCES) for r in value):
-        return _tag((tuple(_cell(c) for c in value),))
+        return _tag((tuple(plain_cell(c) for c in value),))
     out = []
     for r in value:
         if isinstance(r, np.ndarray):
             r = r.tolist()
-        out.append(tuple(_cell(c) for c in r) if isinstance(r, _SEQUENCES) else (_cell(r),))
+        out.append(tuple(plain_cell(c) for c in r) if isinstance(r, _SEQUENCES)
+                   else (plain_cell(r),))
     return _tag(tuple(out))
 
 

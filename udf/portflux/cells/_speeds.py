@@ -25,12 +25,12 @@ from ..core.model import JET_NA, NA_NO_JET
 from ..excel import shown
 from ..problem import shaft_torque, speed_factor, speed_kind
 from ._functions import cell_value
-from ._grid import (CellError, describe, error_value, freeze, is_blank, is_number, number, rows,
-                    scalar_text, trim)
+from ._grid import (CellError, describe, error_value, freeze, is_blank, is_number, number,
+                    plain_cell, rows, scalar_text, trim)
 from ._inputs import render, setup, unit_system
 
 _SEQ = (list, tuple)
-_FAST_TYPES = {float, int, type(None)}
+_FAST_TYPES = {float, type(None)}     # ints may be Excel error codes: plain_cell
 
 #: Columns of PFX_SPEEDTABLE: (header, quantity kind) after the speed column.
 TABLE_COLUMNS = (
@@ -95,6 +95,7 @@ def _slow_numbers(cells, start, word):
     """Numbers of ``cells[start:]`` (NaN for blanks), checking each cell; names a bad one."""
     out = []
     for k, c in enumerate(cells[start:], start + 1):
+        c = c if type(c) is float else plain_cell(c)
         if type(c) is float or (is_number(c) and not isinstance(c, bool)):
             out.append(float(c))
         elif is_blank(c):

@@ -19,15 +19,26 @@ rectangular tuple of row tuples (a scalar as a 1 x 1 block): the add-in's method
 from __future__ import annotations
 
 import numbers
+from itertools import chain
 
 from ...excel import is_blank
 
 
+def _blanks_to_none(row):
+    return tuple(None if is_blank(c) else c for c in row) if isinstance(row, tuple) \
+        else (None if is_blank(row) else row)
+
+
 def from_calc(value):
-    """One argument as Calc hands it -> as the worksheet functions take it."""
+    """One argument as Calc hands it -> as the worksheet functions take it.
+
+    Only rows holding text can hold a blank (''): rows of numbers are passed on as they are,
+    so a column of 10^4 speeds costs one type test per row (benchmark 6).
+    """
     if isinstance(value, tuple):
-        return tuple(tuple(None if is_blank(c) else c for c in row) if isinstance(row, tuple)
-                     else (None if is_blank(row) else row) for row in value)
+        return tuple(_blanks_to_none(row) if str in map(type, row) else row
+                     for row in value) if str in map(type, chain.from_iterable(value)) \
+            else value
     return None if is_blank(value) else value
 
 
@@ -41,8 +52,19 @@ def _cell(v):
     return str(v)
 
 
+#: Cell types Calc takes as they are (a bool is a subclass of int, not of float: kept).
+_AS_IS = frozenset((float, str, bool))
+
+
 def to_calc(result):
-    """A worksheet function's result -> a rectangular tuple of row tuples."""
+    """A worksheet function's result -> a rectangular tuple of row tuples.
+
+    A block of equal rows of floats, texts and booleans (every speed table) is converted with
+    C-level calls only; anything else cell by cell."""
+    if isinstance(result, list) and result and set(map(type, result)) == {list} \
+            and len(set(map(len, result))) == 1 and result[0] \
+            and _AS_IS.issuperset(set(map(type, chain.from_iterable(result)))):
+        return tuple(map(tuple, result))
     if isinstance(result, (list, tuple)):
         rows = [r if isinstance(r, (list, tuple)) else [r] for r in result]
         if not rows:

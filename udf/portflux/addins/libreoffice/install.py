@@ -1,12 +1,23 @@
 """``portflux libreoffice build | install | uninstall``.
 
-``install`` builds the add-in with the site-packages folders of the Python running it recorded
-in the package (so LibreOffice's Python imports *this* portflux and numpy), installs it with
-LibreOffice's ``unopkg`` (for every user with ``--shared``, which ``unopkg`` requires when run
-as root), then checks it in a private headless LibreOffice: ``=PFX_ABOUT()`` must show
-portflux's version, else the message the cell shows is printed and the command fails.
-LibreOffice's Python must be the same Python version as the one running the command (on Debian
-both are the system python3: make the virtual environment with ``/usr/bin/python3 -m venv``).
+``install`` builds the add-in with the site-packages folders of the Python running it and the
+folder portflux was imported from recorded in the package (so LibreOffice's Python imports
+*this* portflux and numpy), checks it by computing ``=PFX_ABOUT()`` in LibreOffice, and
+installs it:
+
+* for the current user (the default): with LibreOffice's ``unopkg``, which refuses to run as
+  root without ``--shared``; as root, the extension manager installs it into root's own user
+  profile instead (as ``--profile`` does, with the default profile folder);
+* ``--profile DIR``: into the LibreOffice user profile in DIR (what ``soffice
+  -env:UserInstallation=file:///DIR`` uses; created if absent), through LibreOffice's extension
+  manager in a headless LibreOffice running on that profile -- for any user, root too; the
+  check runs in that same LibreOffice, on the installed copy;
+* ``--shared``: for all users (``unopkg --shared``).
+
+The check must show this portflux's version and folder, else the message the cell shows is
+printed and the command fails. LibreOffice's Python must be the same Python version as the one
+running the command (on Debian both are the system python3: make the virtual environment with
+``/usr/bin/python3 -m venv``).
 """
 
 from __future__ import annotations
@@ -47,10 +58,53 @@ def _run_unopkg(args, timeout=300):
     return text
 
 
-def _shared(shared):
-    """unopkg refuses to run as root without --shared (the extension is then for all users)."""
-    is_root = hasattr(os, "geteuid") and os.geteuid() == 0
-    return bool(shared or is_root)
+def _is_root():
+    return hasattr(os, "geteuid") and os.geteuid() == 0
+
+
+def default_profile() -> str:
+    """This user's LibreOffice profile folder (LibreOffice's default UserInstallation:
+    $XDG_CONFIG_HOME/libreoffice/4 on Linux, %APPDATA%\\LibreOffice\\4 on Windows,
+    ~/Library/Application Support/LibreOffice/4 on macOS; from memory)."""
+    if sys.platform.startswith("win"):
+        base = os.environ.get("APPDATA") or os.path.expanduser("~")
+        return os.path.join(base, "LibreOffice", "4")
+    if sys.platform == "darwin":
+        return os.path.expanduser("~/Library/Application Support/LibreOffice/4")
+    base = os.environ.get("XDG_CONFIG_HOME") or os.path.expanduser("~/.config")
+    return os.path.join(base, "libreoffice", "4")
+
+
+def _where(args):
+    """("shared", None), ("unopkg", None) or ("profile", folder): where to install."""
+    profile = getattr(args, "profile", None)
+    if profile and args.shared:
+        from .office import OfficeError
+        raise OfficeError("--profile and --shared exclude each other: a profile is one user's")
+    if args.shared:
+        return "shared", None
+    if profile:
+        return "profile", os.path.abspath(os.path.expanduser(profile))
+    if _is_root():                     # unopkg refuses a per-user install as root
+        return "profile", default_profile()
+    return "unopkg", None
+
+
+def _about(office):
+    """(version cell, folder cell) of ``=PFX_ABOUT()`` in a running office, or the message a
+    cell shows and ''."""
+    doc = office.new_sheet()
+    try:
+        sheet = doc.Sheets.getByIndex(0)
+        sheet.getCellRangeByName("A1:B3").setArrayFormula("=PFX_ABOUT()")
+        doc.calculateAll()
+        first = sheet.getCellRangeByName("A1").getString()
+        if first != "item":
+            return first, ""
+        return (sheet.getCellRangeByName("B2").getString(),
+                sheet.getCellRangeByName("B3").getString())
+    finally:
+        doc.close(True)
 
 
 def verify(oxt_path, timeout=120.0) -> str:
@@ -59,15 +113,51 @@ def verify(oxt_path, timeout=120.0) -> str:
     from .office import HeadlessOffice
 
     with HeadlessOffice(oxt_path, timeout=timeout) as office:
-        doc = office.new_sheet()
+        return _about(office)[0]
+
+
+def _profile_office(folder, oxt_path=None, timeout=120.0):
+    """A headless LibreOffice on the user profile in ``folder`` (refused while a LibreOffice
+    runs on it); with ``oxt_path`` the add-in is added to that profile."""
+    from .office import HeadlessOffice, OfficeError
+
+    lock = os.path.join(folder, ".lock")
+    if os.path.exists(lock):
+        raise OfficeError(f"LibreOffice is running with the profile {folder} ({lock} exists); "
+                          f"close it and run this again (if no LibreOffice runs, delete the "
+                          f".lock file)")
+    office = HeadlessOffice(oxt_path, timeout=timeout)
+    office.profile = folder          # kept: only the office's own temporary folder is deleted
+    return office
+
+
+def install_in_profile(oxt_path, folder, timeout=120.0):
+    """Add the package to the profile in ``folder`` and compute ``=PFX_ABOUT()`` there:
+    (version cell, folder cell)."""
+    os.makedirs(folder, exist_ok=True)
+    with _profile_office(folder, oxt_path, timeout) as office:
+        return _about(office)
+
+
+def remove_from_profile(folder, timeout=120.0):
+    """Remove the add-in from the profile in ``folder`` (extension manager)."""
+    from .office import OfficeError
+
+    if not os.path.isdir(folder):
+        raise OfficeError(f"no LibreOffice profile in {folder}")
+    with _profile_office(folder, None, timeout) as office:
         try:
-            sheet = doc.Sheets.getByIndex(0)
-            sheet.getCellRangeByName("A1:B2").setArrayFormula("=PFX_ABOUT()")
-            doc.calculateAll()
-            first = sheet.getCellRangeByName("A1").getString()
-            return sheet.getCellRangeByName("B2").getString() if first == "item" else first
-        finally:
-            doc.close(True)
+            office.remove_extension(EXTENSION_ID, OXT_NAME)
+        except Exception as e:  # noqa: BLE001 - UNO exceptions: say what failed
+            raise OfficeError(f"the add-in could not be removed from {folder}: "
+                              f"{type(e).__name__}: {e}") from None
+
+
+def _portflux_home():
+    """The folder of the portflux package running this command (PFX_ABOUT's "installed at")."""
+    import portflux
+
+    return os.path.dirname(os.path.abspath(portflux.__file__))
 
 
 def cmd_build(args) -> int:
@@ -89,25 +179,42 @@ def cmd_install(args) -> int:
     reason = unavailable_reason()
     if reason:
         raise OfficeError(reason)
+    where, folder = _where(args)
+    home = _portflux_home()
     with tempfile.TemporaryDirectory(prefix="portflux-oxt-") as tmp:
         oxt = build_oxt(os.path.join(tmp, OXT_NAME), site_dirs_of_this_python())
-        shown = verify(oxt)
-        if shown != __version__:
-            print(f"portflux: the add-in does not work in LibreOffice; a cell shows: {shown}",
-                  file=sys.stderr)
+        if where == "profile":
+            shown, runs = install_in_profile(oxt, folder)
+        else:
+            shown, runs = verify(oxt), home
+        if shown != __version__ or os.path.realpath(runs) != os.path.realpath(home):
+            print(f"portflux: the add-in does not work in LibreOffice; a cell shows: {shown}"
+                  + (f" (portflux at {runs})" if runs else ""), file=sys.stderr)
+            if where == "profile":
+                print(f"portflux: it was added to the profile {folder}; remove it with "
+                      f"'portflux libreoffice uninstall --profile {folder}'", file=sys.stderr)
             return 1
-        shared = _shared(args.shared)
-        _run_unopkg(["add", "--force", *(["--shared"] if shared else []), oxt])
-    print(f"portflux {__version__} add-in installed in LibreOffice "
-          f"({'all users' if shared else 'this user'}); it imports portflux from "
-          f"{sys.prefix}. Restart LibreOffice, then type =PFX_ABOUT() in a cell.")
+        if where != "profile":
+            _run_unopkg(["add", "--force", *(["--shared"] if where == "shared" else []), oxt])
+    target = {"shared": "all users", "unopkg": "this user",
+              "profile": f"the profile {folder}"}[where]
+    print(f"portflux {__version__} add-in installed in LibreOffice ({target}); it runs the portflux "
+          f"at {home} (Python {sys.version_info[0]}.{sys.version_info[1]}, {sys.prefix}). "
+          + (f"Start LibreOffice with -env:UserInstallation=file://{folder} if that is not "
+             f"your default profile; " if where == "profile" else "Restart LibreOffice; ")
+          + "=PFX_ABOUT() in a cell shows the version and the folder.")
     return 0
 
 
 def cmd_uninstall(args) -> int:
-    shared = _shared(args.shared)
-    _run_unopkg(["remove", *(["--shared"] if shared else []), EXTENSION_ID])
-    print(f"portflux add-in removed from LibreOffice ({'all users' if shared else 'this user'})")
+    where, folder = _where(args)
+    if where == "profile":
+        remove_from_profile(folder)
+        print(f"portflux add-in removed from the LibreOffice profile {folder}")
+        return 0
+    _run_unopkg(["remove", *(["--shared"] if where == "shared" else []), EXTENSION_ID])
+    print(f"portflux add-in removed from LibreOffice "
+          f"({'all users' if where == 'shared' else 'this user'})")
     return 0
 
 
@@ -122,11 +229,15 @@ def add_parser(sub) -> None:
                         "Python (same version) imports portflux from here")
     b.set_defaults(func=cmd_build)
     i = s.add_parser("install", help="install the add-in for LibreOffice (using this Python's "
-                                     "portflux), then check it in a headless LibreOffice")
-    i.add_argument("--shared", action="store_true",
-                   help="for all users (always so when run as root)")
+                                     "portflux), checked by =PFX_ABOUT() in LibreOffice")
+    i.add_argument("--shared", action="store_true", help="for all users (unopkg --shared)")
+    i.add_argument("--profile", metavar="DIR",
+                   help="into the LibreOffice user profile in DIR (soffice "
+                        "-env:UserInstallation=file:///DIR), through the extension manager; "
+                        "works as root; the default as root is root's own profile")
     i.set_defaults(func=cmd_install)
     u = s.add_parser("uninstall", help="remove the add-in from LibreOffice")
-    u.add_argument("--shared", action="store_true",
-                   help="remove the all-users install (always so when run as root)")
+    u.add_argument("--shared", action="store_true", help="remove the all-users install")
+    u.add_argument("--profile", metavar="DIR",
+                   help="remove it from the LibreOffice user profile in DIR")
     u.set_defaults(func=cmd_uninstall)

@@ -239,6 +239,11 @@ class HeadlessOffice:
         em = self.ctx.getValueByName("/singletons/com.sun.star.deployment.ExtensionManager")
         em.addExtension(_url(self.oxt_path), (), "user", None, _approving_environment())
 
+    def remove_extension(self, identifier, file_name):
+        """Remove an extension from this office's profile ('user' repository)."""
+        em = self.ctx.getValueByName("/singletons/com.sun.star.deployment.ExtensionManager")
+        em.removeExtension(identifier, file_name, "user", None, _approving_environment())
+
     def start(self):
         """Start the office and add the extension; on any failure nothing is left running."""
         try:

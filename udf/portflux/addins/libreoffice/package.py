@@ -148,9 +148,16 @@ def site_dirs_of_this_python() -> list[str]:
 
 
 def site_record(site_dirs) -> dict:
-    """What the component reads at start-up (``portflux_site.json``)."""
+    """What the component reads at start-up (``portflux_site.json``): the folders to add, the
+    Python version, and -- for a package built with them -- the folder and version of the
+    portflux that built it, which the component puts first and checks it imported."""
+    import portflux
+
     return {"site_dirs": list(site_dirs or []),
-            "python": f"{sys.version_info[0]}.{sys.version_info[1]}" if site_dirs else None}
+            "python": f"{sys.version_info[0]}.{sys.version_info[1]}" if site_dirs else None,
+            "portflux": (os.path.dirname(os.path.dirname(os.path.abspath(portflux.__file__)))
+                         if site_dirs else None),
+            "version": portflux.__version__ if site_dirs else None}
 
 
 def build_oxt(out_path, site_dirs=None) -> str:
