@@ -47,3 +47,18 @@ def test_any_changed_number_text_unit_or_blank_changes_the_digest():
     assert base not in digests and len(digests) == len(changed)
     # cells moved between arguments are another input: the argument counts are hashed
     assert C.PFX_CHECKSUM(((1.0, 2.0),), 3.0) != C.PFX_CHECKSUM(((1.0,),), ((2.0, 3.0),))
+
+
+def test_a_currency_cell_and_spare_blank_rows_and_columns_give_the_digest_of_the_filled_block():
+    """Excel hands a currency-formatted cell as Decimal (COM's Currency, four decimals) and a
+    range selected with spare rows/columns with blank padding; both are the same inputs."""
+    from decimal import Decimal
+
+    tight = C.PFX_CHECKSUM(PORTS, ((5.0, 0.0, 0.0, "m/s"),), "SI")
+    padded = tuple(r + (None,) for r in PORTS) + ((None, None, ""),)
+    currency = PORTS[:2] + (("jet", Decimal("0.0100")),)
+    assert C.PFX_CHECKSUM(padded, ((5.0, 0.0, 0.0, "m/s", None),), "SI") == tight
+    assert C.PFX_CHECKSUM(currency, ((Decimal("5.0000"), 0.0, 0.0, "m/s"),), "SI") == tight
+    # a blank cell inside the block still counts (it is not padding)
+    assert C.PFX_CHECKSUM(PORTS[:2] + (("jet", None),), 5.0, "SI") != C.PFX_CHECKSUM(
+        PORTS[:2] + (("jet",),), 5.0, "SI")

@@ -10,7 +10,12 @@ The digest is taken over one canonical text of the cell values, so Excel (xlwing
   flat gives the same order as its rows), each as ``|b`` (blank: None or '' -- LibreOffice hands
   '' for a blank cell), ``|n<repr(float)>`` (a number; -0.0 as 0.0; TRUE and FALSE as 1.0 and
   0.0, which is how LibreOffice hands them) or ``|t<length>:<text>`` (a text, error values such
-  as ``#N/A`` included, as their display text).
+  as ``#N/A`` included, as their display text);
+- each cell is first read as every function reads it (``_grid.plain_cell``): a currency cell
+  that Excel hands over as a ``Decimal`` is the number it shows, an error code COM hands over as
+  an int is the error's text;
+- trailing blank rows and columns are left out (a range selected with spare rows gives the
+  digest of the filled block, in every bridge).
 
 A changed number, text, unit or blank changes the digest; it identifies the inputs a printed
 page was computed from (it is not a signature: anyone can recompute it).
@@ -25,27 +30,45 @@ import math
 
 import numpy as np
 
+from ._grid import plain_cell
+
 VERSION = "portflux-inputs-1"
 #: Most cells hashed in one call (a template's inputs are a few hundred): bounds the work a
 #: huge selected range can ask for.
 MAX_CELLS = 1_000_000
 
 
-def _cells(value):
-    """The cells of one argument in row-major order."""
+def _blank(v) -> bool:
+    return v is None or (isinstance(v, str) and v == "")
+
+
+def _rows(value) -> list:
+    """One argument as rows of plain cells (a flat range is one row)."""
     if isinstance(value, np.ndarray):
         value = value.tolist()
     if not isinstance(value, (list, tuple)):
-        return [value]
-    out = []
+        return [[plain_cell(value)]]
+    if not any(isinstance(r, (list, tuple, np.ndarray)) for r in value):
+        return [[plain_cell(c) for c in value]]
+    rows = []
     for row in value:
         if isinstance(row, np.ndarray):
             row = row.tolist()
-        if isinstance(row, (list, tuple)):
-            out.extend(row)
-        else:
-            out.append(row)
-    return out
+        rows.append([plain_cell(c) for c in (row if isinstance(row, (list, tuple)) else [row])])
+    return rows
+
+
+def _cells(value):
+    """The cells of one argument in row-major order, trailing blank rows and columns left out
+    (an all-blank argument is one blank cell, like an omitted one)."""
+    rows = _rows(value)
+    while len(rows) > 1 and all(_blank(c) for c in rows[-1]):
+        rows.pop()
+    width = max((len(r) for r in rows), default=0)
+    while width > 1 and all(len(r) < width or _blank(r[width - 1]) for r in rows):
+        width -= 1
+    cells = [c for r in rows for c in r[:width]]
+    return cells or [None]
 
 
 def _token(v) -> str:
