@@ -146,7 +146,7 @@ def test_a_plate_split_is_solved_at_every_speed_of_the_table():
     deg = 50.0
     th = math.radians(deg)
     plate = (("port", "role", "area", "density", "speed", "angle", "closure"),
-             (None, None, "cm^2", None, None, None, None),
+             (None, None, "cm^2", "kg/m^3", "m/s", None, None),
              ("jet", "in", 3.0, RHO, 25.0, 0.0, None),
              ("fwd", "out", None, RHO, None, deg, "solve"),
              ("back", "out", None, RHO, None, deg + 180.0, "solve"))
@@ -319,7 +319,7 @@ def test_new_functions_are_in_the_catalogue_and_the_excel_wrappers():
 def test_speeds_where_a_bernoulli_outlet_cannot_be_reached_are_marked_not_invented():
     h = 20.0
     t = (("port", "role", "area", "density", "speed", "angle", "closure", "height"),
-         (None,) * 8, ("jet", "in", 0.002, RHO, V, 0.0, None, None),
+         (None, None, "m^2", "kg/m^3", "m/s", None, None, "m"), ("jet", "in", 0.002, RHO, V, 0.0, None, None),
          ("exit", "out", 0.002, RHO, None, 150.0, "bernoulli", h))
     # the jet climbs h only while (V - U)^2 >= 2 g h (Bernoulli in the moving frame, White,
     # Fluid Mechanics, sec. 3.5; from memory)

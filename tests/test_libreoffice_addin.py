@@ -96,7 +96,7 @@ def test_adapter_turns_calc_blanks_into_none_and_results_into_rectangular_blocks
 
 # Invented vane: 2 cm^2 water jet at 40 m/s turned through 150 degrees.
 VANE_NONE = (("port", "role", "area", "density", "speed", "angle", "closure", "ry"),
-             (None, None, "cm^2", None, None, None, None, "m"),
+             (None, None, "cm^2", "kg/m^3", "m/s", None, None, "m"),
              ("jet", "in", 2.0, 998.0, 40.0, 0.0, None, 0.2),
              ("exit", "out", 2.0, 998.0, None, 150.0, "free", None),
              (None,) * 8)

@@ -165,7 +165,7 @@ def PFX_SETTINGS():
     >>> [r[0] for r in PFX_SETTINGS()[1:]]
     ['fluid_mass', 'gx', 'gy', 'gz', 'tolerance', 'intercept', 'slip_angle', 'slip_x', \
 'slip_y', 'slip_z', 'wheel_radius', 'ax', 'ay', 'az', 'ref_x', 'ref_y', 'ref_z', 'cg_x', \
-'cg_y', 'cg_z', 'dynamic_factor', 'load_factor']
+'cg_y', 'cg_z', 'dynamic_factor', 'load_factor', 'units']
 
     No equation: a listing of the settings names.
 
@@ -198,7 +198,7 @@ def PFX_RELVEL(ports, cv_velocity, port, units=None):
     units : str, optional
         Output units; velocity in m/s (SI), ft/s (US).
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "m^2", "kg/m^3", "m/s", None),
     ...      ("a", 0.01, 1000.0, 30.0, "in"))
     >>> PFX_RELVEL(t, (12.0, 0.0, 0.0), "a")    # 30 - 12 m/s (Galilean addition)
     [[18.0, 0.0, 0.0]]
@@ -228,7 +228,7 @@ def PFX_RELVELS(ports, cv_velocity, units=None, labels=False, settings=None):
     settings : range, optional
         gravity (gx, gy, gz) for a Bernoulli outlet; the other settings do not change velocities.
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "m^2", "kg/m^3", "m/s", None),
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
     >>> PFX_RELVELS(t, 12.0, "SI", True)[0]
     ['port', 'wx [m/s]', 'wy [m/s]', 'wz [m/s]']
@@ -247,7 +247,7 @@ def PFX_ABSVEL(ports, cv_velocity, units=None, labels=False, settings=None):
     Parameters as PFX_RELVELS; the header reads "Vx [unit]". A closed outlet shows w + V_cv with
     the w its closure sets.
 
-    >>> t = (("port", "frame", "area", "density", "vx", "role"), (None,) * 6,
+    >>> t = (("port", "frame", "area", "density", "vx", "role"), (None, None, "m^2", "kg/m^3", "m/s", None),
     ...      ("out", "rel", 0.01, 1000.0, 18.0, "out"))
     >>> PFX_ABSVEL(t, 12.0)                    # 18 + 12 m/s
     [[30.0, 0.0, 0.0]]
@@ -275,7 +275,7 @@ def PFX_MASSFLOWS(ports, cv_velocity, units=None, labels=False, settings=None):
     settings : range, optional
         intercept 'train' scales the flows to the nozzle's full flow (bucket wheel).
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None, "cm^2", None, None, None),
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "cm^2", "kg/m^3", "m/s", None),
     ...      ("a", 100.0, 1000.0, 30.0, "in"))
     >>> PFX_MASSFLOWS(t, 12.0)                 # -1000 * 0.01 * (30 - 12) kg/s
     [[-180.0]]
@@ -302,7 +302,7 @@ def PFX_IMBALANCE(ports, cv_velocity, tolerance=None, units=None, settings=None)
     units : str, optional
         Output units [mass flow] of the first cell.
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "m^2", "kg/m^3", "m/s", None),
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 31.0, "out"))
     >>> PFX_IMBALANCE(t, 0.0)
     [[10.0, 0.03333333333333333, 'imbalance']]
@@ -335,7 +335,7 @@ def PFX_SUPPORT(ports, cv_velocity, axis=None, units=None, settings=None):
     settings : range, optional
         fluid_mass, gravity, intercept.
 
-    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None, "m^2", "kg/m^3", "m/s", "m/s", None, None),
     ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
     ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
     >>> round(PFX_SUPPORT(t, 10.0, "x"), 6)       # -rho A (V-U)^2 for a 90 degree turn
@@ -355,7 +355,7 @@ def PFX_BODYFORCE(ports, cv_velocity, axis=None, units=None, settings=None):
     A vane turning a jet through theta while running away from it at U takes
     F_x = rho A (V - U)^2 (1 - cos theta).
 
-    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None, "m^2", "kg/m^3", "m/s", "m/s", None, None),
     ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
     ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
     >>> [round(x, 6) for x in PFX_BODYFORCE(t, 10.0)[0]]
@@ -372,7 +372,7 @@ def PFX_BODYFORCE(ports, cv_velocity, axis=None, units=None, settings=None):
 def PFX_POWER(ports, cv_velocity, units=None, settings=None):
     """Power delivered to the moving body, P = F_body . V_cv [W (SI), hp (US)].
 
-    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None, "m^2", "kg/m^3", "m/s", "m/s", None, None),
     ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
     ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
     >>> round(PFX_POWER(t, 10.0, "SI; power=kW"), 6)     # 798.4 N * 10 m/s
@@ -395,7 +395,7 @@ def PFX_SHAFTTORQUE(ports, cv_velocity, units=None, settings=None):
     rev/s (peripheral speed U = omega r along +x, or along the angle typed after the speed).
 
     >>> t = (("port", "role", "frame", "area", "density", "speed", "angle", "closure"),
-    ...      (None,) * 8, ("jet", "in", "abs", 0.002, 998.0, 30.0, 0.0, None),
+    ...      (None, None, None, "m^2", "kg/m^3", "m/s", None, None), ("jet", "in", "abs", 0.002, 998.0, 30.0, 0.0, None),
     ...      ("bucket", "out", "rel", 0.002, 998.0, None, 180.0, "free"))
     >>> s = (("intercept", "train", None), ("wheel_radius", 0.5, "m"))
     >>> round(PFX_SHAFTTORQUE(t, (0.0, "rpm"), None, s), 3)   # held wheel: 2 rho A V^2 r
@@ -421,7 +421,7 @@ def PFX_EFFICIENCY(ports, cv_velocity, kind=None, settings=None, units=None):
     units : str, optional
         "SI; ratio=%" returns percent.
 
-    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None, "m^2", "kg/m^3", "m/s", "m/s", None, None),
     ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
     ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
     >>> round(PFX_EFFICIENCY(t, 10.0), 6)   # 7984 W / (0.5 * 998 * 0.002 * 30^3 W)
@@ -463,7 +463,7 @@ def PFX_MOMENT(ports, cv_velocity, axis=None, units=None, settings=None):
     0.5 m below the jet line, so the jet's push 1000 * 0.001 * 20^2 = 400 N along +x acts on a
     lever arm of 0.5 m: M_z = -400 * 0.5 N m (clockwise seen from +z):
 
-    >>> t = (("port", "role", "area", "density", "vx", "vy", "rx", "ry"), (None,) * 8,
+    >>> t = (("port", "role", "area", "density", "vx", "vy", "rx", "ry"), (None, None, "m^2", "kg/m^3", "m/s", "m/s", "m", "m"),
     ...      ("jet", "in", 10e-4, 1000.0, 20.0, 0.0, -0.1, 0.5),
     ...      ("up", "out", 10e-4, 1000.0, 0.0, 20.0, 0.0, 0.6))
     >>> round(PFX_MOMENT(t, 0.0, "z"), 9)
@@ -485,7 +485,7 @@ def PFX_SUPPORTMOMENT(ports, cv_velocity, axis=None, units=None, settings=None):
     Equation: M_R = sum r_i x (beta_i mdot_i w_i) + sum r_i x (p_i A_i n_i) - r_G x (m g),
     positions measured from the reference point.
 
-    >>> t = (("port", "role", "area", "density", "vx", "vy", "rx", "ry"), (None,) * 8,
+    >>> t = (("port", "role", "area", "density", "vx", "vy", "rx", "ry"), (None, None, "m^2", "kg/m^3", "m/s", "m/s", "m", "m"),
     ...      ("jet", "in", 10e-4, 1000.0, 20.0, 0.0, -0.1, 0.5),
     ...      ("up", "out", 10e-4, 1000.0, 0.0, 20.0, 0.0, 0.6))
     >>> round(PFX_SUPPORTMOMENT(t, 0.0, "z"), 9)
@@ -516,7 +516,7 @@ def PFX_RESULTANT(ports, cv_velocity, quantity=None, units=None, settings=None):
     units : str, optional
         Output units [force or moment, angle].
 
-    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None, "m^2", "kg/m^3", "m/s", "m/s", None, None),
     ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
     ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
     >>> [round(x, 6) for x in PFX_RESULTANT(t, 10.0)[0]]     # 798.4 * sqrt(2) at -45 deg
@@ -538,7 +538,7 @@ def PFX_FRAMECHECK(ports, cv_velocity, units=None, settings=None):
 
     The difference equals V_cv times the mass imbalance; it vanishes when mass balances.
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "m^2", "kg/m^3", "m/s", None),
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
     >>> [r[0] for r in PFX_FRAMECHECK(t, 10.0)]
     ['quantity [N]', 'sum mdot V (absolute frame)', 'sum mdot w (relative frame)', \
@@ -558,7 +558,7 @@ def PFX_FRAMECHECK(ports, cv_velocity, units=None, settings=None):
 def PFX_WARNINGS(ports, cv_velocity, settings=None):
     """Every warning of the balance, one per row ("none" when there is none).
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "m^2", "kg/m^3", "m/s", None),
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
     >>> PFX_WARNINGS(t, 10.0)
     'none'
@@ -577,7 +577,7 @@ def PFX_SUMMARY(ports, cv_velocity, units=None, settings=None):
     """All results in two columns, "quantity [unit]" and value: CV velocity, flows, imbalance,
     status, support force and force on body (x, y, z), power, efficiencies, warnings.
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "m^2", "kg/m^3", "m/s", None),
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
     >>> dict(PFX_SUMMARY(t, 10.0)[1:])["status"]
     'ok'
@@ -617,7 +617,7 @@ def PFX_SPLIT(ports, cv_velocity, units=None, settings=None):
     (1 - cos 60)/2 backward:
 
     >>> t = (("port", "role", "area", "density", "speed", "angle", "closure"),
-    ...      (None, None, "cm^2", None, None, "deg", None),
+    ...      (None, None, "cm^2", "kg/m^3", "m/s", "deg", None),
     ...      ("jet", "in", 3.0, 998.0, 25.0, 0.0, None),
     ...      ("fwd", "out", None, 998.0, None, 60.0, "solve"),
     ...      ("back", "out", None, 998.0, None, 240.0, "solve"))
@@ -656,7 +656,7 @@ def PFX_SPEEDTABLE(ports, speeds, direction=None, units=None, settings=None):
     0, 10 and 50 m/s: F_x = rho A (V - U)^2 (1 - cos 150), zero once the vane outruns the jet:
 
     >>> t = (("port", "role", "area", "density", "speed", "angle", "closure"),
-    ...      (None, None, "cm^2", None, None, None, None),
+    ...      (None, None, "cm^2", "kg/m^3", "m/s", None, None),
     ...      ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
     ...      ("exit", "out", 2.0, 998.0, None, 150.0, "free"))
     >>> [(r[0], round(r[4], 3), r[9]) for r in PFX_SPEEDTABLE(t, (("m/s",), (0.0,), (10.0,),
@@ -692,7 +692,7 @@ def PFX_BESTSPEED(ports, low, high, direction=None, units=None, settings=None):
     The vane of PFX_SPEEDTABLE does best at one third of the jet speed:
 
     >>> t = (("port", "role", "area", "density", "speed", "angle", "closure"),
-    ...      (None, None, "cm^2", None, None, None, None),
+    ...      (None, None, "cm^2", "kg/m^3", "m/s", None, None),
     ...      ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
     ...      ("exit", "out", 2.0, 998.0, None, 150.0, "free"))
     >>> round(PFX_BESTSPEED(t, 0.0, 40.0)[1][1], 6)        # 40/3 m/s
@@ -727,7 +727,7 @@ def PFX_SPEEDATFORCE(ports, value, low, high, component=None, direction=None, un
     U = V - sqrt(100 / (rho A (1 - cos 150))):
 
     >>> t = (("port", "role", "area", "density", "speed", "angle", "closure"),
-    ...      (None, None, "cm^2", None, None, None, None),
+    ...      (None, None, "cm^2", "kg/m^3", "m/s", None, None),
     ...      ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
     ...      ("exit", "out", 2.0, 998.0, None, 150.0, "free"))
     >>> round(PFX_SPEEDATFORCE(t, 100.0, 0.0, 40.0)[1][1], 6)
@@ -767,7 +767,7 @@ def PFX_ENVELOPE(ports, low, high, direction=None, units=None, settings=None):
     largest force is at U = 0, rho A V^2 (1 - cos 150):
 
     >>> t = (("port", "role", "area", "density", "speed", "angle", "closure", "rx"),
-    ...      (None, None, "cm^2", None, None, None, None, None),
+    ...      (None, None, "cm^2", "kg/m^3", "m/s", None, None, "m"),
     ...      ("jet", "in", 2.0, 998.0, 40.0, 0.0, None, 0.0),
     ...      ("exit", "out", 2.0, 998.0, None, 150.0, "free", 0.0))
     >>> [round(x, 3) for x in PFX_ENVELOPE(t, 0.0, 30.0)[1][1:]]

@@ -1,6 +1,6 @@
 """Speed tables and optimum speeds from the worksheet: parsing the speed arguments, calling
 :mod:`portflux.core.sweep` once per call on the compiled model of
-:func:`portflux.problem.build_problem`, and building the spilled blocks.
+:func:`portflux.builder.build_problem`, and building the spilled blocks.
 
 A speed table may hold a million speeds. The range is turned into one numpy array in one call
 (a type check over the flat cells, then ``numpy.array``), the engine evaluates every speed in
@@ -23,7 +23,7 @@ from ..core import (ENVELOPE_ROWS, InputError, OutsideScopeError, best_speed, en
                     speed_at_force, speed_table)
 from ..core.model import JET_NA, NA_NO_JET
 from ..excel import shown
-from ..problem import shaft_torque, speed_factor, speed_kind
+from ..builder import shaft_torque, speed_factor, speed_kind
 from ._functions import cell_value
 from ._grid import (CellError, describe, error_value, freeze, is_blank, is_number, number, rows,
                     scalar_text, trim)

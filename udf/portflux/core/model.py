@@ -323,6 +323,12 @@ class Model:
     fluid_centroid : array_like (3,), optional
         Centroid of the fluid inside the CV (where its weight acts) [m]; needed for moments
         when ``fluid_mass`` > 0.
+    remedies : dict, optional
+        What to add for moments, in the words of the caller ("position", "fluid_centroid" ->
+        text; :func:`portflux.builder.remedies`); default the core's own words.
+    notes : sequence of str
+        Warnings found when the inputs were read (implausible values), reported with the
+        others by :meth:`Balance.warnings`.
 
     Examples
     --------
@@ -347,7 +353,7 @@ class Model:
     def __init__(self, ports: Ports, closures: Closures | None = None, *, intercept=SINGLE,
                  fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_GRAVITY),
                  tol=DEFAULT_IMBALANCE_TOL, cv_acceleration=None, reference=(0.0, 0.0, 0.0),
-                 fluid_centroid=None):
+                 fluid_centroid=None, remedies=None, notes=()):
         if cv_acceleration is not None and np.any(np.asarray(cv_acceleration, float) != 0.0):
             raise OutsideScopeError(
                 "cv_acceleration: an accelerating control volume is outside the steady "
@@ -426,7 +432,7 @@ class Model:
         self.beta_one = bool(np.all(self.beta == 1.0))
         self.loads_any = bool(np.any(self.p_total != 0.0) or np.any(self.weight != 0.0))
         self._compile_jets(ports)
-        self.static_notes = tuple(self._static_notes(closures))
+        self.static_notes = tuple(self._static_notes(closures)) + tuple(notes)
         # one declared jet with computed flow, every other port a closed outlet from it whose
         # relative speed is kept or lost (free, loss, or a Bernoulli rise), uniform flow, no
         # pressure or weight: the fluid cannot gain kinetic energy while the body gets power
@@ -436,9 +442,9 @@ class Model:
             and not self.loads_any and self.beta_one and not np.any(ports.p_gauge)
             and np.all(self.closed[others])
             and (not self.cl.size or (np.all(self.qa <= 1.0) and np.all(self.qc <= 0.0))))
-        self._compile_moments(ports, reference, fluid_centroid)
+        self._compile_moments(ports, reference, fluid_centroid, dict(remedies or {}))
 
-    def _compile_moments(self, ports, reference, centroid):
+    def _compile_moments(self, ports, reference, centroid, remedies):
         """Lever arms r_i = position_i - O and the constant moments of the port pressures and
         of the weight about O (on the fluid); what is missing for moments, if anything."""
         o = np.asarray(reference, dtype=float)
@@ -447,14 +453,15 @@ class Model:
         self.reference = o
         need = []
         if not ports.has_position:
-            need.append("the port positions: add the columns rx, ry, rz (a length unit in the "
-                        "unit row; a blank cell is 0) to the port table")
+            need.append("the port positions: " + remedies.get(
+                "position", "give each port's position (Ports.build(position=...))"))
         g = None if centroid is None else np.asarray(centroid, dtype=float)
         if g is not None and (g.shape != (3,) or not np.all(np.isfinite(g))):
             raise InputError("must be 3 finite components", argument="fluid_centroid")
         if g is None and np.any(self.weight != 0.0):
-            need.append("the centroid of the fluid inside the CV, where its weight acts: add "
-                        "the settings cg_x, cg_y, cg_z (or set fluid_mass 0)")
+            need.append("the centroid of the fluid inside the CV, where its weight acts: " +
+                        remedies.get("fluid_centroid", "give fluid_centroid= (or a fluid "
+                                                       "mass of 0)"))
         self.moment_need = "moments need " + "; and ".join(need) if need else ""
         if need:
             return

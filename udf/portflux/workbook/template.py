@@ -43,6 +43,7 @@ from openpyxl.worksheet.formula import ArrayFormula
 from openpyxl.utils import get_column_letter
 
 from .. import __version__
+from .. import schema as S, units as U
 from ..cautions import CAUTION_LINES
 from ..units import UnitSystem
 from . import cases, cases_closures
@@ -217,12 +218,12 @@ def _about(wb):
     print_setup(ws, rng(1, 1, 1, len(lines) + 4), landscape=False, fit_height=1)
 
 
-#: Default port table of the template: an invented vane on a carriage, SI units.
-CV_COLUMNS = ("port", "role", "frame", "area", "density", "speed", "angle", "tilt", "vx", "vy",
-              "vz", "nx", "ny", "nz", "p_gauge", "beta", "mass_flow", "closure", "loss", "source",
-              "share", "height", "rx", "ry", "rz")
-CV_UNITS = (None, None, None, "m^2", "kg/m^3", "m/s", "deg", "deg", "m/s", "m/s", "m/s", None,
-            None, None, "Pa", None, "kg/s", None, None, None, None, "m", "m", "m", "m")
+#: Default port table of the template: an invented vane on a carriage, SI units. Its columns
+#: (the blocks S.TEMPLATE_GROUPS, in the schema's order) and their units (each column's
+#: default unit) are derived from the schema; S.sheet_row(CV_COLUMNS, key=value, ...) writes a
+#: row by column key.
+CV_COLUMNS = S.sheet_columns(S.TEMPLATE_GROUPS)
+CV_UNITS = S.sheet_units(U.QUANTITIES, S.TEMPLATE_GROUPS)
 _BLANK = (None,) * 14
 #: The vane's ports sit 0.4 m above its mount (the support, the origin) on the jet line.
 CV_ROWS = (
