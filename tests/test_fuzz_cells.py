@@ -184,7 +184,7 @@ class Draw:
         if name == "units":
             return self.pick([None, "SI", "US", "US; force=kN", "SI; power=kW", "SI; ratio=%"]) \
                 if valid else self.grid(2, 3)
-        if name == "labels":
+        if name in ("labels", "moments"):
             return self.pick([None, True, False, 1.0, "yes"]) if valid else self.cell()
         if name == "port":
             return self.pick([1.0, 2.0, "jet", "exit", "in", "out", "a", "intake"]) \

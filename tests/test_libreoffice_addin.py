@@ -111,7 +111,7 @@ def _args(name, ports, settings, speeds):
     given = {"ports": ports, "cv_velocity": 10.0, "port": "jet", "units": "SI",
              "labels": True, "settings": settings, "tolerance": 0.001, "axis": "x",
              "kind": "jet", "speeds": speeds, "direction": 0.0, "low": 0.0, "high": 40.0,
-             "value": 100.0, "component": "along", "quantity": "moment"}
+             "value": 100.0, "component": "along", "quantity": "moment", "moments": True}
     return [given[a] for a in p]
 
 

@@ -71,6 +71,9 @@ ARG_DOCS = {
                  "magnitude.",
     "quantity": "force (the force on the body, default) or moment (the moment on the body about "
                 "the reference point).",
+    "moments": "TRUE adds the support moment and the moment on the body (x, y, z) about the "
+               "reference point to every row; needs the port positions rx, ry, rz (default "
+               "FALSE).",
 }
 
 #: Read options passed to xlwings for every argument. ``err_to_str`` makes xlwings hand over a
@@ -631,13 +634,16 @@ def PFX_SPLIT(ports, cv_velocity, units=None, settings=None):
 
 @_excel_help
 @xw.func(category=CATEGORY)
-@_documented("ports", "speeds", "direction", "units", "settings")
-def PFX_SPEEDTABLE(ports, speeds, direction=None, units=None, settings=None):
+@_documented("ports", "speeds", "direction", "units", "settings", "moments")
+def PFX_SPEEDTABLE(ports, speeds, direction=None, units=None, settings=None, moments=False):
     """Speed table (m+1 x 10): per CV speed U along the direction, support force x y z, force
     on body x y z, power, jet efficiency and contact (1 fluid reaches the body, 0 outrun).
 
     The closures are re-applied at every speed; all speeds are evaluated at once (vectorised).
-    A blank cell among the speeds gives a blank output row.
+    A blank cell among the speeds gives a blank output row. Speeds typed in rpm (with
+    wheel_radius) add the shaft torque (11th column); moments TRUE adds six columns, the
+    support moment and the moment on the body x, y, z about the reference point (the same
+    table as the API's speed_table(..., moments=True)).
 
     Parameters
     ----------
@@ -650,7 +656,9 @@ def PFX_SPEEDTABLE(ports, speeds, direction=None, units=None, settings=None):
     units : str, optional
         Output units [velocity, force, power, ratio].
     settings : range, optional
-        intercept, slip directions, fluid_mass, gravity.
+        intercept, slip directions, fluid_mass, gravity; ref_x, ref_y, ref_z for moments.
+    moments : bool, optional
+        TRUE: add the moment columns [moment] (needs rx, ry, rz in the port table).
 
     A 2 cm^2, 40 m/s water jet on a vane turning it through 150 degrees, the vane running at
     0, 10 and 50 m/s: F_x = rho A (V - U)^2 (1 - cos 150), zero once the vane outruns the jet:
@@ -665,7 +673,8 @@ def PFX_SPEEDTABLE(ports, speeds, direction=None, units=None, settings=None):
 
     Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
-    return _guarded("PFX_SPEEDTABLE", S.speedtable, ports, speeds, direction, units, settings)
+    return _guarded("PFX_SPEEDTABLE", S.speedtable, ports, speeds, direction, units, settings,
+                    moments)
 
 
 @_excel_help
