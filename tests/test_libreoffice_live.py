@@ -27,7 +27,8 @@ RANGES = {"ports": "$A$1:$H$6", "settings": "$I$1:$K$4", "speeds": "$M$1:$M$5",
           "cv_velocity": "$O$1:$R$1"}
 COMMON = {"labels": ("TRUE()", 1.0), "tolerance": ("0.002", 0.002), "kind": ('"jet"', "jet"),
           "direction": ("0", 0.0), "low": ("0", 0.0), "high": ("40", 40.0),
-          "component": ('"along"', "along"), "quantity": ('"moment"', "moment")}
+          "component": ('"along"', "along"), "quantity": ('"moment"', "moment"),
+          "moments": ("FALSE()", 0.0)}
 
 SCENARIOS = {
     # Invented vane: 2 cm^2 water jet at 40 m/s turned through 150 degrees, SI, kN out.

@@ -29,6 +29,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import lru_cache
 from itertools import chain
 
 import numpy as np
@@ -597,6 +598,9 @@ def _nan_zero(a):
 
 #: Cell types read as numbers (or blank, None) without a check per cell.
 _NUMERIC = frozenset((float, int, type(None)))
+#: Cell types of a text column read without a check per cell (blank: None).
+_TEXT_CELLS = frozenset((str, type(None)))
+_ERROR_WORDS = frozenset(ERROR_VALUES)
 
 _FRAMES = {"": False, "abs": False, "absolute": False, "fixed": False,
            "rel": True, "relative": True, "moving": True}
@@ -626,8 +630,19 @@ class _Table:
         return self.si.get(key, self._blank)
 
     def words(self, key) -> list:
+        """The stripped texts of a text column ("" blank; all "" when absent)."""
         vals = self.cells.get(key)
-        return [""] * self.n if vals is None else [text(v, i, key) for i, v in enumerate(vals)]
+        if vals is None:
+            return [""] * self.n
+        if set(map(type, vals)) <= _TEXT_CELLS:             # plain texts and blanks
+            out = ["" if v is None else v.strip() for v in vals]
+            if not _ERROR_WORDS.intersection(map(str.upper, out)):
+                return out
+        return [text(v, i, key) for i, v in enumerate(vals)]
+
+    def rows(self, keys) -> np.ndarray:
+        """(n, len(keys)) of numeric columns (NaN where blank or absent)."""
+        return np.stack([self.num(k) for k in keys], axis=1)
 
     def typed(self, i, key) -> str:
         """The cell as typed, with its unit: "-0.02 ft^2"."""
@@ -656,9 +671,22 @@ def in_user_units(e: InputError, t) -> InputError:
 def _factors(t: _Table) -> dict:
     """Unit -> SI factor of each numeric column of the table (a unit given for a column the
     table lacks is checked too); a text column takes no unit."""
+    keys = tuple(t.cells) + tuple(k for k in t.units if k not in t.cells)
+    units = tuple(t.units.get(k) for k in keys)
+    try:
+        found = _unit_factors(keys, units)
+    except TypeError:                     # an unhashable unit (not text): say so below
+        found = _unit_factors.__wrapped__(keys, units)
+    return {k: f for k, f in found.items() if k in t.cells}
+
+
+@lru_cache(maxsize=512)
+def _unit_factors(keys: tuple, units: tuple) -> dict:
+    """Factors of the numeric columns ``keys`` typed in ``units`` (resolved once per distinct
+    layout: a sheet's many functions and its edited numbers share one unit row)."""
     factors = {}
-    for key in list(t.cells) + [k for k in t.units if k not in t.cells]:
-        kind, unit = COLUMNS[key].kind, t.units.get(key)
+    for key, unit in zip(keys, units):
+        kind = COLUMNS[key].kind
         if kind is None:
             if not is_blank(unit):
                 raise InputError(f"is a text column and takes no unit (got {shown(unit)})",
@@ -667,13 +695,11 @@ def _factors(t: _Table) -> dict:
         try:
             if kind == "temperature":        # an offset unit: converted in _fluid_density
                 U.to_kelvin(0.0, unit)
-                f = 1.0
+                factors[key] = 1.0
             else:
-                f = U.factor(unit, kind)
+                factors[key] = U.factor(unit, kind)
         except InputError as e:
             raise InputError(e.message, field=f"{key} unit") from None
-        if key in t.cells:
-            factors[key] = f
     return factors
 
 
@@ -714,14 +740,25 @@ def _require_units(t: _Table):
 
 
 def _check_bounds(t: _Table):
-    """Every declared :class:`~portflux.schema.Bound` of the columns present, on SI values."""
+    """Every declared :class:`~portflux.schema.Bound` of the columns present, on SI values:
+    one pass over the columns that have one, the first failing cell named."""
     for key, a in t.si.items():
         check = COLUMNS[key].check
-        if check is not None:
-            ok = check.holds(a)
-            if not ok.all():
-                i = int(np.flatnonzero(~ok)[0])
-                raise InputError(bound_message(check, t.typed(i, key)), port=i, field=key)
+        if check is not None and not _within(a, check):
+            i = int(np.flatnonzero(~check.holds(a))[0])
+            raise InputError(bound_message(check, t.typed(i, key)), port=i, field=key)
+
+
+def _within(a, check: S.Bound) -> bool:
+    """True when every finite value of ``a`` meets ``check`` (NaN, a blank, passes): the
+    fast test; :meth:`~portflux.schema.Bound.holds` finds the cell when it fails."""
+    lo, hi = check.low, check.high
+    with np.errstate(invalid="ignore"):
+        if lo is not None and ((a <= lo) if check.low_open else (a < lo)).any():
+            return False
+        if hi is not None and ((a >= hi) if check.high_open else (a > hi)).any():
+            return False
+    return True
 
 
 def _read(table: dict, units: dict | None, headers, si: bool) -> _Table:
@@ -768,10 +805,10 @@ def _closed_rules(t: _Table, closed, kinds, frame_words, frames, has_s):
                              f"it blank (got {shown(frame_words[i])})", port=i, field="frame")
 
 
-def _velocity(t: _Table, speed, closed, kinds, frame_words, frames) -> np.ndarray:
-    """Each port's velocity as typed [m/s] (n, 3): components, or speed along angle and tilt
-    (a closed outlet: a unit vector along its direction)."""
-    comps = np.stack([t.num(k) for k in S.VECTORS["velocity"]], axis=1)
+def _velocity(t: _Table, comps, speed, closed, kinds, frame_words, frames) -> tuple:
+    """Each port's velocity as typed [m/s] (n, 3): components ``comps`` (n, 3; NaN blank),
+    or speed along angle and tilt (a closed outlet: a unit vector along its direction); and
+    which rows gave components and which an angle or tilt."""
     angle, tilt = t.num("angle"), t.num("tilt")
     has_c = ~np.isnan(comps).all(axis=1)
     has_s = ~np.isnan(speed)
@@ -784,10 +821,12 @@ def _velocity(t: _Table, speed, closed, kinds, frame_words, frames) -> np.ndarra
             raise InputError("angle or tilt is given with components vx, vy, vz but no speed; "
                              "give one form: components, or speed with angle and tilt",
                              port=i, field="angle")
+    comps = np.where(np.isnan(comps), 0.0, comps)
+    if not (has_s.any() or has_a.any()):                 # components only
+        return comps, has_c, has_a
     unit_dir = closed & has_a & ~has_c        # a closed outlet's direction from its angle
     polar = polar_velocity(np.where(has_s, speed, np.where(unit_dir, 1.0, 0.0)),
                            _nan_zero(angle), _nan_zero(tilt))
-    comps = np.where(np.isnan(comps) & has_c[:, None], 0.0, comps)
     for i in _where(has_c & has_s):
         scale = max(np.linalg.norm(comps[i]), np.linalg.norm(polar[i]), 1e-300)
         if np.linalg.norm(comps[i] - polar[i]) > 1e-6 * scale:
@@ -800,7 +839,7 @@ def _velocity(t: _Table, speed, closed, kinds, frame_words, frames) -> np.ndarra
 def _given_flow(t: _Table, density, roles) -> np.ndarray:
     """Given mass flows [kg/s] (NaN computed), volume flows times the density included."""
     mass_flow, qv = t.num("mass_flow"), t.num("volume_flow")
-    if np.isnan(qv).all():
+    if "volume_flow" not in t.si or np.isnan(qv).all():
         return mass_flow
     mass_flow = mass_flow.copy()
     for i in _where(~np.isnan(qv)):
@@ -822,9 +861,10 @@ def _vector(t: _Table, group, *, optional=False):
     keys = S.VECTORS[group]
     if optional and not any(k in t.cells for k in keys):
         return None
-    v = np.stack([t.num(k) for k in keys], axis=1)
-    some = ~np.isnan(v).all(axis=1) if not optional else np.ones(t.n, bool)
-    return np.where(np.isnan(v) & some[:, None], 0.0, v)
+    v = t.rows(keys)
+    if optional:
+        return np.where(np.isnan(v), 0.0, v)
+    return np.where(np.isnan(v) & ~np.isnan(v).all(axis=1)[:, None], 0.0, v)
 
 
 def _require_velocity(mass_flow, has_c, has_s, has_a, has_n, closed, kinds):
@@ -905,9 +945,10 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
     closed = np.array([closures and c != "given" and r.lower() in ("out", "outlet")
                        for c, r in zip(kinds, roles)], dtype=bool)
     density = _fluid_density(t, t.num("density"))
-    has_c0 = ~np.isnan(np.stack([t.num(k) for k in S.VECTORS["velocity"]], axis=1)).all(axis=1)
-    speed = _nozzle_speed(t, t.num("speed"), has_c0, density, closed, kinds)
-    velocity, has_c, has_a = _velocity(t, speed, closed, kinds, frame_words, frames)
+    comps = t.rows(S.VECTORS["velocity"])
+    speed = _nozzle_speed(t, t.num("speed"), ~np.isnan(comps).all(axis=1), density, closed,
+                          kinds)
+    velocity, has_c, has_a = _velocity(t, comps, speed, closed, kinds, frame_words, frames)
     mass_flow = _given_flow(t, density, roles)
     nvec = _vector(t, "normal")
     _require_velocity(mass_flow, has_c, ~np.isnan(speed), has_a,
@@ -942,16 +983,14 @@ def _notes(t: _Table, density, velocity, area, mass_flow) -> tuple:
         if key not in t.cells:
             continue
         lo, hi = COLUMNS[key].plausible
-        with np.errstate(invalid="ignore"):
-            odd = ~np.isnan(a) & ((np.abs(a) < lo) | (np.abs(a) > hi))
-        for i in _where(odd):
+        size = np.abs(a)                  # NaN (blank) compares False: never odd
+        for i in _where((size < lo) | (size > hi)):
             out.append((i, key, f"{t.typed(i, key)} is {abs(a[i]):.4g} {unit}, outside "
                                 f"{lo:,.4g} to {hi:,.4g} {unit} for {what} (common practice); "
                                 f"check the value and its unit cell"))
-    speed = np.sqrt((velocity * velocity).sum(axis=1))
-    with np.errstate(invalid="ignore"):
-        fast = (density >= S.LIQUID_DENSITY) & (speed > S.LIQUID_JET_SPEED)
-    for i in _where(fast):
+    speed2 = (velocity * velocity).sum(axis=1)
+    for i in _where((density >= S.LIQUID_DENSITY) & (speed2 > S.LIQUID_JET_SPEED ** 2)):
+        speed = np.sqrt(speed2)
         key = next((k for k in ("supply_pressure", "speed", "vx", "vy", "vz")
                     if not np.isnan(t.num(k)[i])), "speed")
         out.append((i, key, f"a liquid (density {density[i]:.4g} kg/m^3) at {speed[i]:.4g} "
@@ -964,6 +1003,8 @@ def _notes(t: _Table, density, velocity, area, mass_flow) -> tuple:
 def _fluid_density(t: _Table, density):
     """Densities [kg/m^3] with those of named fluids filled in (fluid, temperature and absolute
     pressure; the property library is imported only when a row names a fluid)."""
+    if not any(k in t.si or k in t.cells for k in ("fluid", "temperature", "abs_pressure")):
+        return density
     names = t.words("fluid") if "fluid" in t.cells else None
     temp = t.num("temperature")
     has_f = np.array([bool(x) for x in names]) if names else np.zeros(t.n, dtype=bool)
@@ -1001,6 +1042,8 @@ def _fluid_density(t: _Table, density):
 
 def _nozzle_speed(t: _Table, speed, has_c, density, closed, kinds):
     """Speeds with the jets given by supply_pressure (and velocity_coef) filled in [m/s]."""
+    if "supply_pressure" not in t.si and "velocity_coef" not in t.si:
+        return speed
     ps, cv = t.num("supply_pressure"), t.num("velocity_coef")
     has_p = ~np.isnan(ps)
     for i in _where(~np.isnan(cv) & ~has_p):
@@ -1029,6 +1072,8 @@ def _nozzle_area(t: _Table):
     """Port areas [m^2] from area or diameter (checked against each other), times the
     contraction coefficient where one is given."""
     area, d, cc = t.num("area"), t.num("diameter"), t.num("contraction_coef")
+    if "diameter" not in t.si and "contraction_coef" not in t.si:
+        return area
     if not np.isnan(d).all():
         by_d = math.pi / 4.0 * d * d
         for i in _where(~np.isnan(d) & ~np.isnan(area)):

@@ -34,7 +34,7 @@ from .. import units as U
 from ..builder import PortTable, Problem, Settings
 from ..core import Balance, ClosedBalance, InputError, OutsideScopeError, polar_velocity
 from ..excel import bounded_message
-from ._memo import memory_lru
+from ._memo import MISSING, MemoryLRU, memory_lru
 from ._grid import (CellError, blank_row, describe, error_value, freeze, is_blank, is_number, number,
                     one_cell, rows, trim)
 
@@ -550,12 +550,30 @@ def evaluate_closed(ports, cv, settings_raw=None, tol=None, *, kinematic=False
     return value
 
 
-@memory_lru(256)
+#: Compiled problems by (parsed table, settings key, tolerance, kinematic). The table is the
+#: cached object itself (compared by identity), so its size is charged to the table cache;
+#: a model is charged an estimate from its port count (about forty float rows per port, and
+#: the closures' and the settings' few arrays): walking it would cost more than compiling.
+_COMPILED = MemoryLRU(256)
+_MODEL_BYTES_PER_PORT = 400
+
+
 def _compile(t: PortTable, skey, tol, kinematic):
+    key = (t, skey, tol, kinematic)
+    hit = _COMPILED.get(key)
+    if hit is not MISSING:
+        return hit
     try:
-        return True, _problem(t, _settings(skey), tol, kinematic)
+        value = True, _problem(t, _settings(skey), tol, kinematic)
     except CellError as e:
-        return False, str(e)
+        value = False, str(e)
+    _COMPILED.put(key, value, 16384 + _MODEL_BYTES_PER_PORT * t.n)
+    return value
+
+
+_compile.cache_clear = _COMPILED.clear
+_compile.cache_info = _COMPILED.info
+_compile.cache = _COMPILED
 
 
 def _compiled(t: PortTable, skey, tol=None, kinematic=False) -> Problem:
