@@ -935,24 +935,13 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
     (('given', 'solve', 'solve'), [0.766, 0.6428, 0.0])
     """
     t = _read(table, units, headers, si)
-    names = _labels(t)
-    roles = t.words("role")
-    frame_words, frames = _choice(t, "frame", _FRAMES, "'abs' or 'rel'")
-    _, kinds = _choice(t, "closure", _CLOSURES,
-                       "one of given, free, loss, bernoulli, solve")
+    names, roles, frame_words, frames, kinds = _words_of(t)
     _check_bounds(t)
     # closed outlets read their direction only (an inlet with a closure is refused later)
     closed = np.array([closures and c != "given" and r.lower() in ("out", "outlet")
                        for c, r in zip(kinds, roles)], dtype=bool)
     density = _fluid_density(t, t.num("density"))
-    comps = t.rows(S.VECTORS["velocity"])
-    speed = _nozzle_speed(t, t.num("speed"), ~np.isnan(comps).all(axis=1), density, closed,
-                          kinds)
-    velocity, has_c, has_a = _velocity(t, comps, speed, closed, kinds, frame_words, frames)
-    mass_flow = _given_flow(t, density, roles)
-    nvec = _vector(t, "normal")
-    _require_velocity(mass_flow, has_c, ~np.isnan(speed), has_a,
-                      ~np.isnan(nvec).all(axis=1), closed, kinds)
+    velocity, mass_flow, nvec = _motion(t, density, roles, closed, kinds, frame_words, frames)
     area = _nozzle_area(t)
     share = t.num("share")
     # a closed outlet without area or mass flow gets its flow from continuity (solved)
@@ -970,6 +959,29 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
                      units={k: t.units.get(k) for k in t.cells},
                      flow_by_closure=np.zeros(t.n, dtype=bool) if flow_set is None else flow_set,
                      headers=t.headers, notes=_notes(t, density, velocity, area, mass_flow))
+
+
+def _words_of(t: _Table) -> tuple:
+    """The text columns read: (labels, roles, frame words, frames, closure rules)."""
+    names = _labels(t)
+    roles = t.words("role")
+    frame_words, frames = _choice(t, "frame", _FRAMES, "'abs' or 'rel'")
+    _, kinds = _choice(t, "closure", _CLOSURES, "one of given, free, loss, bernoulli, solve")
+    return names, roles, frame_words, frames, kinds
+
+
+def _motion(t: _Table, density, roles, closed, kinds, frame_words, frames) -> tuple:
+    """(velocity as typed (n, 3) [m/s], given mass flows (n,) [kg/s], normals (n, 3) [-])
+    with the rules between the velocity, flow and normal columns checked."""
+    comps = t.rows(S.VECTORS["velocity"])
+    speed = _nozzle_speed(t, t.num("speed"), ~np.isnan(comps).all(axis=1), density, closed,
+                          kinds)
+    velocity, has_c, has_a = _velocity(t, comps, speed, closed, kinds, frame_words, frames)
+    mass_flow = _given_flow(t, density, roles)
+    nvec = _vector(t, "normal")
+    _require_velocity(mass_flow, has_c, ~np.isnan(speed), has_a,
+                      ~np.isnan(nvec).all(axis=1), closed, kinds)
+    return velocity, mass_flow, nvec
 
 
 def _notes(t: _Table, density, velocity, area, mass_flow) -> tuple:

@@ -60,6 +60,20 @@ def _column(values, n, default=np.nan, blank_is_default=False):
     return a
 
 
+def _velocities_and_names(velocity, names):
+    """(n, 3) velocities (a new array) and n port labels (default "1", "2", ...)."""
+    vel = np.asarray(velocity, dtype=float)
+    if vel.ndim != 2 or vel.shape[1] != 3 or vel.shape[0] == 0:
+        raise InputError(f"expected at least one port with 3 velocity components, got shape "
+                         f"{vel.shape}", field="velocity")
+    n = vel.shape[0]
+    names = tuple(str(x) for x in names) if names is not None else tuple(
+        str(i + 1) for i in range(n))
+    if len(names) != n:
+        raise InputError(f"expected {n} names, got {len(names)}", field="name")
+    return vel.copy(), names
+
+
 def _role_codes(role, n) -> np.ndarray:
     """(n,) int8 role codes of the role words or codes (one word for all ports, or n)."""
     if role is None:
@@ -265,24 +279,15 @@ class Ports:
         >>> np.isnan(q.area).tolist()
         [False, True]
         """
-        vel = np.asarray(velocity, dtype=float)
-        if vel.ndim != 2 or vel.shape[1] != 3 or vel.shape[0] == 0:
-            raise InputError(f"expected at least one port with 3 velocity components, got shape "
-                             f"{vel.shape}", field="velocity")
+        vel, names = _velocities_and_names(velocity, names)
         n = vel.shape[0]
-        vel = vel.copy()
-        names = tuple(str(x) for x in names) if names is not None else tuple(
-            str(i + 1) for i in range(n))
-        if len(names) != n:
-            raise InputError(f"expected {n} names, got {len(names)}", field="name")
         area, density, mass_flow = (_column(x, n) for x in (area, density, mass_flow))
         beta, p_gauge, height = (_column(x, n, d, True) for x, d in ((beta, 1.0),
                                                                      (p_gauge, 0.0),
                                                                      (height, 0.0)))
-        by_closure = np.zeros(n, dtype=bool) if flow_by_closure is None else np.broadcast_to(
-            np.asarray(flow_by_closure, dtype=bool), (n,))
+        by_closure, rel = (np.broadcast_to(np.asarray(False if x is None else x, dtype=bool),
+                                           (n,)).copy() for x in (flow_by_closure, relative))
         normal = _vectors(normal, n)
-        rel = np.broadcast_to(np.asarray(relative, dtype=bool), (n,)).copy()
         roles = _role_codes(role, n)
         position = None if position is None else _positions(position, n)
         # Checked for all ports at once; the ports flagged are then checked one by one, in
@@ -292,10 +297,8 @@ class Ports:
             for i in _where(_suspects(*cols)):
                 _check_port(i, *(c[i] for c in cols[:-1]), bool(by_closure[i]))
         by_role = _resolve_normals(normal, vel, roles)
-        # Given mass flows: signed positive out.
-        declared = ~np.isnan(mass_flow) & (roles != UNKNOWN)
-        if declared.any():
-            mass_flow[declared] = roles[declared] * np.abs(mass_flow[declared])
+        declared = ~np.isnan(mass_flow) & (roles != UNKNOWN)   # given flows: signed, + out
+        mass_flow[declared] = roles[declared] * np.abs(mass_flow[declared])
         return cls(names, area, density, vel, rel, normal, roles, beta, p_gauge, mass_flow, height,
                    by_role, position)
 
