@@ -958,7 +958,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
                      source=tuple(t.words("source")), share=share,
                      units={k: t.units.get(k) for k in t.cells},
                      flow_by_closure=np.zeros(t.n, dtype=bool) if flow_set is None else flow_set,
-                     headers=t.headers, notes=_notes(t, density, velocity, area, mass_flow))
+                     headers=t.headers, notes=_notes(t, density, velocity))
 
 
 def _words_of(t: _Table) -> tuple:
@@ -984,31 +984,31 @@ def _motion(t: _Table, density, roles, closed, kinds, frame_words, frames) -> tu
     return velocity, mass_flow, nvec
 
 
-def _notes(t: _Table, density, velocity, area, mass_flow) -> tuple:
-    """Plausibility warnings (port, column, text) on the SI values of the inputs: the
-    declared ranges of :mod:`portflux.schema`, and a liquid jet faster than
-    :data:`~portflux.schema.LIQUID_JET_SPEED`. Common practice, no source."""
+def _notes(t: _Table, density, velocity) -> tuple:
+    """Plausibility warnings (port, column, text): a value outside its column's declared
+    ``plausible`` range (:mod:`portflux.schema`; compared by magnitude, shown as typed and in
+    SI), and a liquid jet faster than :data:`~portflux.schema.LIQUID_JET_SPEED`. Common
+    practice, no source."""
     out = []
-    checks = (("density", density, "kg/m^3", "a fluid"), ("area", area, "m^2", "a port"),
-              ("mass_flow", mass_flow, "kg/s", "a port's flow"))
-    for key, a, unit, what in checks:
-        if key not in t.cells:
+    for key, a in t.si.items():
+        c = COLUMNS[key]
+        if c.plausible is None:
             continue
-        lo, hi = COLUMNS[key].plausible
+        lo, hi = c.plausible
+        unit = U.QUANTITIES[c.kind].si
         size = np.abs(a)                  # NaN (blank) compares False: never odd
         for i in _where((size < lo) | (size > hi)):
-            out.append((i, key, f"{t.typed(i, key)} is {abs(a[i]):.4g} {unit}, outside "
-                                f"{lo:,.4g} to {hi:,.4g} {unit} for {what} (common practice); "
-                                f"check the value and its unit cell"))
+            out.append((i, key, f"{t.typed(i, key)} is {size[i]:.4g} {unit}, outside "
+                                f"{lo:,.4g} to {hi:,.4g} {unit} for {c.plausible_for} (common "
+                                f"practice); check the value and its unit cell"))
     speed2 = (velocity * velocity).sum(axis=1)
     for i in _where((density >= S.LIQUID_DENSITY) & (speed2 > S.LIQUID_JET_SPEED ** 2)):
-        speed = np.sqrt(speed2)
         key = next((k for k in ("supply_pressure", "speed", "vx", "vy", "vz")
                     if not np.isnan(t.num(k)[i])), "speed")
-        out.append((i, key, f"a liquid (density {density[i]:.4g} kg/m^3) at {speed[i]:.4g} "
-                            f"m/s is above {S.LIQUID_JET_SPEED:g} m/s, faster than any jet but "
-                            f"an abrasive cutter's (common practice); check the value and its "
-                            f"unit cell"))
+        out.append((i, key, f"a liquid (density {density[i]:.4g} kg/m^3) at "
+                            f"{np.sqrt(speed2[i]):.4g} m/s is above {S.LIQUID_JET_SPEED:g} m/s, "
+                            f"faster than any jet but an abrasive cutter's (common practice); "
+                            f"check the value and its unit cell"))
     return tuple(out)
 
 

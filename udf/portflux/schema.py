@@ -109,6 +109,7 @@ class Column:
     sheet_group: str = "flow"
     unit: str | None = None
     plausible: tuple | None = None
+    plausible_for: str = "a port"      #: what the plausible range is that of, for messages
     choices: tuple = ()
 
     @property
@@ -159,6 +160,8 @@ _LENGTH = "a length unit in the unit row; a blank cell is 0"
 DENSITY_PLAUSIBLE = (0.01, 25_000.0)
 AREA_PLAUSIBLE = (0.0, 100.0)
 MASS_FLOW_PLAUSIBLE = (0.0, 1e5)
+VOLUME_FLOW_PLAUSIBLE = (0.0, 100.0)       # [m^3/s]: 1e5 kg/s of water
+DIAMETER_PLAUSIBLE = (0.0, 11.3)           # [m]: a round port of 100 m^2
 #: A liquid (density at least this [kg/m^3]; common practice, no source: liquids are above
 #: about 500 kg/m^3, gases below about 300 kg/m^3 up to a few hundred bar) ...
 LIQUID_DENSITY = 400.0
@@ -179,7 +182,7 @@ COLUMNS = {c.key: c for c in (
     Column("area", "area", "flow area of the port, > 0", check=POSITIVE, sheet=3,
            sheet_group="ports", plausible=AREA_PLAUSIBLE),
     Column("density", "density", "fluid density at the port, > 0", ("rho",), check=POSITIVE,
-           sheet=4, sheet_group="ports", plausible=DENSITY_PLAUSIBLE),
+           sheet=4, sheet_group="ports", plausible=DENSITY_PLAUSIBLE, plausible_for="a fluid"),
     Column("vx", "velocity", "velocity x component (in the row's frame)",
            vector=("velocity", 0), sheet=8, sheet_group="ports"),
     Column("vy", "velocity", "velocity y component", vector=("velocity", 1), sheet=9,
@@ -206,10 +209,10 @@ COLUMNS = {c.key: c for c in (
            sheet_group="ports"),
     Column("mass_flow", "mass_flow", "given mass flow (magnitude when role is given) instead "
                                      "of density x velocity x area", ("mdot",), sheet=16,
-           sheet_group="ports", plausible=MASS_FLOW_PLAUSIBLE),
+           sheet_group="ports", plausible=MASS_FLOW_PLAUSIBLE, plausible_for="a port's flow"),
     Column("volume_flow", "volume_flow", "given volume flow (with density) instead of "
                                          "velocity x area", ("q",), sheet=25,
-           sheet_group="flow"),
+           sheet_group="flow", plausible=VOLUME_FLOW_PLAUSIBLE, plausible_for="a port's flow"),
     Column("height", "length", "height of the port against gravity (default 0), used by the "
                                "Bernoulli closure", default=0.0, ports="height", sheet=21,
            sheet_group="closure"),
@@ -235,7 +238,7 @@ COLUMNS = {c.key: c for c in (
            ports="position", sheet=24, sheet_group="position"),
     Column("diameter", "length", "nozzle (port) diameter instead of area: area = pi d^2 / 4; "
                                  "with both, they must agree within 0.5 %", ("bore",),
-           check=POSITIVE, sheet=26, sheet_group="nozzle"),
+           check=POSITIVE, sheet=26, sheet_group="nozzle", plausible=DIAMETER_PLAUSIBLE),
     Column("supply_pressure", "pressure", "gauge pressure upstream of a nozzle instead of a "
                                           "speed: jet speed = velocity_coef x sqrt(2 x "
                                           "supply_pressure / density), in the row's frame, "
@@ -523,3 +526,30 @@ def markdown_settings(quantities) -> str:
         lines.append(f"| {names} | {kind} | {default} | {api} | {_cell(text)} |")
     return "\n".join(lines)
 
+
+
+def with_tables(text: str, quantities) -> str:
+    """``text`` (README) with its two tables replaced by :func:`markdown_columns` and
+    :func:`markdown_settings` (each found by its header row, ended by a blank line)."""
+    for head, table in (("| column | aliases | quantity |", markdown_columns(quantities)),
+                        ("| name | unit kind | default |", markdown_settings(quantities))):
+        a = text.index(head)
+        b = text.index("\n\n", a)
+        text = text[:a] + table + text[b:]
+    return text
+
+
+if __name__ == "__main__":     # python -m portflux.schema README.md: regenerate its tables
+    import os
+    import sys
+    import tempfile
+
+    from . import units
+
+    path = sys.argv[1]
+    with open(path, encoding="utf-8") as f:
+        new = with_tables(f.read(), units.QUANTITIES)
+    fd, tmp = tempfile.mkstemp(dir=os.path.dirname(os.path.abspath(path)), suffix=".md")
+    with os.fdopen(fd, "w", encoding="utf-8") as f:
+        f.write(new)
+    os.replace(tmp, path)
