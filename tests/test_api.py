@@ -47,7 +47,7 @@ def test_report_names_both_forces_and_units():
 def test_bad_value_message_shows_the_typed_value_and_unit():
     with pytest.raises(InputError, match=r"port 1, area: must be > 0 \(got -0.02 ft\^2\)"):
         pf.solve([{"role": "in", "area": -0.02, "density": 1.94, "vx": 10.0}], 0.0,
-                 units={"area": "ft^2"})
+                 units="SI; area=ft^2")
 
 
 def test_conflicting_velocity_forms_are_refused():
@@ -58,7 +58,7 @@ def test_conflicting_velocity_forms_are_refused():
 def test_wrong_dimension_unit_names_the_column():
     with pytest.raises(InputError, match=r"vx unit: unit 'psi' is a pressure unit"):
         pf.solve([{"role": "in", "area": 1.0, "density": 1.0, "vx": 3.0}], 0.0,
-                 units={"vx": "psi"})
+                 units="SI; vx=psi")
 
 
 def test_closure_columns_are_applied_not_ignored():

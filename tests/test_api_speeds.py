@@ -42,7 +42,8 @@ def test_vane_train_best_speed_is_half_the_jet_speed():
 def test_best_speed_bracket_in_us_units():
     # the same optimum U = V/3 with the bracket in ft/s (NIST SP 811: 1 ft = 0.3048 m)
     r = pf.best_speed(vane(), (0.0, V / 0.3048), speed_unit="ft/s")
-    assert r.speed == pytest.approx(V / 3, rel=1e-8)
+    assert r.speed_si == pytest.approx(V / 3, rel=1e-8)
+    assert r.speed == pytest.approx(V / 3 / 0.3048, rel=1e-8)     # answered in ft/s, as typed
 
 
 def test_speed_at_force_of_a_single_vane():

@@ -36,7 +36,7 @@ def row(base=EXIT, **cells):
 
 GOOD = table(JET, EXIT)
 # A vane turning a water jet through 90 degrees; the outlet is given in the vane's frame.
-VANE = ((("port", "role", "frame", "area", "density", "vx", "vy"), (None,) * 7,
+VANE = ((("port", "role", "frame", "area", "density", "vx", "vy"), (None, None, None, "m^2", "kg/m^3", "m/s", "m/s"),
          ("in", "in", "abs", 0.002, 998.0, 30.0, 0.0), ("out", "out", "rel", 0.002, 998.0, 0.0,
                                                         20.0)))
 # A jet split by a plate into two outlets whose flows are solved (closure 'solve').
@@ -103,7 +103,7 @@ def fluid_table(unit="degC", **cells):
     """One water inlet named by its fluid and temperature, some cells replaced by column name."""
     head = ("port", "role", "area", "density", "fluid", "temperature", "vx")
     jet = dict(zip(head, ("jet", "in", 0.01, None, "water", 20.0, 10.0)), **cells)
-    return (head, (None, None, "m^2", None, None, unit, "m/s"), tuple(jet[k] for k in head))
+    return (head, (None, None, "m^2", "kg/m^3", None, unit, "m/s"), tuple(jet[k] for k in head))
 
 
 DATE = datetime.datetime(2024, 3, 1, 0, 0)   # xlwings hands a date cell over as datetime
@@ -131,13 +131,13 @@ CATALOGUE = [
      ["ports row 4: blank row inside the table (ports continue at row 5)"]),
     # ---- column names ----------------------------------------------------------------------
     ("missing required column area", P,
-     (((("port", "role", "density", "vx"), (None,) * 4, ("jet", "in", 1.94, 80.0))), 10.0),
+     (((("port", "role", "density", "vx"), (None, None, "kg/m^3", "m/s"), ("jet", "in", 1.94, 80.0))), 10.0),
      ["ports row 3, area: is required (the table has no area column)"]),
     ("missing required column density", P,
-     (((("port", "role", "area", "vx"), (None,) * 4, ("jet", "in", 0.05, 80.0))), 10.0),
+     (((("port", "role", "area", "vx"), (None, None, "m^2", "m/s"), ("jet", "in", 0.05, 80.0))), 10.0),
      ["ports row 3, density: is required (the table has no density column)"]),
     ("no velocity column", P,
-     (((("port", "role", "area", "density"), (None,) * 4, ("jet", "in", 0.05, 1.94))), 10.0),
+     (((("port", "role", "area", "density"), (None, None, "m^2", "kg/m^3"), ("jet", "in", 0.05, 1.94))), 10.0),
      ["ports row 3, velocity: velocity is required: give vx, vy, vz or speed"]),
     ("no role and no normal", P, (table(row(JET, role=None), EXIT), 10.0),
      ["ports row 3, role: is required when no normal is given ('in' or 'out')"]),
@@ -237,11 +237,12 @@ CATALOGUE = [
      ["ports row 3, normal: cannot follow a zero velocity; give the normal components"]),
     ("signed mass flow with a declared role", P,
      (table(("j", "in", -3.0, -5.0), head=("port", "role", "mass_flow", "vx"),
-            units=(None, None, "kg/s", None)), 10.0),
+            units=(None, None, "kg/s", "m/s")), 10.0),
      ["ports row 3, mass_flow: give the magnitude (>= 0) when the role is declared",
       "(got -3 kg/s)"]),
     ("mass flow and volume flow both given", P,
-     (table(JET + (1.0, 1.0), head=HEAD + ("mass_flow", "volume_flow"), units=UNITS + (None, None)),
+     (table(JET + (1.0, 1.0), head=HEAD + ("mass_flow", "volume_flow"),
+           units=UNITS + ("kg/s", "m^3/s")),
       10.0), ["ports row 3, volume_flow: give mass_flow or volume_flow, not both"]),
     ("volume flow without density", P,
      (table(("j", "in", 0.05, None, None, 1.0), head=HEAD + ("volume_flow",),

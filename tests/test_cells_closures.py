@@ -44,7 +44,7 @@ def slip(theta_deg):
 def vane(theta_deg, closure="free", loss=None, V=30.0, area=0.002):
     return (
         ("port", "role", "area", "density", "speed", "angle", "closure", "loss"),
-        (None,) * 8,
+        (None, None, "m^2", "kg/m^3", "m/s", None, None, None),
         ("jet", "in", area, RHO, V, 0.0, None, None),
         ("exit", "out", area, RHO, None, theta_deg, closure, loss),
     )
@@ -166,7 +166,7 @@ def test_bernoulli_outlet_raised_and_back_pressured_loses_its_head():
     # (White, Fluid Mechanics, sec. 3.5; from memory)
     V, U, h, p2 = 20.0, 4.0, 1.5, 12_000.0
     t = (("port", "role", "area", "density", "speed", "angle", "closure", "height", "p_gauge"),
-         (None, None, "cm^2", None, None, None, None, "m", "kPa"),
+         (None, None, "cm^2", "kg/m^3", "m/s", None, None, "m", "kPa"),
          ("jet", "in", 10.0, RHO, V, 0.0, None, 0.0, None),
          ("exit", "out", 10.0, RHO, None, 90.0, "bernoulli", h, p2 / 1000.0))
     w2 = math.sqrt((V - U) ** 2 - 2 * G * h - 2 * p2 / RHO)

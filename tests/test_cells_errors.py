@@ -31,7 +31,7 @@ def fresh_caches():
 
 @pytest.mark.parametrize("ports, expected", [
     # a missing required column
-    (((("port", "role", "density", "vx"), (None,) * 4, JET[:2] + JET[3:])),
+    (((("port", "role", "density", "vx"), (None, None, "kg/m^3", "m/s"), JET[:2] + JET[3:])),
      "ports row 3, area: is required (the table has no area column)"),
     # text in a numeric cell
     (table(JET, ("exit", "out", "abc", 1.94, 80.0)),
@@ -58,9 +58,9 @@ def fresh_caches():
     ((HEAD, UNITS), "ports: no port rows"),
     # header problems
     ((("port", "aera"), (None, None), ("a", 1.0)), "ports row 1, column 2: unknown column 'aera'"),
-    ((("port", "Area", "role", "density", "vx", "AREA"), (None,) * 6, ("a", 1, "in", 1, 1, 1)),
+    ((("port", "Area", "role", "density", "vx", "AREA"), (None, "m^2", None, "kg/m^3", "m/s", "m^2"), ("a", 1, "in", 1, 1, 1)),
      "ports row 1: columns 2 ('Area') and 6 ('AREA') both give area; keep one"),
-    ((("port", "rho", "density"), (None,) * 3, ("a", 1, 1)),
+    ((("port", "rho", "density"), (None, "kg/m^3", "kg/m^3"), ("a", 1, 1)),
      "ports row 1: columns 2 ('rho') and 3 ('density') both give density"),
     ((("port", 3.0), (None, None), ("a", 1.0)), "ports row 1, column 2: expected a column name (text), got the number 3"),
     ((HEAD + (None,), UNITS + (None,), JET + (7.0,)),
@@ -78,7 +78,7 @@ def fresh_caches():
     # a closure on an inlet, and a closed outlet that also types its speed
     ((HEAD + ("closure",), UNITS + (None,), JET + ("free",), EXIT + (None,)),
      "ports row 3, Role: closure 'free' applies to outlets; declare role 'out'"),
-    ((HEAD + ("closure", "speed"), UNITS + (None, None), JET + (None, None),
+    ((HEAD + ("closure", "speed"), UNITS + (None, "m/s"), JET + (None, None),
       EXIT[:4] + (None, "free", 80.0)),
      "ports row 4, speed: closure 'free' sets this outlet's speed from its source inlet"),
     ((HEAD + ("Role",), UNITS + (None,), JET + ("in",)),

@@ -102,6 +102,6 @@ def test_recording_leaves_the_imported_module_untouched(records, vba, imported):
     import sys
 
     assert sys.modules[MODULE] is C
-    ports = (("port", "role", "area", "density", "vx"), (None,) * 5,
+    ports = (("port", "role", "area", "density", "vx"), (None, None, "m^2", "kg/m^3", "m/s"),
              ("a", "in", 0.01, 1000.0, 20.0), ("b", "out", 0.01, 1000.0, 20.0))
     assert C.PFX_IMBALANCE(ports, 5.0) == [[0.0, 0.0, "ok"]]

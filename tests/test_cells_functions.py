@@ -126,7 +126,7 @@ def waterjet(V0, Vj, A_out, units=("m^2", "m/s")):
     a_in = A_out * Vj / V0  # continuity: rho A_in V0 = rho A_out Vj
     return (
         ("port", "role", "frame", "area", "rho", "vx"),
-        (None, None, None, units[0], None, units[1]),
+        (None, None, None, units[0], "kg/m^3", units[1]),
         ("intake", "in", "rel", a_in, 1025.0, -V0),
         ("nozzle", "out", "rel", A_out, 1025.0, -Vj),
     )
@@ -171,7 +171,7 @@ def test_psi_gauge_pressure_in_the_unit_row_uses_nist_factor():
     # A fixed nozzle (CV at rest) with 10 psi gauge at its inlet: the pressure pushes the fluid
     # along -n = +x, the support holds it back.
     t = (("port", "role", "area", "density", "vx", "p_gauge", "nx"),
-         (None, None, "in^2", None, None, "psi", None),
+         (None, None, "in^2", "kg/m^3", "m/s", "psi", None),
          ("in", "in", 2.0, 1000.0, 1e-9, 10.0, -1.0),
          ("out", "out", 2.0, 1000.0, 1e-9, 0.0, 1.0))
     fx = C.PFX_SUPPORT(t, 0.0, "x")
@@ -202,7 +202,7 @@ def test_same_table_in_si_and_us_customary_gives_same_force():
 def test_pressure_in_psi_and_pa_give_same_force():
     def table(p, unit):
         return (("port", "role", "area", "density", "vx", "p_gauge"),
-                (None, None, None, None, None, unit),
+                (None, None, "m^2", "kg/m^3", "m/s", unit),
                 ("in", "in", 0.01, 1000.0, 5.0, p), ("out", "out", 0.01, 1000.0, 5.0, 0.0))
     a = C.PFX_SUPPORT(table(25.0, "psi"), 0.0)[0]
     b = C.PFX_SUPPORT(table(25.0 * PSI_EXACT, "Pa"), 0.0)[0]
@@ -213,7 +213,7 @@ def test_pressure_in_psi_and_pa_give_same_force():
 def mixed_table():
     return (
         ("port", "role", "frame", "area", "density", "vx", "vy", "vz"),
-        (None, None, None, "cm^2", None, "m/s", "m/s", "m/s"),
+        (None, None, None, "cm^2", "kg/m^3", "m/s", "m/s", "m/s"),
         ("A", "in", "abs", 50.0, 1000.0, 25.0, 0.0, 0.0),
         ("B", "out", "rel", 30.0, 1000.0, 0.0, 12.0, 0.0),
         ("C", "out", "abs", 20.0, 1000.0, 5.0, -10.0, 2.0),

@@ -11,6 +11,7 @@ import math
 import numpy as np
 import pytest
 
+import portflux as pf
 import portflux.cells as C
 from portflux.core import Closures, Ports, speed_table
 
@@ -146,7 +147,7 @@ def test_a_plate_split_is_solved_at_every_speed_of_the_table():
     deg = 50.0
     th = math.radians(deg)
     plate = (("port", "role", "area", "density", "speed", "angle", "closure"),
-             (None, None, "cm^2", None, None, None, None),
+             (None, None, "cm^2", "kg/m^3", "m/s", None, None),
              ("jet", "in", 3.0, RHO, 25.0, 0.0, None),
              ("fwd", "out", None, RHO, None, deg, "solve"),
              ("back", "out", None, RHO, None, deg + 180.0, "solve"))
@@ -319,7 +320,7 @@ def test_new_functions_are_in_the_catalogue_and_the_excel_wrappers():
 def test_speeds_where_a_bernoulli_outlet_cannot_be_reached_are_marked_not_invented():
     h = 20.0
     t = (("port", "role", "area", "density", "speed", "angle", "closure", "height"),
-         (None,) * 8, ("jet", "in", 0.002, RHO, V, 0.0, None, None),
+         (None, None, "m^2", "kg/m^3", "m/s", None, None, "m"), ("jet", "in", 0.002, RHO, V, 0.0, None, None),
          ("exit", "out", 0.002, RHO, None, 150.0, "bernoulli", h))
     # the jet climbs h only while (V - U)^2 >= 2 g h (Bernoulli in the moving frame, White,
     # Fluid Mechanics, sec. 3.5; from memory)
@@ -330,3 +331,38 @@ def test_speeds_where_a_bernoulli_outlet_cannot_be_reached_are_marked_not_invent
     assert out[3][1:10] == [0.0] * 9                    # outrun: no contact, zeros
     note = dict(C.PFX_BESTSPEED(t, 0.0, V)[1:])["note"]
     assert "a Bernoulli outlet cannot be reached at speeds about" in note
+
+
+def test_speed_table_moment_columns_match_the_api_and_the_lever_arm():
+    # Invented vane 0.35 m above its mount, jet turned through 150 degrees: the force on the
+    # body along x acts at y = 0.35 m, so M_z = -0.35 F_x (moment of a force, r x F; common
+    # practice, no source), F_x = rho A (V - U)^2 (1 - cos 150) (White, sec. 3.4; from memory)
+    t = (("port", "role", "area", "density", "speed", "angle", "closure", "ry"),
+         (None, None, "cm^2", "kg/m^3", "m/s", "deg", None, "m"),
+         ("jet", "in", 2.0, 998.0, 40.0, 0.0, None, 0.35),
+         ("exit", "out", 2.0, 998.0, None, 150.0, "free", 0.35))
+    speeds = (("m/s",), (0.0,), (10.0,), (50.0,))
+    out = C.PFX_SPEEDTABLE(t, speeds, None, "US", None, True)
+    assert out[0][10:] == [f"{n} {c} [lbf*ft]" for n in ("support moment", "moment on body")
+                           for c in "xyz"]
+    assert len(out[1]) == 16
+    plain = C.PFX_SPEEDTABLE(t, speeds, None, "US")
+    assert [r[:10] for r in out] == plain
+    lbf, ft = 4.4482216152605, 0.3048                          # NIST SP 811, B.8
+    for row, u in zip(out[1:], (0.0, 10.0, 50.0)):
+        fx = 998.0 * 2e-4 * max(40.0 - u, 0.0) ** 2 * (1 - math.cos(math.radians(150.0)))
+        assert row[15] == pytest.approx(-0.35 * fx / (lbf * ft), rel=1e-12, abs=1e-12)
+        assert row[12] == pytest.approx(-row[15], rel=1e-12, abs=1e-12)   # support = -body
+    api = pf.speed_table([dict(zip(t[0], r)) for r in t[2:]], [0.0, 10.0, 50.0],
+                         units="SI; area=cm^2", moments=True).columns("US")
+    assert [r[15] for r in out[1:]] == pytest.approx(api["moment_on_body_z"].tolist(),
+                                                     rel=1e-12, abs=1e-12)
+
+
+def test_speed_table_moments_without_positions_say_what_to_add():
+    t = (("port", "role", "area", "density", "speed", "angle", "closure"),
+         (None, None, "cm^2", "kg/m^3", "m/s", "deg", None),
+         ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
+         ("exit", "out", 2.0, 998.0, None, 150.0, "free"))
+    msg = C.PFX_SPEEDTABLE(t, ((0.0,), (10.0,)), None, None, None, True)
+    assert msg.startswith("ports: moments need the port positions: add the columns rx, ry, rz")

@@ -17,7 +17,7 @@ import pytest
 import portflux.api
 import portflux.cells
 import portflux.core
-import portflux.problem
+import portflux.builder
 
 #: Words of a type line that make a parameter a physical quantity (needs a unit in brackets).
 NUMERIC = re.compile(r"\b(float|array_like|ndarray)\b")
@@ -28,7 +28,7 @@ def public_functions():
     out = []
     for mod, names in ((portflux.core, portflux.core.__all__),
                        (portflux.api, portflux.api.__all__),
-                       (portflux.problem, ("build", "build_problem", "closures_of",
+                       (portflux.builder, ("build", "build_problem", "closures_of",
                                            "resolve_header"))):
         for name in names:
             obj = getattr(mod, name)

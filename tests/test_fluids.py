@@ -15,7 +15,7 @@ import pytest
 
 import portflux.cells as C
 from portflux import fluids
-from portflux import problem as P
+from portflux import builder as P
 
 coolprop = pytest.importorskip("CoolProp", reason="the fluids extra (CoolProp) is not installed: "
                                                   "pip install 'portflux[fluids]'")
@@ -23,7 +23,7 @@ coolprop = pytest.importorskip("CoolProp", reason="the fluids extra (CoolProp) i
 
 def water(t_c, unit="degC"):
     return P.build({"role": ["in"], "area": [1e-3], "fluid": ["water"], "temperature": [t_c],
-                    "vx": [1.0]}, {"temperature": unit}).ports.density[0]
+                    "vx": [1.0]}, {"temperature": unit}, si=True).ports.density[0]
 
 
 @pytest.mark.parametrize("t_c, rho", [(4.0, 999.97), (20.0, 998.21), (80.0, 971.80)])
@@ -41,7 +41,7 @@ def test_temperature_units_convert_with_their_offsets():
 def test_air_density_matches_the_ideal_gas_law():
     # rho = p / (R T), R = 287.05 J/(kg K) (from memory); real air at 1 atm differs by < 0.1 %
     t = P.build({"role": ["in"], "area": [1e-3], "fluid": ["air"], "temperature": [20.0],
-                 "abs_pressure": [101.325], "vx": [1.0]}, {"abs_pressure": "kPa"})
+                 "abs_pressure": [101.325], "vx": [1.0]}, {"abs_pressure": "kPa"}, si=True)
     assert t.ports.density[0] == pytest.approx(101325.0 / (287.05 * 293.15), rel=1e-3)
 
 
@@ -49,17 +49,17 @@ def test_air_pressure_defaults_to_the_atmosphere_plus_the_gauge_pressure():
     rows = {"role": ["in", "in"], "area": [1e-3] * 2, "fluid": ["air"] * 2,
             "temperature": [15.0] * 2, "vx": [1.0] * 2, "p_gauge": [0.0, 50.0],
             "abs_pressure": [None, 151.325]}
-    d = P.build(rows, {"p_gauge": "kPa", "abs_pressure": "kPa"}).ports.density
+    d = P.build(rows, {"p_gauge": "kPa", "abs_pressure": "kPa"}, si=True).ports.density
     assert d[0] == pytest.approx(101325.0 / (287.05 * 288.15), rel=1e-3)   # ideal gas
     # a blank abs_pressure with p_gauge 50 kPa is the same state as 151.325 kPa typed
     rows["abs_pressure"] = [None, None]
-    d2 = P.build(rows, {"p_gauge": "kPa"}).ports.density
+    d2 = P.build(rows, {"p_gauge": "kPa"}, si=True).ports.density
     assert d2[1] == pytest.approx(d[1], rel=1e-12)
 
 
 def test_seawater_density_matches_the_unesco_equation_of_state():
     t = P.build({"role": ["in"], "area": [1e-3], "fluid": ["seawater"], "temperature": [20.0],
-                 "vx": [1.0]})
+                 "vx": [1.0]}, si=True)
     assert t.ports.density[0] == pytest.approx(1024.76, rel=5e-4)   # EOS-80 (from memory)
 
 
@@ -80,7 +80,7 @@ def test_a_state_outside_the_formulation_names_the_row():
 
 
 def test_importing_the_cells_does_not_import_the_property_library():
-    code = ("import sys, portflux.cells, portflux.problem, portflux.api; "
+    code = ("import sys, portflux.cells, portflux.builder, portflux.api; "
             "print('CoolProp' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          check=True).stdout.strip()

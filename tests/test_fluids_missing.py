@@ -29,6 +29,6 @@ def test_naming_a_fluid_without_the_extra_says_how_to_install_it(no_library):
 
 
 def test_a_typed_density_needs_no_library(no_library):
-    tab = (("port", "role", "area", "density", "vx"), (None,) * 5,
+    tab = (("port", "role", "area", "density", "vx"), (None, None, "m^2", "kg/m^3", "m/s"),
            ("in", "in", 0.01, 998.0, 10.0))
     assert C.PFX_MASSFLOWS(tab, 0.0)[0][0] == pytest.approx(-99.8)

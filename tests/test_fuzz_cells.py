@@ -51,10 +51,10 @@ SPECIAL = [0.0, -0.0, 1.0, -1.0, math.nan, math.inf, -math.inf, 1e308, -1e308, 1
 BASES = [
     (("port", "role", "area", "density", "vx"), (None, None, "ft^2", "slug/ft^3", "ft/s"),
      ("jet", "in", 0.05, 1.94, 80.0), ("exit", "out", 0.05, 1.94, 80.0)),
-    (("port", "role", "frame", "area", "density", "vx", "vy"), (None,) * 7,
+    (("port", "role", "frame", "area", "density", "vx", "vy"), (None, None, None, "m^2", "kg/m^3", "m/s", "m/s"),
      ("in", "in", "abs", 0.002, 998.0, 30.0, 0.0), ("out", "out", "rel", 0.002, 998.0, 0.0, 20.0)),
     (("port", "role", "area", "rho", "speed", "angle", "p_gauge", "beta"),
-     (None, None, "cm^2", None, "m/s", "deg", "kPa", None),
+     (None, None, "cm^2", "kg/m^3", "m/s", "deg", "kPa", None),
      ("a", "in", 20.0, 1000.0, 25.0, 0.0, 50.0, 1.0), ("b", "out", 10.0, 1000.0, 25.0, 135.0,
                                                        None, 1.02),
      ("c", "out", 10.0, 1000.0, 25.0, -135.0, 0.0, None)),
@@ -184,7 +184,7 @@ class Draw:
         if name == "units":
             return self.pick([None, "SI", "US", "US; force=kN", "SI; power=kW", "SI; ratio=%"]) \
                 if valid else self.grid(2, 3)
-        if name == "labels":
+        if name in ("labels", "moments"):
             return self.pick([None, True, False, 1.0, "yes"]) if valid else self.cell()
         if name == "port":
             return self.pick([1.0, 2.0, "jet", "exit", "in", "out", "a", "intake"]) \

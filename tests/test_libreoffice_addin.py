@@ -100,7 +100,7 @@ def test_adapter_turns_calc_blanks_into_none_and_results_into_rectangular_blocks
 
 # Invented vane: 2 cm^2 water jet at 40 m/s turned through 150 degrees.
 VANE_NONE = (("port", "role", "area", "density", "speed", "angle", "closure", "ry"),
-             (None, None, "cm^2", None, None, None, None, "m"),
+             (None, None, "cm^2", "kg/m^3", "m/s", None, None, "m"),
              ("jet", "in", 2.0, 998.0, 40.0, 0.0, None, 0.2),
              ("exit", "out", 2.0, 998.0, None, 150.0, "free", None),
              (None,) * 8)
@@ -115,7 +115,8 @@ def _args(name, ports, settings, speeds):
     given = {"ports": ports, "cv_velocity": 10.0, "port": "jet", "units": "SI",
              "labels": True, "settings": settings, "tolerance": 0.001, "axis": "x",
              "kind": "jet", "speeds": speeds, "direction": 0.0, "low": 0.0, "high": 40.0,
-             "value": 100.0, "component": "along", "quantity": "moment", "inputs": settings}
+             "value": 100.0, "component": "along", "quantity": "moment", "inputs": settings,
+             "moments": True}
     return [given[a] for a in p]
 
 

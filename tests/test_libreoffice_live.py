@@ -27,13 +27,14 @@ RANGES = {"ports": "$A$1:$H$6", "settings": "$I$1:$K$4", "speeds": "$M$1:$M$5",
           "cv_velocity": "$O$1:$R$1"}
 COMMON = {"labels": ("TRUE()", 1.0), "tolerance": ("0.002", 0.002), "kind": ('"jet"', "jet"),
           "direction": ("0", 0.0), "low": ("0", 0.0), "high": ("40", 40.0),
-          "component": ('"along"', "along"), "quantity": ('"moment"', "moment")}
+          "component": ('"along"', "along"), "quantity": ('"moment"', "moment"),
+          "moments": ("FALSE()", 0.0)}
 
 SCENARIOS = {
     # Invented vane: 2 cm^2 water jet at 40 m/s turned through 150 degrees, SI, kN out.
     "vane": dict(
         ports=(("port", "role", "area", "density", "speed", "angle", "closure", "ry"),
-               (None, None, "cm^2", None, None, None, None, "m"),
+               (None, None, "cm^2", "kg/m^3", "m/s", None, None, "m"),
                ("jet", "in", 2.0, 998.0, 40.0, 0.0, None, 0.3),
                ("exit", "out", 2.0, 998.0, None, 150.0, "free", 0.35),
                (None,) * 8, (None,) * 8),
@@ -159,7 +160,7 @@ def test_body_force_in_calc_equals_the_python_api(doc):
     r = api.solve([{"port": "jet", "role": "in", "area": 2.0, "density": 998.0, "speed": 40.0,
                     "angle": 0.0},
                    {"port": "exit", "role": "out", "area": 2.0, "density": 998.0,
-                    "angle": 150.0, "closure": "free"}], 10.0, units={"area": "cm^2"})
+                    "angle": 150.0, "closure": "free"}], 10.0, units="SI; area=cm^2")
     for a, b in zip(got, r.force_on_body_in("N")):
         assert same(a, float(b), rel=1e-9)
 
@@ -170,13 +171,13 @@ BAD = [
                        (None, None, "ft^2", "slug/ft^3", "ft/s"),
                        ("jet", "in", -0.02, 1.94, 80.0))),
     ("text for a number", (("port", "role", "area", "density", "vx"),
-                           (None, None, None, None, None),
+                           (None, None, "m^2", "kg/m^3", "m/s"),
                            ("jet", "in", 0.01, "heavy", 30.0))),
     ("unknown column", (("port", "role", "aera", "density", "vx"),
                         (None, None, None, None, None),
                         ("jet", "in", 0.01, 1000.0, 30.0))),
     ("blank row inside the table", (("port", "role", "area", "density", "vx"),
-                                    (None, None, None, None, None),
+                                    (None, None, "m^2", "kg/m^3", "m/s"),
                                     ("a", "in", 0.01, 1000.0, 30.0),
                                     (None,) * 5,
                                     ("b", "out", 0.01, 1000.0, 30.0))),

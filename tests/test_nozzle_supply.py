@@ -13,7 +13,7 @@ import pytest
 
 import portflux
 import portflux.cells as C
-from portflux import problem as P
+from portflux import builder as P
 
 RHO = 998.0
 
@@ -32,7 +32,7 @@ def test_jet_speed_follows_the_nozzle_relation():
     expected = cv * math.sqrt(2 * dp / RHO)
     assert P.jet_speed(dp, RHO, cv) == pytest.approx(expected, rel=1e-14)
     t = P.build({"role": ["in"], "area": [1e-4], "density": [RHO], "supply_pressure": [3.0],
-                 "velocity_coef": [cv], "angle": [30.0]}, {"supply_pressure": "bar"})
+                 "velocity_coef": [cv], "angle": [30.0]}, {"supply_pressure": "bar"}, si=True)
     v = t.ports.velocity[0]
     assert math.hypot(*v) == pytest.approx(expected, rel=1e-14)
     assert math.degrees(math.atan2(v[1], v[0])) == pytest.approx(30.0)
@@ -40,7 +40,7 @@ def test_jet_speed_follows_the_nozzle_relation():
 
 def test_velocity_coefficient_defaults_to_an_ideal_nozzle():
     # Bernoulli from rest to the jet, White sec. 3.5 (from memory): V = sqrt(2 dp / rho)
-    t = P.build({"role": ["in"], "area": [1e-4], "density": [RHO], "supply_pressure": [1e5]})
+    t = P.build({"role": ["in"], "area": [1e-4], "density": [RHO], "supply_pressure": [1e5]}, si=True)
     assert t.ports.velocity[0, 0] == pytest.approx(math.sqrt(2e5 / RHO), rel=1e-14)
 
 
@@ -54,7 +54,7 @@ def test_us_supply_pressure_in_psi():
 
 def test_diameter_gives_the_circle_area_and_contraction_scales_it():
     t = P.build({"role": ["in", "in"], "diameter": [25.0, 25.0], "density": [RHO, RHO],
-                 "speed": [10.0, 10.0], "contraction_coef": [None, 0.62]}, {"diameter": "mm"})
+                 "speed": [10.0, 10.0], "contraction_coef": [None, 0.62]}, {"diameter": "mm"}, si=True)
     a = math.pi / 4 * 0.025 ** 2       # common practice, no source
     assert t.ports.area.tolist() == pytest.approx([a, 0.62 * a], rel=1e-14)
 
@@ -62,7 +62,7 @@ def test_diameter_gives_the_circle_area_and_contraction_scales_it():
 def test_area_and_diameter_that_agree_within_the_tolerance_are_accepted():
     a = math.pi / 4 * 0.025 ** 2
     t = P.build({"role": ["in"], "diameter": [0.025], "area": [round(a, 6)], "density": [RHO],
-                 "speed": [1.0]})
+                 "speed": [1.0]}, si=True)
     assert t.ports.area[0] == pytest.approx(round(a, 6))
 
 
@@ -89,6 +89,6 @@ def test_api_solve_takes_the_nozzle_columns():
                          "velocity_coef": cv},
                         {"role": "out", "diameter": 10.0, "density": RHO, "speed": 1.0,
                          "angle": 90.0, "frame": "rel"}], 0.0,
-                       units={"diameter": "mm", "supply_pressure": "bar"})
+                       units="SI; diameter=mm; supply_pressure=bar")
     V = cv * math.sqrt(2 * dp * 1e5 / RHO)       # White sec. 6.12 (from memory)
     assert r.mass_flow[0] == pytest.approx(-RHO * math.pi / 4 * 0.01 ** 2 * V, rel=1e-12)

@@ -181,7 +181,7 @@ def test_million_speed_table_with_moments_matches_closed_form_in_chunks():
 
 # -- messages naming what to add ---------------------------------------------------------------
 PLAIN = (("port", "role", "area", "density", "speed", "angle", "closure"),
-         (None, None, "cm^2", None, None, None, None),
+         (None, None, "cm^2", "kg/m^3", "m/s", None, None),
          ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
          ("exit", "out", 2.0, 998.0, None, 150.0, "free"))
 

@@ -63,7 +63,7 @@ def test_output_systems_si_us_and_overrides():
 
 
 def test_import_does_not_build_the_pint_registry():
-    code = ("import portflux.units as U, portflux.problem, portflux.core, sys; "
+    code = ("import portflux.units as U, portflux.builder, portflux.core, sys; "
             "assert not U.registry_built(); assert 'pint' not in sys.modules; print('lazy')")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
     assert out.returncode == 0, out.stderr

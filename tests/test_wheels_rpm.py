@@ -14,11 +14,11 @@ import pytest
 
 import portflux
 import portflux.cells as C
-from portflux import problem as P
+from portflux import builder as P
 
 RHO, A, V, BETA, R = 998.0, 0.002, 30.0, 165.0, 0.5
 WHEEL = (("port", "role", "frame", "area", "density", "speed", "angle", "closure"),
-         (None,) * 8,
+         (None, None, None, "m^2", "kg/m^3", "m/s", None, None),
          ("nozzle", "in", "abs", A, RHO, V, 0.0, None),
          ("bucket", "out", "rel", A, RHO, None, BETA, "free"))
 SETTINGS = (("intercept", "train", None), ("wheel_radius", R, "m"))
@@ -116,7 +116,8 @@ def test_api_wheel_in_rpm():
     assert "shaft_torque" in t.columns("US")
     b = portflux.best_speed(rows, (0.0, 1000.0), speed_unit="rpm", wheel_radius=R,
                             intercept="train")
-    assert b.speed / P.speed_factor("rpm", R)[0] == pytest.approx(V / 2 / R / RPM, rel=1e-7)
+    assert b.speed == pytest.approx(V / 2 / R / RPM, rel=1e-7)        # in rpm, as typed
+    assert b.speed_si == pytest.approx(V / 2, rel=1e-7)
     with pytest.raises(portflux.InputError, match="wheel radius"):
         portflux.solve(rows, 200.0, cv_unit="rpm")
 

@@ -1,13 +1,27 @@
-"""Python API for scripts and notebooks: port rows with units in, a result with SI arrays out.
+"""Python API for scripts and notebooks: port rows with units in, results in the units you ask.
+
+Every input is declared once, in :mod:`portflux.schema`: the port columns (the keys of a port
+row) and the settings (one keyword each, with its unit keyword: ``fluid_mass=`` with
+``mass_unit=``, ``gravity=`` with ``gravity_unit=``; they are listed in :func:`solve`'s
+docstring). A keyword is read in its unit keyword's unit, whose documented default is SI. The
+port rows' units come from ``units``: ``None`` or ``"SI"`` (every column in its SI unit, angles
+in degrees, temperatures in degC), ``"US"`` (US customary), overrides such as ``"SI;
+area=mm^2; pressure=bar"`` (by column or by quantity), or a dict ``{column: unit}`` that must
+then name the unit of every dimensional column in use (no unit, no value: a dict without one is
+refused, as a blank unit cell is on the sheet).
+
+Results hold SI arrays (``r.force_on_body`` [N]); ``r.values("US")``, ``r.report("US")``,
+``r.resultant(units="US")``, ``table.columns("US")``, ``envelope.columns("US")`` answer in an
+output system (the same strings the worksheet's ``units`` argument takes), and speeds come back
+in the unit they were typed in (``speed_unit``, rpm included). ``to_frame()`` gives a
+``pandas.DataFrame`` where pandas is installed (it is not a dependency).
 
 >>> import portflux as pf
 >>> r = pf.solve(
 ...     [{"port": "jet", "role": "in", "area": 0.05, "density": 1.94, "vx": 80.0},
 ...      {"port": "exit", "role": "out", "frame": "rel", "area": 0.05, "density": 1.94,
 ...       "speed": 60.0, "angle": 150.0}],
-...     cv_velocity=[20.0, 0.0, 0.0],
-...     units={"area": "ft^2", "density": "slug/ft^3", "vx": "ft/s", "speed": "ft/s"},
-...     cv_unit="ft/s")
+...     cv_velocity=[20.0, 0.0, 0.0], units="US", cv_unit="ft/s")
 >>> r.status
 'ok'
 >>> [round(float(x), 1) + 0.0 for x in r.force_on_body_in("lbf")]  # rho A (V-U)^2 (1 - cos 150)
@@ -16,25 +30,29 @@
 
 from __future__ import annotations
 
+import inspect
+import math
+import textwrap
 from dataclasses import dataclass
 
 import numpy as np
 
-from . import problem as P
+from . import builder as B
+from . import schema as S
 from . import units as U
-from .core import (DEFAULT_IMBALANCE_TOL, STANDARD_GRAVITY, Balance, BestSpeed, Envelope,
-                   ForceSpeed, InputError, SpeedTable)
+from .core import (ENVELOPE_ROWS, Balance, BestSpeed, Envelope, ForceSpeed, InputError,
+                   SpeedTable)
 from .core import envelope as _core_envelope
 from .core import resultant as _resultant
 from .core import best_speed as _core_best_speed
 from .core import speed_at_force as _core_speed_at_force
 from .core import speed_table as _core_speed_table
-from .core.geometry import direction
 from .core.model import JET_NA
 
-__all__ = ["ControlVolumeResult", "SpeedTableResult", "best_speed", "cv_velocity_si",
-           "envelope", "format_report", "jet_speed", "problem", "solve", "speed_at_force",
-           "speed_table", "ureg"]
+__all__ = ["BestSpeedResult", "ControlVolumeResult", "EnvelopeResult", "ForceSpeedResult",
+           "Resultant", "SpeedTableResult", "best_speed", "cv_velocity_si", "envelope",
+           "format_report", "jet_speed", "problem", "solve", "speed_at_force", "speed_table",
+           "ureg"]
 
 
 def ureg():
@@ -48,6 +66,9 @@ def ureg():
     return U.registry()
 
 
+# --------------------------------------------------------------------------------------------
+# inputs: port rows and their units
+# --------------------------------------------------------------------------------------------
 def _columns(ports) -> dict:
     if isinstance(ports, dict):
         return {k: list(v) for k, v in ports.items()}
@@ -60,6 +81,156 @@ def _columns(ports) -> dict:
             if k not in keys:
                 keys.append(k)
     return {k: [r.get(k) for r in rows] for k in keys}
+
+
+def _by_system(spec: str, keys) -> dict:
+    """Units of the columns ``keys`` from an input system string: "SI", "US" and overrides
+    "name=unit" by column (or alias) or by quantity kind."""
+    base, over_col, over_kind = "SI", {}, {}
+    for part in spec.replace(",", ";").split(";"):
+        part = part.strip()
+        if not part:
+            continue
+        if "=" not in part:
+            if part.upper() not in ("SI", "US"):
+                raise InputError(f"expected SI, US or name=unit overrides (got {part!r})",
+                                 argument="units")
+            base = part.upper()
+            continue
+        name, unit = (x.strip() for x in part.split("=", 1))
+        if S.normalised(name) in S.COLUMN_LOOKUP:
+            over_col[S.COLUMN_LOOKUP[S.normalised(name)]] = unit
+        elif name.lower() in U.QUANTITIES:
+            over_kind[name.lower()] = unit
+        else:
+            raise InputError(f"{name!r} is neither a column nor a quantity; give e.g. "
+                             f"'SI; area=mm^2' or 'US; speed=mph'", argument="units")
+    out = {}
+    for key in keys:
+        kind = S.COLUMNS[key].kind
+        if kind is None:
+            continue
+        q = U.QUANTITIES[kind]
+        unit = over_col.get(key, over_kind.get(kind))
+        if unit is None:
+            unit = (S.COLUMNS[key].unit or q.default) if base == "SI" else q.us
+        out[key] = unit
+    return out
+
+
+def _table_units(units, cols) -> tuple[dict, bool]:
+    """(column -> unit, SI stated) of the ``units`` argument for the table's columns."""
+    keys = [B.resolve_header(k) for k in cols]
+    if units is None:
+        return {}, True
+    if isinstance(units, str):
+        return _by_system(units, keys), True
+    if isinstance(units, dict):
+        return dict(units), False
+    raise InputError(f"expected None, 'SI', 'US', an override string or a dict of column -> "
+                     f"unit (got {type(units).__name__})", argument="units")
+
+
+def _read_table(ports, units) -> B.PortTable:
+    cols = _columns(ports)
+    try:
+        umap, si = _table_units(units, cols)
+        return B.build(cols, umap, si=si)
+    except B.MissingUnit as e:
+        raise InputError(f"no unit for column {e.key!r} ({e.kind.replace('_', ' ')}, e.g. "
+                         f"{U.quantity(e.kind).examples}) while units names others; add it "
+                         f"to the dict, or give units='SI' (every column in its SI unit) or "
+                         f"'US'", argument="units", field=e.key) from None
+
+
+# --------------------------------------------------------------------------------------------
+# inputs: the settings keywords (one per group of the schema, with its unit keyword)
+# --------------------------------------------------------------------------------------------
+_KEYWORDS = S.api_keywords()
+_UNIT_KEYWORDS = S.unit_keywords()
+#: Defaults of the settings keywords (the schema's defaults, SI; None: not given).
+_DEFAULTS = {"fluid_mass": 0.0, "gravity": tuple(S.SETTINGS[k].default for k in
+                                                  S.SETTING_VECTORS["gravity"]),
+             "tolerance": S.SETTINGS["tolerance"].default, "intercept": "single",
+             "slip_angles": (), "slip_directions": (), "wheel_radius": None,
+             "cv_acceleration": (0.0, 0.0, 0.0), "reference": (0.0, 0.0, 0.0),
+             "fluid_centroid": None, "dynamic_factor": 1.0, "load_factor": 1.0}
+
+API_ROTATION_HINT = ("give wheel_radius= (with radius_unit=), the radius at the jet's centre "
+                     "line, so that the peripheral speed is U = omega r")
+
+
+def _number(x, keyword) -> float:
+    if isinstance(x, bool) or not isinstance(x, (int, float, np.integer, np.floating)):
+        raise InputError(f"expected a number, got {B.describe(x)}", argument=keyword)
+    x = float(x)
+    if not math.isfinite(x):
+        raise InputError(f"must be a finite number (got {x})", argument=keyword)
+    return x
+
+
+def _vector_values(value, keyword, rows=False) -> list:
+    a = np.asarray(value, dtype=object)
+    if rows and a.ndim == 1 and a.size == 3:
+        a = a[None, :]
+    if a.shape[-1:] != (3,) or a.ndim != (2 if rows else 1):
+        want = "rows of 3 components" if rows else "3 components (x, y, z)"
+        raise InputError(f"must be {want} (got shape {a.shape})", argument=keyword)
+    return [[_number(x, keyword) for x in r] for r in (a if rows else [a])]
+
+
+def _entries(keyword, value, keys) -> list:
+    """(setting key, value as typed) of one keyword's value."""
+    s = S.SETTINGS[keys[0]]
+    if s.repeat:
+        return [(s.key, _number(x, keyword)) for x in np.ravel(np.asarray(value, dtype=object))]
+    if len(keys) == 3:
+        vecs = _vector_values(value, keyword, rows=keyword == "slip_directions")
+        return [(k, x) for v in vecs for k, x in zip(keys, v)]
+    if s.kind is None:
+        return [(s.key, value)]
+    return [(s.key, _number(value, keyword))]
+
+
+def _settings(kw: dict) -> B.Settings:
+    """The :class:`~portflux.builder.Settings` of the API's settings keywords, checked by the
+    one settings builder; messages name the keyword."""
+    for name in kw:
+        if name not in _KEYWORDS and name not in _UNIT_KEYWORDS:
+            raise InputError(f"unknown keyword; known: {', '.join(sorted(_KEYWORDS))}; units "
+                             f"{', '.join(sorted(_UNIT_KEYWORDS))}", argument=name)
+    values = []
+    for keyword, (keys, unit_kw, unit_default) in _KEYWORDS.items():
+        if kw.get(keyword) is None:
+            continue
+        unit = kw.get(unit_kw, unit_default) if unit_kw else None
+        for key, x in _entries(keyword, kw[keyword], keys):
+            try:
+                values.append((key, B.setting_value(key, x, unit)))
+            except InputError as e:
+                raise _keyword_error(e, keyword, key, unit_kw) from None
+    try:
+        return B.settings_of(values)
+    except InputError as e:
+        raise InputError(e.message, argument=S.keyword_of(e.field)) from None
+
+
+def _keyword_error(e: InputError, keyword, key, unit_kw) -> InputError:
+    """A settings builder's error in the API's words: the keyword (and the component)."""
+    field = None if key == keyword else key
+    if isinstance(e, B.MissingUnit):
+        return InputError(f"no unit given; give {unit_kw}= (e.g. "
+                          f"{U.quantity(e.kind).examples})", argument=keyword, field=field)
+    if e.field and e.field.endswith(" unit"):
+        return InputError(e.message, argument=unit_kw or keyword, field=field)
+    return InputError(e.message, argument=keyword, field=field)
+
+
+def _speed_factor(unit, wheel_radius, argument) -> float:
+    try:
+        return B.speed_factor(unit, wheel_radius, hint=API_ROTATION_HINT)[0]
+    except InputError as e:
+        raise InputError(e.message, argument=argument) from None
 
 
 def cv_velocity_si(cv_velocity, cv_unit="m/s", wheel_radius=None):
@@ -88,73 +259,75 @@ def cv_velocity_si(cv_velocity, cv_unit="m/s", wheel_radius=None):
     if v.shape[-1] != 3:
         raise InputError(f"must be a speed or 3 components (got shape {v.shape})",
                          argument="cv_velocity")
-    f, _ = P.speed_factor(cv_unit, wheel_radius)
-    return v * f
+    return v * _speed_factor(cv_unit, wheel_radius, "cv_unit")
 
 
-def _slip(slip_angles, slip_directions):
-    """No-force directions [-] from in-plane angles [deg] and 3-D vectors (any length)."""
-    out = []
-    if slip_angles is not None and len(slip_angles):
-        out.extend(direction(np.radians(np.asarray(slip_angles, dtype=float))).reshape(-1, 3))
-    if slip_directions is not None and len(slip_directions):
-        d = np.asarray(slip_directions, dtype=float)
-        out.extend(d.reshape(-1, 3) if d.shape[-1:] == (3,) else [d])
-    return tuple(tuple(float(x) for x in v) for v in out)
+def _keyword_doc(indent="    ") -> str:
+    """The Parameters entries of the settings keywords, from the schema."""
+    out, users = [], {}
+    for keyword, (keys, unit_kw, _) in _KEYWORDS.items():
+        users.setdefault(unit_kw, []).append(keyword)
+    for keyword, (keys, unit_kw, unit_default) in _KEYWORDS.items():
+        s = S.SETTINGS[keys[0]]
+        unit = f"[{unit_kw}]" if unit_kw else "[-]"
+        default = _DEFAULTS[keyword]
+        if s.repeat:
+            kind = "sequence of float"
+        elif keyword == "slip_directions":
+            kind = "array_like (k, 3)"
+        elif len(keys) == 3:
+            kind = "array_like (3,)" + (", optional" if default is None else "")
+        elif s.kind is None:
+            kind, unit = "{" + ", ".join(f'"{c}"' for c in s.choices) + "}", ""
+        else:
+            kind = "float" + (", optional" if default is None else "")
+        text = S.VECTOR_HELP.get(s.vector[0]) if s.vector else s.help
+        if "default" not in text and default not in (None, ()):
+            text += f"; default {default!r}"
+        if keyword != keys[0]:
+            text += f" (sheet: settings row{'s' if len(keys) > 1 else ''} {', '.join(keys)})"
+        out.append(f"{indent}{keyword} : {kind}\n" + textwrap.fill(
+            f"{text[0].upper()}{text[1:]} {unit}".rstrip(), 92, initial_indent=indent * 2,
+            subsequent_indent=indent * 2))
+        if unit_kw and users[unit_kw][-1] == keyword:
+            out.append(f"{indent}{unit_kw} : str\n{indent * 2}Unit of "
+                       f"{' and '.join(users[unit_kw])} (documented default {unit_default!r}).")
+    return "\n".join(out) + "\n"
 
 
-def problem(ports, *, units=None, fluid_mass=0.0, mass_unit="kg",
-            gravity=(0.0, 0.0, -STANDARD_GRAVITY), gravity_unit="m/s^2",
-            tolerance=DEFAULT_IMBALANCE_TOL, intercept="single", slip_angles=(),
-            slip_directions=(), reference=(0.0, 0.0, 0.0), fluid_centroid=None,
-            length_unit="m", dynamic_factor=1.0, load_factor=1.0, wheel_radius=None,
-            radius_unit="m") -> P.Problem:
+def _document(fn):
+    """Fill the settings keywords into ``fn``'s docstring and signature (from the schema)."""
+    fn.__doc__ = fn.__doc__.replace("    {SETTINGS}\n", _keyword_doc())
+    sig = inspect.signature(fn)
+    params = [p for p in sig.parameters.values() if p.kind is not p.VAR_KEYWORD]
+    for keyword in _KEYWORDS:
+        params.append(inspect.Parameter(keyword, inspect.Parameter.KEYWORD_ONLY,
+                                        default=_DEFAULTS[keyword]))
+        unit_kw = _KEYWORDS[keyword][1]
+        if unit_kw and unit_kw not in [p.name for p in params]:
+            params.append(inspect.Parameter(unit_kw, inspect.Parameter.KEYWORD_ONLY,
+                                            default=_UNIT_KEYWORDS[unit_kw][0]))
+    fn.__signature__ = sig.replace(parameters=params)
+    return fn
+
+
+@_document
+def problem(ports, *, units=None, **settings) -> B.Problem:
     """Port rows, units, closures and settings built into a compiled problem (SI inside).
 
     Parameters
     ----------
     ports : list of dict or dict of lists
-        Port rows keyed by column name (see :data:`portflux.problem.COLUMNS`), or columns.
-    units : dict, optional
-        Column -> unit string for the inputs (blank/missing: SI, angles in degrees).
-    fluid_mass : float
-        Mass of fluid inside the CV [mass_unit], whose weight the support carries.
-    mass_unit : str
-        Unit of ``fluid_mass``.
-    gravity : array_like (3,)
-        Gravity vector [gravity_unit]; default (0, 0, -9.80665) m/s^2.
-    gravity_unit : str
-        Unit of ``gravity``.
-    tolerance : float
-        Relative mass-imbalance tolerance [-].
-    intercept : {"single", "train"}
-        Single vane or vane train (bucket wheel).
-    slip_angles : sequence of float
-        In-plane directions [deg] along which the body carries no force (frictionless surface):
-        one condition each for outlets whose flow is solved (closure ``solve``).
-    slip_directions : array_like (k, 3)
-        Further no-force directions as 3-D vectors [-] (any length), e.g. the tangent of a
-        plate tilted out of the x-y plane.
-    reference : array_like (3,)
-        Reference point (the support) about which moments are taken [length_unit], in the
-        axes of the port positions rx, ry, rz; default the origin.
-    fluid_centroid : array_like (3,), optional
-        Centroid of the fluid inside the CV, where its weight acts [length_unit]; needed for
-        moments when ``fluid_mass`` > 0.
-    length_unit : str
-        Unit of ``reference`` and ``fluid_centroid``.
-    dynamic_factor, load_factor : float
-        Design factors [-] for :func:`envelope` (a suddenly applied jet; the governing code's
-        safety / load factor); default 1 each. Their values are the user's responsibility.
-    wheel_radius : float, optional
-        Radius at which the jet meets a wheel [radius_unit]; with it, speeds may be given in
-        rpm, rad/s or rev/s (peripheral speed U = omega r) and shaft torques are reported.
-    radius_unit : str
-        Unit of ``wheel_radius``.
+        Port rows keyed by column name (see :data:`portflux.schema.COLUMNS`), or columns.
+    units : None, str or dict
+        Units of the port rows: None or "SI" (every column in its SI unit; angles deg,
+        temperatures degC), "US", overrides ("SI; area=mm^2; pressure=bar"), or a dict
+        column -> unit naming every dimensional column in use.
+    {SETTINGS}
 
     Returns
     -------
-    portflux.problem.Problem
+    portflux.builder.Problem
 
     Examples
     --------
@@ -165,41 +338,100 @@ def problem(ports, *, units=None, fluid_mass=0.0, mass_unit="kg",
 
     Reference: common practice, no source (input handling of this package).
     """
-    table = P.build(_columns(ports), units)
-    radius = None
-    if wheel_radius is not None:
-        radius = float(U.to_si(float(wheel_radius), radius_unit, "length"))
-        if not radius > 0:
-            raise InputError(f"must be > 0 (got {wheel_radius:g} {radius_unit})",
-                             argument="wheel_radius")
-    settings = P.Settings(wheel_radius=radius,
-        fluid_mass=float(U.to_si(fluid_mass, mass_unit, "mass")),
-        gravity=tuple(U.to_si(np.asarray(gravity, float), gravity_unit, "acceleration")),
-        tolerance=tolerance, intercept=intercept, no_force=_slip(slip_angles, slip_directions),
-        reference=tuple(U.to_si(np.asarray(reference, float), length_unit, "length")),
-        fluid_centroid=None if fluid_centroid is None else tuple(
-            U.to_si(np.asarray(fluid_centroid, float), length_unit, "length")),
-        dynamic_factor=float(dynamic_factor), load_factor=float(load_factor))
+    table = _read_table(ports, units)
+    s = _settings(settings)
     try:
-        return P.build_problem(table, settings)
+        return B.build_problem(table, s, door="api")
     except InputError as e:
         if e.argument == "no_force":
             raise InputError(e.message, argument="slip_angles / slip_directions") from None
         raise
 
 
+# --------------------------------------------------------------------------------------------
+# results in the user's units
+# --------------------------------------------------------------------------------------------
+#: Quantity kind of each result field (for conversion to an output system).
+KINDS = {"v_cv": "velocity", "w": "velocity", "v_abs": "velocity", "mass_flow": "mass_flow",
+         "inflow": "mass_flow", "outflow": "mass_flow", "imbalance": "mass_flow",
+         "imbalance_rel": "ratio", "support_force": "force", "force_on_body": "force",
+         "power": "power", "jet_efficiency": "ratio", "propulsive_efficiency": "ratio",
+         "support_moment": "moment", "moment_on_body": "moment", "stream_area": "area",
+         "shaft_torque": "moment", "speed": "velocity", "force_along": "force",
+         "force": "force", "value": None, "factored": None}
+
+
+def _frame(columns: dict):
+    """A ``pandas.DataFrame`` of 1-D columns (pandas is optional: a clear message without)."""
+    try:
+        import pandas as pd
+    except ImportError:
+        raise ImportError("to_frame() needs pandas, which portflux does not install: "
+                          "pip install pandas (or use .columns() / .values(), plain dicts of "
+                          "numpy arrays)") from None
+    return pd.DataFrame(columns)
+
+
+class Resultant(tuple):
+    """(magnitude, in-plane angle, elevation) of a vector, in ``unit`` and ``angle_unit``.
+
+    The angles are NaN where the vector is zero (it has no direction): ``defined`` is False
+    there and ``note`` holds the text the worksheet shows, "n/a: zero, no direction".
+    """
+
+    def __new__(cls, magnitude, angle, elevation, unit, angle_unit):
+        self = super().__new__(cls, (magnitude, angle, elevation))
+        self.unit, self.angle_unit = unit, angle_unit
+        self.defined = ~np.isnan(np.asarray(angle, dtype=float))
+        self.note = "" if np.all(self.defined) else "n/a: zero, no direction"
+        return self
+
+    magnitude = property(lambda self: self[0], doc="|v| [unit]")
+    angle = property(lambda self: self[1], doc="atan2(v_y, v_x) [angle_unit]")
+    elevation = property(lambda self: self[2], doc="atan2(v_z, |v_xy|) [angle_unit]")
+
+
+def _resultant_of(vec, kind, units) -> Resultant:
+    us = U.UnitSystem(units)
+    mag, a, e = _resultant(vec)
+    return Resultant(us.out(mag, kind), us.out(a, "angle"), us.out(e, "angle"),
+                     us.label(kind), us.label("angle"))
+
+
 @dataclass(frozen=True, eq=False)
 class ControlVolumeResult:
-    """A solved control volume: the SI :class:`~portflux.core.Balance` plus unit helpers."""
+    """A solved control volume: the SI :class:`~portflux.core.Balance` plus unit helpers.
 
-    table: P.PortTable
+    Every attribute of the balance reads directly (``r.force_on_body`` [N], ``r.power`` [W],
+    ...); :meth:`values`, :meth:`report`, :meth:`resultant` and :meth:`to_frame` answer in an
+    output system ("SI", "US", "US; force=kN").
+    """
+
+    table: B.PortTable
     balance: Balance
     wheel_radius: float | None = None     #: [m], None when no wheel radius was given
+    settings: B.Settings = B.Settings()   #: the settings, SI
 
     def __getattr__(self, name):  # delegate SI arrays (force_on_body, power, ...) to Balance
-        if name in ("table", "balance", "wheel_radius"):
+        if name in ("table", "balance", "wheel_radius", "settings"):
             raise AttributeError(name)
         return getattr(self.balance, name)
+
+    @property
+    def has_moments(self) -> bool:
+        """True when the rows give positions (and the centroid, with a fluid mass)."""
+        return not self.balance.moment_need
+
+    @property
+    def stream_area(self) -> np.ndarray:
+        """Stream area [m^2] of each port whose flow a closure sets (a 'solve' or share
+        outlet): mdot / (rho w.n), the area the solved flow implies (for a vane train, that of
+        the whole train's flow); NaN at every other port. Shape (..., n)."""
+        return self.balance.stream_area
+
+    def stream_area_in(self, unit="m^2"):
+        """:attr:`stream_area` in ``unit``."""
+        return U.from_si(self.stream_area, unit, "area")
 
     def shaft_torque(self, direction=None, unit="N*m"):
         """Shaft torque T = (F_body . d) r of a wheel [unit], + along the rotation.
@@ -210,7 +442,7 @@ class ControlVolumeResult:
             raise InputError("the shaft torque needs the wheel radius; give wheel_radius= to "
                              "solve", argument="wheel_radius")
         d = _motion(self.balance.v_cv if direction is None else direction)
-        t = P.shaft_torque(np.asarray(self.balance.force_on_body) @ d, self.wheel_radius)
+        t = B.shaft_torque(np.asarray(self.balance.force_on_body) @ d, self.wheel_radius)
         return U.from_si(t, unit, "moment")
 
     def force_on_body_in(self, unit="N"):
@@ -229,21 +461,67 @@ class ControlVolumeResult:
         """Moment of the solid on the fluid about the reference point, M_R, in ``unit``."""
         return U.from_si(self.balance.support_moment, unit, "moment")
 
-    def resultant(self, quantity="force"):
-        """(magnitude [N or N m], in-plane angle [deg], elevation [deg]) of the force
-        ("force") or the moment ("moment") on the body."""
+    def resultant(self, quantity="force", units=None) -> Resultant:
+        """(magnitude, in-plane angle, elevation) of the force ("force") or the moment
+        ("moment") on the body, in the output system ``units`` (SI: N or N m and degrees);
+        angles NaN for a zero vector (see :class:`Resultant`)."""
         attr = {"force": "force_on_body", "moment": "moment_on_body"}.get(quantity)
         if attr is None:
             raise InputError(f"must be 'force' or 'moment' (got {quantity!r})",
                              argument="quantity")
-        mag, a, e = _resultant(getattr(self.balance, attr))
-        return mag, np.degrees(a), np.degrees(e)
+        return _resultant_of(getattr(self.balance, attr), quantity, units)
+
+    def factored(self, units=None) -> dict:
+        """Design loads: force and (with positions) moment on the body times dynamic_factor x
+        load_factor, in the output system ``units``."""
+        us, k = U.UnitSystem(units), self.settings.dynamic_factor * self.settings.load_factor
+        out = {"factor": k, "force_on_body": us.out(self.balance.force_on_body * k, "force")}
+        if self.has_moments:
+            out["moment_on_body"] = us.out(self.balance.moment_on_body * k, "moment")
+        return out
+
+    def values(self, units=None) -> dict:
+        """Every result quantity there is, in the output system ``units`` ("SI", "US", "US;
+        force=kN"): velocities, mass flows, forces, power, efficiencies, and where they exist
+        the moments, the shaft torque (wheel) and the stream areas (closures)."""
+        us = U.UnitSystem(units)
+        names = ["v_cv", "w", "v_abs", "mass_flow", "inflow", "outflow", "imbalance",
+                 "imbalance_rel", "support_force", "force_on_body", "power", "jet_efficiency",
+                 "propulsive_efficiency", "stream_area"]
+        if self.has_moments:
+            names += ["support_moment", "moment_on_body"]
+        out = {n: us.out(getattr(self.balance, n), KINDS[n]) for n in names}
+        if self.wheel_radius is not None:
+            out["shaft_torque"] = self.shaft_torque(unit=us.unit("moment"))
+        return out
+
+    def to_frame(self, units=None):
+        """The ports as a ``pandas.DataFrame`` (one CV velocity): label, role, w and V
+        components, mass flow, stream area, in the output system ``units``."""
+        if np.ndim(self.balance.power) != 0:
+            raise InputError("to_frame() takes one CV velocity", argument="cv_velocity")
+        us = U.UnitSystem(units)
+        p, b = self.table.ports, self.balance
+        v, m, a = (us.label(k) for k in ("velocity", "mass_flow", "area"))
+        cols = {"port": list(p.names),
+                "role": [{-1: "in", 1: "out"}.get(int(x), "") for x in p.role]}
+        for sym, arr in (("w", b.w), ("V", b.v_abs)):
+            for i, c in enumerate("xyz"):
+                cols[f"{sym}{c} [{v}]"] = us.out(arr[:, i], "velocity")
+        cols[f"mass flow [{m}] (+ out)"] = us.out(b.mass_flow, "mass_flow")
+        cols[f"stream area [{a}]"] = us.out(b.stream_area, "area")
+        return _frame(cols)
 
     def report(self, units=None) -> str:
-        """A plain-text report in an output unit system ("SI", "US", "US; power=kW")."""
-        return format_report(self.balance, U.UnitSystem(units))
+        """A plain-text report in an output unit system ("SI", "US", "US; power=kW"): ports,
+        mass balance, forces and their resultant, power, efficiencies and, where they exist,
+        moments, the shaft torque and the factored design loads."""
+        s = self.settings
+        return format_report(self.balance, U.UnitSystem(units), wheel_radius=self.wheel_radius,
+                             factors=(s.dynamic_factor, s.load_factor))
 
 
+@_document
 def solve(ports, cv_velocity, *, units=None, cv_unit="m/s", **settings) -> ControlVolumeResult:
     """Solve the steady balance of a CV moving at constant velocity.
 
@@ -257,17 +535,15 @@ def solve(ports, cv_velocity, *, units=None, cv_unit="m/s", **settings) -> Contr
     Parameters
     ----------
     ports : list of dict or dict of lists
-        Port rows keyed by column name (see :data:`portflux.problem.COLUMNS`), or columns.
+        Port rows keyed by column name (see :data:`portflux.schema.COLUMNS`), or columns.
     cv_velocity : float or array_like (3,) or (m, 3)
         CV velocity [cv_unit]; a float is a speed along +x.
-    units : dict, optional
-        Column -> unit string for the inputs (blank/missing: SI, angles in degrees).
+    units : None, str or dict
+        Units of the port rows (see :func:`problem`): None or "SI", "US", overrides, or a dict
+        naming every dimensional column in use.
     cv_unit : str
-        Unit of ``cv_velocity``.
-    **settings
-        ``fluid_mass`` [mass_unit], ``mass_unit``, ``gravity`` [gravity_unit],
-        ``gravity_unit``, ``tolerance`` [-], ``intercept`` ("single"/"train"),
-        ``slip_angles`` [deg], ``slip_directions`` [-]: as in :func:`problem`.
+        Unit of ``cv_velocity`` (rpm, rad/s, rev/s with ``wheel_radius``).
+    {SETTINGS}
 
     Returns
     -------
@@ -282,12 +558,15 @@ def solve(ports, cv_velocity, *, units=None, cv_unit="m/s", **settings) -> Contr
     ...            {"role": "out", "area": 1e-3, "density": 1000.0, "vy": 20.0}], 0.0)
     >>> r.force_on_body.tolist(), r.status      # rho A V^2 (1, -1, 0): a 90-degree bend
     ([400.0, -400.0, 0.0], 'ok')
+    >>> [round(float(x), 2) for x in r.resultant(units="US")]   # 565.69 N = 127.17 lbf at -45
+    [127.17, -45.0, 0.0]
 
     Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
     pb = problem(ports, units=units, **settings)
     v = cv_velocity_si(cv_velocity, cv_unit, pb.settings.wheel_radius)
-    return ControlVolumeResult(pb.table, pb.model.balance(v), pb.settings.wheel_radius)
+    return ControlVolumeResult(pb.table, pb.model.balance(v), pb.settings.wheel_radius,
+                               pb.settings)
 
 
 def _motion(v) -> np.ndarray:
@@ -297,17 +576,39 @@ def _motion(v) -> np.ndarray:
     return d / n if n > 0 else np.array([1.0, 0.0, 0.0])
 
 
-@dataclass(frozen=True, eq=False)
-class SpeedTableResult:
-    """A speed table (SI arrays of :class:`~portflux.core.SpeedTable`) with unit helpers."""
+class _AsTyped:
+    """A result whose speeds come back in the unit they were typed in: the SI result is the
+    dataclass field named by ``_CORE`` (its ``speed`` in m/s), ``speed_factor`` turns a typed
+    speed into m/s; every other attribute is the SI result's."""
 
+    _CORE = "core"
+
+    def __getattr__(self, name):
+        if name.startswith("_") or name in type(self).__dataclass_fields__:
+            raise AttributeError(name)
+        return getattr(getattr(self, self._CORE), name)
+
+    @property
+    def speed(self):
+        """The speed(s) in ``speed_unit``, as typed (NaN where there is none)."""
+        return getattr(self, self._CORE).speed / self.speed_factor
+
+    @property
+    def speed_si(self):
+        """The same speed(s) [m/s]."""
+        return getattr(self, self._CORE).speed
+
+
+@dataclass(frozen=True, eq=False)
+class SpeedTableResult(_AsTyped):
+    """A speed table (SI arrays of :class:`~portflux.core.SpeedTable`) with unit helpers;
+    ``speed`` is in the unit the speeds were typed in (``speed_unit``), ``speed_si`` in m/s."""
+
+    _CORE = "table"
     table: SpeedTable
     wheel_radius: float | None = None     #: [m], None when no wheel radius was given
-
-    def __getattr__(self, name):  # delegate SI arrays (speed, force_on_body, ...) to the table
-        if name in ("table", "wheel_radius"):
-            raise AttributeError(name)
-        return getattr(self.table, name)
+    speed_unit: str = "m/s"               #: the unit the speeds were typed in
+    speed_factor: float = 1.0             #: typed speed -> m/s
 
     @property
     def shaft_torque(self):
@@ -315,11 +616,12 @@ class SpeedTableResult:
         if self.wheel_radius is None:
             raise InputError("the shaft torque needs the wheel radius; give wheel_radius= to "
                              "speed_table", argument="wheel_radius")
-        return P.shaft_torque(self.table.force_on_body @ _motion(self.table.direction),
+        return B.shaft_torque(self.table.force_on_body @ _motion(self.table.direction),
                               self.wheel_radius)
 
     def columns(self, units=None) -> dict:
-        """The columns as 1-D arrays in an output unit system ("SI", "US", "US; force=kN").
+        """The columns as 1-D arrays in an output unit system ("SI", "US", "US; force=kN");
+        the speed in the unit it was typed in.
 
         >>> t = speed_table([{"role": "in", "area": 1e-3, "density": 1000.0, "vx": 20.0},
         ...                  {"role": "out", "area": 1e-3, "density": 1000.0, "angle": 90.0,
@@ -330,8 +632,7 @@ class SpeedTableResult:
         Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
         """
         us = U.UnitSystem(units)
-        kinds = {"speed": "velocity", "power": "power", "jet_efficiency": "ratio",
-                 "inflow": "mass_flow"}
+        kinds = {"power": "power", "jet_efficiency": "ratio", "inflow": "mass_flow"}
         out = {}
         for key, a in self.table.columns().items():
             kind = "force" if key.startswith(("support_force", "force_on_body")) else kinds.get(
@@ -339,11 +640,23 @@ class SpeedTableResult:
             if key.startswith(("support_moment", "moment_on_body")):
                 kind = "moment"
             out[key] = us.out(a, kind) if kind else a
+        out["speed"] = self.speed
         if self.wheel_radius is not None:
             out["shaft_torque"] = us.out(self.shaft_torque, "moment")
         return out
 
+    def to_frame(self, units=None):
+        """:meth:`columns` as a ``pandas.DataFrame`` (pandas installed)."""
+        return _frame(self.columns(units))
 
+
+def _speeds_in(speed_unit, settings):
+    """(typed -> m/s factor, wheel radius [m]) of the speed keywords and the settings."""
+    radius = settings.wheel_radius
+    return _speed_factor(speed_unit, radius, "speed_unit"), radius
+
+
+@_document
 def speed_table(ports, speeds, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", units=None,
                 moments=False, **settings) -> SpeedTableResult:
     """Forces, power and efficiency at each of many CV speeds along one direction.
@@ -359,14 +672,13 @@ def speed_table(ports, speeds, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", u
     direction : array_like (3,)
         Direction of motion d [-] (any length).
     speed_unit : str
-        Unit of ``speeds``.
-    units : dict, optional
-        Column -> unit string of the port rows.
+        Unit of ``speeds`` (rpm etc. with ``wheel_radius``); the table's ``speed`` is in it.
+    units : None, str or dict
+        Units of the port rows (see :func:`problem`).
     moments : bool
         Add the moments about the reference point (``support_moment``, ``moment_on_body``
         [N m]); the port rows need positions rx, ry, rz.
-    **settings
-        As in :func:`problem`.
+    {SETTINGS}
 
     Returns
     -------
@@ -385,13 +697,53 @@ def speed_table(ports, speeds, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", u
     Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
     pb = problem(ports, units=units, **settings)
-    u = np.asarray(speeds, dtype=float) * P.speed_factor(speed_unit, pb.settings.wheel_radius)[0]
-    return SpeedTableResult(_core_speed_table(pb.model, u, direction, moments=moments),
-                            pb.settings.wheel_radius)
+    f, radius = _speeds_in(speed_unit, pb.settings)
+    u = np.asarray(speeds, dtype=float) * f
+    return SpeedTableResult(_core_speed_table(pb.model, u, direction, moments=moments), radius,
+                            speed_unit, f)
 
 
+@dataclass(frozen=True, eq=False)
+class EnvelopeResult(_AsTyped):
+    """The worst loads over a speed bracket (:class:`~portflux.core.Envelope`) with plain row
+    names; values and factored values SI [N, N m], speeds in ``speed_unit`` as typed."""
+
+    _CORE = "envelope"
+    envelope: Envelope
+    speed_unit: str = "m/s"
+    speed_factor: float = 1.0
+
+    names = tuple(r[0] for r in ENVELOPE_ROWS)     #: the loads, in row order
+    kinds = tuple(r[1] for r in ENVELOPE_ROWS)     #: "force" or "moment" per row
+
+    @property
+    def bracket(self) -> tuple:
+        """(low, high) in ``speed_unit``."""
+        return tuple(x / self.speed_factor for x in self.envelope.bracket)
+
+    def columns(self, units=None) -> dict:
+        """The envelope as columns in the output system ``units``: load name, unit, value,
+        speed (in ``speed_unit``), factored value."""
+        us = U.UnitSystem(units)
+        conv = np.array([1.0 / U.factor(us.unit(k), k) for k in self.kinds])
+        return {"load": list(self.names), "unit": [us.label(k) for k in self.kinds],
+                "value": self.envelope.value * conv, f"speed [{self.speed_unit}]": self.speed,
+                "factored": self.envelope.factored * conv}
+
+    def rows(self, units=None) -> list:
+        """[(load, unit, value, speed, factored), ...] in the output system ``units``."""
+        c = self.columns(units)
+        return list(zip(c["load"], c["unit"], c["value"].tolist(),
+                        c[f"speed [{self.speed_unit}]"].tolist(), c["factored"].tolist()))
+
+    def to_frame(self, units=None):
+        """:meth:`columns` as a ``pandas.DataFrame`` (pandas installed)."""
+        return _frame(self.columns(units))
+
+
+@_document
 def envelope(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", units=None,
-             **settings) -> Envelope:
+             **settings) -> EnvelopeResult:
     """Worst force and moment on the body over a bracket of speeds, raw and factored.
 
     .. math:: L^* = \\max_{U_{lo} \\le U \\le U_{hi}} |L(U)|, \\qquad
@@ -409,17 +761,17 @@ def envelope(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", uni
     direction : array_like (3,)
         Direction of motion d [-].
     speed_unit : str
-        Unit of ``bracket``; the result is SI (N, N m, m/s).
-    units : dict, optional
-        Column -> unit string of the port rows.
-    **settings
-        As in :func:`problem`: ``reference``, ``fluid_centroid``, ``length_unit``,
-        ``dynamic_factor``, ``load_factor`` (default 1: set them from your governing code), ...
+        Unit of ``bracket``; the result's speeds are in it, its loads SI (N, N m; see
+        :meth:`EnvelopeResult.columns` for other units).
+    units : None, str or dict
+        Units of the port rows (see :func:`problem`).
+    {SETTINGS}
 
     Returns
     -------
-    portflux.core.Envelope
-        Rows :data:`portflux.core.ENVELOPE_ROWS`: ``value``, ``speed``, ``factored``.
+    EnvelopeResult
+        Rows ``names`` (force on body x, y, z, resultant, moment on body x, y, z, resultant):
+        ``value``, ``speed``, ``factored``.
 
     Examples
     --------
@@ -432,19 +784,57 @@ def envelope(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", uni
     >>> e = envelope(rows, (0.0, 20.0), load_factor=1.5)
     >>> round(float(e.value[0]), 6), float(e.speed[0]), round(float(e.factored[0]), 6)
     (359.28, 0.0, 538.92)
+    >>> load, unit, value, speed, factored = e.rows("US")[0]     # 359.28 N = 80.769 lbf
+    >>> load, unit, round(value, 3), speed, round(factored, 3)
+    ('force on body x', 'lbf', 80.769, 0.0, 121.154)
 
     Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
     pb = problem(ports, units=units, **settings)
     s = pb.settings
-    f = P.speed_factor(speed_unit, s.wheel_radius)[0]
+    f, _ = _speeds_in(speed_unit, s)
     lo, hi = (float(x) * f for x in bracket)
-    return _core_envelope(pb.model, (lo, hi), direction, dynamic_factor=s.dynamic_factor,
-                          load_factor=s.load_factor)
+    env = _core_envelope(pb.model, (lo, hi), direction, dynamic_factor=s.dynamic_factor,
+                         load_factor=s.load_factor)
+    return EnvelopeResult(env, speed_unit, f)
 
 
+@dataclass(frozen=True, eq=False)
+class BestSpeedResult(_AsTyped):
+    """The speed of maximum power (:class:`~portflux.core.BestSpeed`): ``speed`` in the unit
+    the bracket was typed in, ``speed_si`` [m/s], ``power`` [W], ``efficiency`` [-]; with a
+    wheel radius, ``shaft_torque`` [N m] there."""
+
+    _CORE = "best"
+    best: BestSpeed
+    speed_unit: str = "m/s"
+    speed_factor: float = 1.0
+    force_along: float = math.nan         #: force on the body along the motion there [N]
+    shaft_torque: float | None = None     #: shaft torque there [N m] (None: not a wheel)
+
+    def values(self, units=None) -> dict:
+        """speed (``speed_unit``), power, efficiency, force along the motion (and shaft
+        torque) in the output system ``units``."""
+        us = U.UnitSystem(units)
+        out = {"speed": self.speed, "power": us.out(self.best.power, "power"),
+               "efficiency": us.out(self.best.efficiency, "ratio"),
+               "force_along": us.out(self.force_along, "force")}
+        if self.shaft_torque is not None:
+            out["shaft_torque"] = us.out(self.shaft_torque, "moment")
+        return out
+
+
+def _along_at(pb, speed, direction) -> float:
+    """Force on the body along the motion [N] at one speed [m/s] (NaN for NaN)."""
+    if not math.isfinite(speed):
+        return math.nan
+    t = _core_speed_table(pb.model, [speed], direction)
+    return float(t.force_along[0])
+
+
+@_document
 def best_speed(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", units=None,
-               **settings) -> BestSpeed:
+               **settings) -> BestSpeedResult:
     """Speed of maximum power delivered to the body within a bracket of speeds.
 
     .. math:: U^* = \\arg\\max_{U_{lo} \\le U \\le U_{hi}} \\vec F_{body}(U) \\cdot U \\hat d
@@ -458,17 +848,16 @@ def best_speed(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", u
     direction : array_like (3,)
         Direction of motion d [-].
     speed_unit : str
-        Unit of ``bracket`` (rpm, rad/s or rev/s with ``wheel_radius=``); the result is in SI
-        (m/s, W): divide its speed by ``portflux.problem.speed_factor(unit, r)[0]`` for rpm.
-    units : dict, optional
-        Column -> unit string of the port rows.
-    **settings
-        As in :func:`problem`.
+        Unit of ``bracket`` (rpm, rad/s or rev/s with ``wheel_radius=``); the result's
+        ``speed`` is in it (``speed_si`` in m/s).
+    units : None, str or dict
+        Units of the port rows (see :func:`problem`).
+    {SETTINGS}
 
     Returns
     -------
-    portflux.core.BestSpeed
-        SI: speed [m/s], power [W], efficiency [-].
+    BestSpeedResult
+        speed [speed_unit], speed_si [m/s], power [W], efficiency [-].
 
     Examples
     --------
@@ -487,21 +876,47 @@ def best_speed(ports, bracket, *, direction=(1.0, 0.0, 0.0), speed_unit="m/s", u
     ...           "density": 998.0, "frame": "rel"}]
     >>> b = best_speed(wheel, (0.0, 1000.0), speed_unit="rpm", wheel_radius=0.5,
     ...                intercept="train")
-    >>> round(b.speed / P.speed_factor("rpm", 0.5)[0], 2)
-    286.48
+    >>> round(b.speed, 2), round(b.speed_si, 6)
+    (286.48, 15.0)
 
     Reference: single moving vane, optimum U = V/3, White, *Fluid Mechanics*, ch. 3 (from
     memory).
     """
     pb = problem(ports, units=units, **settings)
-    f = P.speed_factor(speed_unit, pb.settings.wheel_radius)[0]
+    f, radius = _speeds_in(speed_unit, pb.settings)
     lo, hi = (float(x) * f for x in bracket)
-    return _core_best_speed(pb.model, (lo, hi), direction)
+    best = _core_best_speed(pb.model, (lo, hi), direction)
+    along = _along_at(pb, best.speed, direction)
+    torque = None if radius is None else B.shaft_torque(along, radius)
+    return BestSpeedResult(best, speed_unit, f, along, torque)
 
 
+@dataclass(frozen=True, eq=False)
+class ForceSpeedResult(_AsTyped):
+    """The lowest speed at which a force is reached (:class:`~portflux.core.ForceSpeed`):
+    ``speed`` in the unit the bracket was typed in, ``speed_si`` [m/s], ``force`` [N]."""
+
+    _CORE = "result"
+    result: ForceSpeed
+    speed_unit: str = "m/s"
+    speed_factor: float = 1.0
+    shaft_torque: float | None = None     #: shaft torque there [N m] (None: not a wheel)
+
+    def values(self, units=None) -> dict:
+        """speed (``speed_unit``), force (and shaft torque) in the output system ``units``,
+        crossings."""
+        us = U.UnitSystem(units)
+        out = {"speed": self.speed, "force": us.out(self.result.force, "force"),
+               "crossings": self.result.crossings}
+        if self.shaft_torque is not None:
+            out["shaft_torque"] = us.out(self.shaft_torque, "moment")
+        return out
+
+
+@_document
 def speed_at_force(ports, value, bracket, *, component="along", force_unit="N",
                    direction=(1.0, 0.0, 0.0), speed_unit="m/s", units=None,
-                   **settings) -> ForceSpeed:
+                   **settings) -> ForceSpeedResult:
     """Lowest speed in a bracket at which a force-on-body component reaches a value.
 
     .. math:: F(U^*) = F_{target}
@@ -517,19 +932,18 @@ def speed_at_force(ports, value, bracket, *, component="along", force_unit="N",
     component : {"x", "y", "z", "along", "magnitude"}
         Which force on the body.
     force_unit : str
-        Unit of ``value``; the result is in SI (m/s, N).
+        Unit of ``value``; the result's ``force`` is SI [N].
     direction : array_like (3,)
         Direction of motion d [-].
     speed_unit : str
-        Unit of ``bracket``.
-    units : dict, optional
-        Column -> unit string of the port rows.
-    **settings
-        As in :func:`problem`.
+        Unit of ``bracket``; the result's ``speed`` is in it (``speed_si`` in m/s).
+    units : None, str or dict
+        Units of the port rows (see :func:`problem`).
+    {SETTINGS}
 
     Returns
     -------
-    portflux.core.ForceSpeed
+    ForceSpeedResult
 
     Examples
     --------
@@ -545,10 +959,13 @@ def speed_at_force(ports, value, bracket, *, component="along", force_unit="N",
     Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
     pb = problem(ports, units=units, **settings)
-    f = P.speed_factor(speed_unit, pb.settings.wheel_radius)[0]
+    f, radius = _speeds_in(speed_unit, pb.settings)
     lo, hi = (float(x) * f for x in bracket)
-    target = float(U.to_si(float(value), force_unit, "force"))
-    return _core_speed_at_force(pb.model, target, (lo, hi), direction, component=component)
+    target = float(U.to_si(_number(value, "value"), force_unit, "force"))
+    r = _core_speed_at_force(pb.model, target, (lo, hi), direction, component=component)
+    torque = None if radius is None else B.shaft_torque(_along_at(pb, r.speed, direction),
+                                                        radius)
+    return ForceSpeedResult(r, speed_unit, f, torque)
 
 
 def jet_speed(supply_pressure, density, velocity_coef=1.0, *, pressure_unit="Pa",
@@ -556,7 +973,7 @@ def jet_speed(supply_pressure, density, velocity_coef=1.0, *, pressure_unit="Pa"
     """Jet speed of a nozzle from its supply gauge pressure: V = C_v sqrt(2 dp / rho).
 
     The same rule a port row applies to its ``supply_pressure`` and ``velocity_coef`` columns
-    (:func:`portflux.problem.jet_speed`), with units.
+    (:func:`portflux.builder.jet_speed`), with units.
 
     Parameters
     ----------
@@ -589,10 +1006,13 @@ def jet_speed(supply_pressure, density, velocity_coef=1.0, *, pressure_unit="Pa"
             ~((c > 0) & (c <= 1))):
         raise InputError("jet_speed needs supply_pressure > 0, density > 0 and "
                          "0 < velocity_coef <= 1", argument="supply_pressure")
-    v = U.from_si(P.jet_speed(dp, rho, c), speed_unit, "velocity")
+    v = U.from_si(B.jet_speed(dp, rho, c), speed_unit, "velocity")
     return float(v) if np.ndim(v) == 0 else v
 
 
+# --------------------------------------------------------------------------------------------
+# the text report
+# --------------------------------------------------------------------------------------------
 def _fmt(x) -> str:
     x = float(x)
     if np.isnan(x):
@@ -602,7 +1022,67 @@ def _fmt(x) -> str:
     return f"{x:.6g}"
 
 
-def format_report(b: Balance, us: U.UnitSystem) -> str:
+def _vector_lines(title, rows, us, kind) -> list:
+    """A titled block of labelled (x, y, z) vectors in the output unit of ``kind``."""
+    lines = [f"{title} [{us.label(kind)}]".ljust(50) + f" {'x':>12s} {'y':>12s} {'z':>12s}"]
+    for label, vec in rows:
+        x, y, z = us.out(vec, kind)
+        lines.append(f"  {label:48s} {_fmt(x):>12s} {_fmt(y):>12s} {_fmt(z):>12s}")
+    return lines
+
+
+def _resultant_line(vec, kind, us) -> str:
+    r = _resultant_of(vec, kind, us.spec)
+    a = us.label("angle")
+    angles = (f"in-plane angle {_fmt(r.angle)} {a}, elevation {_fmt(r.elevation)} {a}"
+              if r.note == "" else r.note)
+    return f"  {'resultant on the body':48s} {_fmt(r.magnitude):>12s}  ({angles})"
+
+
+def _port_lines(b: Balance, us) -> list:
+    vel, mf = us.label("velocity"), us.label("mass_flow")
+    p = b.ports
+    head = ["port", "role", f"Vx [{vel}]", f"Vy [{vel}]", f"Vz [{vel}]", f"wx [{vel}]",
+            f"wy [{vel}]", f"wz [{vel}]", f"mass flow [{mf}]"]
+    rows = [head]
+    role_word = {-1: "in", 1: "out", 0: "-"}
+    va, w, m = us.out(b.v_abs, "velocity"), us.out(b.w, "velocity"), us.out(b.mass_flow,
+                                                                               "mass_flow")
+    for i in range(p.n):
+        rows.append([p.names[i], role_word[int(p.role[i])], *map(_fmt, va[i]), *map(_fmt, w[i]),
+                     _fmt(m[i])])
+    widths = [max(len(r[c]) for r in rows) for c in range(len(head))]
+    return ["Ports (w = V - V_cv relative velocity; mass flow + out of the CV)"] + [
+        "  " + "  ".join(s.rjust(widths[c]) for c, s in enumerate(r)) for r in rows]
+
+
+def _load_lines(b: Balance, us, wheel_radius, factors) -> list:
+    """Moments, shaft torque and factored design loads, where they exist."""
+    lines = []
+    if not b.moment_need:
+        lines += [""] + _vector_lines("Moments about the reference point", (
+            ("support moment on the fluid, M_R (solid -> fluid)", b.support_moment),
+            ("moment on the body, -M_R (fluid -> body)", b.moment_on_body)), us, "moment")
+        lines.append(_resultant_line(b.moment_on_body, "moment", us))
+    if wheel_radius is not None:
+        t = B.shaft_torque(np.asarray(b.force_on_body) @ _motion(b.v_cv), wheel_radius)
+        lines += ["", f"Shaft torque, + along the rotation (force along the motion x wheel "
+                      f"radius {_fmt(us.out(wheel_radius, 'length'))} {us.label('length')}) "
+                      f"[{us.label('moment')}]: {_fmt(us.out(t, 'moment'))}"]
+    k = factors[0] * factors[1]
+    if k != 1.0:
+        rows = [("factored force on the body", b.force_on_body * k)]
+        lines += ["", *_vector_lines(f"Design loads = load x dynamic_factor {factors[0]:g} x "
+                                     f"load_factor {factors[1]:g} = x {k:g}", rows, us,
+                                     "force")]
+        if not b.moment_need:
+            lines += _vector_lines("", [("factored moment on the body", b.moment_on_body * k)],
+                                   us, "moment")[1:]
+    return lines
+
+
+def format_report(b: Balance, us: U.UnitSystem, *, wheel_radius=None,
+                  factors=(1.0, 1.0)) -> str:
     """Plain-text report of one balance (one CV velocity) in the units of ``us``.
 
     Parameters
@@ -611,6 +1091,11 @@ def format_report(b: Balance, us: U.UnitSystem) -> str:
         A balance at one CV velocity (SI).
     us : UnitSystem
         Output units.
+    wheel_radius : float, optional
+        Radius of a wheel [m]: the report adds the shaft torque.
+    factors : (float, float)
+        dynamic_factor and load_factor [-]; when their product is not 1 the report adds the
+        factored design loads.
 
     Examples
     --------
@@ -623,49 +1108,31 @@ def format_report(b: Balance, us: U.UnitSystem) -> str:
     """
     if np.ndim(b.power) != 0:
         raise InputError("a text report needs one CV velocity", argument="cv_velocity")
-    vel, mf, f, pw = (us.label(k) for k in ("velocity", "mass_flow", "force", "power"))
-    p = b.ports
-    lines = []
+    mf, pw = us.label("mass_flow"), us.label("power")
     v = us.out(b.v_cv, "velocity")
-    lines.append(f"Control-volume velocity V_cv [{vel}]: ({_fmt(v[0])}, {_fmt(v[1])}, "
-                 f"{_fmt(v[2])})")
-    lines.append("")
-    lines.append("Ports (w = V - V_cv relative velocity; mass flow + out of the CV)")
-    head = ["port", "role", f"Vx [{vel}]", f"Vy [{vel}]", f"Vz [{vel}]", f"wx [{vel}]",
-            f"wy [{vel}]", f"wz [{vel}]", f"mass flow [{mf}]"]
-    rows = [head]
-    role_word = {-1: "in", 1: "out", 0: "-"}
-    va, w, m = us.out(b.v_abs, "velocity"), us.out(b.w, "velocity"), us.out(b.mass_flow,
-                                                                               "mass_flow")
-    for i in range(p.n):
-        rows.append([p.names[i], role_word[int(p.role[i])], *map(_fmt, va[i]), *map(_fmt, w[i]),
-                     _fmt(m[i])])
-    widths = [max(len(r[c]) for r in rows) for c in range(len(head))]
-    for r in rows:
-        lines.append("  " + "  ".join(s.rjust(widths[c]) for c, s in enumerate(r)))
-    lines.append("")
-    lines.append(f"Mass balance [{mf}]: inflow {_fmt(us.out(b.inflow, 'mass_flow'))}, outflow "
-                 f"{_fmt(us.out(b.outflow, 'mass_flow'))}, imbalance "
-                 f"{_fmt(us.out(b.imbalance, 'mass_flow'))} "
-                 f"({_fmt(b.imbalance_rel)} of inflow; tolerance {b.tolerance:g}) -> {b.status}")
-    lines.append("")
-    lines.append(f"Forces [{f}]".ljust(50) + f" {'x':>12s} {'y':>12s} {'z':>12s}")
-    for label, vec in (("support force on the fluid, R (solid -> fluid)", b.support_force),
-                       ("force on the body, -R (fluid -> body)", b.force_on_body)):
-        fx, fy, fz = us.out(vec, "force")
-        lines.append(f"  {label:48s} {_fmt(fx):>12s} {_fmt(fy):>12s} {_fmt(fz):>12s}")
-    lines.append("")
-    lines.append(f"Power delivered to the moving body, F_body . V_cv [{pw}]: "
-                 f"{_fmt(us.out(b.power, 'power'))}")
+    lines = [f"Control-volume velocity V_cv [{us.label('velocity')}]: ({_fmt(v[0])}, "
+             f"{_fmt(v[1])}, {_fmt(v[2])})", ""]
+    lines += _port_lines(b, us)
+    lines += ["", f"Mass balance [{mf}]: inflow {_fmt(us.out(b.inflow, 'mass_flow'))}, outflow "
+                  f"{_fmt(us.out(b.outflow, 'mass_flow'))}, imbalance "
+                  f"{_fmt(us.out(b.imbalance, 'mass_flow'))} "
+                  f"({_fmt(b.imbalance_rel)} of inflow; tolerance {b.tolerance:g}) -> "
+                  f"{b.status}", ""]
+    lines += _vector_lines("Forces", (
+        ("support force on the fluid, R (solid -> fluid)", b.support_force),
+        ("force on the body, -R (fluid -> body)", b.force_on_body)), us, "force")
+    lines.append(_resultant_line(b.force_on_body, "force", us))
+    lines += _load_lines(b, us, wheel_radius, factors)
     jet = _fmt(b.jet_efficiency)
     if not np.ndim(b.jet_na):                      # why it is not a number
         jet = JET_NA.get(int(b.jet_na), jet)
-    lines.append(f"Jet efficiency (power / absolute kinetic-energy flux of the incoming jet): "
-                 f"{jet}")
-    lines.append(f"Propulsive efficiency (power / (power + kinetic energy left in the wake)): "
-                 f"{_fmt(b.propulsive_efficiency)}")
+    lines += ["", f"Power delivered to the moving body, F_body . V_cv [{pw}]: "
+                  f"{_fmt(us.out(b.power, 'power'))}",
+              f"Jet efficiency (power / absolute kinetic-energy flux of the incoming jet): "
+              f"{jet}",
+              f"Propulsive efficiency (power / (power + kinetic energy left in the wake)): "
+              f"{_fmt(b.propulsive_efficiency)}"]
     warns = b.warnings()
     if warns:
-        lines.append("")
-        lines.extend(f"warning: {w}" for w in warns)
+        lines += [""] + [f"warning: {w}" for w in warns]
     return "\n".join(lines)

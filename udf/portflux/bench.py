@@ -240,6 +240,18 @@ def bare_grid_balance(grid, cv):
     return bare_balance(si, np.array(cv[:3], dtype=float) * _FT)
 
 
+def _edited_grids(grid, count):
+    """``count`` copies of ``grid``, each with the area of port 1 changed a little (new
+    objects, so every one is a cache miss, as after an edit of the cell)."""
+    rows = list(grid)
+    out = []
+    for k in range(count):
+        r = list(rows[2])
+        r[2] = r[2] * (1.0 + 1e-9 * (k + 1))
+        out.append(tuple(rows[:2]) + (tuple(r),) + tuple(rows[3:]))
+    return iter(out)
+
+
 def bench_balance(quick):
     from . import cells
 
@@ -264,10 +276,13 @@ def bench_balance(quick):
         units._factor.cache_clear()
 
     cold = lambda: cells.PFX_BODYFORCE(grid, cv, None, "US")   # noqa: E731
+    edits = _edited_grids(grid, reps * inner + 8)
+    edited = lambda: cells.PFX_BODYFORCE(next(edits), cv, None, "US")   # noqa: E731
     t = interleaved({
         "bare": (lambda: bare_balance(si, v_si), inner, None),
         "grid": (lambda: bare_grid_balance(grid, cv), inner, None),
         "cold": (cold, max(inner // 4, 1), cells.clear_caches),
+        "edited": (edited, max(inner // 4, 1), None),
         "first": (cold, max(inner // 20, 1), clear_all),
         "warm": (cold, inner, None),
     }, reps)
@@ -278,6 +293,8 @@ def bench_balance(quick):
                 note="the baseline of the target"),
         _figure(b, "PFX_BODYFORCE cold (cells caches cleared)", t["cold"] * 1e6, "us",
                 note="grid parsed, ports built, model compiled and run; unit factors stay cached"),
+        _figure(b, "PFX_BODYFORCE, one number of the grid edited", t["edited"] * 1e6, "us",
+                note="a recalculation after an edit: caches kept, this grid is new"),
         _figure(b, "PFX_BODYFORCE warm (cache hit)", t["warm"] * 1e6, "us"),
         _figure(b, "PFX_BODYFORCE, unit factors cleared too", t["first"] * 1e6, "us",
                 note="first use of each unit in a process (pint parses it)"),
@@ -285,6 +302,8 @@ def bench_balance(quick):
                 "<= 5", 5.0, note="the target applies here: a changed input is a cache miss"),
         _figure(b, "ratio cold / bare SI arrays", t["cold"] / t["bare"], "x",
                 note="informational: parsing and checks included on one side only"),
+        _figure(b, "ratio edited / bare grid script", t["edited"] / t["grid"], "x",
+                note="informational: the header and unit rows are resolved already"),
         _figure(b, "ratio warm / bare grid script (same input again)", t["warm"] / t["grid"],
                 "x", note="cache hit; shown for comparison"),
     ]
@@ -327,18 +346,15 @@ def _core_vane():
     return p, Closures.build(p, ["", "free"])
 
 
-def bench_table(quick):
-    from . import cells
+def _table_inputs(quick):
+    """The speeds, the vane (ports, closures, grid, a column as a bridge hands it over), the
+    bare baseline's columns and the vane with positions; each checked against the baseline."""
     from .core import speed_table
 
     m = 2_000 if quick else 10 ** 6
-    reps = 1 if quick else 5
     u = np.linspace(-10.0, 45.0, m)
     x = [1.0, 0.0, 0.0]
     p, c = _core_vane()
-    grid = vane_ports()
-    col = tuple((float(s),) for s in u)                  # as a bridge hands a column over
-
     t = speed_table(p, u, x, closures=c)
     ref = bare_table(u)
     np.testing.assert_allclose(t.force_on_body[:, 0], ref[3], rtol=1e-9, atol=1e-6)
@@ -348,9 +364,16 @@ def bench_table(quick):
                        velocity=p.velocity, position=[[0.0, 0.3, 0.0]] * 2)
     tmom = speed_table(pm, u, x, closures=c, moments=True)
     np.testing.assert_allclose(tmom.moment_on_body[:, 2], -0.3 * ref[3], rtol=1e-9, atol=1e-6)
+    return dict(m=m, u=u, x=x, p=p, c=c, pm=pm, t=t, ref=ref, grid=vane_ports(),
+                col=tuple((float(s),) for s in u))
 
-    def core():
-        return speed_table(p, u, x, closures=c)
+
+def _table_cases(i) -> dict:
+    """The interleaved cases of benchmark 2 (name -> (fn, inner, setup))."""
+    from . import cells
+    from .core import speed_table
+
+    u, x, p, c, col = i["u"], i["x"], i["p"], i["c"], i["col"]
 
     def bare_e2e(pause_gc=True):
         s = np.asarray(col, dtype=float).ravel()
@@ -371,69 +394,66 @@ def bench_table(quick):
             out.insert(0, ["speed"] + [""] * 9)
         return out
 
-    have_cells = hasattr(cells, "PFX_SPEEDTABLE")
-
-    def sheet():
-        return cells.PFX_SPEEDTABLE(grid, col)
-
-    if have_cells:
-        got = sheet()
-        if isinstance(got, str):
-            raise RuntimeError(f"benchmark 2: PFX_SPEEDTABLE says {got}")
-        np.testing.assert_allclose([r[4] for r in got[1:]], ref[3], rtol=1e-9, atol=1e-6)
-
+    got = cells.PFX_SPEEDTABLE(i["grid"], col)
+    if isinstance(got, str):
+        raise RuntimeError(f"benchmark 2: PFX_SPEEDTABLE says {got}")
+    np.testing.assert_allclose([r[4] for r in got[1:]], i["ref"][3], rtol=1e-9, atol=1e-6)
     u100 = np.linspace(-10.0, 45.0, 100)
-    cases = {"bare": (lambda: bare_table(u), 1, None), "core": (core, 1, None),
-             "bare100": (lambda: bare_table(u100), 200, None),
-             "core100": (lambda: speed_table(p, u100, x, closures=c), 200, None),
-             "core_mom": (lambda: speed_table(pm, u, x, closures=c, moments=True), 1, None)}
-    cases.update({"bare_e": (bare_e2e, 1, None), "core_e": (core_e2e, 1, None),
-                  "bare_gc": (lambda: bare_e2e(pause_gc=False), 1, None)})
-    if have_cells:
-        cases["sheet"] = (sheet, 1, None)
-    tm = interleaved(cases, max(reps, 3))
-    t_bare, t_core = tm["bare"], tm["core"]
-    t_bare_e, t_core_e, t_bare_gc = tm["bare_e"], tm["core_e"], tm["bare_gc"]
-    out_mib = sum(a.nbytes for a in ref) / 2 ** 20
+    return {"bare": (lambda: bare_table(u), 1, None),
+            "core": (lambda: speed_table(p, u, x, closures=c), 1, None),
+            "bare100": (lambda: bare_table(u100), 200, None),
+            "core100": (lambda: speed_table(p, u100, x, closures=c), 200, None),
+            "core_mom": (lambda: speed_table(i["pm"], u, x, closures=c, moments=True), 1,
+                         None),
+            "bare_e": (bare_e2e, 1, None), "core_e": (core_e2e, 1, None),
+            "bare_gc": (lambda: bare_e2e(pause_gc=False), 1, None),
+            "sheet": (lambda: cells.PFX_SPEEDTABLE(i["grid"], col), 1, None)}
+
+
+def _table_memory(i) -> tuple:
+    """Output sizes and peak traced memory [MiB] of the baseline and the core table."""
+    from .core import speed_table
+
+    t, u = i["t"], i["u"]
+    out_mib = sum(a.nbytes for a in i["ref"]) / 2 ** 20
     core_mib = sum(a.nbytes for a in (t.speed, t.support_force, t.force_on_body, t.power,
                                        t.jet_efficiency, t.inflow, t.contact, t.balanced,
                                        t.valid)) / 2 ** 20
     pk_bare = _peak_mib(lambda: bare_table(u))
-    pk_core = _peak_mib(core)
-    b = f"2 speed table (m={m:,})"
-    rows = [
-        _figure(b, "bare numpy closed form (9 columns)", t_bare * 1e3, "ms"),
-        _figure(b, "core.speed_table, 'free' closure", t_core * 1e3, "ms"),
-        _figure(b, "ratio core / bare, compute only", t_core / t_bare, "x", "<= 1.3", 1.3),
+    pk_core = _peak_mib(lambda: speed_table(i["p"], u, i["x"], closures=i["c"]))
+    return out_mib, core_mib, pk_bare, pk_core
+
+
+def bench_table(quick):
+    i = _table_inputs(quick)
+    tm = interleaved(_table_cases(i), 3 if quick else 5)
+    out_mib, core_mib, pk_bare, pk_core = _table_memory(i)
+    b = f"2 speed table (m={i['m']:,})"
+    return [
+        _figure(b, "bare numpy closed form (9 columns)", tm["bare"] * 1e3, "ms"),
+        _figure(b, "core.speed_table, 'free' closure", tm["core"] * 1e3, "ms"),
+        _figure(b, "ratio core / bare, compute only", tm["core"] / tm["bare"], "x", "<= 1.3",
+                1.3),
         _figure(b, "core.speed_table with moments (rx, ry, rz)", tm["core_mom"] * 1e3, "ms",
                 note="6 more columns (support moment, moment on body), chunked"),
-        _figure(b, "ratio with moments / without", tm["core_mom"] / t_core, "x",
+        _figure(b, "ratio with moments / without", tm["core_mom"] / tm["core"], "x",
                 note="informational: same chunks, no loop over speeds"),
         _figure(b, "100 speeds: bare numpy closed form", tm["bare100"] * 1e6, "us"),
         _figure(b, "100 speeds: core.speed_table", tm["core100"] * 1e6, "us",
                 note="fixed cost of one table: compile the model, one chunk"),
         _figure(b, "100 speeds: ratio core / bare", tm["core100"] / tm["bare100"], "x"),
-        _figure(b, "bare numpy + asarray(tuple) + tolist", t_bare_e * 1e3, "ms",
+        _figure(b, "bare numpy + asarray(tuple) + tolist", tm["bare_e"] * 1e3, "ms",
                 note="gc paused while the row lists are built"),
-        _figure(b, "the same, garbage collector running", t_bare_gc * 1e3, "ms",
+        _figure(b, "the same, garbage collector running", tm["bare_gc"] * 1e3, "ms",
                 note="informational: what the pause saves"),
-        _figure(b, "core + the same conversions", t_core_e * 1e3, "ms"),
-        _figure(b, "ratio core / bare, end to end", t_core_e / t_bare_e, "x", "<= 1.5", 1.5,
-                note="both sides pay np.asarray on the tuple and .tolist() of the rows, "
-                     "gc paused"),
-    ]
-    if have_cells:
-        t_sheet = tm["sheet"]
-        rows += [
-            _figure(b, "PFX_SPEEDTABLE (tuple in, row lists out)", t_sheet * 1e3, "ms"),
-            _figure(b, "ratio PFX_SPEEDTABLE / bare, end to end", t_sheet / t_bare_e, "x",
-                    "<= 1.5", 1.5, note="cells parses the grid, converts units, writes a "
-                                        "header row and checks NaN rows"),
-        ]
-    else:
-        rows.append(_figure(b, "PFX_SPEEDTABLE (not in portflux.cells yet)", math.nan, "ms",
-                            note="worksheet path missing"))
-    rows += [
+        _figure(b, "core + the same conversions", tm["core_e"] * 1e3, "ms"),
+        _figure(b, "ratio core / bare, end to end", tm["core_e"] / tm["bare_e"], "x", "<= 1.5",
+                1.5, note="both sides pay np.asarray on the tuple and .tolist() of the rows, "
+                          "gc paused"),
+        _figure(b, "PFX_SPEEDTABLE (tuple in, row lists out)", tm["sheet"] * 1e3, "ms"),
+        _figure(b, "ratio PFX_SPEEDTABLE / bare, end to end", tm["sheet"] / tm["bare_e"], "x",
+                "<= 1.5", 1.5, note="cells parses the grid, converts units, writes a header "
+                                    "row and checks NaN rows"),
         _figure(b, "output arrays of the baseline", out_mib, "MiB"),
         _figure(b, "output arrays of core.speed_table", core_mib, "MiB",
                 note="adds speed, inflow, balanced, valid"),
@@ -442,7 +462,6 @@ def bench_table(quick):
         _figure(b, "core peak / core output", pk_core / core_mib, "x", "<= 3", 3.0,
                 note="'a few times the output'"),
     ]
-    return rows
 
 
 # --------------------------------------------------------------------------------------------

@@ -74,6 +74,9 @@ ARG_DOCS = {
     "quantity": "force (the force on the body, default) or moment (the moment on the body about "
                 "the reference point).",
     "inputs": "Any further range of input cells to include (e.g. the speed sweep's inputs).",
+    "moments": "TRUE adds the support moment and the moment on the body (x, y, z) about the "
+               "reference point to every row; needs the port positions rx, ry, rz (default "
+               "FALSE).",
 }
 
 #: Read options passed to xlwings for every argument. ``err_to_str`` makes xlwings hand over a
@@ -187,7 +190,7 @@ def PFX_SETTINGS():
     >>> [r[0] for r in PFX_SETTINGS()[1:]]
     ['fluid_mass', 'gx', 'gy', 'gz', 'tolerance', 'intercept', 'slip_angle', 'slip_x', \
 'slip_y', 'slip_z', 'wheel_radius', 'ax', 'ay', 'az', 'ref_x', 'ref_y', 'ref_z', 'cg_x', \
-'cg_y', 'cg_z', 'dynamic_factor', 'load_factor']
+'cg_y', 'cg_z', 'dynamic_factor', 'load_factor', 'units']
 
     No equation: a listing of the settings names.
 
@@ -220,7 +223,7 @@ def PFX_RELVEL(ports, cv_velocity, port, units=None):
     units : str, optional
         Output units; velocity in m/s (SI), ft/s (US).
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "m^2", "kg/m^3", "m/s", None),
     ...      ("a", 0.01, 1000.0, 30.0, "in"))
     >>> PFX_RELVEL(t, (12.0, 0.0, 0.0), "a")    # 30 - 12 m/s (Galilean addition)
     [[18.0, 0.0, 0.0]]
@@ -250,7 +253,7 @@ def PFX_RELVELS(ports, cv_velocity, units=None, labels=False, settings=None):
     settings : range, optional
         gravity (gx, gy, gz) for a Bernoulli outlet; the other settings do not change velocities.
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "m^2", "kg/m^3", "m/s", None),
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
     >>> PFX_RELVELS(t, 12.0, "SI", True)[0]
     ['port', 'wx [m/s]', 'wy [m/s]', 'wz [m/s]']
@@ -269,7 +272,7 @@ def PFX_ABSVEL(ports, cv_velocity, units=None, labels=False, settings=None):
     Parameters as PFX_RELVELS; the header reads "Vx [unit]". A closed outlet shows w + V_cv with
     the w its closure sets.
 
-    >>> t = (("port", "frame", "area", "density", "vx", "role"), (None,) * 6,
+    >>> t = (("port", "frame", "area", "density", "vx", "role"), (None, None, "m^2", "kg/m^3", "m/s", None),
     ...      ("out", "rel", 0.01, 1000.0, 18.0, "out"))
     >>> PFX_ABSVEL(t, 12.0)                    # 18 + 12 m/s
     [[30.0, 0.0, 0.0]]
@@ -297,7 +300,7 @@ def PFX_MASSFLOWS(ports, cv_velocity, units=None, labels=False, settings=None):
     settings : range, optional
         intercept 'train' scales the flows to the nozzle's full flow (bucket wheel).
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None, "cm^2", None, None, None),
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "cm^2", "kg/m^3", "m/s", None),
     ...      ("a", 100.0, 1000.0, 30.0, "in"))
     >>> PFX_MASSFLOWS(t, 12.0)                 # -1000 * 0.01 * (30 - 12) kg/s
     [[-180.0]]
@@ -324,7 +327,7 @@ def PFX_IMBALANCE(ports, cv_velocity, tolerance=None, units=None, settings=None)
     units : str, optional
         Output units [mass flow] of the first cell.
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "m^2", "kg/m^3", "m/s", None),
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 31.0, "out"))
     >>> PFX_IMBALANCE(t, 0.0)
     [[10.0, 0.03333333333333333, 'imbalance']]
@@ -357,7 +360,7 @@ def PFX_SUPPORT(ports, cv_velocity, axis=None, units=None, settings=None):
     settings : range, optional
         fluid_mass, gravity, intercept.
 
-    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None, "m^2", "kg/m^3", "m/s", "m/s", None, None),
     ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
     ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
     >>> round(PFX_SUPPORT(t, 10.0, "x"), 6)       # -rho A (V-U)^2 for a 90 degree turn
@@ -377,7 +380,7 @@ def PFX_BODYFORCE(ports, cv_velocity, axis=None, units=None, settings=None):
     A vane turning a jet through theta while running away from it at U takes
     F_x = rho A (V - U)^2 (1 - cos theta).
 
-    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None, "m^2", "kg/m^3", "m/s", "m/s", None, None),
     ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
     ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
     >>> [round(x, 6) for x in PFX_BODYFORCE(t, 10.0)[0]]
@@ -394,7 +397,7 @@ def PFX_BODYFORCE(ports, cv_velocity, axis=None, units=None, settings=None):
 def PFX_POWER(ports, cv_velocity, units=None, settings=None):
     """Power delivered to the moving body, P = F_body . V_cv [W (SI), hp (US)].
 
-    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None, "m^2", "kg/m^3", "m/s", "m/s", None, None),
     ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
     ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
     >>> round(PFX_POWER(t, 10.0, "SI; power=kW"), 6)     # 798.4 N * 10 m/s
@@ -417,7 +420,7 @@ def PFX_SHAFTTORQUE(ports, cv_velocity, units=None, settings=None):
     rev/s (peripheral speed U = omega r along +x, or along the angle typed after the speed).
 
     >>> t = (("port", "role", "frame", "area", "density", "speed", "angle", "closure"),
-    ...      (None,) * 8, ("jet", "in", "abs", 0.002, 998.0, 30.0, 0.0, None),
+    ...      (None, None, None, "m^2", "kg/m^3", "m/s", None, None), ("jet", "in", "abs", 0.002, 998.0, 30.0, 0.0, None),
     ...      ("bucket", "out", "rel", 0.002, 998.0, None, 180.0, "free"))
     >>> s = (("intercept", "train", None), ("wheel_radius", 0.5, "m"))
     >>> round(PFX_SHAFTTORQUE(t, (0.0, "rpm"), None, s), 3)   # held wheel: 2 rho A V^2 r
@@ -443,7 +446,7 @@ def PFX_EFFICIENCY(ports, cv_velocity, kind=None, settings=None, units=None):
     units : str, optional
         "SI; ratio=%" returns percent.
 
-    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None, "m^2", "kg/m^3", "m/s", "m/s", None, None),
     ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
     ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
     >>> round(PFX_EFFICIENCY(t, 10.0), 6)   # 7984 W / (0.5 * 998 * 0.002 * 30^3 W)
@@ -485,7 +488,7 @@ def PFX_MOMENT(ports, cv_velocity, axis=None, units=None, settings=None):
     0.5 m below the jet line, so the jet's push 1000 * 0.001 * 20^2 = 400 N along +x acts on a
     lever arm of 0.5 m: M_z = -400 * 0.5 N m (clockwise seen from +z):
 
-    >>> t = (("port", "role", "area", "density", "vx", "vy", "rx", "ry"), (None,) * 8,
+    >>> t = (("port", "role", "area", "density", "vx", "vy", "rx", "ry"), (None, None, "m^2", "kg/m^3", "m/s", "m/s", "m", "m"),
     ...      ("jet", "in", 10e-4, 1000.0, 20.0, 0.0, -0.1, 0.5),
     ...      ("up", "out", 10e-4, 1000.0, 0.0, 20.0, 0.0, 0.6))
     >>> round(PFX_MOMENT(t, 0.0, "z"), 9)
@@ -507,7 +510,7 @@ def PFX_SUPPORTMOMENT(ports, cv_velocity, axis=None, units=None, settings=None):
     Equation: M_R = sum r_i x (beta_i mdot_i w_i) + sum r_i x (p_i A_i n_i) - r_G x (m g),
     positions measured from the reference point.
 
-    >>> t = (("port", "role", "area", "density", "vx", "vy", "rx", "ry"), (None,) * 8,
+    >>> t = (("port", "role", "area", "density", "vx", "vy", "rx", "ry"), (None, None, "m^2", "kg/m^3", "m/s", "m/s", "m", "m"),
     ...      ("jet", "in", 10e-4, 1000.0, 20.0, 0.0, -0.1, 0.5),
     ...      ("up", "out", 10e-4, 1000.0, 0.0, 20.0, 0.0, 0.6))
     >>> round(PFX_SUPPORTMOMENT(t, 0.0, "z"), 9)
@@ -538,7 +541,7 @@ def PFX_RESULTANT(ports, cv_velocity, quantity=None, units=None, settings=None):
     units : str, optional
         Output units [force or moment, angle].
 
-    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None,) * 7,
+    >>> t = (("port", "area", "density", "vx", "vy", "role", "frame"), (None, "m^2", "kg/m^3", "m/s", "m/s", None, None),
     ...      ("in", 0.002, 998.0, 30.0, 0.0, "in", "abs"),
     ...      ("out", 0.002, 998.0, 0.0, 20.0, "out", "rel"))
     >>> [round(x, 6) for x in PFX_RESULTANT(t, 10.0)[0]]     # 798.4 * sqrt(2) at -45 deg
@@ -560,7 +563,7 @@ def PFX_FRAMECHECK(ports, cv_velocity, units=None, settings=None):
 
     The difference equals V_cv times the mass imbalance; it vanishes when mass balances.
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "m^2", "kg/m^3", "m/s", None),
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
     >>> [r[0] for r in PFX_FRAMECHECK(t, 10.0)]
     ['quantity [N]', 'sum mdot V (absolute frame)', 'sum mdot w (relative frame)', \
@@ -580,7 +583,7 @@ def PFX_FRAMECHECK(ports, cv_velocity, units=None, settings=None):
 def PFX_WARNINGS(ports, cv_velocity, settings=None):
     """Every warning of the balance, one per row ("none" when there is none).
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "m^2", "kg/m^3", "m/s", None),
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
     >>> PFX_WARNINGS(t, 10.0)
     'none'
@@ -599,7 +602,7 @@ def PFX_SUMMARY(ports, cv_velocity, units=None, settings=None):
     """All results in two columns, "quantity [unit]" and value: CV velocity, flows, imbalance,
     status, support force and force on body (x, y, z), power, efficiencies, warnings.
 
-    >>> t = (("port", "area", "density", "vx", "role"), (None,) * 5,
+    >>> t = (("port", "area", "density", "vx", "role"), (None, "m^2", "kg/m^3", "m/s", None),
     ...      ("a", 0.01, 1000.0, 30.0, "in"), ("b", 0.01, 1000.0, 30.0, "out"))
     >>> dict(PFX_SUMMARY(t, 10.0)[1:])["status"]
     'ok'
@@ -639,7 +642,7 @@ def PFX_SPLIT(ports, cv_velocity, units=None, settings=None):
     (1 - cos 60)/2 backward:
 
     >>> t = (("port", "role", "area", "density", "speed", "angle", "closure"),
-    ...      (None, None, "cm^2", None, None, "deg", None),
+    ...      (None, None, "cm^2", "kg/m^3", "m/s", "deg", None),
     ...      ("jet", "in", 3.0, 998.0, 25.0, 0.0, None),
     ...      ("fwd", "out", None, 998.0, None, 60.0, "solve"),
     ...      ("back", "out", None, 998.0, None, 240.0, "solve"))
@@ -653,13 +656,16 @@ def PFX_SPLIT(ports, cv_velocity, units=None, settings=None):
 
 @_excel_help
 @xw.func(category=CATEGORY)
-@_documented("ports", "speeds", "direction", "units", "settings")
-def PFX_SPEEDTABLE(ports, speeds, direction=None, units=None, settings=None):
+@_documented("ports", "speeds", "direction", "units", "settings", "moments")
+def PFX_SPEEDTABLE(ports, speeds, direction=None, units=None, settings=None, moments=False):
     """Speed table (m+1 x 10): per CV speed U along the direction, support force x y z, force
     on body x y z, power, jet efficiency and contact (1 fluid reaches the body, 0 outrun).
 
     The closures are re-applied at every speed; all speeds are evaluated at once (vectorised).
-    A blank cell among the speeds gives a blank output row.
+    A blank cell among the speeds gives a blank output row. Speeds typed in rpm (with
+    wheel_radius) add the shaft torque (11th column); moments TRUE adds six columns, the
+    support moment and the moment on the body x, y, z about the reference point (the same
+    table as the API's speed_table(..., moments=True)).
 
     Parameters
     ----------
@@ -672,13 +678,15 @@ def PFX_SPEEDTABLE(ports, speeds, direction=None, units=None, settings=None):
     units : str, optional
         Output units [velocity, force, power, ratio].
     settings : range, optional
-        intercept, slip directions, fluid_mass, gravity.
+        intercept, slip directions, fluid_mass, gravity; ref_x, ref_y, ref_z for moments.
+    moments : bool, optional
+        TRUE: add the moment columns [moment] (needs rx, ry, rz in the port table).
 
     A 2 cm^2, 40 m/s water jet on a vane turning it through 150 degrees, the vane running at
     0, 10 and 50 m/s: F_x = rho A (V - U)^2 (1 - cos 150), zero once the vane outruns the jet:
 
     >>> t = (("port", "role", "area", "density", "speed", "angle", "closure"),
-    ...      (None, None, "cm^2", None, None, None, None),
+    ...      (None, None, "cm^2", "kg/m^3", "m/s", None, None),
     ...      ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
     ...      ("exit", "out", 2.0, 998.0, None, 150.0, "free"))
     >>> [(r[0], round(r[4], 3), r[9]) for r in PFX_SPEEDTABLE(t, (("m/s",), (0.0,), (10.0,),
@@ -687,7 +695,8 @@ def PFX_SPEEDTABLE(ports, speeds, direction=None, units=None, settings=None):
 
     Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
-    return _guarded("PFX_SPEEDTABLE", S.speedtable, ports, speeds, direction, units, settings)
+    return _guarded("PFX_SPEEDTABLE", S.speedtable, ports, speeds, direction, units, settings,
+                    moments)
 
 
 @_excel_help
@@ -714,7 +723,7 @@ def PFX_BESTSPEED(ports, low, high, direction=None, units=None, settings=None):
     The vane of PFX_SPEEDTABLE does best at one third of the jet speed:
 
     >>> t = (("port", "role", "area", "density", "speed", "angle", "closure"),
-    ...      (None, None, "cm^2", None, None, None, None),
+    ...      (None, None, "cm^2", "kg/m^3", "m/s", None, None),
     ...      ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
     ...      ("exit", "out", 2.0, 998.0, None, 150.0, "free"))
     >>> round(PFX_BESTSPEED(t, 0.0, 40.0)[1][1], 6)        # 40/3 m/s
@@ -749,7 +758,7 @@ def PFX_SPEEDATFORCE(ports, value, low, high, component=None, direction=None, un
     U = V - sqrt(100 / (rho A (1 - cos 150))):
 
     >>> t = (("port", "role", "area", "density", "speed", "angle", "closure"),
-    ...      (None, None, "cm^2", None, None, None, None),
+    ...      (None, None, "cm^2", "kg/m^3", "m/s", None, None),
     ...      ("jet", "in", 2.0, 998.0, 40.0, 0.0, None),
     ...      ("exit", "out", 2.0, 998.0, None, 150.0, "free"))
     >>> round(PFX_SPEEDATFORCE(t, 100.0, 0.0, 40.0)[1][1], 6)
@@ -789,7 +798,7 @@ def PFX_ENVELOPE(ports, low, high, direction=None, units=None, settings=None):
     largest force is at U = 0, rho A V^2 (1 - cos 150):
 
     >>> t = (("port", "role", "area", "density", "speed", "angle", "closure", "rx"),
-    ...      (None, None, "cm^2", None, None, None, None, None),
+    ...      (None, None, "cm^2", "kg/m^3", "m/s", None, None, "m"),
     ...      ("jet", "in", 2.0, 998.0, 40.0, 0.0, None, 0.0),
     ...      ("exit", "out", 2.0, 998.0, None, 150.0, "free", 0.0))
     >>> [round(x, 3) for x in PFX_ENVELOPE(t, 0.0, 30.0)[1][1:]]

@@ -12,12 +12,14 @@ import os
 
 import numpy as np
 
-from .. import __version__, problem
+from .. import __version__
+from .. import builder as problem
+from .. import schema as S
 from ..core.model import JET_NA
 from ..cautions import CAUTION
 from ..core import resultant as _resultant
 from ._grid import CellError, describe, error_value, flag, is_number, one_cell, scalar_text
-from ._inputs import SETTINGS, cv_input, evaluate, evaluate_closed, tolerance, unit_system
+from ._inputs import cv_input, evaluate, evaluate_closed, tolerance, unit_system
 from ._inputs import settings as parse_settings
 
 AXES = {"x": 0, "y": 1, "z": 2, "1": 0, "2": 1, "3": 2}
@@ -106,15 +108,16 @@ def about():
 def columns(units=None):
     us = unit_system(units)
     out = [["column", "aliases", "default unit", "meaning"]]
-    for c in problem.COLUMNS.values():
-        unit = "(text)" if c.kind is None else us.label(c.kind)
+    for c in S.COLUMNS.values():
+        unit = "(text)" if c.kind is None else (c.unit if c.unit and us.spec is None
+                                                else us.label(c.kind))
         out.append([c.key, ", ".join(c.aliases), unit, c.help])
     return out
 
 
 def settings_names():
     return [["setting", "unit kind", "meaning"]] + [
-        [name, kind or "(text)", help_] for name, kind, help_ in SETTINGS.values()]
+        [s.key, s.kind or "(text)", s.help] for s in S.SETTINGS.values()]
 
 
 def relvel(ports, cv_velocity, port, units=None):

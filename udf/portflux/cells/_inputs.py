@@ -2,7 +2,7 @@
 
 Layout of the port table (rows counted from the top of the selected range):
 
-* row 1: column names (keys or aliases of :data:`portflux.problem.COLUMNS`, any order, any case);
+* row 1: column names (keys or aliases of :data:`portflux.schema.COLUMNS`, any order, any case);
 * row 2: the unit of each column as a pint string (blank = the column's default unit; text
   columns take none);
 * rows 3...: one port per row.
@@ -13,7 +13,7 @@ would shift every row below it against its port.
 
 The rows, the settings and the closure columns (closure, loss, source, share; height and p_gauge
 for a Bernoulli outlet) with the no-force ("slip") directions of the settings range are built
-into the compiled model by :func:`portflux.problem.build_problem`, the pipeline the Python API
+into the compiled model by :func:`portflux.builder.build_problem`, the pipeline the Python API
 uses too; this module only reads the cells and places messages on the sheet.
 
 Every parse result (or its error message) is cached on the frozen raw argument, so a sheet with
@@ -28,14 +28,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .. import problem as P
+from .. import builder as B
+from .. import schema as S
 from .. import units as U
-from ..core import (DEFAULT_IMBALANCE_TOL, SINGLE, STANDARD_GRAVITY, TRAIN, Balance,
-                    ClosedBalance, InputError, OutsideScopeError, polar_velocity)
+from ..builder import PortTable, Problem, Settings
+from ..core import Balance, ClosedBalance, InputError, OutsideScopeError, polar_velocity
 from ..excel import bounded_message
-from ..problem import PortTable, Problem, Settings
-from ._memo import memory_lru
-from ._grid import (CellError, blank_row, describe, error_value, freeze, is_blank, number,
+from ._memo import MISSING, MemoryLRU, memory_lru
+from ._grid import (CellError, blank_row, describe, error_value, freeze, is_blank, is_number, number,
                     one_cell, rows, trim)
 
 _TABLE_LAYOUT = "row 1 names the columns, row 2 gives their units, ports start at row 3"
@@ -77,46 +77,83 @@ def _text_cell(v, where, expected):
         raise CellError(f"{where}: expected {expected}, got {describe(v)}; {_TABLE_LAYOUT}")
 
 
-def _header(grid) -> tuple[dict, dict]:
-    cols, typed = {}, {}
-    for j, h in enumerate(grid[0]):
+@dataclass(frozen=True)
+class _Layout:
+    """What the header and unit rows of a port table say: column key -> index, header as
+    typed, unit as typed, whether SI is stated, the columns under a blank name."""
+
+    cols: dict
+    typed: dict
+    units: dict
+    si: bool
+    blank_names: tuple
+    unit_error: str | None      #: message of a bad unit row (raised after the header checks)
+
+
+def _header(head) -> tuple[dict, dict, tuple]:
+    cols, typed, blank = {}, {}, []
+    for j, h in enumerate(head):
         where = f"ports row 1, column {j + 1}"
         if is_blank(h):
-            for i in range(1, len(grid)):
-                if not is_blank(grid[i][j]):
-                    raise CellError(f"ports row {i + 1}, column {j + 1}: holds {describe(grid[i][j])} "
-                                    f"under a blank column name; name the column in row 1 or "
-                                    f"clear it")
+            blank.append(j)
             continue
         _text_cell(h, where, "a column name (text)")
         try:
-            key = P.resolve_header(h)
+            key = B.resolve_header(h)
         except InputError as e:
             raise CellError(f"{where}: {e.message}") from None
         if key in cols:
             raise CellError(f"ports row 1: columns {cols[key] + 1} ({typed[key]!r}) and {j + 1} "
                             f"({h.strip()!r}) both give {key}; keep one")
         cols[key], typed[key] = j, h.strip()
-    return cols, typed
+    return cols, typed, tuple(blank)
 
 
-def _unit_row(grid, cols, typed) -> dict:
-    units = {}
+def _unit_row(unit_row, cols, typed) -> tuple[dict, bool]:
+    """Units by column key as typed, and whether SI is stated (the word SI in the unit cell of
+    a text column). SI in a numeric column's cell is that column's default unit."""
+    units, si = {}, False
     for key, j in cols.items():
-        u = grid[1][j]
+        u = unit_row[j]
         where = f"ports row 2, {typed[key]}"
         if is_blank(u):
             continue
         _text_cell(u, where, "a unit (text) or a blank cell")
-        if P.COLUMNS[key].kind is None:
-            raise CellError(f"{where}: a text column takes no unit (got {u.strip()!r}); leave the "
-                            f"cell blank")
-        units[key] = u.strip()
-    return units
+        word = u.strip()
+        if word.lower() == S.SI_WORD:
+            if S.COLUMNS[key].kind is None:
+                si = True
+            else:
+                units[key] = S.default_unit(key, U.QUANTITIES) or ""
+            continue
+        if S.COLUMNS[key].kind is None:
+            raise CellError(f"{where}: a text column takes no unit (got {word!r}); leave the "
+                            f"cell blank (or type SI there: every blank unit cell of the table "
+                            f"then means its column's SI unit)")
+        units[key] = word
+    return units, si
+
+
+@memory_lru(512)
+def _layout(head, unit_row) -> tuple:
+    """(True, :class:`_Layout`) of a header and a unit row, or (False, message): resolved once
+    per distinct pair of rows (a sheet's many functions and edits of its numbers share it)."""
+    try:
+        cols, typed, blank = _header(head)
+    except CellError as e:
+        return False, str(e)
+    try:
+        units, si = _unit_row(unit_row, cols, typed)
+        error = None
+    except CellError as e:
+        units, si, error = {}, False, str(e)
+    return True, _Layout(cols, typed, units, si, blank, error)
 
 
 def _place(e: InputError, typed: dict) -> str:
     """Rewrite a spec/core InputError as "ports row R, <header as typed>: message"."""
+    if isinstance(e, B.MissingUnit):
+        return _missing_unit(e, typed)
     field, row = e.field, None
     if field and field.endswith(" unit"):
         field, row = field[:-len(" unit")], 2
@@ -126,9 +163,33 @@ def _place(e: InputError, typed: dict) -> str:
     msg = e.message
     if field in typed:
         return f"{head}, {typed[field]}: {msg}"
-    if field in P.COLUMNS:
+    if field in S.COLUMNS:
         return f"{head}, {field}: {msg} (the table has no {field} column)"
     return f"{head}, {field}: {msg}" if field else f"{head}: {msg}"
+
+
+def _missing_unit(e, typed) -> str:
+    q = U.quantity(e.kind)
+    text_cols = [typed[k] for k in typed if S.COLUMNS[k].kind is None]
+    under = f"under {text_cols[0]}" if text_cols else "of a text column (port, role, ...)"
+    return (f"ports row 2, {typed.get(e.key, e.key)}: the unit cell is blank beside a value "
+            f"(ports row {e.port + FIRST_PORT_ROW}); type its unit ({_a(e.kind)}, e.g. "
+            f"{q.examples}), or type SI in the unit cell {under} to read every blank unit cell "
+            f"of the table as its column's SI unit (angles deg, temperatures degC)")
+
+
+def _a(kind) -> str:
+    word = kind.replace("_", " ")
+    return ("an " if word[0] in "aeiou" else "a ") + word
+
+
+def _inside_blank_row(body):
+    for i, r in enumerate(body):
+        if blank_row(r):
+            nxt = next(k for k in range(i + 1, len(body)) if not blank_row(body[k]))
+            raise CellError(f"ports row {i + FIRST_PORT_ROW}: blank row inside the table (ports "
+                            f"continue at row {nxt + FIRST_PORT_ROW}); delete the row: blank rows "
+                            f"are ignored only after the last port")
 
 
 @_cached(256)
@@ -136,24 +197,29 @@ def _table(key) -> PortTable:
     grid = trim(rows(key))
     if not grid:
         raise CellError(f"ports: the range is blank; {_TABLE_LAYOUT}")
+    ok, lay = _layout(grid[0], grid[1] if len(grid) > 1 else (None,) * len(grid[0]))
+    if not ok:
+        raise CellError(lay)
+    columns = tuple(zip(*grid))
+    for j in lay.blank_names:                # a value under a blank column name
+        for i, v in enumerate(columns[j][1:], 2):
+            if not is_blank(v):
+                raise CellError(f"ports row {i}, column {j + 1}: holds {describe(v)} under a "
+                                f"blank column name; name the column in row 1 or clear it")
     if len(grid) == 1:
         raise CellError(f"ports: only a header row; {_TABLE_LAYOUT} (row 2 may be blank)")
-    cols, typed = _header(grid)
-    units = _unit_row(grid, cols, typed)   # first: a port typed in row 2 is named as such
+    if lay.unit_error:
+        raise CellError(lay.unit_error)
     if len(grid) == 2:
         raise CellError(f"ports: no port rows; {_TABLE_LAYOUT}")
     body = grid[2:]
-    for i, r in enumerate(body):
-        if blank_row(r):
-            nxt = next(k for k in range(i + 1, len(body)) if not blank_row(body[k]))
-            raise CellError(f"ports row {i + FIRST_PORT_ROW}: blank row inside the table (ports "
-                            f"continue at row {nxt + FIRST_PORT_ROW}); delete the row: blank rows "
-                            f"are ignored only after the last port")
-    table = {k: [r[j] for r in body] for k, j in cols.items()}
+    if any(map(blank_row, body)):
+        _inside_blank_row(body)
+    table = {k: columns[j][2:] for k, j in lay.cols.items()}
     try:
-        return P.build(table, units, headers=typed)
+        return B.build(table, lay.units, headers=lay.typed, si=lay.si)
     except InputError as e:
-        raise CellError(_place(e, typed)) from None
+        raise CellError(_place(e, lay.typed)) from None
 
 
 def port_table(raw) -> PortTable:
@@ -187,23 +253,42 @@ class CvInput:
     def factor(self, wheel_radius=None) -> tuple[float, bool]:
         """Typed unit -> m/s factor and whether the unit is rotational."""
         try:
-            return P.speed_factor(self.unit, wheel_radius)
+            return B.speed_factor(self.unit, wheel_radius)
         except InputError as e:
             raise CellError(f"cv_velocity, unit cell {self.cell}: {e.message}") from None
 
 
+def _cv_cells(full, grid):
+    """The cells of a cv_velocity range (trimmed ``grid`` of the ``full`` range): (value
+    cells, unit or None).
+
+    No unit, no value: a range of four or more cells (room for three values and a unit cell)
+    without a unit is refused. A speed in the first of three value cells with the other two
+    blank ("240 | | | rpm") is a speed along +x."""
+    cells = [c for r in grid for c in r]
+    width = len(full[0]) if len(grid) == 1 else len(full)
+    unit = None
+    if isinstance(cells[-1], str) and not error_value(cells[-1]) and not is_blank(cells[-1]):
+        unit = cells.pop().strip()
+    elif width >= 4 and len(cells) <= 3 and any(map(is_number, cells)):
+        raise CellError(f"cv_velocity cell {width}: the unit cell is blank; type the "
+                        f"unit of the velocity after the values (m/s, ft/s, km/h; rpm with a "
+                        f"wheel_radius setting)")
+    if len(cells) == 3 and is_number(cells[0]) and is_blank(cells[1]) and is_blank(cells[2]):
+        cells = cells[:1]                  # a speed in the x cell, y and z left blank
+    return cells, unit
+
+
 @_cached(1024)
 def _cv(key) -> CvInput:
-    grid = trim(rows(key))
+    full = rows(key)
+    grid = trim(full)
     if not grid:
         raise CellError(f"cv_velocity: is blank; give {_CV_FORMS} (0 for a CV at rest)")
     if len(grid) > 1 and len(grid[0]) > 1:
         raise CellError(f"cv_velocity: expected one row or one column, got a {len(grid)} x "
                         f"{len(grid[0])} range; give {_CV_FORMS}")
-    cells = [c for r in grid for c in r]
-    unit = None
-    if isinstance(cells[-1], str) and not error_value(cells[-1]) and not is_blank(cells[-1]):
-        unit = cells.pop().strip()
+    cells, unit = _cv_cells(full, grid)
     if not cells:
         try:
             U.factor(unit, "velocity")
@@ -215,7 +300,7 @@ def _cv(key) -> CvInput:
     if len(nums) > 3:
         raise CellError(f"cv_velocity: expected 1, 2 or 3 numbers, got {len(nums)}; give {_CV_FORMS}")
     try:
-        P.speed_kind(unit)
+        B.speed_kind(unit)
     except InputError as e:
         raise CellError(f"cv_velocity, unit cell {len(cells) + 1}: {e.message}") from None
     if len(nums) == 1:
@@ -246,90 +331,14 @@ def cv_velocity(raw, wheel_radius=None) -> np.ndarray:
 # --------------------------------------------------------------------------------------------
 # settings
 # --------------------------------------------------------------------------------------------
-SETTINGS = {  # normalised name -> (name shown, quantity kind or None for text, help)
-    "fluidmass": ("fluid_mass", "mass", "mass of fluid inside the CV (its weight is carried), "
-                                        "default 0"),
-    "gx": ("gx", "acceleration", "gravity x component, default 0"),
-    "gy": ("gy", "acceleration", "gravity y component, default 0"),
-    "gz": ("gz", "acceleration", f"gravity z component, default -{STANDARD_GRAVITY:g} m/s^2"),
-    "tolerance": ("tolerance", "ratio", "relative mass-imbalance tolerance, default "
-                                        f"{DEFAULT_IMBALANCE_TOL:g} (unit blank or %)"),
-    "intercept": ("intercept", None, "'single' vane (default) or vane 'train' (bucket wheel)"),
-    "slipangle": ("slip_angle", "angle", "in-plane direction (from +x toward +y, default unit "
-                                         "deg) along which the body carries no force "
-                                         "(frictionless surface); one condition for solved "
-                                         "outlet flows; repeat the row for more directions"),
-    "slipx": ("slip_x", "ratio", "x component of one more no-force direction (with slip_y, "
-                                 "slip_z; blank components are 0)"),
-    "slipy": ("slip_y", "ratio", "y component of that no-force direction"),
-    "slipz": ("slip_z", "ratio", "z component of that no-force direction"),
-    "wheelradius": ("wheel_radius", "length", "radius at which the jet meets a wheel (its "
-                                              "buckets' pitch radius); with it, the CV velocity "
-                                              "and speeds may be typed in rpm, rad/s or rev/s "
-                                              "(peripheral speed U = omega r) and shaft torques "
-                                              "are reported"),
-    "ax": ("ax", "acceleration", "CV acceleration x component: must be 0 (an accelerating CV "
-                                 "is outside the steady inertial form)"),
-    "ay": ("ay", "acceleration", "CV acceleration y component: must be 0"),
-    "az": ("az", "acceleration", "CV acceleration z component: must be 0"),
-    "refx": ("ref_x", "length", "x of the reference point (the support) about which moments "
-                                "are taken, in the axes of the port positions rx, ry, rz; "
-                                "default 0"),
-    "refy": ("ref_y", "length", "y of the reference point, default 0"),
-    "refz": ("ref_z", "length", "z of the reference point, default 0"),
-    "cgx": ("cg_x", "length", "x of the centroid of the fluid inside the CV (where its weight "
-                              "acts); needed for moments when fluid_mass > 0"),
-    "cgy": ("cg_y", "length", "y of the fluid's centroid (blank components 0)"),
-    "cgz": ("cg_z", "length", "z of the fluid's centroid"),
-    "dynamicfactor": ("dynamic_factor", "ratio", "factor for a suddenly applied jet, > 0; "
-                                                 "default 1: set it from your governing code"),
-    "loadfactor": ("load_factor", "ratio", "safety / load factor of the governing code, > 0; "
-                                           "default 1: set it from your code"),
-}
-_ACCELERATION = ("ax", "ay", "az")
-_REPEATABLE = ("slipangle",)
-_SLIP_COMPONENTS = ("slip_x", "slip_y", "slip_z")
+SETTINGS = S.SETTINGS     #: the settings a range may name (declared in portflux.schema)
 _SETTINGS_HEADER = ("setting", "name", "parameter", "quantity")
+_KNOWN = ", ".join(SETTINGS)
 
 
-def _setting_key(name) -> str:
-    return str(name).strip().lower().replace(" ", "").replace("_", "").replace("-", "")
-
-
-def _setting_value(name, kind, value, unit, where):
-    if kind is None:
-        if not is_blank(unit):
-            raise CellError(f"{where}: takes no unit (got {describe(unit)})")
-        if not isinstance(value, str) or value.strip().lower() not in (SINGLE, TRAIN):
-            raise CellError(f"{where}: must be 'single' or 'train' (got {describe(value)})")
-        return value.strip().lower()
-    x = number(value, where)
-    if not is_blank(unit) and not isinstance(unit, str):
-        raise CellError(f"{where}: the unit (column 3) must be text, got {describe(unit)}")
-    try:
-        si = x * U.factor(unit, kind)
-    except InputError as e:
-        raise CellError(f"{where} unit: {e.message}") from None
-    if name in ("fluid_mass", "tolerance") and si < 0:
-        shown = f" {unit.strip()}" if isinstance(unit, str) and unit.strip() else ""
-        raise CellError(f"{where}: must be >= 0 (got {x:g}{shown})")
-    if name in ("dynamic_factor", "load_factor") and not si > 0:
-        raise CellError(f"{where}: must be > 0 (got {x:g}); take the factor from your "
-                        f"governing code (1 = none)")
-    if name == "wheel_radius" and not si > 0:
-        shown = f" {unit.strip()}" if isinstance(unit, str) and unit.strip() else ""
-        raise CellError(f"{where}: must be > 0, the radius at the jet's centre line (got "
-                        f"{x:g}{shown})")
-    return si
-
-
-@_cached(256)
-def _settings(key) -> Settings:
-    if key is None:
-        return Settings()
-    grid = rows(key)
-    found, seen, directions = {}, {}, []
-    first = True
+def _setting_rows(grid) -> list:
+    """(row number, key, name as typed, value, unit) of each settings row, names checked."""
+    out, seen, first = [], {}, True
     for i, r in enumerate(grid, 1):
         if blank_row(r):
             continue
@@ -343,45 +352,72 @@ def _settings(key) -> Settings:
                             f"column 3")
         if not isinstance(name, str) or is_blank(name) or error_value(name):
             raise CellError(f"settings row {i}, column 1: expected a setting name, got "
-                            f"{describe(name)}; known: {', '.join(s[0] for s in SETTINGS.values())}")
-        k = _setting_key(name)
-        if k not in SETTINGS:
+                            f"{describe(name)}; known: {_KNOWN}")
+        key = S.SETTING_LOOKUP.get(S.normalised(name))
+        if key is None:
             raise CellError(f"settings row {i}: unknown setting {name.strip()!r}; known: "
-                            f"{', '.join(s[0] for s in SETTINGS.values())}")
-        shown, kind, _ = SETTINGS[k]
-        if k in seen and k not in _REPEATABLE:
-            raise CellError(f"settings rows {seen[k]} and {i}: both set {shown}; keep one")
-        seen.setdefault(k, i)
-        value = r[1] if len(r) > 1 else None
-        unit = r[2] if len(r) > 2 else None
-        x = _setting_value(shown, kind, value, unit, f"settings row {i}, {name.strip()}")
-        if k in _REPEATABLE:
-            directions.append((math.cos(x) + 0.0, math.sin(x) + 0.0, 0.0))
-        else:
-            found[shown] = x
-    for name in _ACCELERATION:
-        if found.pop(name, 0.0) != 0.0:
-            raise CellError(f"settings row {seen[name]}, {name}: an accelerating control volume "
-                            f"is outside the steady inertial form portflux solves; give a "
-                            f"constant CV velocity (acceleration 0)")
-    g = list(Settings.gravity)
-    for axis, name in enumerate(("gx", "gy", "gz")):
-        if name in found:
-            g[axis] = found.pop(name)
-    comps = [found.pop(c, 0.0) for c in _SLIP_COMPONENTS]
-    rows_ = sorted(seen[_setting_key(c)] for c in _SLIP_COMPONENTS if _setting_key(c) in seen)
-    if rows_:
-        if not math.hypot(*comps) > 1e-12:
-            raise CellError(f"settings row{'s' if len(rows_) > 1 else ''} "
-                            f"{', '.join(map(str, rows_))}: slip_x, slip_y, slip_z give a "
-                            f"zero-length direction; give the direction along which the body "
-                            f"carries no force")
-        directions.append(tuple(comps))
-    ref = tuple(found.pop(f"ref_{c}", 0.0) for c in "xyz")
-    cg_given = any(f"cg_{c}" in found for c in "xyz")
-    cg = tuple(found.pop(f"cg_{c}", 0.0) for c in "xyz")
-    return Settings(gravity=tuple(g), no_force=tuple(directions), reference=ref,
-                    fluid_centroid=cg if cg_given else None, **found)
+                            f"{_KNOWN}")
+        if key in seen and not SETTINGS[key].repeat:
+            raise CellError(f"settings rows {seen[key]} and {i}: both set {key}; keep one")
+        seen.setdefault(key, i)
+        out.append((i, key, name.strip(), r[1] if len(r) > 1 else None,
+                    r[2] if len(r) > 2 else None))
+    return out
+
+
+def _setting_entry(key, where, value, unit):
+    """The value and unit cells of one settings row as the builder takes them."""
+    if not is_blank(unit) and not isinstance(unit, str):
+        if SETTINGS[key].kind is None:
+            raise CellError(f"{where}: takes no unit (got {describe(unit)})")
+        number(value, where)
+        raise CellError(f"{where}: the unit (column 3) must be text, got {describe(unit)}")
+    if SETTINGS[key].kind is None:
+        return value, unit
+    return number(value, where), unit
+
+
+def _setting_message(e: InputError, where: str, key: str, unit) -> str:
+    if isinstance(e, B.MissingUnit):
+        q = U.quantity(e.kind)
+        return (f"{where}: the unit cell (column 3) is blank; type the unit ({_a(e.kind)}, "
+                f"e.g. {q.examples}), or add a settings row units | SI to read every blank "
+                f"unit cell of the range as SI")
+    if e.field and e.field.endswith(" unit"):
+        return f"{where} unit: {e.message}"
+    return f"{where}: {e.message}"
+
+
+@_cached(256)
+def _settings(key) -> Settings:
+    if key is None:
+        return Settings()
+    entries = _setting_rows(rows(key))
+    si = False
+    for i, k, name, value, unit in entries:
+        if k == S.UNITS_SETTING:
+            where = f"settings row {i}, {name}"
+            try:
+                si = B.setting_value(k, *_setting_entry(k, where, value, unit)) == S.SI_WORD
+            except InputError as e:
+                raise CellError(_setting_message(e, where, k, unit)) from None
+    values, where_of = [], {}
+    for i, k, name, value, unit in entries:
+        where = f"settings row {i}, {name}"
+        where_of.setdefault(k, []).append(i)
+        try:
+            values.append((k, B.setting_value(k, *_setting_entry(k, where, value, unit),
+                                              si=si)))
+        except InputError as e:
+            raise CellError(_setting_message(e, where, k, unit)) from None
+    try:
+        return B.settings_of(values)
+    except InputError as e:          # a check of a group: the rows of its components
+        s = S.SETTINGS.get(e.field)
+        group = S.SETTING_VECTORS[s.vector[0]] if s is not None and s.vector else (e.field,)
+        rows_ = sorted(i for k in group for i in where_of.get(k, ()))
+        raise CellError(f"settings row{'s' if len(rows_) > 1 else ''} "
+                        f"{', '.join(map(str, rows_))}: {e.message}") from None
 
 
 def settings(raw) -> Settings:
@@ -454,9 +490,14 @@ def render(e: InputError, t: PortTable | None) -> str:
     return e.describe(lambda i: f"row {i + FIRST_PORT_ROW}")
 
 
+def _sheet_place(t: PortTable):
+    """How a warning names a port's cell: "ports row 5, density" (the header as typed)."""
+    return lambda i, key: f"ports row {i + FIRST_PORT_ROW}, {t.headers.get(key, key)}"
+
+
 def _problem(t: PortTable, s: Settings, tol=None, kinematic=False) -> Problem:
     try:
-        return P.build_problem(t, s, tolerance=tol, kinematic=kinematic)
+        return B.build_problem(t, s, tolerance=tol, kinematic=kinematic, place=_sheet_place(t))
     except InputError as e:
         raise CellError(render(e, t)) from None
     except OutsideScopeError as e:
@@ -494,7 +535,7 @@ def evaluate(ports, cv, settings_raw=None, tol=None, *, kinematic=False
     """Parse (cached) and balance (cached) one control volume, closures applied.
 
     ``kinematic=True``: only the velocities are needed (see
-    :func:`portflux.problem.closures_of`).
+    :func:`portflux.builder.closures_of`).
     """
     t, b, _ = evaluate_closed(ports, cv, settings_raw, tol, kinematic=kinematic)
     return t, b
@@ -509,12 +550,30 @@ def evaluate_closed(ports, cv, settings_raw=None, tol=None, *, kinematic=False
     return value
 
 
-@memory_lru(256)
+#: Compiled problems by (parsed table, settings key, tolerance, kinematic). The table is the
+#: cached object itself (compared by identity), so its size is charged to the table cache;
+#: a model is charged an estimate from its port count (about forty float rows per port, and
+#: the closures' and the settings' few arrays): walking it would cost more than compiling.
+_COMPILED = MemoryLRU(256)
+_MODEL_BYTES_PER_PORT = 400
+
+
 def _compile(t: PortTable, skey, tol, kinematic):
+    key = (t, skey, tol, kinematic)
+    hit = _COMPILED.get(key)
+    if hit is not MISSING:
+        return hit
     try:
-        return True, _problem(t, _settings(skey), tol, kinematic)
+        value = True, _problem(t, _settings(skey), tol, kinematic)
     except CellError as e:
-        return False, str(e)
+        value = False, str(e)
+    _COMPILED.put(key, value, 16384 + _MODEL_BYTES_PER_PORT * t.n)
+    return value
+
+
+_compile.cache_clear = _COMPILED.clear
+_compile.cache_info = _COMPILED.info
+_compile.cache = _COMPILED
 
 
 def _compiled(t: PortTable, skey, tol=None, kinematic=False) -> Problem:
@@ -536,5 +595,5 @@ def setup(ports, settings_raw=None) -> Problem:
 
 def clear_caches():
     """Forget every parsed table and balance (tests; a long-running sheet never needs it)."""
-    for f in (_table, _cv, _settings, _unit_system, _units_of, _evaluate, _compile):
+    for f in (_table, _layout, _cv, _settings, _unit_system, _units_of, _evaluate, _compile):
         f.cache_clear()

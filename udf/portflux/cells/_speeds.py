@@ -1,6 +1,6 @@
 """Speed tables and optimum speeds from the worksheet: parsing the speed arguments, calling
 :mod:`portflux.core.sweep` once per call on the compiled model of
-:func:`portflux.problem.build_problem`, and building the spilled blocks.
+:func:`portflux.builder.build_problem`, and building the spilled blocks.
 
 A speed table may hold a million speeds. The range is turned into one numpy array in one call
 (a type check over the flat cells, then ``numpy.array``), the engine evaluates every speed in
@@ -23,9 +23,9 @@ from ..core import (ENVELOPE_ROWS, InputError, OutsideScopeError, best_speed, en
                     speed_at_force, speed_table)
 from ..core.model import JET_NA, NA_NO_JET
 from ..excel import shown
-from ..problem import shaft_torque, speed_factor, speed_kind
+from ..builder import shaft_torque, speed_factor, speed_kind
 from ._functions import cell_value
-from ._grid import (CellError, describe, error_value, freeze, is_blank, is_number, number,
+from ._grid import (CellError, describe, error_value, flag, freeze, is_blank, is_number, number,
                     plain_cell, rows, scalar_text, trim)
 from ._inputs import render, setup, unit_system
 
@@ -304,45 +304,63 @@ def _unmet(pb, d, lo, hi, us, sample=None, shown=None) -> str:
 # --------------------------------------------------------------------------------------------
 # worksheet bodies
 # --------------------------------------------------------------------------------------------
-def speedtable(ports, speeds, direction=None, units=None, settings=None):
+#: Moment columns PFX_SPEEDTABLE adds with moments TRUE (after the shaft torque of a wheel).
+MOMENT_COLUMNS = tuple((f"{name} {c}", "moment") for name in ("support moment",
+                                                              "moment on body") for c in "xyz")
+
+
+def _table_block(r, rotational, moments, radius, sf, us):
+    """The numbers of a speed table (m, width) in the output units, the speed as typed."""
+    cols = [r.speed / sf if rotational else r.speed, *r.support_force.T, *r.force_on_body.T,
+            r.power, r.jet_efficiency, r.contact]
+    kinds = [None if rotational else "velocity"] + [k for _, k in TABLE_COLUMNS] + [None]
+    if rotational:                     # speeds back in the unit typed; shaft torque T = F r
+        cols.append(shaft_torque(_along(r), radius))
+        kinds.append("moment")
+    if moments:
+        cols += [*r.support_moment.T, *r.moment_on_body.T]
+        kinds += ["moment"] * 6
+    out = np.column_stack(cols).astype(float)
+    for j, kind in enumerate(kinds):
+        if kind is not None:
+            f = U.factor(us.unit(kind), kind)          # one division per column, none for SI
+            if f != 1.0:
+                out[:, j] /= f
+    return out
+
+
+def _table_head(unit, rotational, moments, us):
+    head = [f"speed [{unit if rotational else us.label('velocity')}]"] + [
+        f"{name} [{us.label(kind)}]" for name, kind in TABLE_COLUMNS] + ["contact [1/0]"]
+    if rotational:
+        head.append(f"shaft torque, + along the rotation [{us.label('moment')}]")
+    if moments:
+        head += [f"{name} [{us.label(kind)}]" for name, kind in MOMENT_COLUMNS]
+    return head
+
+
+def speedtable(ports, speeds, direction=None, units=None, settings=None, moments=None):
     us = unit_system(units)
     d = parse_direction(direction)
+    with_moments = flag(moments, "moments")
     pb = setup(ports, settings)
     radius = pb.settings.wheel_radius
     u, unit, _, sf, rotational = parse_speeds(speeds, radius)
     blank = np.isnan(u)
     some_blank = bool(blank.any())
-    r = _engine(speed_table, pb.table, pb.model, u[~blank] if some_blank else u, d)
-    width = 2 + len(TABLE_COLUMNS) + rotational
-    out = np.zeros((u.size, width))
-    rows_ = out[~blank] if some_blank else out
-    rows_[:, 0] = r.speed
-    rows_[:, 1:4] = r.support_force
-    rows_[:, 4:7] = r.force_on_body
-    rows_[:, 7] = r.power
-    rows_[:, 8] = r.jet_efficiency
-    rows_[:, 9] = r.contact
-    scales = [(slice(1, 7), "force"), (slice(7, 8), "power"), (slice(8, 9), "ratio")]
-    if rotational:                     # speeds back in the unit typed; shaft torque T = F r
-        rows_[:, 0] /= sf
-        rows_[:, 10] = shaft_torque(_along(r), radius)
-        scales.append((slice(10, 11), "moment"))
-    else:
-        scales.append((slice(0, 1), "velocity"))
-    for cols, kind in scales:
-        f = U.factor(us.unit(kind), kind)            # one division per column, none for SI
-        if f != 1.0:
-            rows_[:, cols] /= f
+    r = _engine(speed_table, pb.table, pb.model, u[~blank] if some_blank else u, d,
+                moments=with_moments)
+    rows_ = _table_block(r, rotational, with_moments, radius, sf, us)
+    width = rows_.shape[1]
     if some_blank:
+        out = np.zeros((u.size, width))
         out[~blank] = rows_
+    else:
+        out = rows_
     out += 0.0                                          # no negative zeros
     nan_rows = np.flatnonzero(~np.isfinite(out).all(axis=1) & ~blank)
     met = np.ones(u.size, dtype=bool)
     met[~blank] = r.valid
-    head = [f"speed [{unit if rotational else us.label('velocity')}]"] + [
-        f"{name} [{us.label(kind)}]" for name, kind in TABLE_COLUMNS] + ["contact [1/0]"]
-    if rotational:
-        head.append(f"shaft torque, + along the rotation [{us.label('moment')}]")
     with no_gc():
         body = out.tolist()
         for i in np.flatnonzero(blank).tolist():
@@ -351,15 +369,15 @@ def speedtable(ports, speeds, direction=None, units=None, settings=None):
         na[~blank] = r.jet_na
         for i in nan_rows.tolist():
             body[i] = _text_row(body[i], met[i], int(na[i]))
-        body.insert(0, head)
+        body.insert(0, _table_head(unit, rotational, with_moments, us))
     return body
 
 
 def _text_row(row, met, jet_na=NA_NO_JET):
-    """A table row with its non-numbers as short texts (Excel shows no NaN or infinity)."""
+    """A table row with its non-numbers as short texts (Excel shows no NaN or infinity); the
+    speed (column 0) and the contact flag (column 9) stay numbers."""
     if not met:
-        return [row[0]] + ["n/a: closure not met"] * 8 + [row[9]] + (
-            ["n/a: closure not met"] if len(row) > 10 else [])
+        return [x if k in (0, 9) else "n/a: closure not met" for k, x in enumerate(row)]
     out = []
     for k, x in enumerate(row):
         if math.isinf(x):

@@ -160,86 +160,104 @@ class Closures:
         Reference: common practice, no source (input rules of this package).
         """
         n = ports.n
-        words = _per_port(rule, n, "closure")
         loss = _floats(loss, n, "loss")
         share = _floats(share, n, "share")
         unk = np.zeros(n, dtype=bool) if unknown is None else np.broadcast_to(
             np.asarray(unknown, dtype=bool), (n,)).copy()
         sources = _per_port(source, n, "source")
-        rules = []
-        for i, w in enumerate(words):
-            key = "" if w is None else str(w).strip().lower()
-            key = GIVEN if key == "" else key
-            if key not in SPEED_RULES + (SOLVE,):
-                raise InputError(f"must be one of given, free, loss, bernoulli, solve (got {w!r})",
-                                 port=i, field="closure")
-            if key == SOLVE:
-                unk[i] = True
-                key = LOSS if not np.isnan(loss[i]) else FREE
-            rules.append(key)
-
+        rules = _rules(_per_port(rule, n, "closure"), loss, unk)
         inlets = np.flatnonzero(ports.role == IN)
         src = np.full(n, -1, dtype=np.intp)
         direction = np.full((n, 3), np.nan)
         for i, r in enumerate(rules):
-            has_loss = not np.isnan(loss[i])
-            if has_loss and not 0.0 <= loss[i] < 1.0:
-                raise InputError(f"must be in [0, 1) (got {loss[i]:g})", port=i, field="loss")
-            if r == LOSS and not has_loss:
-                raise InputError("closure 'loss' needs the loss fraction", port=i, field="loss")
-            if r != LOSS and has_loss:
-                raise InputError(f"a loss fraction applies to closure 'loss' or 'solve' only "
-                                 f"(closure is {r!r})", port=i, field="loss")
-            has_share = not np.isnan(share[i])
-            if has_share and not 0.0 <= share[i] <= 1.0:
-                raise InputError(f"must be in [0, 1] (got {share[i]:g})", port=i, field="share")
-            if has_share and unk[i]:
-                raise InputError("an outlet with a share has a known flow; give a share or mark "
-                                 "it 'solve', not both", port=i, field="share")
-            involved = r != GIVEN or has_share or unk[i]
-            if involved and ports.role[i] != OUT:
-                what = f"closure {r!r}" if r != GIVEN else ("a share" if has_share else "'solve'")
-                raise InputError(f"{what} applies to outlets; declare role 'out'", port=i,
-                                 field="role")
-            if involved and ports.given_flow[i]:
-                raise InputError("the mass flow is given; a share or 'solve' would replace it "
-                                 "(leave mass_flow blank)" if has_share or unk[i] else
-                                 "the mass flow is given; with a closure the flow follows from "
-                                 "area x density x closed speed (leave mass_flow blank)",
-                                 port=i, field="mass_flow")
+            _check_row(ports, i, r, loss[i], share[i], unk[i], sources[i])
             if r == GIVEN:
-                if not _blank(sources[i]):
-                    raise InputError(f"a source inlet applies to closures free, loss, bernoulli "
-                                     f"(closure is 'given'; got {sources[i]!r})", port=i,
-                                     field="source")
                 continue
             src[i] = _source_index(ports, inlets, sources[i], i)
-            vel = ports.velocity[i]
-            s = np.linalg.norm(vel)
-            direction[i] = vel / s if s > 0 else ports.normal[i]
-            if not np.linalg.norm(direction[i]) > 0:
-                raise InputError("a closure needs a direction: give the velocity's angle or the "
-                                 "normal", port=i, field="velocity")
-            if r == BERNOULLI and np.isnan(ports.density[i]) and np.isnan(
-                    ports.density[src[i]]):
-                raise InputError("the Bernoulli closure needs the density", port=i,
-                                 field="density")
-
-        d = np.zeros((0, 3)) if no_force is None else np.asarray(no_force, dtype=float)
-        if d.shape == (3,):
-            d = d[None, :]
-        if d.ndim != 2 or d.shape[1] != 3:
-            raise InputError(f"expected rows of 3 components, got shape {d.shape}",
-                             argument="no_force")
-        length = np.linalg.norm(d, axis=1)
-        for c in range(d.shape[0]):
-            if not np.all(np.isfinite(d[c])) or not length[c] > 1e-12:
-                raise InputError(f"direction {c + 1} must be finite and non-zero (got "
-                                 f"{d[c].tolist()})", argument="no_force")
-        d = d / length[:, None] if d.size else d
+            direction[i] = _direction(ports, i, r, src[i])
+        d = _no_force(no_force)
         _check_count(ports, unk, d.shape[0])
         return cls(tuple(rules), np.where(np.isnan(loss), 0.0, loss), src, share, unk, d,
                    direction)
+
+
+def _rules(words, loss, unk) -> list:
+    """The speed rule of each port ('solve' marks its flow unknown in ``unk``, in place, and
+    takes the rule 'loss' with a loss fraction, else 'free')."""
+    rules = []
+    for i, w in enumerate(words):
+        key = "" if w is None else str(w).strip().lower()
+        key = GIVEN if key == "" else key
+        if key not in SPEED_RULES + (SOLVE,):
+            raise InputError(f"must be one of given, free, loss, bernoulli, solve (got {w!r})",
+                             port=i, field="closure")
+        if key == SOLVE:
+            unk[i] = True
+            key = LOSS if not np.isnan(loss[i]) else FREE
+        rules.append(key)
+    return rules
+
+
+def _check_row(ports, i, r, loss, share, unknown, source):
+    """The closure columns of port ``i`` against its rule, role and given flow."""
+    has_loss = not np.isnan(loss)
+    if has_loss and not 0.0 <= loss < 1.0:
+        raise InputError(f"must be in [0, 1) (got {loss:g})", port=i, field="loss")
+    if r == LOSS and not has_loss:
+        raise InputError("closure 'loss' needs the loss fraction", port=i, field="loss")
+    if r != LOSS and has_loss:
+        raise InputError(f"a loss fraction applies to closure 'loss' or 'solve' only "
+                         f"(closure is {r!r})", port=i, field="loss")
+    has_share = not np.isnan(share)
+    if has_share and not 0.0 <= share <= 1.0:
+        raise InputError(f"must be in [0, 1] (got {share:g})", port=i, field="share")
+    if has_share and unknown:
+        raise InputError("an outlet with a share has a known flow; give a share or mark "
+                         "it 'solve', not both", port=i, field="share")
+    involved = r != GIVEN or has_share or unknown
+    if involved and ports.role[i] != OUT:
+        what = f"closure {r!r}" if r != GIVEN else ("a share" if has_share else "'solve'")
+        raise InputError(f"{what} applies to outlets; declare role 'out'", port=i,
+                         field="role")
+    if involved and ports.given_flow[i]:
+        raise InputError("the mass flow is given; a share or 'solve' would replace it "
+                         "(leave mass_flow blank)" if has_share or unknown else
+                         "the mass flow is given; with a closure the flow follows from "
+                         "area x density x closed speed (leave mass_flow blank)",
+                         port=i, field="mass_flow")
+    if r == GIVEN and not _blank(source):
+        raise InputError(f"a source inlet applies to closures free, loss, bernoulli "
+                         f"(closure is 'given'; got {source!r})", port=i, field="source")
+
+
+def _direction(ports, i, r, k) -> np.ndarray:
+    """Unit direction of closed outlet ``i``'s relative velocity (its velocity as given, else
+    its normal); the Bernoulli rule needs a density at the outlet or its source ``k``."""
+    vel = ports.velocity[i]
+    s = np.linalg.norm(vel)
+    d = vel / s if s > 0 else ports.normal[i]
+    if not np.linalg.norm(d) > 0:
+        raise InputError("a closure needs a direction: give the velocity's angle or the "
+                         "normal", port=i, field="velocity")
+    if r == BERNOULLI and np.isnan(ports.density[i]) and np.isnan(ports.density[k]):
+        raise InputError("the Bernoulli closure needs the density", port=i, field="density")
+    return d
+
+
+def _no_force(no_force) -> np.ndarray:
+    """(c, 3) unit no-force directions, each checked finite and non-zero."""
+    d = np.zeros((0, 3)) if no_force is None else np.asarray(no_force, dtype=float)
+    if d.shape == (3,):
+        d = d[None, :]
+    if d.ndim != 2 or d.shape[1] != 3:
+        raise InputError(f"expected rows of 3 components, got shape {d.shape}",
+                         argument="no_force")
+    length = np.linalg.norm(d, axis=1)
+    for c in range(d.shape[0]):
+        if not np.all(np.isfinite(d[c])) or not length[c] > 1e-12:
+            raise InputError(f"direction {c + 1} must be finite and non-zero (got "
+                             f"{d[c].tolist()})", argument="no_force")
+    return d / length[:, None] if d.size else d
 
 
 def _source_index(ports, inlets, given, i):

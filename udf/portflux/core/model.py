@@ -38,6 +38,9 @@ Adding a per-port quantity (e.g. a position r_i for moments) means one more coef
 
 from __future__ import annotations
 
+import math
+from functools import cached_property
+
 import numpy as np
 
 from .closures import BERNOULLI, LOSS, Closures  # noqa: F401  (Closures: doctests)
@@ -81,6 +84,26 @@ ALL = frozenset((FORCES, POWER, JET, WAKE, FRAME, PORTS, CLOSURE))
 TABLE = frozenset((FORCES, POWER, JET))
 
 
+def _options(intercept, tol, fluid_mass, gravity, cv_acceleration):
+    """The options of a :class:`Model` checked: (fluid mass [kg], gravity (3,) [m/s^2])."""
+    if cv_acceleration is not None and np.any(np.asarray(cv_acceleration, float) != 0.0):
+        raise OutsideScopeError(
+            "cv_acceleration: an accelerating control volume is outside the steady "
+            "inertial form; give a constant CV velocity (acceleration 0)")
+    if intercept not in (SINGLE, TRAIN):
+        raise InputError(f"must be 'single' or 'train' (got {intercept!r})",
+                         argument="intercept")
+    if not (math.isfinite(tol) and tol >= 0):
+        raise InputError(f"must be >= 0 (got {tol})", argument="tolerance")
+    fluid_mass = float(fluid_mass)
+    if not math.isfinite(fluid_mass) or fluid_mass < 0:
+        raise InputError(f"must be >= 0 (got {fluid_mass})", argument="fluid_mass")
+    g = np.asarray(gravity, dtype=float)
+    if g.shape != (3,) or not np.all(np.isfinite(g)):
+        raise InputError("must be 3 finite components", argument="gravity")
+    return fluid_mass, g
+
+
 def cv_velocities(v_cv) -> np.ndarray:
     """CV velocity array [m/s] of shape (..., 3), checked finite.
 
@@ -95,6 +118,19 @@ def cv_velocities(v_cv) -> np.ndarray:
     if not np.all(np.isfinite(v)):
         raise InputError("must be finite numbers", argument="cv_velocity")
     return v
+
+
+class _Evaluation:
+    """What one :meth:`Model.evaluate_columns` passes between its kernels: the CV velocities
+    (3, m), the arrays found so far and the results (``out``)."""
+
+    __slots__ = ("VT", "m", "active", "dest", "out", "q", "bad", "wn", "mdot", "inlet_outflow",
+                 "outrun", "pace", "inflow", "no_contact", "contact", "any_bad", "kb", "body")
+
+    def __init__(self, VT, dest):
+        self.VT, self.m, self.dest, self.out = VT, VT.shape[1], dest, {}
+        self.active = [c for c in range(3) if VT[c].any()]   # components of V_cv not all zero
+        self.q = self.bad = None
 
 
 #: Balance fields computed only when read, by the quantity group that holds them.
@@ -323,6 +359,12 @@ class Model:
     fluid_centroid : array_like (3,), optional
         Centroid of the fluid inside the CV (where its weight acts) [m]; needed for moments
         when ``fluid_mass`` > 0.
+    remedies : dict, optional
+        What to add for moments, in the words of the caller ("position", "fluid_centroid" ->
+        text; :func:`portflux.builder.remedies`); default the core's own words.
+    notes : sequence of str
+        Warnings found when the inputs were read (implausible values), reported with the
+        others by :meth:`Balance.warnings`.
 
     Examples
     --------
@@ -347,73 +389,19 @@ class Model:
     def __init__(self, ports: Ports, closures: Closures | None = None, *, intercept=SINGLE,
                  fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_GRAVITY),
                  tol=DEFAULT_IMBALANCE_TOL, cv_acceleration=None, reference=(0.0, 0.0, 0.0),
-                 fluid_centroid=None):
-        if cv_acceleration is not None and np.any(np.asarray(cv_acceleration, float) != 0.0):
-            raise OutsideScopeError(
-                "cv_acceleration: an accelerating control volume is outside the steady "
-                "inertial form; give a constant CV velocity (acceleration 0)")
-        if intercept not in (SINGLE, TRAIN):
-            raise InputError(f"must be 'single' or 'train' (got {intercept!r})",
-                             argument="intercept")
-        if not (np.isfinite(tol) and tol >= 0):
-            raise InputError(f"must be >= 0 (got {tol})", argument="tolerance")
-        fluid_mass = float(fluid_mass)
-        if not np.isfinite(fluid_mass) or fluid_mass < 0:
-            raise InputError(f"must be >= 0 (got {fluid_mass})", argument="fluid_mass")
-        g = np.asarray(gravity, dtype=float)
-        if g.shape != (3,) or not np.all(np.isfinite(g)):
-            raise InputError("must be 3 finite components", argument="gravity")
+                 fluid_centroid=None, remedies=None, notes=()):
+        fluid_mass, g = _options(intercept, tol, fluid_mass, gravity, cv_acceleration)
         n = ports.n
         self.ports, self.closures, self.n = ports, closures, n
         self.intercept, self.tol, self.train = intercept, float(tol), intercept == TRAIN
-        role = ports.role
-        self.is_in, self.is_out, self.unroled = role == IN, role == OUT, role == UNKNOWN
-        self.any_in = bool(self.is_in.any())
-        self.given = ports.given_flow.copy()
-        # A given flow on a declared inlet typed in the absolute frame whose velocity brings
-        # fluid in (V.n < 0) is a fixed nozzle's discharge rho A (V.n): the moving body
-        # intercepts rho A (w.n) of it, so the row is compiled as the product rho A it implies.
-        closed0 = np.zeros(n, bool) if closures is None else closures.closed
-        vn_typed = np.einsum("ij,ij->i", ports.velocity, ports.normal)
-        self.discharge = (self.given & self.is_in & ~ports.relative & ~closed0
-                          & (vn_typed < 0.0))
-        self.given &= ~self.discharge
-        self.m_given = np.where(self.given, ports.mass_flow, 0.0)
-        if self.train:
-            inlets = np.flatnonzero(self.is_in)
-            if inlets.size != 1 or self.given[inlets[0]]:
-                raise InputError("a vane train needs exactly one declared inlet whose flow is "
-                                 "computed from area, density and velocity",
-                                 argument="intercept")
-            self.k = int(inlets[0])
-        # -- coefficient rows: w = W0 - a V + q E ---------------------------------------------
-        closed = np.zeros(n, bool) if closures is None else closures.closed
-        self.closed = closed
-        self.cl = np.flatnonzero(closed)
-        self.a = np.where(~ports.relative & ~closed, 1.0, 0.0)
-        self.b = 1.0 - self.a                      # v_abs = W0 + b V + q E
-        self.W0 = np.where(closed[:, None], 0.0, ports.velocity)
-        self.N = ports.normal
-        self.W0n = np.einsum("ij,ij->i", self.W0, self.N)
-        self.W0sq = np.einsum("ij,ij->i", self.W0, self.W0)
-        with np.errstate(invalid="ignore"):
-            rho_a = ports.density * ports.area     # NaN where the flow is given or solved
-        self.rho_a0 = np.where(np.isnan(rho_a), 0.0, rho_a)
-        if self.discharge.any():
-            d = self.discharge
-            self.rho_a0[d] = np.abs(ports.mass_flow[d]) / -vn_typed[d]
-        self.beta = ports.beta
-        area0 = np.where(np.isnan(ports.area), 0.0, ports.area)
-        self.pressure_force = -(ports.p_gauge * area0)[:, None] * self.N      # on the fluid
-        self.p_total = self.pressure_force.sum(axis=0)
-        self.weight = fluid_mass * g
+        self._compile_roles(ports, closures)
+        self._compile_rows(ports, fluid_mass, g)
         # -- closures: q_j = sqrt(a_j |w_src|^2 + c_j) along E_j --------------------------------
         self.flow = np.zeros(n, bool)
         if closures is not None:
             self._compile_closures(ports, closures, float(np.linalg.norm(g)))
         self.flow_rows = np.flatnonzero(self.flow)
         self.aN = self.a[:, None] * self.N
-        self.w0_rows = [np.flatnonzero(self.W0[:, c] != 0.0) for c in range(3)]
         # rows whose flow may be negative: declared inlets (outside a train, never positive)
         # and the rest that are not surely >= 0 (closed outlets along their normal, given
         # outflows); solved and shared flows are added after the split
@@ -423,49 +411,119 @@ class Model:
         inlet = self.is_in & ~self.train
         self.in_rows = np.flatnonzero(inlet)
         self.neg_rows = np.flatnonzero(~inlet & (~surely_pos | self.train))
-        self.beta_one = bool(np.all(self.beta == 1.0))
-        self.loads_any = bool(np.any(self.p_total != 0.0) or np.any(self.weight != 0.0))
-        self._compile_jets(ports)
-        self.static_notes = tuple(self._static_notes(closures))
-        # one declared jet with computed flow, every other port a closed outlet from it whose
-        # relative speed is kept or lost (free, loss, or a Bernoulli rise), uniform flow, no
-        # pressure or weight: the fluid cannot gain kinetic energy while the body gets power
+        self.beta_one = bool((self.beta == 1.0).all())
+        self.loads_any = bool((self.p_total != 0.0).any() or (self.weight != 0.0).any())
+        self.static_notes = tuple(self._static_notes(closures)) + tuple(notes)
+        self._compile_moments(ports, reference, fluid_centroid, dict(remedies or {}))
+
+    def _compile_roles(self, ports, closures):
+        """Role flags, given flows (a fixed nozzle's discharge apart) and the closed rows."""
+        n, role = self.n, ports.role
+        self.is_in, self.is_out, self.unroled = role == IN, role == OUT, role == UNKNOWN
+        self.any_in = bool(self.is_in.any())
+        self.given = ports.given_flow.copy()
+        closed = np.zeros(n, bool) if closures is None else closures.closed
+        # A given flow on a declared inlet typed in the absolute frame whose velocity brings
+        # fluid in (V.n < 0) is a fixed nozzle's discharge rho A (V.n): the moving body
+        # intercepts rho A (w.n) of it, so the row is compiled as the product rho A it implies.
+        self.discharge = np.zeros(n, bool)
+        self._vn_typed = None
+        if (self.given & self.is_in).any():
+            self._vn_typed = np.einsum("ij,ij->i", ports.velocity, ports.normal)
+            self.discharge = (self.given & self.is_in & ~ports.relative & ~closed
+                              & (self._vn_typed < 0.0))
+            self.given &= ~self.discharge
+        self.m_given = np.where(self.given, ports.mass_flow, 0.0)
+        if self.train:
+            inlets = np.flatnonzero(self.is_in)
+            if inlets.size != 1 or self.given[inlets[0]]:
+                raise InputError("a vane train needs exactly one declared inlet whose flow is "
+                                 "computed from area, density and velocity",
+                                 argument="intercept")
+            self.k = int(inlets[0])
+        self.closed = closed
+        self.cl = np.flatnonzero(closed)
+
+    def _compile_rows(self, ports, fluid_mass, g):
+        """The coefficient rows: w = W0 - a V + q E, rho A, beta, pressure and weight."""
+        closed = self.closed
+        self.a = np.where(~ports.relative & ~closed, 1.0, 0.0)
+        self.W0 = np.where(closed[:, None], 0.0, ports.velocity) if self.cl.size else \
+            ports.velocity
+        self.N = ports.normal
+        self.W0n = np.einsum("ij,ij->i", self.W0, self.N)
+        with np.errstate(invalid="ignore"):
+            rho_a = ports.density * ports.area     # NaN where the flow is given or solved
+        self.rho_a0 = np.where(np.isnan(rho_a), 0.0, rho_a)
+        if self.discharge.any():
+            d = self.discharge
+            self.rho_a0[d] = np.abs(ports.mass_flow[d]) / -self._vn_typed[d]
+        self.beta = ports.beta
+        area0 = np.where(np.isnan(ports.area), 0.0, ports.area)
+        self.pressure_force = -(ports.p_gauge * area0)[:, None] * self.N      # on the fluid
+        self.p_total = self.pressure_force.sum(axis=0)
+        self.weight = fluid_mass * g
+
+    # -- compiled on first use (the groups that need them) ------------------------------------
+    @cached_property
+    def b(self):
+        """(n,) 1 - a: v_abs = W0 + b V + q E."""
+        return 1.0 - self.a
+
+    @cached_property
+    def W0sq(self):
+        """(n,) |W0|^2."""
+        return np.einsum("ij,ij->i", self.W0, self.W0)
+
+    @cached_property
+    def w0_rows(self):
+        """Rows with a non-zero W0 component, per component (long tables, :meth:`_sum_w`)."""
+        return [np.flatnonzero(self.W0[:, c] != 0.0) for c in range(3)]
+
+    @cached_property
+    def passive(self) -> bool:
+        """One declared jet with computed flow, every other port a closed outlet from it whose
+        relative speed is kept or lost (free, loss, or a Bernoulli rise), uniform flow, no
+        pressure or weight: the fluid cannot gain kinetic energy while the body gets power."""
         others = ~self.is_in
-        self.passive = bool(
+        return bool(
             np.count_nonzero(self.is_in) == 1 and not self.given.any()
-            and not self.loads_any and self.beta_one and not np.any(ports.p_gauge)
+            and not self.loads_any and self.beta_one and not np.any(self.ports.p_gauge)
             and np.all(self.closed[others])
             and (not self.cl.size or (np.all(self.qa <= 1.0) and np.all(self.qc <= 0.0))))
-        self._compile_moments(ports, reference, fluid_centroid)
 
-    def _compile_moments(self, ports, reference, centroid):
-        """Lever arms r_i = position_i - O and the constant moments of the port pressures and
-        of the weight about O (on the fluid); what is missing for moments, if anything."""
+    def _compile_moments(self, ports, reference, centroid, remedies):
+        """The reference point and the fluid's centroid checked, and what is missing for
+        moments, if anything (the lever arms are compiled on first use: :attr:`_levers`)."""
         o = np.asarray(reference, dtype=float)
         if o.shape != (3,) or not np.all(np.isfinite(o)):
             raise InputError("must be 3 finite components", argument="reference")
         self.reference = o
         need = []
         if not ports.has_position:
-            need.append("the port positions: add the columns rx, ry, rz (a length unit in the "
-                        "unit row; a blank cell is 0) to the port table")
+            need.append("the port positions: " + remedies.get(
+                "position", "give each port's position (Ports.build(position=...))"))
         g = None if centroid is None else np.asarray(centroid, dtype=float)
         if g is not None and (g.shape != (3,) or not np.all(np.isfinite(g))):
             raise InputError("must be 3 finite components", argument="fluid_centroid")
-        if g is None and np.any(self.weight != 0.0):
-            need.append("the centroid of the fluid inside the CV, where its weight acts: add "
-                        "the settings cg_x, cg_y, cg_z (or set fluid_mass 0)")
+        if g is None and (self.weight != 0.0).any():
+            need.append("the centroid of the fluid inside the CV, where its weight acts: " +
+                        remedies.get("fluid_centroid", "give fluid_centroid= (or a fluid "
+                                                       "mass of 0)"))
         self.moment_need = "moments need " + "; and ".join(need) if need else ""
-        if need:
-            return
-        R = ports.position - o                           # (n, 3) lever arms
-        self.R = R
-        self.RxW0 = np.cross(R, self.W0)                 # (n, 3)
-        self.RxE = np.cross(R, self.E) if self.cl.size else np.zeros((self.n, 3))
+        self._centroid = g
+
+    @cached_property
+    def _levers(self):
+        """(R, R x W0, R x E, moment of the pressures and the weight about O on the fluid)
+        with the lever arms R = position - O."""
+        self.require_moments()
+        R = self.ports.position - self.reference               # (n, 3) lever arms
+        RxE = np.cross(R, self.E) if self.cl.size else np.zeros((self.n, 3))
         m_loads = np.cross(R, self.pressure_force).sum(axis=0)
-        if g is not None:
-            m_loads = m_loads + np.cross(g - o, self.weight)
-        self.m_loads = m_loads                          # moment of pressures + weight on fluid
+        if self._centroid is not None:
+            m_loads = m_loads + np.cross(self._centroid - self.reference, self.weight)
+        return R, np.cross(R, self.W0), RxE, m_loads
 
     def require_moments(self):
         """Raise :class:`InputError` (argument "ports") naming what moments still need."""
@@ -484,18 +542,20 @@ class Model:
                    f"force along itself, so the split solved with both is not consistent; drop "
                    f"the loss or the no-force direction")
 
-    def _compile_jets(self, ports):
-        """Split the jet kinetic-energy flux into a constant (absolute inlets with computed
+    @cached_property
+    def _jets(self):
+        """The jet kinetic-energy flux split into a constant (absolute inlets with computed
         flow: rho A max(-V.n, 0) |V|^2 / 2) and the rows evaluated per CV velocity."""
+        ports = self.ports
         steady = self.is_in & ~self.given & (self.a == 1.0)
         vn = np.einsum("ij,ij->i", ports.velocity, self.N)
         v2 = np.einsum("ij,ij->i", ports.velocity, ports.velocity)
-        self.jet_const = float(np.sum(0.5 * self.rho_a0[steady] * np.maximum(-vn[steady], 0.0)
-                                      * v2[steady]))
+        const = float(np.sum(0.5 * self.rho_a0[steady] * np.maximum(-vn[steady], 0.0)
+                             * v2[steady]))
         En = self.En if self.cl.size else np.zeros(self.n)
         never = (self.given & (ports.mass_flow >= 0.0) & ~self.train) | (
             self.closed & (En >= 0.0) & ~self.given)
-        self.jet_rows = np.flatnonzero(~steady & ~never)
+        return const, np.flatnonzero(~steady & ~never)
 
     def _compile_closures(self, ports, c: Closures, gmag):
         cl = self.cl
@@ -645,69 +705,100 @@ class Model:
 
         Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
         """
-        dest = dest or {}
-        m = VT.shape[1]
-        n = self.n
-        out = {}
-        active = [c for c in range(3) if VT[c].any()]  # components of V_cv not all zero
+        e = _Evaluation(VT, dest or {})
+        self._relative_flows(e)
+        self._contact(e)
+        self._mass_balance(e, unreachable)
+        self._forces(e)
+        if MOMENT in want:
+            self._moments(e)
+        if want & {POWER, JET, WAKE}:
+            self._power(e)
+        if JET in want:
+            self._jet(e)
+        if WAKE in want:
+            self._wake(e)
+        if FRAME in want:
+            e.out["flux_relative"] = self._sum_w(e.mdot, VT, e.q, self.a)
+            e.out["flux_absolute"] = self._sum_w(e.mdot, VT, e.q, -self.b)
+        if PORTS in want:
+            self._port_vectors(e)
+        if CLOSURE in want:
+            self._closure_results(e)
+        if e.any_bad.any():
+            _blank(e.out, e.any_bad)
+        return e.out
+
+    # -- the kernels of evaluate_columns, one per quantity group ------------------------------
+    def _relative_flows(self, e):
+        """w.n of every port (closed outlets: q E.n), mass flows rho A (w.n) (given ones as
+        given, solved ones 0 until the split), inlets outrun or kept pace with."""
+        VT, cl = e.VT, self.cl
         wn = self.aN @ VT                                     # w_i . n_i = W0.n - a n.V
         np.subtract(self.W0n[:, None], wn, out=wn)
-        cl = self.cl
-        q = bad = None
         if cl.size:
-            q, bad = self._closure_speeds(VT, active)         # (k, m)
-            wn[cl] = q * self.En[cl, None]
-        # -- mass flows -----------------------------------------------------------------------
+            e.q, e.bad = self._closure_speeds(VT, e.active)   # (k, m)
+            wn[cl] = e.q * self.En[cl, None]
         mdot = np.multiply(wn, self.rho_a0[:, None])
         if self.given.any():
             mdot[self.given] = self.m_given[self.given, None]
         if self.flow.any():
             mdot[self.flow] = 0.0                             # solved below
-        inlet_outflow = self.is_in[:, None] & (wn > 0.0)      # an outrun inlet carries nothing
+        e.inlet_outflow = self.is_in[:, None] & (wn > 0.0)    # an outrun inlet carries nothing
         # an inlet the body keeps pace with (w.n = 0 because the CV moves along its normal)
         # brings nothing either: "no contact", the same answer in a status and a speed table
         pace = self.is_in[:, None] & (wn == 0.0)
         if pace.any():
             pace &= self.aN @ VT != 0.0
-            outrun = inlet_outflow | pace
+            e.outrun = e.inlet_outflow | pace
         else:
-            outrun = inlet_outflow
-        np.copyto(mdot, 0.0, where=inlet_outflow)
+            e.outrun = e.inlet_outflow
+        e.pace = pace
+        np.copyto(mdot, 0.0, where=e.inlet_outflow)
+        e.wn, e.mdot = wn, mdot
+
+    def _contact(self, e):
+        """A vane train's flows scaled to the nozzle's; the total inflow; no contact."""
+        wn, mdot, VT = e.wn, e.mdot, e.VT
         if self.train:
             k = self.k
             with np.errstate(divide="ignore", invalid="ignore"):
                 scale = np.where(wn[k] < 0, (wn[k] + self.N[k] @ VT) / wn[k], 0.0)
             mdot *= scale
-        inflow = self._inflow(mdot, dest.get("inflow"))
+        inflow = self._inflow(mdot, e.dest.get("inflow"))
         # No contact: the body outruns every jet. Either every declared inlet is outrun and no
         # port without a declared role brings fluid in (an outlet typed in the absolute frame
         # may then show a spurious inflow: it has no fluid to carry), or some inlet is outrun
         # and nothing enters at all. A CV at rest with zero flows is statics, not "no contact".
-        some_out = outrun.any(axis=0)
+        some_out = e.outrun.any(axis=0)
         if self.any_in:
-            all_out = (outrun | ~self.is_in[:, None]).all(axis=0)
+            all_out = (e.outrun | ~self.is_in[:, None]).all(axis=0)
             if self.unroled.any():
                 all_out &= ~(mdot[self.unroled] < 0.0).any(axis=0)
         else:
-            all_out = np.zeros(m, bool)
+            all_out = np.zeros(e.m, bool)
         no_contact = all_out | ((inflow == 0.0) & some_out)
         if no_contact.any():
             np.copyto(mdot, 0.0, where=no_contact)
             np.copyto(inflow, 0.0, where=no_contact)
-        contact = ~no_contact
-        if bad is not None:
-            bad &= contact
-        any_bad = np.zeros(m, bool) if bad is None else bad.any(axis=0)
+        e.inflow, e.no_contact, e.contact = inflow, no_contact, ~no_contact
+        if e.bad is not None:
+            e.bad &= e.contact
+        e.any_bad = np.zeros(e.m, bool) if e.bad is None else e.bad.any(axis=0)
+
+    def _mass_balance(self, e, unreachable):
+        """The split of solved and shared outlets, then the mass imbalance."""
+        mdot, inflow = e.mdot, e.inflow
         if self.flow_rows.size:
-            flows = self._split(VT, q, mdot, inflow, any_bad | ~contact)
+            flows = self._split(e.VT, e.q, mdot, inflow, e.any_bad | e.no_contact)
             mdot[self.flow_rows] = flows
             inflow += -np.minimum(flows, 0.0).sum(axis=0)
-        if unreachable == RAISE and any_bad.any():
-            at = int(np.argmax(any_bad))
-            j = int(cl[int(np.argmax(bad[:, at]))])
+        if unreachable == RAISE and e.any_bad.any():
+            at = int(np.argmax(e.any_bad))
+            j = int(self.cl[int(np.argmax(e.bad[:, at]))])
             raise InputError(f"Bernoulli closure: the outlet cannot be reached from inlet "
                              f"{self.ports.names[self.closures.source[j]]!r} at CV velocity "
-                             f"{np.round(VT[:, at], 9).tolist()} m/s (the outlet's pressure and "
+                             f"{np.round(e.VT[:, at], 9).tolist()} m/s (the outlet's pressure and "
                              f"height head exceed the inlet's total head in the moving frame)",
                              port=j, field="closure")
         imbalance = mdot.sum(axis=0)
@@ -717,124 +808,138 @@ class Model:
         if dry.any():
             imb = imbalance[dry]
             imbalance_rel[dry] = np.where(imb == 0, 0.0, np.copysign(np.inf, imb))
-        out.update(mass_flow=mdot, inflow=inflow, imbalance=imbalance,
-                   imbalance_rel=imbalance_rel, balanced=np.abs(imbalance_rel) <= self.tol,
-                   no_contact=no_contact, contact=contact, valid=~any_bad)
-        if PORTS in want:
-            out["outflow"] = np.maximum(mdot, 0.0).sum(axis=0)
-        # -- forces: sum_i beta mdot w_i = W0^T k - V (a . k) + E^T (k q) ---------------------
-        kb = mdot if self.beta_one else self.beta[:, None] * mdot
-        support = self._sum_w(kb, VT, q, self.a, dest.get("support_force"), active)
-        touching = ~no_contact
+        e.out.update(mass_flow=mdot, inflow=inflow, imbalance=imbalance,
+                     imbalance_rel=imbalance_rel, balanced=np.abs(imbalance_rel) <= self.tol,
+                     no_contact=e.no_contact, contact=e.contact, valid=~e.any_bad)
+
+    def _forces(self, e):
+        """R = sum beta mdot w - (pressures + weight) in contact = W0^T k - V (a . k)
+        + E^T (k q) with k = beta mdot; the force on the body -R."""
+        kb = e.mdot if self.beta_one else self.beta[:, None] * e.mdot
+        support = self._sum_w(kb, e.VT, e.q, self.a, e.dest.get("support_force"), e.active)
         if self.loads_any:                              # pressure and weight act in contact
-            support -= (self.p_total + self.weight)[:, None] * touching
+            support -= (self.p_total + self.weight)[:, None] * e.contact
         support += 0.0                                  # no negative zeros in outputs
-        body = np.subtract(0.0, support, out=dest.get("force_on_body"))   # (0 - 0 = +0)
-        out.update(support_force=support, force_on_body=body)
-        if MOMENT in want:
-            self.require_moments()
-            mom = self.RxW0.T @ kb                                  # sum r x W0 k
-            ARk = self.R.T @ (self.a[:, None] * kb)                 # (3, m): sum a k r
-            for c in active:                                        # - (sum a k r) x V
-                c1, c2 = (c + 1) % 3, (c + 2) % 3
-                mom[c1] -= ARk[c2] * VT[c]
-                mom[c2] += ARk[c1] * VT[c]
-            if q is not None:
-                mom += self.RxE[cl].T @ (kb[cl] * q)
-            if np.any(self.m_loads != 0.0):
-                mom -= self.m_loads[:, None] * touching
-            mom += 0.0
-            dm = dest.get("support_moment")
-            if dm is not None:
-                dm[...] = mom
-                mom = dm
-            out["support_moment"] = mom
-            out["moment_on_body"] = np.subtract(0.0, mom, out=dest.get("moment_on_body"))
-        if PORTS in want:
-            out["weight"] = self.weight[:, None] * touching
-        if want & {POWER, JET, WAKE}:
-            power = dest.get("power")
-            power = np.zeros(m) if power is None else power
-            if active:
-                np.multiply(body[active[0]], VT[active[0]], out=power)
-                for c in active[1:]:
-                    power += body[c] * VT[c]
-                power += 0.0
-            else:
-                power.fill(0.0)
-            out["power"] = power
-        if JET in want:
-            jet_ke = self._jet_ke(VT, q, wn, mdot)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                eff = np.divide(out["power"], jet_ke, out=dest.get("jet_efficiency"))
-            if np.ndim(jet_ke) == 0:
-                if not jet_ke > 0:
-                    eff.fill(np.nan)
-            else:
-                np.copyto(eff, np.nan, where=~(jet_ke > 0))
-            # Not an efficiency (NaN, with the reason in jet_na): above 1, or a propulsor (the
-            # fluid leaves with more absolute kinetic energy while the body receives power: the
-            # power comes from an engine, not from the jets)
-            power = out["power"]
-            na = np.zeros(m, np.int8)
-            np.copyto(na, NA_NO_JET, where=np.logical_not(np.greater(jet_ke, 0.0)))
-            # a passive body (one jet, closed outlets that keep or lose relative speed, no
-            # loads) with the mass balanced cannot be a propulsor: sum mdot |v|^2 / 2 =
-            # sum mdot |w|^2 / 2 - P <= -P; the kinetic-energy test runs elsewhere only
-            look = ~out["balanced"] if self.passive else None
-            if look is None or look.any():
-                ke_net = self._ke_net(VT, q, mdot, active)
-                with np.errstate(invalid="ignore"):
-                    prop = (power > 0) & (ke_net > 1e-12 * (np.abs(power) + jet_ke)) & (na == 0)
-                if look is not None:
-                    prop &= look
-                np.copyto(na, NA_PROPULSOR, where=prop)
+        body = np.subtract(0.0, support, out=e.dest.get("force_on_body"))   # (0 - 0 = +0)
+        e.kb, e.body = kb, body
+        e.out.update(support_force=support, force_on_body=body)
+
+    def _moments(self, e):
+        """M_R = sum r x (beta mdot w) - moments of the pressures and weight, three small
+        matrix products: (R x W0)^T k - (R^T a k) x V + (R x E)^T (k q)."""
+        R, RxW0, RxE, m_loads = self._levers
+        kb, VT, q = e.kb, e.VT, e.q
+        mom = RxW0.T @ kb                                       # sum r x W0 k
+        ARk = R.T @ (self.a[:, None] * kb)                      # (3, m): sum a k r
+        for c in e.active:                                      # - (sum a k r) x V
+            c1, c2 = (c + 1) % 3, (c + 2) % 3
+            mom[c1] -= ARk[c2] * VT[c]
+            mom[c2] += ARk[c1] * VT[c]
+        if q is not None:
+            mom += RxE[self.cl].T @ (kb[self.cl] * q)
+        if (m_loads != 0.0).any():
+            mom -= m_loads[:, None] * e.contact
+        mom += 0.0
+        dm = e.dest.get("support_moment")
+        if dm is not None:
+            dm[...] = mom
+            mom = dm
+        e.out["support_moment"] = mom
+        e.out["moment_on_body"] = np.subtract(0.0, mom, out=e.dest.get("moment_on_body"))
+
+    def _power(self, e):
+        """P = F_body . V_cv (only the components of V that are not all zero)."""
+        power = e.dest.get("power")
+        power = np.zeros(e.m) if power is None else power
+        VT, body, active = e.VT, e.body, e.active
+        if active:
+            np.multiply(body[active[0]], VT[active[0]], out=power)
+            for c in active[1:]:
+                power += body[c] * VT[c]
+            power += 0.0
+        else:
+            power.fill(0.0)
+        e.out["power"] = power
+
+    def _jet(self, e):
+        """Jet efficiency P / (jet kinetic-energy flux), NaN with its reason (``jet_na``)
+        where it is not an efficiency: no jet, above 1, or a propulsor."""
+        out, m = e.out, e.m
+        jet_ke = self._jet_ke(e.VT, e.q, e.wn, e.mdot)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            eff = np.divide(out["power"], jet_ke, out=e.dest.get("jet_efficiency"))
+        if np.ndim(jet_ke) == 0:
+            if not jet_ke > 0:
+                eff.fill(np.nan)
+        else:
+            np.copyto(eff, np.nan, where=~(jet_ke > 0))
+        # Not an efficiency (NaN, with the reason in jet_na): above 1, or a propulsor (the
+        # fluid leaves with more absolute kinetic energy while the body receives power: the
+        # power comes from an engine, not from the jets)
+        power = out["power"]
+        na = np.zeros(m, np.int8)
+        np.copyto(na, NA_NO_JET, where=np.logical_not(np.greater(jet_ke, 0.0)))
+        # a passive body (one jet, closed outlets that keep or lose relative speed, no
+        # loads) with the mass balanced cannot be a propulsor: sum mdot |v|^2 / 2 =
+        # sum mdot |w|^2 / 2 - P <= -P; the kinetic-energy test runs elsewhere only
+        look = ~out["balanced"] if self.passive else None
+        if look is None or look.any():
+            ke_net = self._ke_net(e.VT, e.q, e.mdot, e.active)
             with np.errstate(invalid="ignore"):
-                np.copyto(na, NA_ABOVE_ONE, where=eff > 1.0 + 1e-9)
-            np.copyto(eff, np.nan, where=na != NA_NONE)
-            out["jet_efficiency"] = eff
-            out["jet_na"] = na
-            out["jet_ke_flux"] = np.broadcast_to(jet_ke, (m,))
-        if WAKE in want:
-            ke_net = self._ke_net(VT, q, mdot, active)
-            power = out["power"]
-            with np.errstate(divide="ignore", invalid="ignore"):
-                denom = power + ke_net
-                # defined where the fluid gains energy (ke_net >= 0): then it is at most 1
-                out["propulsive_efficiency"] = np.where(
-                    (power > 0) & (ke_net >= 0) & (denom > 1e-12 * np.maximum(power, 1.0)),
-                    power / denom, np.nan)
-            out["ke_flux_net"] = ke_net
-        if FRAME in want:
-            out["flux_relative"] = self._sum_w(mdot, VT, q, self.a)
-            out["flux_absolute"] = self._sum_w(mdot, VT, q, -self.b)
-        if PORTS in want:
-            V = VT.T
-            w = self.W0[None] - self.a[None, :, None] * V[:, None, :]
-            if cl.size:
-                w[:, cl] = q.T[..., None] * self.E[cl]
-            out["w"] = w
-            out["v_abs"] = w + V[:, None, :]
-            out["momentum_flux"] = kb.T[..., None] * w
-            out["inlet_outflow"] = inlet_outflow
-            out["inlet_pace"] = pace
-            out["outlet_inflow"] = self.is_out[:, None] & (wn < 0.0)
-        if CLOSURE in want:
-            speed = np.full((n, m), np.nan)
-            unreach = np.zeros((n, m), bool)
-            if cl.size:
-                speed[cl] = q
-                unreach[cl] = bad
-            out["closure_speed"] = speed
-            out["unreachable"] = unreach
-            out["reversed_flow"] = self.flow[:, None] & (mdot < -1e-9 * np.abs(inflow))
-            dens = self.ports.density[:, None]
-            with np.errstate(divide="ignore", invalid="ignore"):
-                out["stream_area"] = np.where(self.flow[:, None] & (wn > 0), mdot / (dens * wn),
-                                              np.nan)
-        if any_bad.any():
-            _blank(out, any_bad)
-        return out
+                prop = (power > 0) & (ke_net > 1e-12 * (np.abs(power) + jet_ke)) & (na == 0)
+            if look is not None:
+                prop &= look
+            np.copyto(na, NA_PROPULSOR, where=prop)
+        with np.errstate(invalid="ignore"):
+            np.copyto(na, NA_ABOVE_ONE, where=eff > 1.0 + 1e-9)
+        np.copyto(eff, np.nan, where=na != NA_NONE)
+        out["jet_efficiency"] = eff
+        out["jet_na"] = na
+        out["jet_ke_flux"] = np.broadcast_to(jet_ke, (m,))
+
+    def _wake(self, e):
+        """Net absolute kinetic-energy outflow and the propulsive efficiency P / (P + it)."""
+        ke_net = self._ke_net(e.VT, e.q, e.mdot, e.active)
+        power = e.out["power"]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            denom = power + ke_net
+            # defined where the fluid gains energy (ke_net >= 0): then it is at most 1
+            e.out["propulsive_efficiency"] = np.where(
+                (power > 0) & (ke_net >= 0) & (denom > 1e-12 * np.maximum(power, 1.0)),
+                power / denom, np.nan)
+        e.out["ke_flux_net"] = ke_net
+
+    def _port_vectors(self, e):
+        """Per-port w, v_abs, momentum flux (m, n, 3), role flags, outflow and weight."""
+        out, cl = e.out, self.cl
+        V = e.VT.T
+        w = self.W0[None] - self.a[None, :, None] * V[:, None, :]
+        if cl.size:
+            w[:, cl] = e.q.T[..., None] * self.E[cl]
+        out["w"] = w
+        out["v_abs"] = w + V[:, None, :]
+        out["momentum_flux"] = e.kb.T[..., None] * w
+        out["inlet_outflow"] = e.inlet_outflow
+        out["inlet_pace"] = e.pace
+        out["outlet_inflow"] = self.is_out[:, None] & (e.wn < 0.0)
+        out["outflow"] = np.maximum(e.mdot, 0.0).sum(axis=0)
+        out["weight"] = self.weight[:, None] * e.contact
+
+    def _closure_results(self, e):
+        """Closure speeds, unreachable Bernoulli outlets, reversed flows, stream areas."""
+        n, m, cl = self.n, e.m, self.cl
+        speed = np.full((n, m), np.nan)
+        unreach = np.zeros((n, m), bool)
+        if cl.size:
+            speed[cl] = e.q
+            unreach[cl] = e.bad
+        e.out["closure_speed"] = speed
+        e.out["unreachable"] = unreach
+        e.out["reversed_flow"] = self.flow[:, None] & (e.mdot < -1e-9 * np.abs(e.inflow))
+        dens = self.ports.density[:, None]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            e.out["stream_area"] = np.where(self.flow[:, None] & (e.wn > 0),
+                                            e.mdot / (dens * e.wn), np.nan)
 
     def _sum_w(self, k, VT, q, a, out=None, active=(0, 1, 2)):
         """sum_i k_i (W0_i - a_i V + q_i E_i) over ports, shape (3, m) (``active``: the
@@ -886,16 +991,16 @@ class Model:
         a jet in of (1/2) mdot_abs |V|^2, mdot_abs = rho A max(-V.n, 0) (computed flow, a
         declared inlet or a port whose relative flow enters) or max(-mdot, 0) (given flow).
         Absolute inlets with computed flow give a constant, found once at compile time."""
-        rows = self.jet_rows
+        const, rows = self._jets
         if not rows.size:
-            return self.jet_const
+            return const
         v2 = self._v_abs2(VT, q)[rows]
         given = self.given[rows, None]
         vn = wn[rows] + self.N[rows] @ VT
         flow = np.where(given, np.maximum(-mdot[rows], 0.0),
                         np.where(self.is_in[rows, None] | (wn[rows] < 0.0),
                                  self.rho_a0[rows, None] * np.maximum(-vn, 0.0), 0.0))
-        return self.jet_const + 0.5 * (flow * v2).sum(axis=0)
+        return const + 0.5 * (flow * v2).sum(axis=0)
 
     def _ke_net(self, VT, q, mdot, active=(0, 1, 2)):
         """Net outflow of absolute kinetic energy [W], (1/2) sum mdot |v_abs|^2 (m,), row by

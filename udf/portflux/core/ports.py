@@ -42,7 +42,9 @@ def role_code(word) -> int:
     return _ROLE_WORDS[key]
 
 
-def _column(values, n, default=np.nan):
+def _column(values, n, default=np.nan, blank_is_default=False):
+    """A per-port column (n,) as a new float array; NaN (blank) becomes ``default`` where
+    ``blank_is_default``."""
     if values is None:
         return np.full(n, default, dtype=float)
     a = np.asarray(values, dtype=float)
@@ -50,7 +52,94 @@ def _column(values, n, default=np.nan):
         a = np.full(n, float(a))
     if a.shape != (n,):
         raise InputError(f"expected {n} values, got shape {a.shape}")
-    return a.copy()
+    a = a.copy()
+    if blank_is_default:
+        blank = np.isnan(a)
+        if blank.any():
+            a[blank] = default
+    return a
+
+
+def _velocities_and_names(velocity, names):
+    """(n, 3) velocities (a new array) and n port labels (default "1", "2", ...)."""
+    vel = np.asarray(velocity, dtype=float)
+    if vel.ndim != 2 or vel.shape[1] != 3 or vel.shape[0] == 0:
+        raise InputError(f"expected at least one port with 3 velocity components, got shape "
+                         f"{vel.shape}", field="velocity")
+    n = vel.shape[0]
+    names = tuple(str(x) for x in names) if names is not None else tuple(
+        str(i + 1) for i in range(n))
+    if len(names) != n:
+        raise InputError(f"expected {n} names, got {len(names)}", field="name")
+    return vel.copy(), names
+
+
+def _role_codes(role, n) -> np.ndarray:
+    """(n,) int8 role codes of the role words or codes (one word for all ports, or n)."""
+    if role is None:
+        return np.zeros(n, dtype=np.int8)
+    if isinstance(role, (str, int)):
+        role = [role] * n
+    if len(role) != n:
+        raise InputError(f"expected {n} roles, got {len(role)}", field="role")
+    codes = [_ROLE_WORDS.get(r.strip().lower()) if type(r) is str else None for r in role]
+    if None in codes:                       # codes, None, or a word to refuse: one by one
+        codes = []
+        for i, r in enumerate(role):
+            try:
+                codes.append(role_code(r))
+            except InputError as e:
+                raise InputError(e.message, port=i, field="role") from None
+    return np.array(codes, dtype=np.int8)
+
+
+def _positions(position, n) -> np.ndarray:
+    """(n, 3) port positions [m], blank (NaN) components 0, checked finite."""
+    position = _vectors(position, n)
+    position[np.isnan(position)] = 0.0
+    bad_r = _where(~np.isfinite(position).all(axis=1))
+    if bad_r:
+        raise InputError(f"must be finite numbers (got {position[bad_r[0]].tolist()})",
+                         port=bad_r[0], field="position")
+    return position
+
+
+def _resolve_normals(normal, vel, roles) -> np.ndarray:
+    """Explicit normals normalised in place, role-based ones along the velocity as given (an
+    outlet's along it, an inlet's against it); returns which rows the role set."""
+    given_n = ~np.isnan(normal).any(axis=1)
+    if given_n.all():
+        normal /= np.sqrt(np.einsum("ij,ij->i", normal, normal))[:, None]
+        normal += 0.0                              # no negative zeros in outputs
+        return np.zeros(len(roles), bool)
+    speed = np.sqrt(np.einsum("ij,ij->i", vel, vel))
+    if not given_n.any() and (speed > 0).all():          # every normal from its role
+        np.multiply(roles[:, None], vel, out=normal)
+        normal /= speed[:, None]
+        normal += 0.0
+        return np.ones(len(roles), bool)
+    normal[given_n] /= np.sqrt(np.einsum("ij,ij->i", normal[given_n], normal[given_n]))[:, None]
+    by_role = ~given_n & (speed > 0)
+    normal[by_role] = roles[by_role, None] * vel[by_role] / speed[by_role, None]
+    normal[~given_n & ~(speed > 0)] = 0.0  # only allowed for given-flow ports without pressure
+    normal += 0.0  # no negative zeros in outputs
+    return by_role
+
+
+def _all_plain(area, density, vel, normal, role, beta, p, mdot, height, by_closure) -> bool:
+    """True when no port can fail :func:`_check_port` in the usual case: every number finite,
+    areas and densities > 0, beta >= 1, no given mass flow, and the normals either all typed
+    (non-zero) or all left to declared roles of moving fluid. False: look port by port
+    (:func:`_suspects`)."""
+    if not np.isfinite(np.concatenate((area, density, beta, p, height, vel.ravel()))).all():
+        return False
+    if not ((area > 0.0).all() and (density > 0.0).all() and (beta >= 1.0).all()
+            and np.isnan(mdot).all()):
+        return False
+    nan_n = np.isnan(normal)
+    if not nan_n.any():
+        return bool((np.einsum("ij,ij->i", normal, normal) >= 4e-24).all())
+    return bool(nan_n.all() and (role != UNKNOWN).all() and (vel != 0.0).any(axis=1).all())
 
 
 def _vectors(values, n):
@@ -190,71 +279,25 @@ class Ports:
         >>> np.isnan(q.area).tolist()
         [False, True]
         """
-        vel = np.asarray(velocity, dtype=float)
-        if vel.ndim != 2 or vel.shape[1] != 3 or vel.shape[0] == 0:
-            raise InputError(f"expected at least one port with 3 velocity components, got shape "
-                             f"{vel.shape}", field="velocity")
+        vel, names = _velocities_and_names(velocity, names)
         n = vel.shape[0]
-        vel = vel.copy()
-        names = tuple(str(x) for x in names) if names is not None else tuple(
-            str(i + 1) for i in range(n))
-        if len(names) != n:
-            raise InputError(f"expected {n} names, got {len(names)}", field="name")
-        area = _column(area, n)
-        density = _column(density, n)
-        beta = _column(beta, n, 1.0)
-        p_gauge = _column(p_gauge, n, 0.0)
-        mass_flow = _column(mass_flow, n)
-        height = _column(height, n, 0.0)
-        by_closure = np.zeros(n, dtype=bool) if flow_by_closure is None else np.broadcast_to(
-            np.asarray(flow_by_closure, dtype=bool), (n,))
+        area, density, mass_flow = (_column(x, n) for x in (area, density, mass_flow))
+        beta, p_gauge, height = (_column(x, n, d, True) for x, d in ((beta, 1.0),
+                                                                     (p_gauge, 0.0),
+                                                                     (height, 0.0)))
+        by_closure, rel = (np.broadcast_to(np.asarray(False if x is None else x, dtype=bool),
+                                           (n,)).copy() for x in (flow_by_closure, relative))
         normal = _vectors(normal, n)
-        rel = np.broadcast_to(np.asarray(relative, dtype=bool), (n,)).copy()
-        if role is None:
-            role = [UNKNOWN] * n
-        if isinstance(role, (str, int)):
-            role = [role] * n
-        if len(role) != n:
-            raise InputError(f"expected {n} roles, got {len(role)}", field="role")
-        roles = np.empty(n, dtype=np.int8)
-        for i, r in enumerate(role):
-            try:
-                roles[i] = role_code(r)
-            except InputError as e:
-                raise InputError(e.message, port=i, field="role") from None
-
-        # NaN in an optional column means "default".
-        beta[np.isnan(beta)] = 1.0
-        p_gauge[np.isnan(p_gauge)] = 0.0
-        height[np.isnan(height)] = 0.0
-        if position is not None:
-            position = _vectors(position, n)
-            position[np.isnan(position)] = 0.0
-            bad_r = _where(~np.isfinite(position).all(axis=1))
-            if bad_r:
-                raise InputError(f"must be finite numbers (got {position[bad_r[0]].tolist()})",
-                                 port=bad_r[0], field="position")
-
+        roles = _role_codes(role, n)
+        position = None if position is None else _positions(position, n)
         # Checked for all ports at once; the ports flagged are then checked one by one, in
         # order, so the first bad port raises exactly the message of its first failed check.
-        for i in _where(_suspects(area, density, vel, normal, roles, beta, p_gauge,
-                                          mass_flow, height, by_closure)):
-            _check_port(i, area[i], density[i], vel[i], normal[i], roles[i], beta[i],
-                        p_gauge[i], mass_flow[i], height[i], bool(by_closure[i]))
-
-        # Resolve normals: explicit ones normalised, role-based ones along the given velocity.
-        given_n = ~np.isnan(normal).any(axis=1)
-        length = np.linalg.norm(normal, axis=1)
-        normal[given_n] /= length[given_n, None]
-        speed = np.linalg.norm(vel, axis=1)
-        by_role = ~given_n & (speed > 0)
-        normal[by_role] = roles[by_role, None] * vel[by_role] / speed[by_role, None]
-        normal[~given_n & ~(speed > 0)] = 0.0  # only allowed for given-flow ports without pressure
-        normal += 0.0  # no negative zeros in outputs
-
-        # Given mass flows: signed positive out.
-        has_m = ~np.isnan(mass_flow)
-        declared = has_m & (roles != UNKNOWN)
+        cols = (area, density, vel, normal, roles, beta, p_gauge, mass_flow, height, by_closure)
+        if not _all_plain(*cols):
+            for i in _where(_suspects(*cols)):
+                _check_port(i, *(c[i] for c in cols[:-1]), bool(by_closure[i]))
+        by_role = _resolve_normals(normal, vel, roles)
+        declared = ~np.isnan(mass_flow) & (roles != UNKNOWN)   # given flows: signed, + out
         mass_flow[declared] = roles[declared] * np.abs(mass_flow[declared])
         return cls(names, area, density, vel, rel, normal, roles, beta, p_gauge, mass_flow, height,
                    by_role, position)

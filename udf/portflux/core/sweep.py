@@ -360,10 +360,8 @@ def best_speed(ports: Ports, bracket, direction, *, closures: Closures | None = 
     """
     lo, hi = _bracket(bracket)
     n = _samples(samples)
-    xtol = 1e-10 * (abs(lo) + abs(hi)) + 1e-12 if xtol is None else float(xtol)
-    d = _unit(direction)
-    model = compiled(ports, closures, intercept=intercept, fluid_mass=fluid_mass,
-                     gravity=gravity)
+    xtol, d, model = _search(ports, closures, (lo, hi), direction, xtol, intercept=intercept,
+                             fluid_mass=fluid_mass, gravity=gravity)
     s = np.linspace(lo, hi, n)
     t = table(model, s, d)
     p = np.where(np.isfinite(t.power), t.power, -np.inf)
@@ -375,6 +373,28 @@ def best_speed(ports: Ports, bracket, direction, *, closures: Closures | None = 
         return BestSpeed(float("nan"), float(p[i]), float("nan"), "", False,
                          f"the fluid delivers no positive power to the body for speeds in "
                          f"[{lo:g}, {hi:g}] m/s (largest {p[i]:.6g} W)")
+
+    x, edge = _refine_max(model, d, s, p, i, (lo, hi), xtol)
+    final = table(model, np.array([float(x)]), d)
+    note = (f"the maximum lies on the {edge} end of the bracket; widen it to look beyond "
+            f"{x:g} m/s" if edge else "")
+    return BestSpeed(float(x), float(final.power[0]), float(final.jet_efficiency[0]), edge, True,
+                     note)
+
+
+def _search(ports, closures, bracket, direction, xtol, **options):
+    """(speed tolerance [m/s], unit direction, compiled model) of a speed search: the
+    tolerance defaults to 1e-10 (|lo| + |hi|) + 1e-12."""
+    lo, hi = bracket
+    xtol = 1e-10 * (abs(lo) + abs(hi)) + 1e-12 if xtol is None else float(xtol)
+    return xtol, _unit(direction), compiled(ports, closures, **options)
+
+
+def _refine_max(model, d, s, p, i, bracket, xtol):
+    """The best sample ``s[i]`` of powers ``p`` refined by Brent's method between its
+    neighbours; a maximum within 2 xtol of a bracket end is put on it. (speed, edge)."""
+    lo, hi = bracket
+    n = s.size
 
     def power(x):
         r = table(model, np.array([float(x)]), d).power[0]
@@ -394,11 +414,7 @@ def best_speed(ports: Ports, bracket, direction, *, closures: Closures | None = 
         x = lo
     elif edge == "high":
         x = hi
-    final = table(model, np.array([float(x)]), d)
-    note = (f"the maximum lies on the {edge} end of the bracket; widen it to look beyond "
-            f"{x:g} m/s" if edge else "")
-    return BestSpeed(float(x), float(final.power[0]), float(final.jet_efficiency[0]), edge, True,
-                     note)
+    return x, edge
 
 
 @dataclass(frozen=True)
@@ -484,10 +500,8 @@ def speed_at_force(ports: Ports, value, bracket, direction, *, component=ALONG,
     target = float(value)
     if not np.isfinite(target):
         raise InputError(f"must be a finite force (got {value!r})", argument="value")
-    xtol = 1e-10 * (abs(lo) + abs(hi)) + 1e-12 if xtol is None else float(xtol)
-    d = _unit(direction)
-    model = compiled(ports, closures, intercept=intercept, fluid_mass=fluid_mass,
-                     gravity=gravity)
+    xtol, d, model = _search(ports, closures, (lo, hi), direction, xtol, intercept=intercept,
+                             fluid_mass=fluid_mass, gravity=gravity)
     _component(table(model, np.array([lo]), d), component)   # validate early
 
     def residual(x):
@@ -496,21 +510,39 @@ def speed_at_force(ports: Ports, value, bracket, direction, *, component=ALONG,
     s = np.linspace(lo, hi, n)
     f = residual(s)
     hit = _first_crossing(f)
+    if hit is None:
+        raise _not_reached(f, target, (lo, hi), component)
+    x = _narrow(residual, s[hit], s[min(hit + 1, n - 1)], f[hit], xtol)
+    force = float(residual(np.array([x]))[0] + target)
+    crossings = _crossings(f)
+    note = (f"the force crosses {target:g} N {crossings} times in the bracket; this is the "
+            f"lowest speed" if crossings > 1 else "")
+    return ForceSpeed(float(x), force, max(crossings, 1), note)
+
+
+def _not_reached(f, target, bracket, component) -> InputError:
+    """The message of a force that the sampled residuals ``f`` never bring to ``target``."""
+    lo, hi = bracket
+    ok = np.isfinite(f)
+    if not np.any(ok):
+        return InputError(f"no speed in [{lo:g}, {hi:g}] m/s gives a result", argument="bracket")
+    fv = f[ok] + target
+    return InputError(f"the force on the body ({component}) runs from {fv.min():.6g} to "
+                      f"{fv.max():.6g} N over speeds [{lo:g}, {hi:g}] m/s and does not reach "
+                      f"{target:g} N; widen the bracket or check the value", argument="value")
+
+
+def _crossings(f) -> int:
+    """How many times sampled residuals ``f`` change sign (a zero alone counts once)."""
     ok = np.isfinite(f)
     signs = np.sign(f[ok & (f != 0.0)])
-    crossings = int(np.count_nonzero(signs[:-1] != signs[1:])) + int(np.any(f[ok] == 0.0) and
-                                                                      not signs.size)
-    if hit is None:
-        if not np.any(ok):
-            raise InputError(f"no speed in [{lo:g}, {hi:g}] m/s gives a result",
-                             argument="bracket")
-        fv = f[ok] + target
-        raise InputError(f"the force on the body ({component}) runs from {fv.min():.6g} to "
-                         f"{fv.max():.6g} N over speeds [{lo:g}, {hi:g}] m/s and does not reach "
-                         f"{target:g} N; widen the bracket or check the value",
-                         argument="value")
-    a, b = s[hit], s[min(hit + 1, n - 1)]
-    fa = f[hit]
+    return int(np.count_nonzero(signs[:-1] != signs[1:])) + int(np.any(f[ok] == 0.0) and
+                                                                not signs.size)
+
+
+def _narrow(residual, a, b, fa, xtol) -> float:
+    """A sign change of ``residual`` in [a, b] narrowed to ``xtol`` by vectorised
+    sub-division (32 sub-intervals a round, a generalised bisection)."""
     while fa != 0.0 and b - a > xtol:
         xs = np.linspace(a, b, 33)
         fs = residual(xs)
@@ -518,11 +550,7 @@ def speed_at_force(ports: Ports, value, bracket, direction, *, component=ALONG,
         if k is None:           # NaN inside the cell: stop at what is known
             break
         a, b, fa = xs[k], xs[min(k + 1, 32)], fs[k]
-    x = a if fa == 0.0 else 0.5 * (a + b)
-    force = float(residual(np.array([x]))[0] + target)
-    note = (f"the force crosses {target:g} N {crossings} times in the bracket; this is the "
-            f"lowest speed" if crossings > 1 else "")
-    return ForceSpeed(float(x), force, max(crossings, 1), note)
+    return a if fa == 0.0 else 0.5 * (a + b)
 
 
 def _first_crossing(f):
@@ -566,6 +594,40 @@ class Envelope:
     def factored(self) -> np.ndarray:
         """(8,) design values, value x dynamic factor x load factor [N, N m]."""
         return self.value * self.factor
+
+
+def _worst_samples(t: SpeedTable, u):
+    """Per load of :data:`ENVELOPE_ROWS`: the sampled speed of its largest magnitude, that
+    magnitude, and the neighbouring samples that bracket it."""
+    L = np.abs(_loads(t))                                        # (8, m)
+    L = np.where(np.isnan(L), -np.inf, L)
+    k = np.argmax(L, axis=1)                                     # worst sample of each
+    return (u[k].copy(), L[np.arange(8), k], u[np.maximum(k - 1, 0)],
+            u[np.minimum(k + 1, u.size - 1)])
+
+
+def _check_factors(**factors):
+    """Each design factor a number > 0 (the governing code's value is the user's)."""
+    for name, k in factors.items():
+        if not (np.isfinite(k) and k > 0):
+            raise InputError(f"must be a number > 0 (got {k})", argument=name)
+
+
+def _golden_max(f, a, b, xtol):
+    """Golden-section search for the maxima of a vectorised ``f`` (eight quantities at once,
+    each in its own interval [a_j, b_j]): (the speeds, the values there)."""
+    g = 0.5 * (np.sqrt(5.0) - 1.0)
+    c, e = b - g * (b - a), a + g * (b - a)
+    fc, fe = f(c), f(e)
+    for _ in range(200):                      # golden section, all eight quantities together
+        if np.all(b - a <= xtol):
+            break
+        left = fc >= fe                       # the maximum lies in [a, e] (else in [c, b])
+        a, b = np.where(left, a, c), np.where(left, e, b)
+        c, e = (np.where(left, b - g * (b - a), e), np.where(left, c, a + g * (b - a)))
+        fnew = f(np.where(left, c, e))
+        fc, fe = np.where(left, fnew, fe), np.where(left, fc, fnew)
+    return np.where(fc >= fe, c, e), np.maximum(fc, fe)
 
 
 def _loads(t: SpeedTable) -> np.ndarray:
@@ -633,20 +695,12 @@ def envelope(ports, bracket, direction, *, dynamic_factor=1.0, load_factor=1.0, 
     lo, hi = _bracket(bracket)
     samples = _samples(samples)
     d = _unit(direction)
-    for name, k in (("dynamic_factor", dynamic_factor), ("load_factor", load_factor)):
-        if not (np.isfinite(k) and k > 0):
-            raise InputError(f"must be a number > 0 (got {k})", argument=name)
+    _check_factors(dynamic_factor=dynamic_factor, load_factor=load_factor)
     statics = lo <= 0.0 <= hi
     u = np.linspace(lo, hi, samples)
     if statics:
         u = np.union1d(u, [0.0])
-    t = table(model, u, d, chunk, moments=True)
-    L = np.abs(_loads(t))                                        # (8, m)
-    L = np.where(np.isnan(L), -np.inf, L)
-    k = np.argmax(L, axis=1)                                     # worst sample of each
-    best_u, best = u[k].copy(), L[np.arange(8), k]
-    a = u[np.maximum(k - 1, 0)]
-    b = u[np.minimum(k + 1, u.size - 1)]
+    best_u, best, a, b = _worst_samples(table(model, u, d, chunk, moments=True), u)
     xtol = 1e-9 * max(hi - lo, 1e-300) if xtol is None else float(xtol)
     rows = np.arange(8)
 
@@ -655,23 +709,9 @@ def envelope(ports, bracket, direction, *, dynamic_factor=1.0, load_factor=1.0, 
         v = np.abs(_loads(tt))[rows, rows]
         return np.where(np.isnan(v), -np.inf, v)
 
-    g = 0.5 * (np.sqrt(5.0) - 1.0)
-    c, e = b - g * (b - a), a + g * (b - a)
-    fc, fe = f(c), f(e)
-    for _ in range(200):                      # golden section, all eight quantities together
-        if np.all(b - a <= xtol):
-            break
-        left = fc >= fe                       # the maximum lies in [a, e] (else in [c, b])
-        a, b = np.where(left, a, c), np.where(left, e, b)
-        c, e = (np.where(left, b - g * (b - a), e), np.where(left, c, a + g * (b - a)))
-        fnew = f(np.where(left, c, e))
-        fc, fe = np.where(left, fnew, fe), np.where(left, fc, fnew)
-    xs = np.where(fc >= fe, c, e)
-    fx = np.maximum(fc, fe)
-    better = fx > best * (1.0 + 1e-12)
-    best_u = np.where(better, xs, best_u)
-    tt = table(model, best_u, d, chunk, moments=True)
-    value = _loads(tt)[rows, rows]
+    xs, fx = _golden_max(f, a, b, xtol)
+    best_u = np.where(fx > best * (1.0 + 1e-12), xs, best_u)
+    value = _loads(table(model, best_u, d, chunk, moments=True))[rows, rows]
     return Envelope(value=value + 0.0, speed=best_u + 0.0, bracket=(lo, hi),
                     dynamic_factor=float(dynamic_factor), load_factor=float(load_factor),
                     statics=statics)

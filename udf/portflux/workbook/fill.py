@@ -12,7 +12,7 @@ import os
 
 import openpyxl
 
-from .. import problem
+from .. import builder as problem
 from ..core import InputError
 from ..demo.scenarios import Scenario
 from . import template as T

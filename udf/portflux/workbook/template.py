@@ -46,6 +46,7 @@ from openpyxl.worksheet.formula import ArrayFormula
 from openpyxl.utils import get_column_letter
 
 from .. import __version__
+from .. import schema as S, units as U
 from ..cautions import CAUTION_LINES
 from ..units import UnitSystem
 from . import cases, cases_closures
@@ -294,30 +295,19 @@ def _about(wb):
     print_setup(ws, rng(1, 1, 1, len(lines) + 4), landscape=False, fit_height=1)
 
 
-#: Default port table of the template: an invented vane on a carriage, SI units. Every column
-#: that can hold a dimensional value shows its unit in the unit row (never a blank meaning SI).
-CV_COLUMNS = ("port", "role", "frame", "area", "density", "speed", "angle", "tilt", "vx", "vy",
-              "vz", "nx", "ny", "nz", "p_gauge", "beta", "mass_flow", "closure", "loss", "source",
-              "share", "height", "rx", "ry", "rz")
-CV_UNITS = (None, None, None, "m^2", "kg/m^3", "m/s", "deg", "deg", "m/s", "m/s", "m/s", None,
-            None, None, "Pa", None, "kg/s", None, None, None, None, "m", "m", "m", "m")
-# --- nozzle columns (issue 18), added by hand: the schema issue derives CV_COLUMNS / CV_UNITS
-# --- from problem.COLUMNS; keep these additions together here for that merge.
-NOZZLE_COLUMNS = ("diameter", "supply_pressure", "velocity_coef", "contraction_coef", "fluid",
-                  "temperature", "abs_pressure")
-NOZZLE_UNITS = ("mm", "kPa", None, None, None, "degC", "kPa")
-CV_COLUMNS += NOZZLE_COLUMNS
-CV_UNITS += NOZZLE_UNITS
-# --- end of the nozzle columns
-_BLANK = (None,) * 14
-_NO_NOZZLE = (None,) * len(NOZZLE_COLUMNS)
+#: Default port table of the template: an invented vane on a carriage, SI units. Its columns
+#: (the blocks S.TEMPLATE_GROUPS, in the schema's order) and their units (each column's
+#: default unit) are derived from the schema; S.sheet_row(CV_COLUMNS, key=value, ...) writes a
+#: row by column key.
+CV_COLUMNS = S.sheet_columns(S.TEMPLATE_GROUPS)
+CV_UNITS = S.sheet_units(U.QUANTITIES, S.TEMPLATE_GROUPS)
 #: The vane's ports sit 0.4 m above its mount (the support, the origin) on the jet line; the
 #: exit's flow comes from continuity (its closure sets its speed, so its area stays blank).
 CV_ROWS = (
-    ("nozzle jet", "in", "abs", 0.003, 998.0, 25.0, 0.0) + _BLANK + (None, 0.0, 0.4, 0.0)
-    + _NO_NOZZLE,
-    ("vane exit", "out", "rel", None, 998.0, None, 135.0) + _BLANK[:10] + ("free",)
-    + (None,) * 4 + (0.0, 0.4, 0.0) + _NO_NOZZLE,
+    S.sheet_row(CV_COLUMNS, port="nozzle jet", role="in", frame="abs", area=0.003,
+                density=998.0, speed=25.0, angle=0.0, rx=0.0, ry=0.4, rz=0.0),
+    S.sheet_row(CV_COLUMNS, port="vane exit", role="out", frame="rel", density=998.0,
+                angle=135.0, closure="free", rx=0.0, ry=0.4, rz=0.0),
 )
 CV_SETTINGS = (("fluid_mass", 0.0, "kg"), ("gx", 0.0, "m/s^2"), ("gy", 0.0, "m/s^2"),
                ("gz", -9.80665, "m/s^2"), ("tolerance", 0.001, None), ("intercept", "single",
