@@ -58,7 +58,8 @@ def test_pfx_columns_and_pfx_settings_answer_from_the_schema():
 
 def test_template_port_columns_and_units_are_derived_from_the_schema():
     assert T.CV_COLUMNS == S.sheet_columns(S.TEMPLATE_GROUPS)
-    assert T.CV_UNITS == tuple(S.default_unit(k, U.QUANTITIES) for k in T.CV_COLUMNS)
+    assert T.CV_UNITS == tuple(S.COLUMNS[k].sheet_unit or S.default_unit(k, U.QUANTITIES)
+                               for k in T.CV_COLUMNS)
     # every column a template could show, in order, with a unit for each dimensional one
     every = S.sheet_columns(S.SHEET_GROUPS)
     assert set(every) == set(S.COLUMNS)

@@ -28,7 +28,7 @@ SCENARIOS = {
     # Invented vane: a 3 cm^2 water jet at 35 m/s turned through 140 degrees; SI, kN out.
     "vane": dict(
         ports=(("port", "role", "area", "density", "speed", "angle", "closure", "ry"),
-               (None, None, "cm^2", None, None, None, None, "m"),
+               (None, None, "cm^2", "kg/m^3", "m/s", "deg", None, "m"),
                ("jet", "in", 3.0, 998.0, 35.0, 0.0, None, 0.25),
                ("exit", "out", 3.0, 998.0, None, 140.0, "free", 0.4)),
         settings=(("fluid_mass", 0.8, "kg"), ("gz", -9.81, "m/s^2"), ("cg_y", 0.3, "m"),
@@ -37,7 +37,7 @@ SCENARIOS = {
         cv=(12.0, 0.0, 0.0, "m/s"),
         scalars=dict(port="exit", units="SI; force=kN", axis="y", value=0.2, low=0.0,
                      high=30.0, direction=0.0, tolerance=0.002, labels=True, kind="jet",
-                     component="along", quantity="moment")),
+                     component="along", quantity="moment", moments=True)),
     # Invented plate: a 0.04 ft^2 jet split by a frictionless plate at 50 degrees into two
     # solved streams, the plate backing away at 6 ft/s; US customary units in and out.
     "plate, US": dict(
@@ -52,7 +52,7 @@ SCENARIOS = {
         cv=(6.0, 0.0, 0.0, "ft/s"),
         scalars=dict(port=2.0, units="US", axis="x", value=12.0, low=0.0, high=40.0,
                      direction=0.0, tolerance=0.001, labels=True, kind="jet",
-                     component="along", quantity="force")),
+                     component="along", quantity="force", moments=True)),
 }
 
 PLACES = {"ports": "A1", "settings": "K1", "speeds": "O1", "cv_velocity": "Q1"}
@@ -113,7 +113,7 @@ def is_message(value):
     return isinstance(value, str) and value.split(" ")[0].rstrip(",:") in {
         "ports", "settings", "speeds", "cv_velocity", "units", "low", "high", "value", "port",
         "axis", "labels", "tolerance", "kind", "direction", "component", "quantity",
-        "inputs", "portflux"}
+        "inputs", "moments", "portflux"}
 
 
 # --------------------------------------------------------------------------------------------

@@ -94,7 +94,9 @@ class Column:
     first component names it for the group). ``sheet`` is the column's place in the
     template's port table, ``sheet_group`` the block it belongs to. ``plausible`` is the range
     of SI values outside which a value is read but warned about (common practice, no source).
-    ``choices`` maps the words a text column accepts to their meaning.
+    ``choices`` maps the words a text column accepts to their meaning. ``sheet_unit`` is the
+    unit the template's unit row shows where the trade types another than the kind's default
+    (nozzle bores in mm, supply pressures in kPa); it changes nothing else (``SI`` stays SI).
     """
 
     key: str
@@ -111,6 +113,7 @@ class Column:
     plausible: tuple | None = None
     plausible_for: str = "a port"      #: what the plausible range is that of, for messages
     choices: tuple = ()
+    sheet_unit: str | None = None
 
     @property
     def needs_unit(self) -> bool:
@@ -238,13 +241,14 @@ COLUMNS = {c.key: c for c in (
            ports="position", sheet=24, sheet_group="position"),
     Column("diameter", "length", "nozzle (port) diameter instead of area: area = pi d^2 / 4; "
                                  "with both, they must agree within 0.5 %", ("bore",),
-           check=POSITIVE, sheet=26, sheet_group="nozzle", plausible=DIAMETER_PLAUSIBLE),
+           check=POSITIVE, sheet=26, sheet_group="nozzle", plausible=DIAMETER_PLAUSIBLE,
+           sheet_unit="mm"),
     Column("supply_pressure", "pressure", "gauge pressure upstream of a nozzle instead of a "
                                           "speed: jet speed = velocity_coef x sqrt(2 x "
                                           "supply_pressure / density), in the row's frame, "
                                           "along angle and tilt", ("p_supply",),
            check=Bound(0.0, low_open=True, note="the gauge pressure upstream of the nozzle"),
-           sheet=27, sheet_group="nozzle"),
+           sheet=27, sheet_group="nozzle", sheet_unit="kPa"),
     Column("velocity_coef", "ratio", "nozzle velocity coefficient C_v, 0 < C_v <= 1 (with "
                                      "supply_pressure; default 1, an ideal nozzle)",
            ("cv_coef",), check=COEFFICIENT, sheet=28, sheet_group="nozzle"),
@@ -260,7 +264,8 @@ COLUMNS = {c.key: c for c in (
            sheet_group="fluid"),
     Column("abs_pressure", "pressure", "absolute pressure for a named fluid's density "
                                        "(default 101.325 kPa + p_gauge)",
-           ("absolute_pressure",), check=POSITIVE, sheet=32, sheet_group="fluid"),
+           ("absolute_pressure",), check=POSITIVE, sheet=32, sheet_group="fluid",
+           sheet_unit="kPa"),
 )}
 
 #: Blocks of the template's port table, in the order they are drawn.
@@ -420,8 +425,10 @@ def default_unit(key: str, quantities) -> str | None:
 
 
 def sheet_units(quantities, groups=TEMPLATE_GROUPS) -> tuple:
-    """The unit row of the template's port table: :func:`default_unit` of each column."""
-    return tuple(default_unit(k, quantities) for k in sheet_columns(groups))
+    """The unit row of the template's port table: each column's ``sheet_unit``, else its
+    :func:`default_unit`."""
+    return tuple(COLUMNS[k].sheet_unit or default_unit(k, quantities)
+                 for k in sheet_columns(groups))
 
 
 def sheet_row(columns, **values) -> tuple:
