@@ -262,10 +262,14 @@ def test_replacing_a_file_keeps_its_permissions(tmp_path):
 
 def test_an_unwritable_folder_names_the_users_file_not_a_temporary_one(tmp_path, capsys,
                                                                      monkeypatch):
-    def denied(*a, **k):
-        raise PermissionError(errno.EACCES, "Permission denied", str(tmp_path / ".t.x.part.xlsx"))
+    real_open = os.open
 
-    monkeypatch.setattr(output.tempfile, "mkstemp", denied)
+    def denied(path, *a, **k):      # the folder refuses new files (root ignores chmod)
+        if os.path.dirname(os.fspath(path)) == str(tmp_path):
+            raise PermissionError(errno.EACCES, "Permission denied", os.fspath(path))
+        return real_open(path, *a, **k)
+
+    monkeypatch.setattr(output.os, "open", denied)
     code, _, err = run(["template", str(tmp_path / "t.xlsx")], capsys)
     assert code == 2
     assert err.strip() == (f"portflux: {tmp_path / 't.xlsx'}: cannot write here (Permission "
@@ -396,6 +400,28 @@ def test_sigterm_during_a_real_recalc_leaves_nothing_behind(tmp_path):
     assert child.returncode == 128 + signal.SIGTERM, err
     assert "Traceback" not in err
     assert os.listdir(tmp_path) == ["t.xlsx"]
+
+
+def test_a_signal_the_moment_the_temporary_file_exists_leaves_nothing_behind(tmp_path,
+                                                                            monkeypatch):
+    """SIGTERM may reach Python's handler in the main thread at any statement, even inside a
+    block that holds the signal with pthread_sigmask, when another thread (a BLAS pool) took
+    it; seen under load as a stray empty '.o.*.part.xlsx'. Here the handler 'runs' right after
+    the temporary file is created, before any caller could have learnt its name."""
+    real_open = os.open
+
+    def open_then_terminated(path, *a, **k):
+        fd = real_open(path, *a, **k)
+        if os.path.dirname(os.fspath(path)) == str(tmp_path):
+            os.close(fd)
+            raise output.Terminated(signal.SIGTERM)
+        return fd
+
+    monkeypatch.setattr(output.os, "open", open_then_terminated)
+    with pytest.raises(output.Terminated):
+        with output.atomic_path(tmp_path / "o.xlsx"):
+            pass
+    assert os.listdir(tmp_path) == []
 
 
 # ---- exit codes ---------------------------------------------------------------------------------

@@ -31,6 +31,7 @@ import signal
 import sys
 import time
 
+from .output import signals_held
 from .xlvalues import RecalcError
 from ..core.errors import PortfluxError
 
@@ -101,6 +102,8 @@ def _child(fn, write_fd, limits, lifeline):
         pass
     signal.signal(signal.SIGTERM, signal.SIG_DFL)
     signal.signal(signal.SIGINT, signal.SIG_IGN)       # the parent decides, and kills the group
+    if hasattr(signal, "pthread_sigmask"):             # held by the parent around the fork
+        signal.pthread_sigmask(signal.SIG_UNBLOCK, (signal.SIGTERM, signal.SIGINT))
     _watch_lifeline(lifeline)
     # The child lives for one evaluation and its memory is capped: the cyclic collector would
     # only traverse the (large, mostly acyclic) formula structures again and again.
@@ -138,6 +141,14 @@ def _child(fn, write_fd, limits, lifeline):
         os._exit(status)
 
 
+def _close(fds: set, *which) -> None:
+    """Close the pipe ends ``which`` still in ``fds`` (each exactly once)."""
+    for fd in which:
+        if fd in fds:
+            fds.discard(fd)
+            os.close(fd)
+
+
 def run_contained(fn, what: str, **limits):
     """``fn()`` evaluated in a limited child process; its result (plain JSON data: dicts with
     text keys, lists, text, numbers, logicals, None; tuples come back as lists).
@@ -153,26 +164,32 @@ def run_contained(fn, what: str, **limits):
     lim = {**DEFAULT_LIMITS, **limits}
     if not CONTAINED:
         return fn()
-    read_fd, write_fd = os.pipe()
-    life_r, life_w = os.pipe()
     sys.stdout.flush()
     sys.stderr.flush()
-    pid = os.fork()
-    if pid == 0:                                       # child
-        os.close(read_fd)
-        os.close(life_w)
-        _child(fn, write_fd, lim, life_r)
-    os.close(write_fd)
-    os.close(life_r)
-    try:
-        os.setpgid(pid, pid)                           # also done by the child: no race
-    except OSError:
-        pass
+    read_fd, write_fd = os.pipe()
+    life_r, life_w = os.pipe()
+    fds = {read_fd, write_fd, life_r, life_w}       # the parent's open ends
     chunks = []
     deadline = time.monotonic() + float(lim["wall_seconds"])
     timed_out = False
     status = None
+    pid = None
+    # The fork is inside the ``try`` whose ``finally`` kills the child: a SIGTERM raised at any
+    # moment after the fork (Python runs the handler in the main thread even while this thread
+    # holds the signal, when another thread -- a BLAS pool -- took it) never leaves a child
+    # running and writing the output's temporary file after the caller removed it.
     try:
+        with signals_held():
+            pid = os.fork()
+            if pid == 0:                               # child (its mask is restored there)
+                os.close(read_fd)
+                os.close(life_w)
+                _child(fn, write_fd, lim, life_r)
+            _close(fds, write_fd, life_r)              # the child's ends
+            try:
+                os.setpgid(pid, pid)                   # also done by the child: no race
+            except OSError:
+                pass
         while True:
             left = deadline - time.monotonic()
             if left <= 0:
@@ -189,10 +206,13 @@ def run_contained(fn, what: str, **limits):
         # whatever ends the wait (a result, the wall-clock limit, SIGTERM raised as an
         # exception, Ctrl-C): the child's group goes first (the zombie keeps its id), then
         # the child is reaped
-        _kill_group(pid)
-        os.close(read_fd)
-        _, status = os.waitpid(pid, 0)
-        os.close(life_w)
+        if pid == 0:                                   # the child never returns from here
+            os._exit(1)
+        with signals_held():
+            if pid is not None:
+                _kill_group(pid)
+                _, status = os.waitpid(pid, 0)
+            _close(fds, *list(fds))
     if timed_out:
         raise RecalcError(f"{what}: the recalculation took longer than "
                           f"{lim['wall_seconds']:g} s and was stopped")

@@ -136,7 +136,7 @@ def _mode_for(path: str) -> int:
 
 
 @contextlib.contextmanager
-def _signals_blocked():
+def signals_held():
     """Hold SIGTERM/SIGINT back for a few statements (delivered on exit), where supported."""
     if not (hasattr(signal, "pthread_sigmask") and threading.current_thread()
             is threading.main_thread()):
@@ -179,24 +179,47 @@ def atomic_path(path, *, overwrite: bool = True) -> Iterator[str]:
                           f"another output path")
     if not overwrite and os.path.lexists(path):
         raise OutputError(_exists(path))
-    tmp = None
+    owned: list = []                 # the temporary file's name, once it is ours
     try:
-        with _signals_blocked():     # no signal between creating the file and owning its name
-            try:
-                fd, tmp = tempfile.mkstemp(dir=folder, prefix=prefix, suffix=suffix)
-            except OSError as e:     # name the user's file, not the temporary name tried
-                raise OutputError(explain(e, path)) from None
-            os.close(fd)
-        yield tmp
-        _finish(tmp, path, overwrite)
-        tmp = None
+        _create_temp(folder, prefix, suffix, path, owned)
+        yield owned[0]
+        _finish(owned[0], path, overwrite)
+        owned.clear()
     except OSError as e:
-        ours = e.filename is not None and os.fspath(e.filename) in (tmp, path)
+        ours = e.filename is not None and os.fspath(e.filename) in (*owned, path)
         if e.errno in WRITE_REFUSED or ours:
             raise OutputError(explain(e, path)) from None
         raise                        # e.g. the writer could not read its input: not ours
     finally:
-        _remove(tmp)
+        for name in owned:
+            _remove(name)
+
+
+#: A new file, never an existing one (O_BINARY exists, and matters, on Windows only).
+_CREATE_NEW = os.O_WRONLY | os.O_CREAT | os.O_EXCL | (os.O_BINARY if os.name == "nt" else 0)
+
+
+def _create_temp(folder: str, prefix: str, suffix: str, shown: str, owned: list) -> None:
+    """Create an empty, private temporary file beside the target; its name is in ``owned``.
+
+    The name is put in ``owned`` *before* the file is created, so a signal raised at any
+    moment leaves either no file or a file the caller's ``finally`` removes
+    (``tempfile.mkstemp`` creates the file before it returns the name, and holding signals
+    with ``pthread_sigmask`` does not help when another thread -- a BLAS pool -- takes the
+    process's SIGTERM: Python then runs the handler in the main thread anyway)."""
+    for _ in range(100):
+        owned[:] = [os.path.join(folder, prefix + os.urandom(6).hex() + suffix)]
+        try:
+            fd = os.open(owned[0], _CREATE_NEW, 0o600)
+        except FileExistsError:      # someone else's file: not ours to remove
+            owned.clear()
+            continue
+        except OSError as e:         # name the user's file, not the temporary name tried
+            owned.clear()
+            raise OutputError(explain(e, shown)) from None
+        os.close(fd)
+        return
+    raise OutputError(f"{shown}: no free temporary file name in {folder}")
 
 
 def _exists(path: str) -> str:
