@@ -1,0 +1,727 @@
+"""The differential test of the formula engine: generated formulas, evaluated by the engine and by
+LibreOffice, compared, and judged against Excel's documentation where the two differ.
+
+:func:`run` writes the formulas of :class:`.formulagen.Generator` (a seed, a count) into one
+workbook with the input sheet of :mod:`.formulagen`, recalculates it with the engine
+(:class:`.recalc.Recalculator`, in-process) and with LibreOffice (``soffice --headless
+--convert-to xlsx`` with a private profile set to recalculate on load), and compares every
+formula cell:
+
+* **agree**: same value (numbers to 1e-12 relative, 1e-14 absolute; texts, logicals and error
+  values exactly);
+* **refused**: the engine refused the cell (its reason is kept);
+* **known**: the values differ where LibreOffice departs from Excel, as an entry of
+  :data:`DEPARTURES` says (each entry names Excel's documented rule and its source; the
+  engine's value is Excel's);
+* **disagree**: anything else -- a bug, until shown otherwise. Each is reduced to a minimal
+  formula (:func:`minimize`) for the report.
+
+Used by ``tests/test_engine_differential.py`` (a fixed seed, a few thousand formulas) and by
+``portflux bench`` (benchmark 6, a longer run). Needs LibreOffice for the comparison
+(:func:`soffice_path`); the generator and the engine run without it.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import re
+import subprocess
+import tempfile
+import zipfile
+from dataclasses import dataclass, field
+
+from .formulagen import (FORMULA_SHEET, INPUT_SHEET, INPUTS, LOCAL, NAMES, Formula,
+                         Generator, place, shrink_candidates, text)
+from .package import coord_name
+
+__all__ = ["DEPARTURES", "Context", "Departure", "Outcome", "Report", "run", "write_book",
+           "libreoffice_values", "engine_values", "minimize", "judge", "soffice_path"]
+
+_PROFILE_XCU = """<?xml version="1.0" encoding="UTF-8"?>
+<oor:items xmlns:oor="http://openoffice.org/2001/registry"
+ xmlns:xs="http://www.w3.org/2001/XMLSchema" xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance">
+<item oor:path="/org.openoffice.Office.Calc/Formula/Load"><prop oor:name="OOXMLRecalcMode"
+ oor:op="fuse"><value>0</value></prop></item>
+</oor:items>
+"""
+
+
+def soffice_path():
+    from .soffice import soffice_path as find
+
+    return find()
+
+
+# ------------------------------------------------------------------------ the departures --
+class Context:
+    """What a departure's test sees of one disagreement: the formula, both values, and the
+    engine's values of every sub-formula at the same cell (computed on first use)."""
+
+    def __init__(self, formula: Formula, coord: str, ours, theirs, calc=None):
+        self.formula, self.coord, self.ours, self.theirs = formula, coord, ours, theirs
+        self.calc = calc
+        self._subs = None
+
+    @property
+    def text(self) -> str:
+        return self.formula.text.upper()
+
+    def calls(self, *names) -> bool:
+        t = self.text
+        return any(("_XLFN." + n + "(" in t or re.search(r"(?<![A-Z0-9_.])" + re.escape(n)
+                                                        + r"\(", t)) if n[0].isalpha()
+                   else n in t for n in names)
+
+    def subs(self):
+        """[(node, value, parent)] for every node of the formula tree (value by the engine, at
+        the formula's cell; a refused sub-formula is left out)."""
+        if self._subs is None:
+            out = []
+            if self.calc is not None:
+                stack = [(self.formula.node, None)]
+                while stack:
+                    node, parent = stack.pop()
+                    if node.op != "miss":
+                        try:
+                            v = self.calc.evaluate_formula(FORMULA_SHEET, self.coord,
+                                                           "=" + text(node),
+                                                           self.formula.array)
+                            out.append((node, v, parent))
+                        except Exception:  # noqa: BLE001 - a sub-formula may not stand alone
+                            pass
+                    stack.extend((a, node) for a in node.args)
+            self._subs = out
+        return self._subs
+
+    def values(self):
+        return [v for _, v, _ in self.subs()]
+
+
+def _err(v):
+    return isinstance(v, str) and v in _ERRORS_SET
+
+
+_ERRORS_SET = {"#N/A", "#DIV/0!", "#VALUE!", "#REF!", "#NUM!", "#NAME?", "#NULL!"}
+
+
+@dataclass(frozen=True)
+class Departure:
+    """A known place where LibreOffice departs from Excel, judged against Excel's
+    documentation: ``test(context)`` says whether a disagreement is this one. ``example`` is a
+    formula (over the test workbook) whose Excel value, ``expected``, the engine must give;
+    ``tests/test_engine_differential.py`` checks each."""
+    id: str
+    libreoffice: str
+    excel: str
+    source: str
+    example: str
+    expected: object
+    test: object = None
+
+    def explains(self, ctx: Context) -> bool:
+        return bool(self.test(ctx))
+
+
+def _logical(ctx):
+    if "logical" in ctx.formula.tags:
+        return True
+    if re.search(r'"(TRUE|FALSE)"', ctx.text) or re.search(r"(?<![A-Z_.])(TRUE|FALSE)\b",
+                                                             ctx.text):
+        return True
+    return _touches(ctx.formula.text, lambda v: type(v) is bool or
+                    (isinstance(v, str) and v.strip().upper() in ("TRUE", "FALSE")))
+
+
+def _touches(formula_text, pred) -> bool:
+    """Does a reference of the formula cover an input cell whose value satisfies ``pred``?"""
+    from .formula import parse, references
+
+    try:
+        refs = references(parse(formula_text))
+    except Exception:  # noqa: BLE001
+        return True
+    for node in refs:
+        if node[0] == "name":
+            if node[1] == "NUMS":
+                node = ("ref", INPUT_SHEET, 1, 1, 12, 1, False, 0)
+            else:
+                continue
+        _, sheet, r1, c1, r2, c2 = node[:6]
+        r2 = 12 if r2 is None else min(r2, 12)
+        c2 = 14 if c2 is None else c2
+        cells = INPUTS if sheet == INPUT_SHEET else LOCAL
+        for (r, c), v in cells.items():
+            if r1 <= r <= r2 and c1 <= c <= c2 and pred(v):
+                return True
+    return False
+
+
+_DOMAIN = ("SQRT", "LN", "LOG", "LOG10", "ASIN", "ACOS", "ACOSH", "ATANH", "POWER", "^",
+           "TAN", "SIN", "COS", "EXP", "SINH", "COSH", "LARGE", "SMALL", "FLOOR", "CEILING",
+           "MROUND", "MEDIAN", "_XLFN.AGGREGATE", "AGGREGATE", "LINEST")
+
+
+def _icu_key(s):
+    # ASCII order of LibreOffice's ICU root collation: spaces and punctuation, then digits,
+    # then letters (case second)
+    order = " _-,;:!?.'\"()[]{}@*/\\&#%`^+<=>|~$0123456789abcdefghijklmnopqrstuvwxyz"
+    return tuple(order.index(ch) if ch in order else 1000 + ord(ch) for ch in s.lower())
+
+
+def _text_order(ctx):
+    from .xlvalues import text_key
+
+    texts = set(re.findall(r'"((?:[^"]|"")*)"', ctx.formula.text))
+    for (r, c), v in list(INPUTS.items()) + list(LOCAL.items()):
+        if isinstance(v, str):
+            texts.add(v)
+    texts.update(v for v in ctx.values() if isinstance(v, str))
+    if not ctx.calls("<", ">", "MATCH", "LOOKUP", "VLOOKUP", "HLOOKUP", "XLOOKUP", "COUNTIF",
+                     "COUNTIFS", "SUMIF", "SUMIFS", "AVERAGEIF", "AVERAGEIFS", "MINIFS",
+                     "MAXIFS", "SWITCH"):
+        return False
+    texts = sorted(texts)
+    for a in texts:
+        for b in texts:
+            if a < b:
+                ea = (text_key(a) > text_key(b)) - (text_key(a) < text_key(b))
+                ia = (_icu_key(a) > _icu_key(b)) - (_icu_key(a) < _icu_key(b))
+                if ea != ia and a.lower() != b.lower():
+                    return True
+    return False
+
+
+#: LibreOffice's code for an error the engine (Excel) gives another code (the departures
+#: above): an error of a sub-formula may reach LibreOffice's result under its own code.
+_LO_CODE = {"#NUM!": "#VALUE!", "#DIV/0!": "#VALUE!", "#REF!": "#VALUE!", "#N/A": "#VALUE!"}
+
+
+def _error_order(ctx):
+    """Both are errors, and the engine's error is one an argument or operand carries (a
+    sub-formula's value or a referenced cell's), so the two applications differ only in which
+    error they report."""
+    if not (_err(ctx.ours) and _err(ctx.theirs)) or ctx.ours == ctx.theirs:
+        return False
+    vals = [v for node, v, _ in ctx.subs() if node is not ctx.formula.node]
+    carried = ctx.ours in vals or _touches(ctx.formula.text, lambda v: v == ctx.ours)
+    return carried
+
+
+def _typed_text(ctx):
+    if ctx.theirs != "#VALUE!":
+        return False
+    aggregates = {"SUM", "AVERAGE", "MIN", "MAX", "PRODUCT", "SUMSQ", "STDEV", "STDEVP",
+                  "VAR", "VARP", "MEDIAN", "COUNT", "COUNTA"}
+    subs = ctx.subs()
+    by_node = {id(n): v for n, v, _ in subs}
+    for node, _, parent in subs:
+        if parent is not None and parent.op == "call" and \
+                parent.value.replace("_xlfn.", "") in aggregates and node.op not in ("ref",) \
+                and isinstance(by_node.get(id(node)), str) and not _err(by_node[id(node)]):
+            return True
+    return False
+
+
+def _near_zero(ctx):
+    from .xlvalues import equal
+
+    subs = ctx.subs()
+    by_node = {id(n): v for n, v, _ in subs}
+    top = ctx.formula.node
+    for node, v, _ in subs:
+        if node is top or node.op != "bin" or node.value not in "+-":
+            continue
+        a, b = (by_node.get(id(x)) for x in node.args)
+        if type(a) is float and type(b) is float and a and b and equal(abs(a), abs(b)):
+            return True
+    return False
+
+
+def _lookup_blank(ctx):
+    for node, v, _ in ctx.subs():
+        if node.op == "call" and node.value.replace("_xlfn.", "") in (
+                "VLOOKUP", "HLOOKUP", "LOOKUP", "XLOOKUP") and v is None:
+            return True
+    return False
+
+
+def _array_error(ctx):
+    return bool(re.search(r"\{[^}]*#[A-Z/0!?]+[^}]*\}", ctx.formula.text))
+
+
+#: The known departures of LibreOffice 25.2 from Excel, each judged against Excel's
+#: documentation (cited). A disagreement is excused only by an entry whose test holds.
+DEPARTURES: tuple = (
+    Departure(
+        "logical-type",
+        "has no logical type: TRUE is the number 1 shown as TRUE, so it adds, counts, "
+        "compares and joins logicals as 1 and 0, and reads the text \"TRUE\" as 1",
+        "a logical is its own type: SUM, COUNT, AVERAGE ... skip it in a reference; it ranks "
+        "above every number and text in a comparison; TRUE joined to text is \"TRUE\"; the "
+        "text \"TRUE\" is not a number",
+        "Microsoft support, 'SUM function' and 'COUNT function' (logical values in a "
+        "reference are not counted), 'Default sort orders' (logical values after text); "
+        "from memory for the comparison and the joining",
+        '=1&TRUE', "1TRUE", _logical),
+    Departure(
+        "array-constant-error",
+        "reads an array constant holding an error value from an .xlsx file as #N/A for the "
+        "whole formula",
+        "an array constant may hold error values such as #N/A, each an element of the array",
+        "Microsoft support, 'Use array constants in array formulas' (array constants can "
+        "contain numbers, text, logical values and error values such as #N/A)",
+        "=COUNTA({1,#N/A})", 2.0, _array_error),
+    Departure(
+        "domain-error-code",
+        "shows #VALUE! (its 'invalid argument') where an argument is outside a function's "
+        "domain",
+        "#NUM! for an argument outside the function's domain: SQRT of a negative, LN or "
+        "LOG of 0, ASIN(2), ACOSH(0.5), k beyond the data in LARGE/SMALL, FLOOR and "
+        "CEILING of a positive number with a negative significance, MEDIAN of no numbers",
+        "Microsoft support, 'SQRT function', 'LN function', 'ASIN function', 'LARGE "
+        "function', 'FLOOR function', 'CEILING function' (each: #NUM!)",
+        "=SQRT(-1)", "#NUM!",
+        lambda c: c.ours == "#NUM!" and c.theirs == "#VALUE!" and c.calls(*_DOMAIN)),
+    Departure(
+        "division-error-code",
+        "shows #VALUE! for LOG with base 1, QUOTIENT by 0 and FLOOR to a multiple of 0",
+        "a division by zero is #DIV/0!: LOG(x, 1) divides by LN(1) = 0, QUOTIENT(n, 0) and "
+        "FLOOR(n, 0) by 0",
+        "Microsoft support, '#DIV/0! error'; from memory for LOG, QUOTIENT and FLOOR",
+        "=QUOTIENT(1,0)", "#DIV/0!",
+        lambda c: c.ours == "#DIV/0!" and c.theirs == "#VALUE!" and c.calls(
+            "LOG", "QUOTIENT", "FLOOR")),
+    Departure(
+        "reference-outside",
+        "shows #VALUE! for a VLOOKUP/HLOOKUP column or row number beyond the table and for "
+        "LINEST data of different sizes",
+        "#REF!: the number points outside the table; LINEST with known_y's and known_x's of "
+        "different sizes is #REF!",
+        "Microsoft support, 'VLOOKUP function' and 'HLOOKUP function' (index greater than "
+        "the columns or rows of table_array: #REF!); [MS-OI29500] 2.1.985 (LINEST)",
+        "=VLOOKUP(1,In!G1:G12,2,FALSE)", "#REF!",
+        lambda c: c.ours == "#REF!" and c.theirs == "#VALUE!" and c.calls(
+            "VLOOKUP", "HLOOKUP", "LINEST")),
+    Departure(
+        "regression-size",
+        "shows #VALUE! when known_y's and known_x's differ in size",
+        "SLOPE, INTERCEPT and FORECAST give #N/A when known_y's and known_x's have a "
+        "different number of data points",
+        "Microsoft support, 'SLOPE function', 'INTERCEPT function', 'FORECAST function'",
+        "=SLOPE(In!J1:J3,In!I1:I4)", "#N/A",
+        lambda c: c.ours == "#N/A" and c.theirs == "#VALUE!" and c.calls(
+            "SLOPE", "INTERCEPT", "FORECAST")),
+    Departure(
+        "zero-power-zero",
+        "gives 1 for 0^0 and POWER(0,0)",
+        "0^0 and POWER(0,0) are #NUM!",
+        "[MS-OI29500] (POWER: Office returns #NUM! for 0^0); from memory",
+        "=0^0", "#NUM!",
+        lambda c: c.ours == "#NUM!" and c.calls("^", "POWER")),
+    Departure(
+        "negative-root",
+        "gives the real odd root of a negative number, (-8)^(1/3) = -2",
+        "a negative number to a fractional power is #NUM!",
+        "Microsoft support, 'POWER function'; from memory",
+        "=(-8)^(1/3)", "#NUM!",
+        lambda c: c.ours == "#NUM!" and c.calls("^", "POWER")),
+    Departure(
+        "mround-signs",
+        "rounds MROUND of a number and a multiple of different signs",
+        "MROUND gives #NUM! when number and multiple have different signs",
+        "Microsoft support, 'MROUND function'",
+        "=MROUND(5,-2)", "#NUM!", lambda c: c.ours == "#NUM!" and c.calls("MROUND")),
+    Departure(
+        "atan2-origin",
+        "gives 0 for ATAN2(0,0)",
+        "ATAN2(0,0) is #DIV/0!",
+        "Microsoft support, 'ATAN2 function' (x_num and y_num both 0: #DIV/0!)",
+        "=ATAN2(0,0)", "#DIV/0!", lambda c: c.ours == "#DIV/0!" and c.calls("ATAN2")),
+    Departure(
+        "trig-limit",
+        "evaluates SIN, COS and TAN of angles of 2^27 and more",
+        "SIN, COS and TAN give #NUM! for an angle of 134,217,728 (2^27) or more in size",
+        "from memory (Excel's limit, widely reported: COS(2^27) is #NUM!)",
+        "=SIN(2^27)", "#NUM!", lambda c: c.ours == "#NUM!" and c.calls("SIN", "COS", "TAN")),
+    Departure(
+        "exponent-digits",
+        "writes three exponent digits when a number becomes text (1E+020)",
+        "the General format writes the exponent with at least two digits (1E+20)",
+        "Microsoft support, 'Number format codes' (E+00: two exponent digits); from memory",
+        '="x"&1E+20', "x1E+20",
+        lambda c: isinstance(c.ours, str) and isinstance(c.theirs, str) and
+        re.sub(r"E([+-])0(\d\d)", r"E\1\2", c.theirs) == c.ours),
+    Departure(
+        "typed-text-in-aggregates",
+        "refuses text typed directly as an argument of SUM, AVERAGE, MIN, MAX, ... (#VALUE!)",
+        "text that reads as a number, typed directly into the list of arguments, is counted",
+        "Microsoft support, 'AVERAGE function' and 'COUNT function' (logical values and "
+        "text representations of numbers that you type directly into the list of arguments "
+        "are counted)",
+        '=SUM("3",1)', 4.0, _typed_text),
+    Departure(
+        "error-precedence",
+        "returns the error of a later operand or argument when several are errors",
+        "the first error met, left to right, is the result",
+        "from memory (Excel evaluates operands and arguments left to right); Excel's help "
+        "is silent",
+        "=NA()+In!E3", "#N/A", _error_order),
+    Departure(
+        "near-zero-sum",
+        "sets a sum or difference of operands equal to 15 digits to exactly 0 wherever it "
+        "is in a formula",
+        "only the last addition or subtraction of a formula is corrected to 0; an inner one "
+        "keeps its binary value (=(0.1+0.2-0.3)=0 is FALSE)",
+        "Microsoft support, 'Floating-point arithmetic may give inaccurate results in "
+        "Excel', example when a value reaches zero",
+        "=(0.1+0.2-0.3)=0", False, _near_zero),
+    Departure(
+        "lookup-blank",
+        "gives the number 0 when VLOOKUP, HLOOKUP or LOOKUP find an empty cell",
+        "the result is the empty cell's value: 0 in arithmetic, \"\" joined to text (the "
+        "VLOOKUP(...)&\"\" idiom)",
+        "from memory (common practice: VLOOKUP(...)&\"\" shows an empty result cell as "
+        "empty)",
+        '=VLOOKUP(2,In!K1:L12,2,FALSE)&""', "", _lookup_blank),
+    Departure(
+        "negative-zero-format",
+        "drops the minus sign of a negative number that TEXT or FIXED round to zero",
+        "the sign stays: TEXT(-0.001,\"0.00\") is -0.00",
+        "from memory; A. Wyatt, 'Getting Rid of Negative Zero Amounts' (ExcelTips)",
+        '=TEXT(-0.001,"0.00")', "-0.00",
+        lambda c: isinstance(c.ours, str) and isinstance(c.theirs, str) and
+        c.ours.startswith("-") and c.ours[1:] == c.theirs and c.calls("TEXT", "FIXED")),
+    Departure(
+        "empty-find-text",
+        "gives #VALUE! for FIND or SEARCH of empty text",
+        "empty find_text matches at start_num",
+        "Microsoft support, 'FIND, FINDB functions' (find_text \"\" matches the character "
+        "numbered start_num)",
+        '=FIND("","abc")', 1.0,
+        lambda c: c.theirs == "#VALUE!" and c.calls("FIND", "SEARCH") and any(
+            n.op == "call" and n.value in ("FIND", "SEARCH") and n.args and
+            v2 == "" for n, _, _ in c.subs() for m, v2, p in c.subs()
+            if p is n and m is n.args[0])),
+    Departure(
+        "text-order",
+        "orders text with ICU collation: space and punctuation before digits",
+        "text compares in the order of Excel's sort: digits, space, then ! \" # $ % & ( ) * "
+        ", . / : ; ? @ [ \\ ] ^ _ ` { | } ~ + < = >, then letters without regard to case; "
+        "apostrophes and hyphens are ignored",
+        "Microsoft support, 'Default sort orders' (Excel help)",
+        '="0"<" "', True, _text_order),
+)
+
+
+# ------------------------------------------------------------------------ the workbook --
+def write_book(formulas, path) -> None:
+    """The test workbook: sheet F (local inputs, then the formulas at :func:`place`), sheet In
+    (the inputs) and the defined names."""
+    import openpyxl
+    from openpyxl.workbook.defined_name import DefinedName
+    from openpyxl.worksheet.formula import ArrayFormula
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = FORMULA_SHEET
+    ins = wb.create_sheet(INPUT_SHEET)
+    for (r, c), v in INPUTS.items():
+        ins.cell(r, c).value = "=" + v[1] if type(v) is tuple else v
+    for (r, c), v in LOCAL.items():
+        ws.cell(r, c).value = v
+    for i, f in enumerate(formulas):
+        r, c = place(i)
+        cell = ws.cell(r, c)
+        cell.value = ArrayFormula(cell.coordinate, f.text) if f.array else f.text
+    for name, value in NAMES.items():
+        wb.defined_names[name] = DefinedName(name, attr_text=value)
+    wb.save(path)
+
+
+def _cell_value(t, v):
+    if t == "b":
+        return (v or "").strip() in ("1", "true")
+    if t == "e":
+        return "#" + (v or "").strip().lstrip("#") if v else None
+    if t in ("str", "inlineStr"):
+        return v or ""
+    if v is None:
+        return None
+    return float(v)
+
+
+def libreoffice_values(path, workdir, timeout=900) -> dict:
+    """``{coordinate: value}`` of sheet F after LibreOffice recalculated ``path``."""
+    from defusedxml.ElementTree import fromstring
+
+    soffice = soffice_path()
+    if soffice is None:
+        raise RuntimeError("LibreOffice (soffice) is not installed")
+    profile = os.path.join(workdir, "profile")
+    os.makedirs(os.path.join(profile, "user"), exist_ok=True)
+    with open(os.path.join(profile, "user", "registrymodifications.xcu"), "w") as fh:
+        fh.write(_PROFILE_XCU)
+    out = os.path.join(workdir, "lo")
+    env = {k: v for k, v in os.environ.items() if k not in ("PYTHONPATH", "PYTHONHOME")}
+    subprocess.run([soffice, "-env:UserInstallation=file://" + profile, "--headless",
+                    "--norestore", "--convert-to", "xlsx", "--outdir", out, os.fspath(path)],
+                   capture_output=True, timeout=timeout, check=True, env=env)
+    result = os.path.join(out, os.path.basename(os.fspath(path)))
+    with zipfile.ZipFile(result) as z:
+        root = fromstring(z.read("xl/worksheets/sheet1.xml"))
+        strings = []
+        if "xl/sharedStrings.xml" in z.namelist():
+            sroot = fromstring(z.read("xl/sharedStrings.xml"))
+            strings = ["".join(t.text or "" for t in si.iter() if t.tag.endswith("}t"))
+                       for si in sroot]
+    ns = root.tag[:root.tag.index("}") + 1]
+    values = {}
+    for c in root.iter(ns + "c"):
+        if c.find(ns + "f") is None:
+            continue
+        v = c.find(ns + "v")
+        t = c.get("t", "n")
+        vt = v.text if v is not None else None
+        values[c.get("r")] = strings[int(vt)] if t == "s" else _cell_value(t, vt)
+    return values
+
+
+@dataclass(frozen=True)
+class Refused:
+    reason: str
+
+
+@dataclass(frozen=True)
+class Crashed:
+    reason: str
+
+
+def engine_values(path, keep=None) -> dict:
+    """``{coordinate: value | Refused | Crashed}`` of sheet F evaluated by the engine;
+    ``keep`` (a list) receives the recalculator, for the departures' sub-formulas."""
+    from .recalc import Recalculator
+    from .safety import read_workbook_bytes
+    from .package import read_package
+
+    pkg = read_package(read_workbook_bytes(os.fspath(path)), os.path.basename(path))
+    if hasattr(Recalculator, "values_and_refusals"):
+        calc = Recalculator(None, {}, package=pkg)
+        values, refusals = calc.values_and_refusals()
+        if keep is not None:
+            keep.append(calc)
+        out = {c: v for (s, c), v in values.items() if s == FORMULA_SHEET}
+        for (s, c), why in refusals.items():
+            if s == FORMULA_SHEET:
+                out[c] = Refused(why)
+        return out
+    return _engine_values_by_subsets(pkg)
+
+
+def _engine_values_by_subsets(pkg) -> dict:
+    """For an engine that stops at the first refusal: evaluate subsets of the formulas,
+    removing refused cells and bisecting crashes."""
+    import copy
+
+    from .recalc import Recalculator
+    from .xlvalues import RecalcError
+
+    sheet = next(s for s in pkg.sheets if s.title == FORMULA_SHEET)
+    all_cells = sorted(sheet.cells.formulas)
+    out = {}
+    cell_re = re.compile(rf"sheet '{FORMULA_SHEET}', cell ([A-Z]+[0-9]+)")
+
+    def attempt(cells):
+        sub = copy.copy(pkg)
+        cells_obj = copy.copy(sheet.cells)
+        cells_obj.formulas = {rc: sheet.cells.formulas[rc] for rc in cells}
+        cells_obj.arrays = {rc: a for rc, a in sheet.cells.arrays.items() if rc in cells}
+        cells_obj.cached = set()
+        sub.sheets = [type(sheet)(sheet.title, sheet.part, cells_obj) if s is sheet else s
+                      for s in pkg.sheets]
+        calc = Recalculator(None, {}, package=sub)
+        return calc.evaluate()
+
+    def solve(cells):
+        cells = list(cells)
+        while cells:
+            try:
+                values = attempt(cells)
+            except RecalcError as exc:
+                m = cell_re.search(str(exc))
+                if m and any(coord_name(*rc) == m.group(1) for rc in cells):
+                    out[m.group(1)] = Refused(str(exc))
+                    cells = [rc for rc in cells if coord_name(*rc) != m.group(1)]
+                    continue
+                return split(cells, exc)
+            except Exception as exc:  # noqa: BLE001 - a crash of the engine under test
+                return split(cells, exc)
+            for (s, c), v in values.items():
+                if s == FORMULA_SHEET:
+                    out[c] = v
+            return
+
+    def split(cells, exc):
+        if len(cells) == 1:
+            out[coord_name(*cells[0])] = Crashed(f"{type(exc).__name__}: {exc}")
+            return
+        half = len(cells) // 2
+        solve(cells[:half])
+        solve(cells[half:])
+
+    solve(all_cells)
+    return out
+
+
+# ------------------------------------------------------------------------------ judging --
+def same(ours, theirs) -> bool:
+    """The two values are the same cell value (numbers within 1e-12 relative or 1e-14)."""
+    if type(ours) is float and type(theirs) is float:
+        return math.isclose(ours, theirs, rel_tol=1e-12, abs_tol=1e-14)
+    if type(ours) is bool or type(theirs) is bool:
+        return type(ours) is type(theirs) and ours == theirs
+    if ours is None:
+        ours = 0.0
+    return type(ours) is type(theirs) and ours == theirs
+
+
+def _plain(v):
+    return str(v) if isinstance(v, str) else v
+
+
+def judge(formula: Formula, ours, theirs, coord="E1", calc=None):
+    """``("agree" | "refused" | "crashed" | "known" | "disagree", departure id or None)``."""
+    if isinstance(ours, Refused):
+        return "refused", None
+    if isinstance(ours, Crashed):
+        return "crashed", None
+    ours = _plain(ours)
+    if same(ours, theirs):
+        return "agree", None
+    ctx = Context(formula, coord, ours, theirs, calc)
+    for d in DEPARTURES:
+        if d.explains(ctx):
+            return "known", d.id
+    return "disagree", None
+
+
+@dataclass
+class Outcome:
+    formula: Formula
+    coord: str
+    ours: object
+    theirs: object
+    verdict: str
+    departure: str | None = None
+    minimal: str | None = None
+
+    def line(self) -> str:
+        shown = f"{self.formula.text}" + (" (array formula)" if self.formula.array else "")
+        s = f"F!{self.coord} {shown}: engine {self.ours!r}, LibreOffice {self.theirs!r}"
+        if self.minimal and self.minimal != self.formula.text:
+            s += f"; minimal: {self.minimal}"
+        return s
+
+
+@dataclass
+class Report:
+    seed: int
+    outcomes: list = field(default_factory=list)
+
+    def count(self, verdict) -> int:
+        return sum(1 for o in self.outcomes if o.verdict == verdict)
+
+    @property
+    def counts(self) -> dict:
+        return {"formulas": len(self.outcomes), "agree": self.count("agree"),
+                "known": self.count("known"), "refused": self.count("refused"),
+                "crashed": self.count("crashed"), "disagree": self.count("disagree")}
+
+    def failures(self):
+        return [o for o in self.outcomes if o.verdict in ("disagree", "crashed")]
+
+    def by_departure(self) -> dict:
+        out: dict = {}
+        for o in self.outcomes:
+            if o.departure:
+                out[o.departure] = out.get(o.departure, 0) + 1
+        return out
+
+
+def evaluate_both(formulas, workdir, keep=None):
+    """(engine values, LibreOffice values) of ``formulas`` by cell coordinate."""
+    path = os.path.join(workdir, "difftest.xlsx")
+    write_book(formulas, path)
+    return engine_values(path, keep), libreoffice_values(path, workdir)
+
+
+def run(seed: int, n: int, *, shrink: int = 5, workdir=None) -> Report:
+    """Generate ``n`` formulas from ``seed``, evaluate them both ways and judge each; the first
+    ``shrink`` failures are reduced to minimal formulas."""
+    gen = Generator(seed)
+    formulas = [gen.formula() for _ in range(n)]
+    with tempfile.TemporaryDirectory(prefix="portflux-difftest-", dir=workdir) as tmp:
+        keep = []
+        ours, theirs = evaluate_both(formulas, tmp, keep)
+        calc = keep[0] if keep else None
+        report = Report(seed)
+        for i, f in enumerate(formulas):
+            coord = coord_name(*place(i))
+            o, t = ours.get(coord, Crashed("no value")), theirs.get(coord)
+            verdict, dep = judge(f, o, t, coord, calc)
+            report.outcomes.append(Outcome(f, coord, o, t, verdict, dep))
+        for o in report.failures()[:shrink]:
+            if o.verdict == "disagree":
+                o.minimal = minimize(o.formula, i_of(o.coord), tmp)
+    return report
+
+
+def i_of(coord: str) -> int:
+    """Index of the formula placed at ``coord`` (inverse of :func:`place`)."""
+    from .package import split_coord
+    from .formulagen import BLOCK_ROWS, FORMULA_FIRST_COL
+
+    r, c = split_coord(coord)
+    return (c - FORMULA_FIRST_COL) * BLOCK_ROWS + r - 1
+
+
+def minimize(formula: Formula, index: int, workdir, rounds: int = 15) -> str:
+    """The smallest formula found, by repeated one-step simplification, that still disagrees
+    without a departure to explain it. Each round evaluates all candidates in one workbook,
+    each at the position (row within its block) of the original, so implicit intersection
+    sees the same row."""
+    current = formula
+    row = index % 12
+    for _ in range(rounds):
+        cands = [Formula(n, formula.array, formula.tags) for n in
+                 shrink_candidates(current.node)][:11 * 20]
+        if not cands:
+            break
+        # keep each candidate in the same row as the original: pad with a cheap formula
+        slots = []
+        for cand in cands:
+            slots.extend([None] * ((row - len(slots)) % 12))
+            slots.append(cand)
+        filler = Formula(Generator(0).expr("n", 9))
+        laid = [c if c is not None else filler for c in slots]
+        with tempfile.TemporaryDirectory(dir=workdir) as tmp:
+            keep = []
+            try:
+                ours, theirs = evaluate_both(laid, tmp, keep)
+            except Exception:  # noqa: BLE001 - keep what was found so far
+                break
+        calc = keep[0] if keep else None
+        better = None
+        for i, cand in enumerate(laid):
+            if cand is filler:
+                continue
+            coord = coord_name(*place(i))
+            verdict, _ = judge(cand, ours.get(coord, Crashed("no value")), theirs.get(coord),
+                               coord, calc)
+            if verdict in ("disagree", "crashed"):
+                better = cand
+                break
+        if better is None:
+            break
+        current = better
+    return "=" + text(current.node)
