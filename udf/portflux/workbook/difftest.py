@@ -123,14 +123,56 @@ class Departure:
         return bool(self.test(ctx))
 
 
+_TEXT_FUNCS = {"LEFT", "RIGHT", "MID", "LEN", "CONCATENATE", "CONCAT", "TEXTJOIN", "UPPER",
+               "LOWER", "TRIM", "REPT", "SUBSTITUTE", "FIND", "SEARCH", "EXACT", "TEXT",
+               "FIXED", "VALUE"}
+_TYPED_FUNCS = _TEXT_FUNCS | {
+    "ISNUMBER", "ISTEXT", "ISNONTEXT", "ISLOGICAL", "ISBLANK", "SUM", "MIN", "MAX",
+    "AVERAGE", "PRODUCT", "SUMSQ", "COUNT", "COUNTA", "STDEV", "STDEVP", "VAR", "VARP",
+    "MEDIAN", "LARGE", "SMALL", "SUMPRODUCT", "SLOPE", "INTERCEPT", "FORECAST", "LINEST",
+    "SUBTOTAL", "AGGREGATE", "COUNTIF", "SUMIF", "AVERAGEIF", "COUNTIFS", "SUMIFS",
+    "AVERAGEIFS", "MAXIFS", "MINIFS", "MATCH", "VLOOKUP", "HLOOKUP", "LOOKUP", "XLOOKUP",
+    "SWITCH", "MMULT", "AND", "OR", "XOR"}
+
+
+def _boolish(node, v) -> bool:
+    """Does this sub-formula carry a logical (or the text TRUE/FALSE) to its parent?"""
+    from .xlvalues import Array
+
+    if type(v) is bool:
+        return True
+    if isinstance(v, Array) and any(type(x) is bool for row in v for x in row):
+        return True
+    if isinstance(v, str) and v.strip().upper() in ("TRUE", "FALSE"):
+        return True
+    if node.op == "lit" and node.value.startswith("{") and re.search(r"TRUE|FALSE",
+                                                                     node.value.upper()):
+        return True
+    if node.op == "ref":
+        return _touches("=" + node.value, lambda x: type(x) is bool or (
+            isinstance(x, str) and x.strip().upper() in ("TRUE", "FALSE")))
+    return False
+
+
 def _logical(ctx):
-    if "logical" in ctx.formula.tags:
-        return True
-    if re.search(r'"(TRUE|FALSE)"', ctx.text) or re.search(r"(?<![A-Z_.])(TRUE|FALSE)\b",
-                                                             ctx.text):
-        return True
-    return _touches(ctx.formula.text, lambda v: type(v) is bool or
-                    (isinstance(v, str) and v.strip().upper() in ("TRUE", "FALSE")))
+    """A logical value (or the text TRUE/FALSE) reaches a place where Excel treats it
+    otherwise than the number 1/0: a comparison, text, an IS function, an aggregate over
+    references or arrays, a lookup or criterion, arithmetic on the text TRUE; or the cell's
+    result is a logical LibreOffice shows as a number."""
+    for node, v, parent in ctx.subs():
+        if not _boolish(node, v):
+            continue
+        if parent is None:
+            if type(ctx.ours) is bool and ctx.theirs in (0.0, 1.0):
+                return True
+            continue
+        if parent.op == "bin" and parent.value in ("=", "<>", "<", ">", "<=", ">=", "&"):
+            return True
+        if parent.op == "call" and parent.value.replace("_xlfn.", "") in _TYPED_FUNCS:
+            return True
+        if isinstance(v, str) and parent.op in ("bin", "neg", "pct", "call"):
+            return True                   # LibreOffice reads the text TRUE as 1
+    return False
 
 
 def _touches(formula_text, pred) -> bool:
@@ -383,7 +425,7 @@ DEPARTURES: tuple = (
         "VLOOKUP(...)&\"\" idiom)",
         "from memory (common practice: VLOOKUP(...)&\"\" shows an empty result cell as "
         "empty)",
-        '=VLOOKUP(2,In!K1:L12,2,FALSE)&""', "", _lookup_blank),
+        '=VLOOKUP(1.5,In!A1:C12,3,FALSE)&""', "", _lookup_blank),
     Departure(
         "negative-zero-format",
         "drops the minus sign of a negative number that TEXT or FIXED round to zero",

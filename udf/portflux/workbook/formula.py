@@ -199,7 +199,10 @@ class _Parser:
         while self.peek_op() == "%":
             self.i += 1
             node = ("pct", node)
-        return ("neg", node) if signs % 2 else node
+        if signs % 2:
+            return ("neg", node)
+        # an even number of minus signs still makes a number (--"3" is 3, --TRUE is 1)
+        return ("neg", ("neg", node)) if signs else node
 
     def nested(self):
         self.depth += 1
@@ -391,6 +394,7 @@ def calls(node):
 # own row. Two formulas with the same key have the same tree once their relative rows are
 # offsets (``relative``).
 _DIGITS = re.compile(r"[0-9]+")
+_DIGIT_SPLIT = re.compile(r"([0-9]+)")
 _ROLES: dict = {}
 _ROLES_KEPT = 8192
 _UNREAD = object()
@@ -425,30 +429,36 @@ def template_key(text: str, row: int):
     False
     """
     body = text[1:] if text.startswith("=") else text
-    skel = _DIGITS.sub("#", body)
-    roles = _ROLES.get(skel, _UNREAD)
-    if roles is _UNREAD:
+    pieces = _DIGIT_SPLIT.split(body)
+    skel = "#".join(pieces[0::2])
+    info = _ROLES.get(skel, _UNREAD)
+    if info is _UNREAD:
         roles = _roles(body)
+        info = None if roles is None else (
+            len(roles), [i for i, r in enumerate(roles) if r == 2],
+            [i for i, r in enumerate(roles) if r == 1])
         if len(_ROLES) >= _ROLES_KEPT:
             _ROLES.clear()
-        _ROLES[skel] = roles
-    if roles is None:
+        _ROLES[skel] = info
+    if info is None:
         return None
-    nums = _DIGITS.findall(body)
-    if len(nums) != len(roles):
+    count, rel, absolute = info
+    nums = pieces[1::2]
+    if len(nums) != count:
         return None
-    parts = []
-    for role, n in zip(roles, nums):
-        if role == 0:
-            parts.append(n)
-            continue
+    for i in rel:
+        n = nums[i]
         if len(n) > 7:
             return None
         v = int(n)
         if not 1 <= v <= MAX_ROW:
             return None
-        parts.append(v - row if role == 2 else v)
-    return skel, tuple(parts)
+        nums[i] = v - row
+    for i in absolute:
+        n = nums[i]
+        if len(n) > 7 or not 1 <= int(n) <= MAX_ROW:
+            return None
+    return skel, tuple(nums)
 
 
 def relative(node, row: int):

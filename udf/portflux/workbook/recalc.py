@@ -1337,17 +1337,23 @@ class Recalculator:
         refused = self.refusals
         with collector_paused():
             values = {}
+            letters = {}
             for s in self.package.sheets:
-                cells = self._grids[s.title].cells
-                for rc, _ in s.cells.formulas.items():
-                    area = s.cells.arrays.get(rc)
+                title = s.title
+                get = self._grids[title].cells.get
+                arrays = s.cells.arrays
+                for rc in s.cells.formulas:
+                    area = arrays.get(rc)
+                    if refused and (title, coord_name(*rc)) in refused:
+                        continue
                     r1, c1, r2, c2 = area if area is not None else (rc[0], rc[1], rc[0], rc[1])
                     for r in range(r1, r2 + 1):
                         for c in range(c1, c2 + 1):
-                            coord = coord_name(r, c)
-                            if (s.title, coord_name(*rc)) in refused:
-                                continue
-                            values[(s.title, coord)] = self._plain(cells.get((r << 15) | c))
+                            col = letters.get(c)
+                            if col is None:
+                                col = letters[c] = coord_name(1, c)[:-1]
+                            v = get((r << 15) | c)
+                            values[(title, f"{col}{r}")] = str(v) if type(v) is XlError else v
         return values, refused
 
     def _check_sheet(self, sheet):

@@ -137,7 +137,43 @@ def patch_sheet_xml(xml: bytes, values: Mapping[str, Scalar],
     Only ``<c>`` elements of those cells change (their ``t`` attribute and
     ``<v>``/``<is>`` child); missing cells and rows are inserted in order.
     With ``freeze`` their formulas are dropped: the cells keep only values.
+
+    Cells already in the part are rewritten in one pass over its cells; only the cells it
+    lacks (members of an array range written for the first time) go through the row by row
+    insertion.
     """
+    sd = _SHEETDATA_RE.search(xml)
+    if sd is None:
+        raise RecalcError(f"{where}: the sheet has no <sheetData>")
+    body = sd.group("body") or b""
+    if b"<![CDATA[" in body:
+        raise RecalcError(f"{where}: CDATA in cell data is not supported")
+    wanted = {c.encode("ascii"): v for c, v in values.items()}
+    pieces = []
+    find_r = _R_ATTR_RE.search
+    for cm in _CELL_RE.finditer(body):
+        attrs = cm.group("attrs")
+        rm = find_r(attrs)
+        if rm is None:
+            continue                     # the row by row pass reports it
+        coord = rm.group(1)
+        if coord in wanted:
+            v = wanted.pop(coord)
+            pieces.append((0, cm.start(), cm.end(),
+                           _cell_xml(cm.group("p"), attrs, cm.group("body") or b"", v,
+                                     freeze)))
+    start = sd.start("body") if sd.group("body") is not None else None
+    if start is not None and pieces:
+        xml = xml[:start] + _splice(body, pieces) + xml[sd.end("body"):]
+    if not wanted:
+        return _extend_dimension(xml, values)
+    rest = {c.decode("ascii"): v for c, v in wanted.items()}
+    return _extend_dimension(_patch_rows(xml, rest, where, freeze), values)
+
+
+def _patch_rows(xml: bytes, values: Mapping[str, Scalar], where: str,
+                freeze: bool = False) -> bytes:
+    """Row by row: write ``values`` into their cells, inserting missing cells and rows."""
     sd = _SHEETDATA_RE.search(xml)
     if sd is None:
         raise RecalcError(f"{where}: the sheet has no <sheetData>")
@@ -199,8 +235,7 @@ def patch_sheet_xml(xml: bytes, values: Mapping[str, Scalar],
         rows.sort(key=lambda x: x[0])
         new_body = b"".join(x[3] for x in rows)
     new_sd = b"<%ssheetData>%s</%ssheetData>" % (p, new_body, p)
-    xml = xml[:sd.start()] + new_sd + xml[sd.end():]
-    return _extend_dimension(xml, values)
+    return xml[:sd.start()] + new_sd + xml[sd.end():]
 
 
 def keep_cached_values_on_load(xml: bytes) -> bytes:
