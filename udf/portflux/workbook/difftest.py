@@ -237,6 +237,7 @@ def _text_order(ctx):
 #: LibreOffice's code for an error the engine (Excel) gives another code (the departures
 #: above): an error of a sub-formula may reach LibreOffice's result under its own code.
 _LO_CODE = {"#NUM!": "#VALUE!", "#DIV/0!": "#VALUE!", "#REF!": "#VALUE!", "#N/A": "#VALUE!"}
+# (kept for the report: LibreOffice's codes of the departures above)
 
 
 def _error_order(ctx):
@@ -245,9 +246,17 @@ def _error_order(ctx):
     error they report."""
     if not (_err(ctx.ours) and _err(ctx.theirs)) or ctx.ours == ctx.theirs:
         return False
-    vals = [v for node, v, _ in ctx.subs() if node is not ctx.formula.node]
-    carried = ctx.ours in vals or _touches(ctx.formula.text, lambda v: v == ctx.ours)
-    return carried
+    from .xlvalues import Array
+
+    vals = []
+    for node, v, _ in ctx.subs():
+        if node is ctx.formula.node:
+            continue
+        if isinstance(v, Array):
+            vals.extend(x for row in v for x in row)
+        else:
+            vals.append(v)
+    return ctx.ours in vals or _touches(ctx.formula.text, lambda v: v == ctx.ours)
 
 
 def _typed_text(ctx):
@@ -284,6 +293,29 @@ def _lookup_blank(ctx):
     for node, v, _ in ctx.subs():
         if node.op == "call" and node.value.replace("_xlfn.", "") in (
                 "VLOOKUP", "HLOOKUP", "LOOKUP", "XLOOKUP") and v is None:
+            return True
+    return False
+
+
+def _underflow(ctx):
+    """A power or exponential that underflows to 0 in the engine reaches the result."""
+    if not (ctx.theirs == "#NUM!" or (_err(ctx.theirs) and _err(ctx.ours))):
+        return False
+    for node, v, _ in ctx.subs():
+        if v == 0.0 and ((node.op == "bin" and node.value == "^") or (
+                node.op == "call" and node.value in ("POWER", "EXP"))):
+            return True
+    return False
+
+
+def _aggregate_array_error(ctx):
+    from .xlvalues import Array
+
+    if not _err(ctx.ours) or _err(ctx.theirs):
+        return False
+    for node, v, parent in ctx.subs():
+        if isinstance(v, Array) and any(x == ctx.ours for row in v for x in row) and \
+                parent is not None and parent.op == "call":
             return True
     return False
 
@@ -441,10 +473,40 @@ DEPARTURES: tuple = (
         "Microsoft support, 'FIND, FINDB functions' (find_text \"\" matches the character "
         "numbered start_num)",
         '=FIND("","abc")', 1.0,
-        lambda c: c.theirs == "#VALUE!" and c.calls("FIND", "SEARCH") and any(
+        lambda c: _err(c.theirs) and c.calls("FIND", "SEARCH") and any(
             n.op == "call" and n.value in ("FIND", "SEARCH") and n.args and
-            v2 == "" for n, _, _ in c.subs() for m, v2, p in c.subs()
+            v2 in ("", None) for n, _, _ in c.subs() for m, v2, p in c.subs()
             if p is n and m is n.args[0])),
+    Departure(
+        "zero-negative-power",
+        "gives #NUM! for 0 to a negative power",
+        "0 to a negative power is #DIV/0! (only 0^0 is #NUM!)",
+        "[MS-OI29500] 2.1.1018 (POWER: Office returns #NUM! for POWER(0,0); ISO/IEC 29500 "
+        "gives #DIV/0! for 0 and a power of 0 or less)",
+        "=0^-2", "#DIV/0!",
+        lambda c: c.ours == "#DIV/0!" and c.theirs == "#NUM!" and c.calls("^", "POWER")),
+    Departure(
+        "underflow",
+        "gives #NUM! for a result too small to represent (1E-5^81)",
+        "a result smaller than the smallest number is 0",
+        "Microsoft Knowledge Base Q214373 (values smaller than about 1E-307 are rounded to "
+        "0)",
+        "=1E-5^81", 0.0, _underflow),
+    Departure(
+        "empty-array-element",
+        "shows an empty cell read into an array (TRANSPOSE, INDEX of an array) as empty text",
+        "a blank cell read into an array is 0 there",
+        "from memory (an array formula over blank cells shows 0)",
+        "=INDEX(TRANSPOSE(In!K7:K8),1,1)", 0.0,
+        lambda c: c.ours == 0.0 and c.theirs == "" and c.calls("TRANSPOSE", "MMULT",
+                                                               "INDEX")),
+    Departure(
+        "aggregate-array-error",
+        "lets MAX, MIN, SUM, ... ignore an error inside an array argument when another "
+        "argument is a plain value",
+        "an error value in an argument is the result",
+        "Microsoft support, 'MAX function' (arguments that are error values cause errors)",
+        "=MAX(1,{2,#N/A})", "#N/A", _aggregate_array_error),
     Departure(
         "text-order",
         "orders text with ICU collation: space and punctuation before digits",
@@ -624,7 +686,28 @@ def same(ours, theirs) -> bool:
         return type(ours) is type(theirs) and ours == theirs
     if ours is None:
         ours = 0.0
+    if type(ours) is str and type(theirs) is str and ours != theirs:
+        return _same_text(ours, theirs)
     return type(ours) is type(theirs) and ours == theirs
+
+
+_NUMBER_IN_TEXT = re.compile(r"(-?[0-9]+\.[0-9]+(?:E[+-]?[0-9]+)?)")
+
+
+def _same_text(a: str, b: str) -> bool:
+    """Texts that differ only in the last digits of numbers written with 14 or more
+    significant digits (a number joined to text shows its last bits)."""
+    pa, pb = _NUMBER_IN_TEXT.split(a), _NUMBER_IN_TEXT.split(b)
+    if len(pa) != len(pb) or pa[0::2] != pb[0::2]:
+        return False
+    for x, y in zip(pa[1::2], pb[1::2]):
+        if x == y:
+            continue
+        digits = min(len(x.replace("-", "").replace(".", "").lstrip("0")),
+                     len(y.replace("-", "").replace(".", "").lstrip("0")))
+        if digits < 14 or not math.isclose(float(x), float(y), rel_tol=1e-13):
+            return False
+    return True
 
 
 def _plain(v):

@@ -452,6 +452,9 @@ class Generator:
             kinds = [kind if k == "a" and kind != "a" else k for k in kinds]
         if name == "IFS" and rng.random() < 0.6:
             kinds += ["b", kinds[1]]
+        if name in ("SUMIFS", "COUNTIFS", "AVERAGEIFS", "MAXIFS", "MINIFS") and \
+                rng.random() < 0.45:
+            kinds += ["r", "c"]                 # a second criteria pair
         args = []
         for k in kinds:
             if k in ("n", "t", "a") and rng.random() < 0.12:

@@ -354,7 +354,9 @@ class _Compiler:
         if self.array:
             def as_array(r, c):
                 v = g(r, c)
-                return v.array() if type(v) is Ref else v
+                if type(v) is Ref:
+                    return v.first() if v.r1 == v.r2 and v.c1 == v.c2 else v.array()
+                return v
             return as_array
 
         def intersected(r, c):

@@ -30,7 +30,8 @@ from __future__ import annotations
 import math
 import statistics
 from dataclasses import dataclass
-from decimal import ROUND_DOWN, ROUND_HALF_UP, ROUND_UP, ROUND_CEILING, ROUND_FLOOR, Decimal
+from decimal import (ROUND_CEILING, ROUND_DOWN, ROUND_FLOOR, ROUND_HALF_UP, ROUND_UP, Context,
+                     Decimal, localcontext)
 from typing import Callable
 
 from ..excel import ERROR_VALUES
@@ -41,6 +42,7 @@ from .xlwild import Wildcard, has_wildcards, unescape
 
 __all__ = ["FUNCTIONS", "Function", "broadcast", "CellFailure", "grid_of", "cells_of"]
 
+_WIDE = Context(prec=700, Emax=999999, Emin=-999999)
 TRIG_LIMIT = 134217728.0      # 2^27: SIN, COS, TAN give #NUM! at and beyond (from memory)
 MAX_TEXT = 32767
 
@@ -55,10 +57,13 @@ class Function:
     call: Callable
     min_args: int
     max_args: int        # -1: any number
-    classes: str         # V R F X L per argument, the last repeats
+    classes: str         # V R F X L per argument, the last repeats ("R*RV": RV repeats)
 
     def cls(self, k: int) -> str:
         c = self.classes
+        if "*" in c:
+            head, group = c.split("*")
+            return head[k] if k < len(head) else group[(k - len(head)) % len(group)]
         return c[k] if k < len(c) else c[-1]
 
     @property
@@ -128,6 +133,9 @@ def _finite(x):
 
 def _numbers(*vals):
     """Coerce scalars to numbers; (numbers, None) or (None, first error)."""
+    for v in vals:               # an error value before a text that is not a number
+        if type(v) is XlError:
+            return [None] * len(vals), v
     out = []
     for v in vals:
         x = as_number(v)
@@ -135,6 +143,17 @@ def _numbers(*vals):
             return [None] * len(vals), x
         out.append(x)
     return out, None
+
+
+_INT_LIMIT = 2147483647.0
+
+
+def _whole(x):
+    """A count, position or number of digits: truncated to a whole number; beyond what a
+    32-bit integer holds it is #VALUE! (LibreOffice; Excel's help is silent)."""
+    if abs(x) > _INT_LIMIT:
+        return VALUE
+    return int(x)
 
 
 def _num1(fn, domain=None):
@@ -200,11 +219,14 @@ def _round_with(mode):
         (x, digits), err = _numbers(x, digits)
         if err:
             return err
-        d = int(digits)
+        d = _whole(digits)
+        if type(d) is XlError:
+            return d
         if d > 15 + 308 or d < -308:
             return x if d > 0 else 0.0
         try:
-            q = _decimal(x).quantize(Decimal(1).scaleb(-d), rounding=mode)
+            with localcontext(_WIDE):
+                q = _decimal(x).quantize(Decimal(1).scaleb(-d), rounding=mode)
         except ArithmeticError:
             return x if d > 0 else NUM
         return _finite(float(q))
@@ -222,7 +244,13 @@ def _mod(a, b):
         return err
     if b == 0.0:
         return DIV0
-    r = a - b * math.floor(a / b)
+    # MOD(n, d) = n - d*INT(n/d) (Microsoft, 'MOD function'), n/d as Excel sees it
+    q = _quotient15(a, b)
+    if not math.isfinite(q):
+        return NUM
+    if q == int(q):
+        return 0.0                   # n is a whole multiple of d as Excel sees it
+    r = a - b * math.floor(q)
     if r != 0 and (r < 0) != (b < 0):
         r += b
     return _finite(r)
@@ -253,12 +281,26 @@ def _atan2(x, y):
     return math.atan2(y, x)
 
 
+def _quotient15(x, m):
+    """x / m as Excel sees it: to 15 significant digits (so 10 / (0.5/3) is 60)."""
+    q = x / m
+    if not math.isfinite(q):
+        return q
+    q15 = float(f"{q:.15g}")
+    return q15 if q15 == int(q15) else q
+
+
 def _multiple(x, m, mode):
-    """x rounded to a multiple of m in the decimal view, with ``mode`` a Decimal rounding."""
+    """x rounded to a multiple of m, the quotient taken as Excel sees it, ``mode`` a Decimal
+    rounding."""
+    q = _quotient15(x, m)
+    if not math.isfinite(q):
+        return NUM
     try:
-        q = (_decimal(x) / _decimal(m)).quantize(Decimal(1), rounding=mode)
-        return _finite(float(q * _decimal(m)))
-    except ArithmeticError:
+        with localcontext(_WIDE):
+            n = Decimal(q).quantize(Decimal(1), rounding=mode)
+        return _finite(float(n) * m)
+    except (ArithmeticError, OverflowError):
         return NUM
 
 
@@ -390,8 +432,8 @@ def _pick(i, options, thunks=False):
     k = as_number(i)
     if type(k) is XlError:
         return k
-    k = int(k)
-    if not 1 <= k <= len(options):
+    k = _whole(k)
+    if type(k) is XlError or not 1 <= k <= len(options):
         return VALUE
     return options[k - 1]() if thunks else options[k - 1]
 
@@ -1110,7 +1152,10 @@ def _text_and_count(text, n):
     k = as_number(n)
     if type(k) is XlError:
         return k
-    return VALUE if k < 0 else (s, int(k))
+    k = _whole(k)
+    if type(k) is XlError:
+        return k
+    return VALUE if k < 0 else (s, k)
 
 
 def _left(text, n=1.0):
@@ -1133,10 +1178,10 @@ def _mid(text, start, n):
     (a, k), err = _numbers(start, n)
     if err:
         return err
-    if a < 1 or k < 0:
+    a, k = _whole(a), _whole(k)
+    if type(a) is XlError or type(k) is XlError or a < 1 or k < 0:
         return VALUE
-    a = int(a)
-    return s[a - 1:a - 1 + int(k)]
+    return s[a - 1:a - 1 + k]
 
 
 def _bounded(s):
@@ -1237,9 +1282,10 @@ def _rept(text, n):
     k = as_number(n)
     if type(k) is XlError:
         return k
-    if k < 0 or len(s) * int(k) > MAX_TEXT:
+    k = _whole(k)
+    if type(k) is XlError or k < 0 or len(s) * k > MAX_TEXT:
         return VALUE
-    return s * int(k)
+    return s * k
 
 
 def _trim(x):
@@ -1258,7 +1304,9 @@ def _find_in(case_sensitive):
         k = as_number(start)
         if type(k) is XlError:
             return k
-        k = int(k)
+        k = _whole(k)
+        if type(k) is XlError:
+            return k
         # Microsoft, 'FIND function': start_num below 1 or beyond the text is #VALUE!; an
         # empty find_text matches at start_num
         if k < 1 or k > len(w):
@@ -1275,18 +1323,21 @@ def _find_in(case_sensitive):
     return call
 
 
-def _substitute(text, old, new, instance=None):
+_OMITTED = object()
+
+
+def _substitute(text, old, new, instance=_OMITTED):
     s, o, n = as_text(text), as_text(old), as_text(new)
     for v in (s, o, n):
         if type(v) is XlError:
             return v
     k = None
-    if instance is not None:
+    if instance is not _OMITTED:
         k = as_number(instance)
         if type(k) is XlError:
             return k
-        k = int(k)
-        if k < 1:
+        k = _whole(k)
+        if type(k) is XlError or k < 1:
             return VALUE
     if o == "":
         return s
@@ -1603,7 +1654,7 @@ def _row(g, i, cols):
     return g.sub(i, 0, i, cols - 1) if type(g) is Ref else Array((g[i],))
 
 
-def _xlookup(key, lookup, result, if_not_found=None, match_mode=0.0, search_mode=1.0):
+def _xlookup(key, lookup, result, if_not_found=_OMITTED, match_mode=0.0, search_mode=1.0):
     # Microsoft, 'XLOOKUP function': match_mode 0 exact, -1 exact or next smaller, 1 exact or
     # next larger, 2 wildcards; search_mode 1 first to last, -1 last to first
     values = _vector(lookup)
@@ -1658,7 +1709,7 @@ def _xlookup(key, lookup, result, if_not_found=None, match_mode=0.0, search_mode
     if (vertical and rows != lr) or (not vertical and cols != lc):
         return VALUE
     if found is None:
-        return NA if if_not_found is None else if_not_found
+        return NA if if_not_found is _OMITTED else if_not_found
     if type(result) is Ref:
         return result.sub(found, 0, found, cols - 1) if vertical else \
             result.sub(0, found, rows - 1, found)
@@ -1749,9 +1800,9 @@ _OTHER_FUNCS = {
     "LINEST": (_linest, "RRVV"),
     "SUBTOTAL": (_subtotal, "VR"), "AGGREGATE": (_aggregate, "VVR"),
     "COUNTIF": (_countif, "RV"), "SUMIF": (_sumif, "RVR"), "AVERAGEIF": (_averageif, "RVR"),
-    "COUNTIFS": (_countifs, "RV"), "SUMIFS": (_sumifs, "RRV"),
-    "AVERAGEIFS": (_averageifs, "RRV"), "MAXIFS": (_extreme_ifs(max), "RRV"),
-    "MINIFS": (_extreme_ifs(min), "RRV"),
+    "COUNTIFS": (_countifs, "*RV"), "SUMIFS": (_sumifs, "R*RV"),
+    "AVERAGEIFS": (_averageifs, "R*RV"), "MAXIFS": (_extreme_ifs(max), "R*RV"),
+    "MINIFS": (_extreme_ifs(min), "R*RV"),
     "AND": (_and, "R"), "OR": (_or, "R"), "XOR": (_xor, "R"),
     "CONCAT": (_concat, "R"), "TEXTJOIN": (_textjoin, "VVR"),
     "INDEX": (_index, "RVV"), "MATCH": (_match, "VXV"),

@@ -435,9 +435,14 @@ def _mod(comp, args):
         (a, ba), (b, bb) = _num(ga(ctx)), _num(gb(ctx))
         bad = _or(_or(ba, bb), _bad_where(b == 0))
         b2 = _safe(b, bad, 1.0) if isinstance(b, np.ndarray) else (b if b != 0 else 1.0)
-        r = a - b2 * np.floor(a / b2)
+        q = a / b2
+        # a quotient near a whole number: Excel's 15-digit view decides (cell by cell)
+        near = (q != np.floor(q)) & (np.abs(q - np.round(q)) <= 1e-9 * np.maximum(1, np.abs(q)))
+        bad = _or(bad, _bad_where(near))
+        r = a - b2 * np.floor(q)
         fix = (r != 0) & ((r < 0) != (b2 < 0))
         r = np.where(fix, r + b2, r)
+        r = np.where(q == np.floor(q), 0.0, r)
         return r, "n", _or(bad, _bad_where(~np.isfinite(r) | (np.abs(r) >= _BIG)))
     return call
 
