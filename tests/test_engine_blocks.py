@@ -50,7 +50,7 @@ def _book(tmp_path, seed, n=60):
 
 def _cell_by_cell(path, monkeypatch):
     with monkeypatch.context() as m:
-        m.setattr(xlvector, "compile_vector", lambda *a: None)
+        m.setattr(xlvector, "compile_vector", lambda *a, **k: None)
         return Recalculator(path, {}).values_and_refusals()
 
 

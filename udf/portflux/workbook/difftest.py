@@ -162,6 +162,8 @@ def _logical(ctx):
     for node, v, parent in ctx.subs():
         if not _boolish(node, v):
             continue
+        if type(ctx.theirs) is bool and type(ctx.ours) is float and ctx.ours in (0.0, 1.0):
+            return True                   # LibreOffice keeps the logical's format
         if parent is None:
             if type(ctx.ours) is bool and ctx.theirs in (0.0, 1.0):
                 return True
@@ -294,6 +296,32 @@ def _lookup_blank(ctx):
         if node.op == "call" and node.value.replace("_xlfn.", "") in (
                 "VLOOKUP", "HLOOKUP", "LOOKUP", "XLOOKUP") and v is None:
             return True
+    return False
+
+
+def _empty(v):
+    from .xlvalues import Array
+
+    if isinstance(v, Array) and len(v) == 1 and len(v[0]) == 1:
+        v = v[0][0]
+    return v in ("", None)
+
+
+def _matrix_operand(ctx):
+    """An operator with a multi-cell range on one side and an array on the other, in an
+    ordinary formula: Excel intersects the range, LibreOffice takes it as an array."""
+    from .xlvalues import Array
+
+    if ctx.formula.array:
+        return False
+    by_node = {id(n): v for n, v, _ in ctx.subs()}
+    for node, _, _ in ctx.subs():
+        if node.op != "bin" or len(node.args) != 2:
+            continue
+        a, b = node.args
+        for r, other in ((a, b), (b, a)):
+            if r.op == "ref" and ":" in r.value and isinstance(by_node.get(id(other)), Array):
+                return True
     return False
 
 
@@ -475,7 +503,7 @@ DEPARTURES: tuple = (
         '=FIND("","abc")', 1.0,
         lambda c: _err(c.theirs) and c.calls("FIND", "SEARCH") and any(
             n.op == "call" and n.value in ("FIND", "SEARCH") and n.args and
-            v2 in ("", None) for n, _, _ in c.subs() for m, v2, p in c.subs()
+            _empty(v2) for n, _, _ in c.subs() for m, v2, p in c.subs()
             if p is n and m is n.args[0])),
     Departure(
         "zero-negative-power",
@@ -507,6 +535,28 @@ DEPARTURES: tuple = (
         "an error value in an argument is the result",
         "Microsoft support, 'MAX function' (arguments that are error values cause errors)",
         "=MAX(1,{2,#N/A})", "#N/A", _aggregate_array_error),
+    Departure(
+        "empty-text-in-array-constant",
+        "reads \"\" in an array constant from an .xlsx file as 0",
+        "text in an array is skipped by MIN, MAX, SUM and the like (\"\" is text)",
+        "Microsoft support, 'MIN function' (text in an array or reference is ignored)",
+        '=MIN({""},3)', 3.0,
+        lambda c: bool(re.search(r'\{[^}]*""[^}]*\}', c.formula.text))),
+    Departure(
+        "fixed-decimals",
+        "refuses FIXED with more than 20 decimals (#VALUE!)",
+        "FIXED takes up to 127 decimals",
+        "Microsoft support, 'FIXED function' (decimals can be as large as 127)",
+        "=FIXED(1.5,21)", "1.500000000000000000000",
+        lambda c: c.theirs == "#VALUE!" and isinstance(c.ours, str) and c.calls("FIXED")),
+    Departure(
+        "matrix-operand-intersection",
+        "takes a range in an operator as an array when the other operand is an array, in an "
+        "ordinary formula",
+        "in an ordinary formula a range where one value is expected is reduced by implicit "
+        "intersection, whatever the other operand",
+        "Microsoft support, 'Implicit intersection operator: @'",
+        "=In!G20:G21+{1,1}", "#VALUE!", _matrix_operand),
     Departure(
         "text-order",
         "orders text with ICU collation: space and punctuation before digits",
@@ -691,20 +741,23 @@ def same(ours, theirs) -> bool:
     return type(ours) is type(theirs) and ours == theirs
 
 
-_NUMBER_IN_TEXT = re.compile(r"(-?[0-9]+\.[0-9]+(?:E[+-]?[0-9]+)?)")
+_NUMBER_IN_TEXT = re.compile(
+    r"(?<![0-9.])(-?[0-9]{1,20}(?:\.[0-9]{1,20})?(?:E[+-]?[0-9]{1,3})?)")
 
 
 def _same_text(a: str, b: str) -> bool:
     """Texts that differ only in the last digits of numbers written with 14 or more
     significant digits (a number joined to text shows its last bits)."""
+    if len(a) > 2000 or abs(len(a) - len(b)) > 40:
+        return False
     pa, pb = _NUMBER_IN_TEXT.split(a), _NUMBER_IN_TEXT.split(b)
     if len(pa) != len(pb) or pa[0::2] != pb[0::2]:
         return False
     for x, y in zip(pa[1::2], pb[1::2]):
         if x == y:
             continue
-        digits = min(len(x.replace("-", "").replace(".", "").lstrip("0")),
-                     len(y.replace("-", "").replace(".", "").lstrip("0")))
+        digits = max(len(x.split("E")[0].replace("-", "").replace(".", "").lstrip("0")),
+                     len(y.split("E")[0].replace("-", "").replace(".", "").lstrip("0")))
         if digits < 14 or not math.isclose(float(x), float(y), rel_tol=1e-13):
             return False
     return True

@@ -352,11 +352,13 @@ class _Compiler:
         if not self.may_ref(node):
             return g
         if self.array:
+            if node[0] == "ref" and node[6]:
+                # a cell reference is a value; a range (even A1:A1) an array
+                return lambda r, c: g(r, c).first()
+
             def as_array(r, c):
                 v = g(r, c)
-                if type(v) is Ref:
-                    return v.first() if v.r1 == v.r2 and v.c1 == v.c2 else v.array()
-                return v
+                return v.array() if type(v) is Ref else v
             return as_array
 
         def intersected(r, c):
@@ -1054,8 +1056,8 @@ class Recalculator:
             v = _intersect(v, r, c)
         elif t is Array:
             v = v[0][0]
-        if v is None:
-            return 0.0
+        if v is None or v == 0.0 and type(v) is float:
+            return 0.0                   # a blank shows 0; Excel has no negative zero
         return v
 
     def _cell(self, tpl, grid, r, c):
@@ -1130,7 +1132,8 @@ class Recalculator:
             tpl.vector_tried = True
             from .xlvector import compile_vector
 
-            tpl.vector = compile_vector(tpl.tree, self, b.sheet, tpl)
+            tpl.vector = compile_vector(tpl.tree, self, b.sheet, tpl,
+                                        _Compiler(self, b.sheet, tpl))
         if tpl.vector is None:
             return None
         got = tpl.vector(b.r0, b.r1, b.col)
@@ -1183,7 +1186,7 @@ class Recalculator:
             for c in range(c1, c2 + 1):
                 v = fit(grid_v, r - r1, c - c1)
                 k = (r << 15) | c
-                cells[k] = 0.0 if v is None else v
+                cells[k] = 0.0 if v is None or (type(v) is float and v == 0.0) else v
                 written.append(k)
         return written
 

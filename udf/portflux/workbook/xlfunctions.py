@@ -354,7 +354,8 @@ def _quotient(a, b):
         return err
     if b == 0:
         return DIV0
-    return _finite(float(math.trunc(a / b)))
+    q = _quotient15(a, b)            # the quotient as Excel sees it (15 digits)
+    return _finite(float(math.trunc(q))) if math.isfinite(q) else NUM
 
 
 def _acosh(x):
@@ -1152,10 +1153,10 @@ def _text_and_count(text, n):
     k = as_number(n)
     if type(k) is XlError:
         return k
+    if k < 0:                        # checked before the count is truncated (-0.5 is #VALUE!)
+        return VALUE
     k = _whole(k)
-    if type(k) is XlError:
-        return k
-    return VALUE if k < 0 else (s, k)
+    return k if type(k) is XlError else (s, k)
 
 
 def _left(text, n=1.0):
@@ -1178,8 +1179,10 @@ def _mid(text, start, n):
     (a, k), err = _numbers(start, n)
     if err:
         return err
+    if a < 1 or k < 0:
+        return VALUE
     a, k = _whole(a), _whole(k)
-    if type(a) is XlError or type(k) is XlError or a < 1 or k < 0:
+    if type(a) is XlError or type(k) is XlError:
         return VALUE
     return s[a - 1:a - 1 + k]
 
@@ -1282,8 +1285,10 @@ def _rept(text, n):
     k = as_number(n)
     if type(k) is XlError:
         return k
+    if k < 0:
+        return VALUE
     k = _whole(k)
-    if type(k) is XlError or k < 0 or len(s) * k > MAX_TEXT:
+    if type(k) is XlError or len(s) * k > MAX_TEXT:
         return VALUE
     return s * k
 
@@ -1406,6 +1411,11 @@ def _index(array, row=None, col=None):
     """INDEX(reference or array, row, column): a reference into a reference (so a blank stays
     blank), an element of an array. Row or column 0 takes the whole column or row; a negative
     number is #VALUE!, one beyond the range #REF! (Microsoft, 'INDEX function')."""
+    if type(array) is XlError:
+        return array
+    for v in (row, col):             # an error argument before a number out of range
+        if type(v) is XlError:
+            return v
     nums = []
     for v in (row, col):
         if v is None:
@@ -1523,7 +1533,12 @@ def _find(key, values, mode):
 
 def _bisect_find(key, values, mode):
     """Approximate match by binary search, as Excel does on sorted data (values of another type
-    than the key, and blanks, are stepped over)."""
+    than the key, and blanks, are stepped over). A reference is searched through the cells it
+    holds (a whole column is not laid out)."""
+    if isinstance(values, _LazyVector):
+        items = [(k, v) for k, v in values.stored() if type(v) is type(key)]
+        got = _bisect_find(key, [v for _, v in items], mode)
+        return got if type(got) is XlError else items[got][0]
     n = len(values)
     lo, hi = 0, n - 1
     best = None
@@ -1672,32 +1687,34 @@ def _xlookup(key, lookup, result, if_not_found=_OMITTED, match_mode=0.0, search_
         key = key.first()
     if type(key) is XlError:
         return key
-    n = len(values)
-    order = range(n) if sm in (1, 2) else range(n - 1, -1, -1)
+    if isinstance(values, _LazyVector):       # the stored cells only, in order
+        pairs = list(values.stored())
+        order_items = pairs if sm in (1, 2) else pairs[::-1]
+    else:
+        order_items = [(k, values[k]) for k in (range(len(values)) if sm in (1, 2)
+                                                else range(len(values) - 1, -1, -1))]
     found = None
     if key is None:
         key = 0.0 if mm != 2 else ""
     if mm == 2 and type(key) is str:
         pat = Wildcard(key)
-        for k in order:
-            v = values[k]
+        for k, v in order_items:
             if type(v) is str and pat.matches(v):
                 found = k
                 break
     else:
-        best = None
-        for k in order:
-            v = values[k]
+        best = best_v = None
+        for k, v in order_items:
             if v is None or type(v) is XlError or not _same_kind(v, key):
                 continue
             c = compare(v, key)
             if c == 0:
                 found = k
                 break
-            if mm == -1 and c < 0 and (best is None or compare(v, values[best]) > 0):
-                best = k
-            if mm == 1 and c > 0 and (best is None or compare(v, values[best]) < 0):
-                best = k
+            if mm == -1 and c < 0 and (best is None or compare(v, best_v) > 0):
+                best, best_v = k, v
+            if mm == 1 and c > 0 and (best is None or compare(v, best_v) < 0):
+                best, best_v = k, v
         if found is None:
             found = best
     rows, cols = _shape(result)

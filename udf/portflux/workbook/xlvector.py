@@ -93,13 +93,11 @@ def _safe(x, bad, fill):
 
 
 class _Compiler:
-    def __init__(self, calc, sheet, tpl):
+    def __init__(self, calc, sheet, tpl, scalar):
         self.calc = calc
         self.sheet = sheet
         self.tpl = tpl
-        from .recalc import _Compiler as Scalar
-
-        self.scalar = Scalar(calc, sheet, tpl)
+        self.scalar = scalar              # the cell-by-cell compiler, for what is hoisted
         self.scalar.array = False
 
     # -- static analysis -------------------------------------------------------------------
@@ -530,12 +528,13 @@ _CALLS = {
 }
 
 
-def compile_vector(tree, calc, sheet, tpl):
+def compile_vector(tree, calc, sheet, tpl, scalar):
     """``run(r0, r1, col) -> (values, bad rows) or None`` for a template's tree, or None when
-    the template is not vectorised."""
+    the template is not vectorised. ``scalar`` is the cell-by-cell compiler of the sheet (it
+    compiles what does not depend on the row)."""
     if tree is None or tpl.array or tpl.failure is not None:
         return None
-    comp = _Compiler(calc, sheet, tpl)
+    comp = _Compiler(calc, sheet, tpl, scalar)
     comp.top_node = tree
     saved = list(tpl.refs)
     try:
@@ -554,9 +553,11 @@ def compile_vector(tree, calc, sheet, tpl):
             return None
         n = ctx.n
         if isinstance(data, np.ndarray):
+            if kind == "n":
+                data = np.where(data == 0.0, 0.0, data)      # no negative zero in a cell
             values = data.tolist() if kind == "n" else [bool(v) for v in data.tolist()]
         else:
-            values = [float(data) if kind == "n" else bool(data)] * n
+            values = [(float(data) + 0.0 if data else 0.0) if kind == "n" else bool(data)] * n
         bad_rows = [] if bad is None else (ctx.rows[np.broadcast_to(bad, (n,))]).tolist()
         return values, bad_rows
     return run
