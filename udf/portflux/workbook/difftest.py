@@ -299,6 +299,51 @@ def _lookup_blank(ctx):
     return False
 
 
+def _inner(ctx, names, value) -> bool:
+    """A sub-formula calling one of ``names`` (or applying the operator) has, in the engine,
+    the value Excel documents, whether or not it reaches the result (IFERROR may hide it)."""
+    if ctx.ours == value:
+        return ctx.calls(*names)
+    for node, v, _ in ctx.subs():
+        if v == value and ((node.op == "call" and node.value.replace("_xlfn.", "") in names)
+                           or (node.op == "bin" and node.value in names)):
+            return True
+    return False
+
+
+def _small_number_notation(ctx):
+    """The same number written in scientific notation by the engine, in decimal notation by
+    LibreOffice."""
+    if not (isinstance(ctx.ours, str) and isinstance(ctx.theirs, str)):
+        return False
+    pat = re.compile(r"-?[0-9]+(?:\.[0-9]+)?E-[0-9]+")
+    found = pat.findall(ctx.ours)
+    if not found:
+        return False
+    rest = ctx.ours
+    for tok in found:
+        dec = f"{float(tok):.30f}".rstrip("0")
+        digits = re.sub(r"0+$", "", dec)
+        if digits not in ctx.theirs:
+            return False
+        rest = rest.replace(tok, digits, 1)
+    return rest == ctx.theirs or _same_text(rest, ctx.theirs)
+
+
+def _array_text(ctx):
+    """In an array formula the engine gives #VALUE! for text in arithmetic, LibreOffice takes
+    the text as 0."""
+    if not ctx.formula.array or ctx.ours != "#VALUE!" or _err(ctx.theirs):
+        return False
+    from .xlvalues import text_number
+
+    for node, v, parent in ctx.subs():
+        if parent is not None and parent.op == "bin" and parent.value in "+-*/^" and \
+                isinstance(v, str) and not _err(v) and text_number(v) is None:
+            return True
+    return False
+
+
 def _empty(v):
     from .xlvalues import Array
 
@@ -419,33 +464,31 @@ DEPARTURES: tuple = (
         "gives 1 for 0^0 and POWER(0,0)",
         "0^0 and POWER(0,0) are #NUM!",
         "[MS-OI29500] (POWER: Office returns #NUM! for 0^0); from memory",
-        "=0^0", "#NUM!",
-        lambda c: c.ours == "#NUM!" and c.calls("^", "POWER")),
+        "=0^0", "#NUM!", lambda c: _inner(c, ("^", "POWER"), "#NUM!")),
     Departure(
         "negative-root",
         "gives the real odd root of a negative number, (-8)^(1/3) = -2",
         "a negative number to a fractional power is #NUM!",
         "Microsoft support, 'POWER function'; from memory",
-        "=(-8)^(1/3)", "#NUM!",
-        lambda c: c.ours == "#NUM!" and c.calls("^", "POWER")),
+        "=(-8)^(1/3)", "#NUM!", lambda c: _inner(c, ("^", "POWER"), "#NUM!")),
     Departure(
         "mround-signs",
         "rounds MROUND of a number and a multiple of different signs",
         "MROUND gives #NUM! when number and multiple have different signs",
         "Microsoft support, 'MROUND function'",
-        "=MROUND(5,-2)", "#NUM!", lambda c: c.ours == "#NUM!" and c.calls("MROUND")),
+        "=MROUND(5,-2)", "#NUM!", lambda c: _inner(c, ("MROUND",), "#NUM!")),
     Departure(
         "atan2-origin",
         "gives 0 for ATAN2(0,0)",
         "ATAN2(0,0) is #DIV/0!",
         "Microsoft support, 'ATAN2 function' (x_num and y_num both 0: #DIV/0!)",
-        "=ATAN2(0,0)", "#DIV/0!", lambda c: c.ours == "#DIV/0!" and c.calls("ATAN2")),
+        "=ATAN2(0,0)", "#DIV/0!", lambda c: _inner(c, ("ATAN2",), "#DIV/0!")),
     Departure(
         "trig-limit",
         "evaluates SIN, COS and TAN of angles of 2^27 and more",
         "SIN, COS and TAN give #NUM! for an angle of 134,217,728 (2^27) or more in size",
         "from memory (Excel's limit, widely reported: COS(2^27) is #NUM!)",
-        "=SIN(2^27)", "#NUM!", lambda c: c.ours == "#NUM!" and c.calls("SIN", "COS", "TAN")),
+        "=SIN(2^27)", "#NUM!", lambda c: _inner(c, ("SIN", "COS", "TAN"), "#NUM!")),
     Departure(
         "exponent-digits",
         "writes three exponent digits when a number becomes text (1E+020)",
@@ -492,8 +535,8 @@ DEPARTURES: tuple = (
         "the sign stays: TEXT(-0.001,\"0.00\") is -0.00",
         "from memory; A. Wyatt, 'Getting Rid of Negative Zero Amounts' (ExcelTips)",
         '=TEXT(-0.001,"0.00")', "-0.00",
-        lambda c: isinstance(c.ours, str) and isinstance(c.theirs, str) and
-        c.ours.startswith("-") and c.ours[1:] == c.theirs and c.calls("TEXT", "FIXED")),
+        lambda c: isinstance(c.ours, str) and isinstance(c.theirs, str) and c.calls(
+            "TEXT", "FIXED") and re.sub(r"-(?=0(?:[.,]0*)?(?![0-9]))", "", c.ours) == c.theirs),
     Departure(
         "empty-find-text",
         "gives #VALUE! for FIND or SEARCH of empty text",
@@ -557,6 +600,21 @@ DEPARTURES: tuple = (
         "intersection, whatever the other operand",
         "Microsoft support, 'Implicit intersection operator: @'",
         "=In!G20:G21+{1,1}", "#VALUE!", _matrix_operand),
+    Departure(
+        "small-number-notation",
+        "writes a number below 1E-9 in decimal notation when it becomes text "
+        "(0.000000000153801)",
+        "the General format writes numbers below 1E-9 in scientific notation (1.53801E-10)",
+        "from memory (Excel's General format; Microsoft support, 'Number format codes', "
+        "General)",
+        '="x"&1.5E-10', "x1.5E-10", _small_number_notation),
+    Departure(
+        "array-text-as-zero",
+        "takes a text that is not a number as 0 in arithmetic inside an array formula",
+        "text that is not a number gives #VALUE! in arithmetic",
+        "Microsoft support, 'Calculation operators and precedence in Excel' (#VALUE! for "
+        "text that cannot be converted); from memory",
+        '="a"*2', "#VALUE!", _array_text),
     Departure(
         "text-order",
         "orders text with ICU collation: space and punctuation before digits",
@@ -750,6 +808,15 @@ def _same_text(a: str, b: str) -> bool:
     significant digits (a number joined to text shows its last bits)."""
     if len(a) > 2000 or abs(len(a) - len(b)) > 40:
         return False
+    if len(a) == len(b):
+        diff = [k for k in range(len(a)) if a[k] != b[k]]
+        if len(diff) <= 2 and all(a[k].isdigit() and b[k].isdigit() for k in diff):
+            k = diff[0]
+            lo, hi = k, k
+            while lo > 0 and (a[lo - 1].isdigit() or a[lo - 1] == "."):
+                lo -= 1
+            if sum(ch.isdigit() for ch in a[lo:k]) >= 13:
+                return True          # the last digits of a long number: numeric noise
     pa, pb = _NUMBER_IN_TEXT.split(a), _NUMBER_IN_TEXT.split(b)
     if len(pa) != len(pb) or pa[0::2] != pb[0::2]:
         return False
