@@ -64,6 +64,18 @@ __all__ = ["Recalculator", "check_functions", "collector_paused", "refusal_of_ca
            "MAX_REFUSALS_SHOWN"]
 
 _RUNTIME_REFERENCES = {"INDIRECT", "OFFSET"}
+_LOG_LIMIT = 100_000
+_CACHED_AGGREGATES = {
+    "SUM": lambda xs: _finite_or_num(math.fsum(xs)),
+    "COUNT": lambda xs: float(len(xs)),
+    "AVERAGE": lambda xs: _finite_or_num(math.fsum(xs) / len(xs)) if xs else DIV0,
+    "MIN": lambda xs: min(xs) if xs else 0.0,
+    "MAX": lambda xs: max(xs) if xs else 0.0,
+}
+
+
+def _finite_or_num(x):
+    return x if math.isfinite(x) and abs(x) < 1.7976931348623157e308 else NUM
 #: Largest array-formula range, in cells (a hostile file could otherwise ask for all 17
 #: billion cells of a sheet).
 MAX_RANGE_CELLS = 4_000_000
@@ -529,6 +541,8 @@ class _Compiler:
             return self.let(args)
         if name in ("ROW", "COLUMN"):
             return self.row_column(name, args)
+        if name in _CACHED_AGGREGATES and args and all(a[0] == "ref" for a in args):
+            return self.cached_aggregate(name, args)
         if name == "SWITCH":
             classes = ["V"] + ["V" if k % 2 == 0 and not (k == len(args) - 2 and
                                                            len(args) % 2 == 0) else "R"
@@ -579,6 +593,51 @@ class _Compiler:
                     return broadcast(call, values, fixed)
             return call(*values)
         return mixed
+
+    def cached_aggregate(self, name, args):
+        """SUM, COUNT, AVERAGE, MIN or MAX of references only: the cells read are kept (for
+        the last few rectangles) and, after set_value, only the cells written since are read
+        again (edit latency)."""
+        argf = [self.ref(a) for a in args]
+        calc = self.calc
+        general = FUNCTIONS[name].call
+        reduce = _CACHED_AGGREGATES[name]
+        states: dict = {}
+
+        def gather(refs):
+            keys = []
+            for ref in refs:
+                keys.extend((ref.grid, k)
+                            for k in ref.grid.keys_in(ref.r1, ref.c1, ref.r2, ref.c2))
+            vals = [g.cells.get(k) for g, k in keys]
+            return {"epoch": calc._epoch, "seen": len(calc._log), "vals": vals,
+                    "index": {(id(g), k): i for i, (g, k) in enumerate(keys)},
+                    "odd": sum(1 for v in vals if type(v) is not float),
+                    "versions": [(ref.grid, ref.grid.shape_version) for ref in refs]}
+
+        def aggregate(r, c):
+            refs = [g(r, c) for g in argf]
+            rect = tuple((id(x.grid), x.r1, x.c1, x.r2, x.c2) for x in refs)
+            state = states.get(rect)
+            if state is None or state["epoch"] != calc._epoch or any(
+                    g.shape_version != v for g, v in state["versions"]):
+                if len(states) >= 8:
+                    states.clear()
+                state = states[rect] = gather(refs)
+            else:
+                vals, index, log = state["vals"], state["index"], calc._log
+                for i in range(state["seen"], len(log)):
+                    g, k = log[i]
+                    j = index.get((id(g), k))
+                    if j is not None:
+                        old, new = vals[j], g.cells.get(k)
+                        state["odd"] += (type(new) is not float) - (type(old) is not float)
+                        vals[j] = new
+                state["seen"] = len(log)
+            if state["odd"] == 0:
+                return reduce(state["vals"])
+            return general(*refs)
+        return aggregate
 
     def udf(self, udf, args):
         shown, func = udf
@@ -818,6 +877,8 @@ class Recalculator:
         self._changed: list = []
         self._full = True
         self._refused = None
+        self._epoch = 0
+        self._log: list = []              # (grid, key) written since the last full evaluation
 
     # -- layout --------------------------------------------------------------------------
     def _layout(self):
@@ -1194,6 +1255,8 @@ class Recalculator:
         if self._full or self._changed:
             self._refused = None
         if self._full:
+            self._epoch += 1
+            self._log.clear()
             with collector_paused():
                 for b in self._blocks:
                     self._run_block(b)
@@ -1251,6 +1314,11 @@ class Recalculator:
                     keys = [(r << 15) | b.col for r in rows]
                     before = [cells.get(k) for k in keys]
                     self._run_block(b, rows)
+            log = self._log
+            if len(log) > _LOG_LIMIT:
+                self._epoch += 1              # cached aggregates read afresh
+                log.clear()
+            log.extend((grid, k) for k in keys)
             for k, old in zip(keys, before):
                 new = cells.get(k)
                 if not (type(new) is type(old) and new == old):
@@ -1410,6 +1478,7 @@ class Recalculator:
                 grid.occupy(rc[0], rc[1])
             grid.cells[k] = value
         self._changed.append((sheet, rc[0], rc[1]))
+        self._log.append((grid, k))
 
     def evaluate_formula(self, sheet: str, cell: str, text: str, array: bool = False):
         """The value formula ``text`` would have in ``cell`` of ``sheet`` (the workbook is

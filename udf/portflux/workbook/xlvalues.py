@@ -30,8 +30,10 @@ This module imports nothing from portflux but :mod:`portflux.excel`.
 from __future__ import annotations
 
 import math
+import operator
 import re
 from bisect import bisect_left, bisect_right, insort
+from functools import partial
 
 from ..excel import ERROR_VALUES
 
@@ -41,6 +43,7 @@ __all__ = ["Array", "DateText", "Grid", "RecalcError", "Ref", "XlError", "as_num
            "MAX_CELLS", "key_of"]
 
 MAX_ROW, MAX_COL = 1_048_576, 16_384
+_not_none = partial(operator.is_not, None)
 #: Largest rectangle of cells the engine lays out one by one (an array of a whole column is
 #: 1,048,576 cells; 4 million is four whole columns).
 MAX_CELLS = 4_000_000
@@ -104,7 +107,8 @@ class Grid:
     for each column, the sorted rows of the cells ever stored (a value of None there is a
     blank), so that a range is visited sparsely."""
 
-    __slots__ = ("title", "cells", "rows_of", "columns", "hidden_rows", "subtotal_keys")
+    __slots__ = ("title", "cells", "rows_of", "columns", "hidden_rows", "subtotal_keys",
+                 "_keys", "shape_version")
 
     def __init__(self, title, cells: dict, occupied=()):
         self.title = title
@@ -118,8 +122,12 @@ class Grid:
         self.columns = sorted(self.rows_of)
         self.hidden_rows = frozenset()
         self.subtotal_keys = frozenset()
+        self._keys = {}                  # rectangle -> keys of its stored cells (a cache)
+        self.shape_version = 0           # counts the cells stored where none was
 
     def occupy(self, r: int, c: int) -> None:
+        self._keys.clear()
+        self.shape_version += 1
         rows = self.rows_of.get(c)
         if rows is None:
             self.rows_of[c] = [r]
@@ -130,7 +138,18 @@ class Grid:
                 rows.insert(i, r)
 
     def keys_in(self, r1, c1, r2, c2):
-        """Keys of the stored cells of a rectangle, row by row."""
+        """Keys of the stored cells of a rectangle, row by row (kept for the next read of the
+        same rectangle until a cell is stored where none was)."""
+        got = self._keys.get((r1, c1, r2, c2))
+        if got is None:
+            got = self._keys_in(r1, c1, r2, c2)
+            if len(got) > 64:
+                if len(self._keys) > 4096:
+                    self._keys.clear()
+                self._keys[(r1, c1, r2, c2)] = got
+        return got
+
+    def _keys_in(self, r1, c1, r2, c2):
         cols = self.columns
         lo, hi = bisect_left(cols, c1), bisect_right(cols, c2)
         if lo >= hi:
@@ -177,13 +196,12 @@ class Ref:
 
     def values(self) -> list:
         """The values of the stored, non-blank cells, row by row (a sparse read)."""
-        get = self.grid.cells.get
-        out = []
-        for k in self.grid.keys_in(self.r1, self.c1, self.r2, self.c2):
-            v = get(k)
-            if v is not None:
-                out.append(v)
-        return out
+        return list(filter(_not_none, self.stored()))
+
+    def stored(self) -> list:
+        """The values of the stored cells, row by row, blanks among them as None."""
+        keys = self.grid.keys_in(self.r1, self.c1, self.r2, self.c2)
+        return list(map(self.grid.cells.get, keys))
 
     def items(self):
         """``(i, j, value)`` of the stored, non-blank cells (0-based within the rectangle)."""
