@@ -141,7 +141,9 @@ def _boolish(node, v) -> bool:
 
     if type(v) is bool:
         return True
-    if isinstance(v, Array) and any(type(x) is bool for row in v for x in row):
+    if isinstance(v, Array) and any(type(x) is bool or (isinstance(x, str) and x.strip().upper()
+                                                        in ("TRUE", "FALSE"))
+                                    for row in v for x in row):
         return True
     if isinstance(v, str) and v.strip().upper() in ("TRUE", "FALSE"):
         return True
@@ -333,7 +335,7 @@ def _small_number_notation(ctx):
 def _array_text(ctx):
     """In an array formula the engine gives #VALUE! for text in arithmetic, LibreOffice takes
     the text as 0."""
-    if not ctx.formula.array or ctx.ours != "#VALUE!" or _err(ctx.theirs):
+    if not ctx.formula.array or ctx.ours != "#VALUE!" or ctx.theirs == "#VALUE!":
         return False
     from .xlvalues import text_number
 
@@ -457,8 +459,8 @@ DEPARTURES: tuple = (
         "different number of data points",
         "Microsoft support, 'SLOPE function', 'INTERCEPT function', 'FORECAST function'",
         "=SLOPE(In!J1:J3,In!I1:I4)", "#N/A",
-        lambda c: c.ours == "#N/A" and c.theirs == "#VALUE!" and c.calls(
-            "SLOPE", "INTERCEPT", "FORECAST")),
+        lambda c: c.theirs == "#VALUE!" and _inner(c, ("SLOPE", "INTERCEPT", "FORECAST"),
+                                                   "#N/A")),
     Departure(
         "zero-power-zero",
         "gives 1 for 0^0 and POWER(0,0)",
@@ -580,11 +582,11 @@ DEPARTURES: tuple = (
         "=MAX(1,{2,#N/A})", "#N/A", _aggregate_array_error),
     Departure(
         "empty-text-in-array-constant",
-        "reads \"\" in an array constant from an .xlsx file as 0",
+        "reads text in an array constant from an .xlsx file as 0 (\"\", \"a\")",
         "text in an array is skipped by MIN, MAX, SUM and the like (\"\" is text)",
         "Microsoft support, 'MIN function' (text in an array or reference is ignored)",
         '=MIN({""},3)', 3.0,
-        lambda c: bool(re.search(r'\{[^}]*""[^}]*\}', c.formula.text))),
+        lambda c: bool(re.search(r'\{[^}]*"[^}]*\}', c.formula.text))),
     Departure(
         "fixed-decimals",
         "refuses FIXED with more than 20 decimals (#VALUE!)",

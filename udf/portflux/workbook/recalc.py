@@ -1500,7 +1500,10 @@ class Recalculator:
         except CellFailure as exc:
             raise RecalcError(str(exc)) from None
         if type(v) is Ref:
-            v = v.array() if array else _intersect(v, r, c)
+            if v.r1 == v.r2 and v.c1 == v.c2:
+                v = v.first()
+            else:
+                v = v.array() if array else _intersect(v, r, c)
         return self._plain(v) if type(v) is not Array else v
 
     def value(self, sheet: str, cell: str):

@@ -1425,9 +1425,10 @@ def _index(array, row=None, col=None):
         x = as_number(v)
         if type(x) is XlError:
             return x
-        if x < 0:
+        x = _whole(x)                # truncated first: -0.5 is 0 (LibreOffice; help silent)
+        if type(x) is XlError or x < 0:
             return VALUE
-        nums.append(int(x))
+        nums.append(x)
     r, c = nums
     if type(array) is Ref:
         rows, cols = array.rows, array.cols
