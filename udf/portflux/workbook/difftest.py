@@ -301,6 +301,39 @@ def _lookup_blank(ctx):
     return False
 
 
+def _signed_zero(ctx) -> bool:
+    """A number that TEXT or FIXED show as zero: the engine keeps the sign of a negative
+    number (Excel), LibreOffice drops it, or shows the sign of -0 that Excel does not have."""
+    if not ctx.calls("TEXT", "FIXED"):
+        return False
+    zero = re.compile(r"-(?=0(?:[.,]0*)?(?:E[+-]0+)?(?![0-9]))")
+    if isinstance(ctx.ours, str) and isinstance(ctx.theirs, str) and \
+            zero.sub("", ctx.ours) == zero.sub("", ctx.theirs):
+        return True
+    return any(n.op == "call" and n.value in ("TEXT", "FIXED") and isinstance(v, str) and
+               zero.search(v) for n, v, _ in ctx.subs())
+
+
+def _fifteenth_digit(ctx) -> bool:
+    """A number written as text differs in its 15th digit: the engine rounds the binary value,
+    LibreOffice the shortest decimal that reads back as it (548.3161232732465 is ...246 or
+    ...247); a text function then shows the digit."""
+    from decimal import ROUND_HALF_UP, Decimal
+
+    from .xlvalues import number_text
+
+    if not (isinstance(ctx.ours, str) or isinstance(ctx.theirs, str)):
+        return False
+    for node, v, _ in ctx.subs():
+        if type(v) is not float or v == 0 or not math.isfinite(v):
+            continue
+        d = Decimal(repr(v))
+        lo = d.quantize(Decimal(1).scaleb(d.adjusted() - 14), rounding=ROUND_HALF_UP)
+        if abs(v) >= 1e-9 and abs(v) < 1e15 and float(lo) != float(number_text(v)):
+            return True
+    return False
+
+
 def _inner(ctx, names, value) -> bool:
     """A sub-formula calling one of ``names`` (or applying the operator) has, in the engine,
     the value Excel documents, whether or not it reaches the result (IFERROR may hide it)."""
@@ -339,9 +372,14 @@ def _array_text(ctx):
         return False
     from .xlvalues import text_number
 
+    from .xlvalues import Array
+
+    def odd_text(x):
+        return isinstance(x, str) and not _err(x) and text_number(x) is None
     for node, v, parent in ctx.subs():
-        if parent is not None and parent.op == "bin" and parent.value in "+-*/^" and \
-                isinstance(v, str) and not _err(v) and text_number(v) is None:
+        if parent is not None and parent.op == "bin" and parent.value in "+-*/^" and (
+                odd_text(v) or (isinstance(v, Array) and any(odd_text(x) for row in v
+                                                              for x in row))):
             return True
     return False
 
@@ -537,8 +575,7 @@ DEPARTURES: tuple = (
         "the sign stays: TEXT(-0.001,\"0.00\") is -0.00",
         "from memory; A. Wyatt, 'Getting Rid of Negative Zero Amounts' (ExcelTips)",
         '=TEXT(-0.001,"0.00")', "-0.00",
-        lambda c: isinstance(c.ours, str) and isinstance(c.theirs, str) and c.calls(
-            "TEXT", "FIXED") and re.sub(r"-(?=0(?:[.,]0*)?(?![0-9]))", "", c.ours) == c.theirs),
+        _signed_zero),
     Departure(
         "empty-find-text",
         "gives #VALUE! for FIND or SEARCH of empty text",
@@ -617,6 +654,14 @@ DEPARTURES: tuple = (
         "Microsoft support, 'Calculation operators and precedence in Excel' (#VALUE! for "
         "text that cannot be converted); from memory",
         '="a"*2', "#VALUE!", _array_text),
+    Departure(
+        "fifteenth-digit",
+        "rounds a number written as text to 15 digits from its shortest decimal form "
+        "(548.3161232732465 becomes 548.316123273247)",
+        "15 significant digits of the number (Excel's precision, 'Excel specifications and "
+        "limits'); the engine rounds the binary value, 548.316123273246",
+        "from memory; the last digit is beyond what either application guarantees",
+        "=LEN(SINH(7)&\"\")", 16.0, _fifteenth_digit),
     Departure(
         "text-order",
         "orders text with ICU collation: space and punctuation before digits",

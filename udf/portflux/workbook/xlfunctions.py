@@ -236,7 +236,10 @@ def _round_with(mode):
 
 def _int(x):
     x = as_number(x)
-    return x if type(x) is XlError else float(math.floor(x))
+    if type(x) is XlError:
+        return x
+    x15 = float(f"{x:.15g}")             # Excel's 15-digit view: INT(0.1^-5) is 100000
+    return x15 + 0.0 if x15 == int(x15) else float(math.floor(x))
 
 
 def _mod(a, b):
@@ -1384,7 +1387,7 @@ def _fixed(number, decimals=2.0, no_commas=False):
     nc = as_bool(no_commas)
     if type(nc) is XlError:
         return nc
-    d = int(d)
+    d = math.floor(d)                    # decimals floored (LibreOffice; help silent)
     if d > 127:
         return VALUE
     return fixed(x, d, nc)

@@ -323,6 +323,20 @@ def _floor(x):
     return np.floor(x) + 0.0         # float(math.floor(-0.0)) is +0.0
 
 
+def _int_call(comp, args):
+    if len(args) != 1:
+        raise _NotVector()
+    g = comp.node(args[0])
+
+    def call(ctx):
+        x, bad = _num(g(ctx))
+        r = _floor(x)
+        # near a whole number Excel's 15-digit view decides: cell by cell
+        near = (x != r) & (np.abs(x - np.round(x)) <= 1e-9 * np.maximum(1, np.abs(x)))
+        return r, "n", _or(bad, _bad_where(near))
+    return call
+
+
 def _if(comp, args):
     if len(args) != 3:
         raise _NotVector()
@@ -520,7 +534,7 @@ _CALLS = {
     "SINH": _unary(math.sinh, lambda x: np.abs(x) < 709.0),
     "COSH": _unary(math.cosh, lambda x: np.abs(x) < 709.0), "TANH": _unary(math.tanh),
     "RADIANS": _unary(math.radians), "DEGREES": _unary(math.degrees),
-    "INT": _numpy1(_floor), "SIGN": _numpy1(_sign),
+    "INT": _int_call, "SIGN": _numpy1(_sign),
     "IF": _if, "MIN": _minmax(np.minimum), "MAX": _minmax(np.maximum), "SUM": _sum,
     "ROUND": _rounding("half"), "ROUNDUP": _rounding("up"), "ROUNDDOWN": _rounding("down"),
     "TRUNC": _rounding("down"), "MOD": _mod, "ATAN2": _atan2, "POWER": _power_call,
