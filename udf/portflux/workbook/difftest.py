@@ -260,7 +260,19 @@ def _error_order(ctx):
             vals.extend(x for row in v for x in row)
         else:
             vals.append(v)
+    if ctx.ours == "#VALUE!" and any(isinstance(v, str) and not _err(v) and
+                                     _text_number_or_none(v) is None for v in vals):
+        return True                     # a text that is not a number against another error
     return ctx.ours in vals or _touches(ctx.formula.text, lambda v: v == ctx.ours)
+
+
+def _text_number_or_none(v):
+    from .xlvalues import DateText, text_number
+
+    try:
+        return text_number(v)
+    except DateText:
+        return None
 
 
 def _typed_text(ctx):
@@ -356,9 +368,10 @@ def _small_number_notation(ctx):
     if not found:
         return False
     rest = ctx.ours
+    from decimal import Decimal
+
     for tok in found:
-        dec = f"{float(tok):.30f}".rstrip("0")
-        digits = re.sub(r"0+$", "", dec)
+        digits = format(Decimal(tok), "f")
         if digits not in ctx.theirs:
             return False
         rest = rest.replace(tok, digits, 1)
@@ -583,7 +596,7 @@ DEPARTURES: tuple = (
         "Microsoft support, 'FIND, FINDB functions' (find_text \"\" matches the character "
         "numbered start_num)",
         '=FIND("","abc")', 1.0,
-        lambda c: _err(c.theirs) and c.calls("FIND", "SEARCH") and any(
+        lambda c: c.calls("FIND", "SEARCH") and any(
             n.op == "call" and n.value in ("FIND", "SEARCH") and n.args and
             _empty(v2) for n, _, _ in c.subs() for m, v2, p in c.subs()
             if p is n and m is n.args[0])),
@@ -662,6 +675,21 @@ DEPARTURES: tuple = (
         "limits'); the engine rounds the binary value, 548.316123273246",
         "from memory; the last digit is beyond what either application guarantees",
         "=LEN(SINH(7)&\"\")", 16.0, _fifteenth_digit),
+    Departure(
+        "mod-huge-divisor",
+        "gives #VALUE! for MOD of a negative number by a very large divisor",
+        "MOD(n, d) = n - d*INT(n/d), so MOD(-1, 1E+300) is about 1E+300",
+        "Microsoft support, 'MOD function' (the formula n - d*INT(n/d))",
+        "=MOD(-1,1E+300)", 1e300,
+        lambda c: c.theirs == "#VALUE!" and c.calls("MOD") and type(c.ours) is float),
+    Departure(
+        "long-number-text",
+        "refuses to read a number written with hundreds of digits as text (#VALUE!)",
+        "text that reads as a number is that number, however many digits it has",
+        "Microsoft support, 'VALUE function'; from memory",
+        '=VALUE(REPT("1",30))', 1.111111111111111e29,
+        lambda c: c.theirs == "#VALUE!" and type(c.ours) is float and any(
+            isinstance(v, str) and sum(ch.isdigit() for ch in v) > 24 for v in c.values())),
     Departure(
         "text-order",
         "orders text with ICU collation: space and punctuation before digits",
