@@ -35,15 +35,8 @@ import sys
 import tempfile
 import time
 
+from .workbook.difftest import RECALC_ON_LOAD_PROFILE as _PROFILE_XCU
 from .workbook.soffice import soffice_path
-
-_PROFILE_XCU = """<?xml version="1.0" encoding="UTF-8"?>
-<oor:items xmlns:oor="http://openoffice.org/2001/registry"
- xmlns:xs="http://www.w3.org/2001/XMLSchema" xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance">
-<item oor:path="/org.openoffice.Office.Calc/Formula/Load"><prop oor:name="OOXMLRecalcMode"
- oor:op="fuse"><value>0</value></prop></item>
-</oor:items>
-"""
 
 _UNO_EDITS = r'''
 import json, os, statistics, subprocess, sys, time

@@ -35,10 +35,12 @@ from .formulagen import (FORMULA_SHEET, INPUT_SHEET, INPUTS, LOCAL, NAMES, Formu
                          Generator, place, shrink_candidates, text)
 from .package import coord_name
 
-__all__ = ["DEPARTURES", "Context", "Departure", "Outcome", "Report", "run", "write_book",
+__all__ = ["DEPARTURES", "RECALC_ON_LOAD_PROFILE", "Context", "Departure", "Outcome", "Report", "run", "write_book",
            "libreoffice_values", "engine_values", "minimize", "judge", "soffice_path"]
 
-_PROFILE_XCU = """<?xml version="1.0" encoding="UTF-8"?>
+#: A LibreOffice user profile that recalculates every formula of an .xlsx file on load (Calc's
+#: default keeps the cached values): registrymodifications.xcu.
+RECALC_ON_LOAD_PROFILE = """<?xml version="1.0" encoding="UTF-8"?>
 <oor:items xmlns:oor="http://openoffice.org/2001/registry"
  xmlns:xs="http://www.w3.org/2001/XMLSchema" xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance">
 <item oor:path="/org.openoffice.Office.Calc/Formula/Load"><prop oor:name="OOXMLRecalcMode"
@@ -748,7 +750,7 @@ def libreoffice_values(path, workdir, timeout=900) -> dict:
     profile = os.path.join(workdir, "profile")
     os.makedirs(os.path.join(profile, "user"), exist_ok=True)
     with open(os.path.join(profile, "user", "registrymodifications.xcu"), "w") as fh:
-        fh.write(_PROFILE_XCU)
+        fh.write(RECALC_ON_LOAD_PROFILE)
     out = os.path.join(workdir, "lo")
     env = {k: v for k, v in os.environ.items() if k not in ("PYTHONPATH", "PYTHONHOME")}
     subprocess.run([soffice, "-env:UserInstallation=file://" + profile, "--headless",

@@ -308,36 +308,32 @@ def _multiple(x, m, mode):
         return NUM
 
 
-def _ceiling(x, sig):
-    # Microsoft, 'CEILING function': positive number and negative significance #NUM!; a
-    # negative number with a positive significance rounds toward zero, with a negative one away
+def _to_multiple(x, sig, at_zero, mixed, same):
+    """CEILING and FLOOR: ``x`` to a multiple of ``sig``; a positive number with a negative
+    significance is #NUM!; ``mixed`` rounds a negative number with a positive significance,
+    ``same`` the others (Decimal rounding modes); ``at_zero`` is the result for sig = 0."""
     (x, sig), err = _numbers(x, sig)
     if err:
         return err
-    if x == 0 or sig == 0:
+    if x == 0:
         return 0.0
+    if sig == 0:
+        return at_zero
     if x > 0 and sig < 0:
         return NUM
-    if x < 0 and sig > 0:
-        return _multiple(x, sig, ROUND_CEILING)
-    return _multiple(x, sig, ROUND_UP)
+    return _multiple(x, sig, mixed if x < 0 < sig else same)
+
+
+def _ceiling(x, sig):
+    # Microsoft, 'CEILING function': a negative number with a positive significance rounds
+    # toward zero, with a negative one away from zero
+    return _to_multiple(x, sig, 0.0, ROUND_CEILING, ROUND_UP)
 
 
 def _floor(x, sig):
-    # Microsoft, 'FLOOR function': significance 0 #DIV/0!; positive number and negative
-    # significance #NUM!; a negative number with a positive significance rounds away from zero
-    (x, sig), err = _numbers(x, sig)
-    if err:
-        return err
-    if sig == 0:
-        return 0.0 if x == 0 else DIV0
-    if x == 0:
-        return 0.0
-    if x > 0 and sig < 0:
-        return NUM
-    if x < 0 and sig > 0:
-        return _multiple(x, sig, ROUND_FLOOR)
-    return _multiple(x, sig, ROUND_DOWN)
+    # Microsoft, 'FLOOR function': a negative number with a positive significance rounds away
+    # from zero; significance 0 is #DIV/0! (from memory)
+    return _to_multiple(x, sig, DIV0, ROUND_FLOOR, ROUND_DOWN)
 
 
 def _mround(x, m):
@@ -1075,38 +1071,38 @@ def _conditional_values(target, ranges_crits, resize=False):
     return out, None
 
 
-def _sumif(rng, crit, values=None):
-    vals, err = _conditional_values(_target(values, rng), [(rng, crit)], resize=True)
-    if err:
-        return err
-    return _sum_of(vals)
+def _numbers_found(vals):
+    """The numbers among the values a criterion selected, or the first error among them."""
+    xs = []
+    for v in vals:
+        if type(v) is XlError:
+            return None, v
+        if type(v) is float:
+            xs.append(v)
+    return xs, None
 
 
 def _sum_of(vals):
-    xs = []
-    for v in vals:
-        if type(v) is XlError:
-            return v
-        if type(v) is float:
-            xs.append(v)
-    return _finite(math.fsum(xs))
-
-
-def _averageif(rng, crit, values=None):
-    vals, err = _conditional_values(_target(values, rng), [(rng, crit)], resize=True)
-    if err:
-        return err
-    return _average_of(vals)
+    xs, err = _numbers_found(vals)
+    return err if err else _finite(math.fsum(xs))
 
 
 def _average_of(vals):
-    xs = []
-    for v in vals:
-        if type(v) is XlError:
-            return v
-        if type(v) is float:
-            xs.append(v)
+    xs, err = _numbers_found(vals)
+    if err:
+        return err
     return DIV0 if not xs else _finite(math.fsum(xs) / len(xs))
+
+
+def _one_criterion(total):
+    def call(rng, crit, values=None):
+        vals, err = _conditional_values(_target(values, rng), [(rng, crit)], resize=True)
+        return err if err else total(vals)
+    return call
+
+
+_sumif = _one_criterion(_sum_of)
+_averageif = _one_criterion(_average_of)
 
 
 def _ifs_values(target, args):
@@ -1131,12 +1127,9 @@ def _extreme_ifs(pick):
         vals, err = _ifs_values(target, args)
         if err:
             return err
-        xs = []
-        for v in vals:
-            if type(v) is XlError:
-                return v
-            if type(v) is float:
-                xs.append(v)
+        xs, err = _numbers_found(vals)
+        if err:
+            return err
         return pick(xs) if xs else 0.0
     return call
 
