@@ -85,9 +85,9 @@ def test_right_beyond_the_length_gives_the_whole_text(tmp_path):
 
 def test_a_blank_lookup_value_matches_nothing(tmp_path):
     # from memory: a blank lookup value is not 0 to MATCH or VLOOKUP (#N/A)
-    got = _values(tmp_path, {"H1": "=MATCH(Z9,A1:A3,0)", "H2": "=VLOOKUP(Z9,A1:B3,2,FALSE)",
-                             "H3": "=MATCH(0,A1:A3,0)"})
-    assert got == {"H1": "#N/A", "H2": "#N/A", "H3": "#N/A"}
+    got = _values(tmp_path, {"H1": "=MATCH(Z9,{1,0,2},0)", "H2": '=VLOOKUP(Z9,{1,"a";0,"b"},2,FALSE)',
+                             "H3": "=MATCH(0,{1,0,2},0)"})
+    assert got == {"H1": "#N/A", "H2": "#N/A", "H3": 2.0}
 
 
 def test_whole_columns_are_whole_and_never_laid_out(tmp_path):
