@@ -429,11 +429,25 @@ def _underflow(ctx):
     """A power or exponential that underflows to 0 in the engine reaches the result."""
     if not (ctx.theirs == "#NUM!" or (_err(ctx.theirs) and _err(ctx.ours))):
         return False
+    from .xlvalues import Array
+
     for node, v, _ in ctx.subs():
-        if v == 0.0 and ((node.op == "bin" and node.value == "^") or (
+        zero = v == 0.0 or (isinstance(v, Array) and any(x == 0.0 for row in v for x in row))
+        if zero and ((node.op == "bin" and node.value == "^") or (
                 node.op == "call" and node.value in ("POWER", "EXP"))):
             return True
     return False
+
+
+def _beyond_fifteen(ctx):
+    """The same number written with its digits past the 15th: zeros by the engine (Excel's
+    precision), the binary value's digits by LibreOffice."""
+    if not (isinstance(ctx.ours, str) and isinstance(ctx.theirs, str)) or \
+            len(ctx.ours) != len(ctx.theirs):
+        return False
+    a = re.sub(r"[^0-9]", "", ctx.ours).lstrip("0")
+    b = re.sub(r"[^0-9]", "", ctx.theirs).lstrip("0")
+    return len(a) == len(b) > 15 and a[:14] == b[:14] and set(a[15:]) <= {"0"}
 
 
 def _aggregate_array_error(ctx):
@@ -692,6 +706,12 @@ DEPARTURES: tuple = (
         '=VALUE(REPT("1",30))', 1.111111111111111e29,
         lambda c: c.theirs == "#VALUE!" and type(c.ours) is float and any(
             isinstance(v, str) and sum(ch.isdigit() for ch in v) > 24 for v in c.values())),
+    Departure(
+        "digits-beyond-fifteen",
+        "writes the digits of a large number past the 15th (FIXED(2.99793556840055E+34))",
+        "numbers keep 15 significant digits; the places beyond are zeros",
+        "Microsoft support, 'Excel specifications and limits' (number precision: 15 digits)",
+        "=FIXED(2^100,0)", "1,267,650,600,228,230,000,000,000,000,000", _beyond_fifteen),
     Departure(
         "text-order",
         "orders text with ICU collation: space and punctuation before digits",
