@@ -85,8 +85,8 @@ def test_right_beyond_the_length_gives_the_whole_text(tmp_path):
 
 def test_a_blank_lookup_value_matches_nothing(tmp_path):
     # from memory: a blank lookup value is not 0 to MATCH or VLOOKUP (#N/A)
-    got = _values(tmp_path, {"H1": "=MATCH(Z9,{1,0,2},0)", "H2": '=VLOOKUP(Z9,{1,"a";0,"b"},2,FALSE)',
-                             "H3": "=MATCH(0,{1,0,2},0)"})
+    got = _values(tmp_path, {"H1": "=MATCH(Z9,{1,0,2},0)", "H3": "=MATCH(0,{1,0,2},0)",
+                             "H2": '=VLOOKUP(Z9,{1,"a";0,"b"},2,FALSE)'})
     assert got == {"H1": "#N/A", "H2": "#N/A", "H3": 2.0}
 
 

@@ -35,7 +35,8 @@ from .formulagen import (FORMULA_SHEET, INPUT_SHEET, INPUTS, LOCAL, NAMES, Formu
                          Generator, place, shrink_candidates, text)
 from .package import coord_name
 
-__all__ = ["DEPARTURES", "RECALC_ON_LOAD_PROFILE", "Context", "Departure", "Outcome", "Report", "run", "write_book",
+__all__ = ["DEPARTURES", "RECALC_ON_LOAD_PROFILE", "Context", "Departure", "Outcome", "Report",
+           "run", "write_book",
            "libreoffice_values", "engine_values", "minimize", "judge", "soffice_path"]
 
 #: A LibreOffice user profile that recalculates every formula of an .xlsx file on load (Calc's

@@ -182,7 +182,8 @@ def call(kind, name, *args):
 # ----------------------------------------------------------------------------- functions --
 #: name -> (result kind, required argument kinds, optional argument kinds, repeat)
 #: Argument kinds: n number, t text, b logical, a any scalar, r range reference, v vector
-#: (range or array), c criterion, i small index, j whole rank, d digits, f number format text, s a reference
+#: (range or array), c criterion, i small index, j whole rank, d digits, f number format
+#: text, s a reference
 #: to a single cell, x a range of x data, y a range of y data, k an aggregate function number.
 #: ``repeat`` > 0: the last required kind may repeat up to that many times more.
 SPECS: dict = {

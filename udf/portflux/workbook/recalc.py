@@ -64,6 +64,7 @@ __all__ = ["Recalculator", "check_functions", "collector_paused", "refusal_of_ca
            "MAX_REFUSALS_SHOWN"]
 
 _RUNTIME_REFERENCES = {"INDIRECT", "OFFSET"}
+_TINY = 2.2250738585072014e-308
 _LOG_LIMIT = 100_000
 _CACHED_AGGREGATES = {
     "SUM": lambda xs: _finite_or_num(math.fsum(xs)),
@@ -160,7 +161,9 @@ def _binary(op):
                         return NUM
             except (OverflowError, ZeroDivisionError):
                 return NUM
-            return r if math.isfinite(r) else NUM
+            if not math.isfinite(r):
+                return NUM
+            return 0.0 if abs(r) < _TINY else r      # below Excel's smallest number: 0
         return arith
     if op == "&":
         def concat(a, b):

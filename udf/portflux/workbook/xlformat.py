@@ -16,8 +16,10 @@ list (dates and times ``d m y h s``, fractions ``?/?``, fills ``*x``, colours an
 ``[Red]`` ``[>100]``, ``?`` alignment) raise :class:`UnsupportedFormat`; the engine refuses the
 cell, never guesses.
 
->>> format_number(1234.567, "#,##0.00"), format_number(-0.5, "0%"), format_number(1234.5, "0.00E+00")
-('1,234.57', '-50%', '1.23E+03')
+>>> format_number(1234.567, "#,##0.00"), format_number(-0.5, "0%")
+('1,234.57', '-50%')
+>>> format_number(1234.5, "0.00E+00")
+'1.23E+03'
 >>> format_number(0.125, "0.00"), format_number(12, "General"), format_number(-3, "0.0;(0.0)")
 ('0.13', '12', '(3.0)')
 """

@@ -43,8 +43,8 @@ from .xlwild import Wildcard, has_wildcards, unescape
 __all__ = ["FUNCTIONS", "Function", "broadcast", "CellFailure", "grid_of", "cells_of"]
 
 _WIDE = Context(prec=700, Emax=999999, Emin=-999999)
-TRIG_LIMIT = 134217728.0
-_is_float = float.__instancecheck__      # 2^27: SIN, COS, TAN give #NUM! at and beyond (from memory)
+TRIG_LIMIT = 134217728.0      # 2^27: SIN, COS, TAN give #NUM! at and beyond (from memory)
+_is_float = float.__instancecheck__
 MAX_TEXT = 32767
 
 
@@ -128,8 +128,14 @@ def cells_of(a):
     return [a], False
 
 
+_TINY = 2.2250738585072014e-308     # smallest positive number ('Excel specifications and
+#                                      limits'); below it a result is 0 (KB Q214373)
+
+
 def _finite(x):
-    return x if math.isfinite(x) and abs(x) < 1.7976931348623157e308 else NUM
+    if not (math.isfinite(x) and abs(x) < 1.7976931348623157e308):
+        return NUM
+    return 0.0 if abs(x) < _TINY else x
 
 
 def _numbers(*vals):
@@ -699,6 +705,8 @@ def _slope(ys, xs):
     pairs, err = _pairs(ys, xs)
     if err:
         return err
+    if not pairs:
+        return NA                    # no data points: #N/A (Microsoft, 'SLOPE function')
     if len(pairs) < 2:
         return DIV0
     mx, my, sxx, sxy = _fit(pairs)
@@ -709,6 +717,8 @@ def _intercept(ys, xs):
     pairs, err = _pairs(ys, xs)
     if err:
         return err
+    if not pairs:
+        return NA
     if len(pairs) < 2:
         return DIV0
     mx, my, sxx, sxy = _fit(pairs)
@@ -722,6 +732,8 @@ def _forecast(x, ys, xs):
     pairs, err = _pairs(ys, xs)
     if err:
         return err
+    if not pairs:
+        return NA
     if len(pairs) < 2:
         return DIV0
     mx, my, sxx, sxy = _fit(pairs)

@@ -279,7 +279,7 @@ def number_text(x: float) -> str:
 _NUMBER_TEXT = re.compile(
     r"[ ]*(?P<open>\([ ]*)?(?P<sign>[+-])?[ ]*\$?[ ]*"
     r"(?P<int>[0-9]{1,3}(?:,[0-9]{3})+|[0-9]*)(?P<frac>\.[0-9]*)?"
-    r"(?P<exp>[eE][+-]?[0-9]+)?[ ]*(?P<pct>%)?[ ]*(?P<close>\))?[ ]*")
+    r"(?P<exp>[eE][+-]?[0-9]+)?[ ]*(?P<pct>%)?[ ]*(?P<close>\))?(?P<trail>-)?[ ]*")
 _DATE_TEXT = re.compile(
     r"[ ]*(?:[0-9]{1,4}[/-][0-9]{1,2}(?:[/-][0-9]{1,4})?(?:[ ]+[0-9]{1,2}:[0-9]{2}.*)?"
     r"|[0-9]{1,2}:[0-9]{2}(?::[0-9]{2}(?:\.[0-9]*)?)?(?:[ ]*[AaPp][Mm]?)?"
@@ -313,7 +313,9 @@ def text_number(s: str):
     whole, frac = m.group("int"), m.group("frac")
     if not whole and (not frac or frac == "."):
         return None
-    if m.group("open") is not None and m.group("sign") is not None:
+    if (m.group("open") is not None or m.group("trail")) and m.group("sign") is not None:
+        return None
+    if m.group("open") is not None and m.group("trail"):
         return None
     text = whole.replace(",", "") + (frac or "") + (m.group("exp") or "")
     try:
@@ -322,8 +324,8 @@ def text_number(s: str):
         return None
     if m.group("pct"):
         x /= 100.0
-    if m.group("sign") == "-" or m.group("open") is not None:
-        x = -x
+    if m.group("sign") == "-" or m.group("open") is not None or m.group("trail"):
+        x = -x                       # a trailing minus is a negative too (LibreOffice: "5-")
     return x if math.isfinite(x) else None
 
 

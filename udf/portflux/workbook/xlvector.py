@@ -257,7 +257,17 @@ def _binary(op, v, w, n):
         r = a / _safe(b, zero if isinstance(zero, np.ndarray) else None, 1.0)
     else:
         return _power(a, b, bad, n)
-    return r, "n", _or(bad, _bad_where(~np.isfinite(r)))
+    return r, "n", _or(bad, _bad_where(~np.isfinite(r) | _subnormal(r)))
+
+
+def _not_a_result(r):
+    """Not a finite number Excel keeps: cell by cell (#NUM!, or 0 below the smallest)."""
+    return ~np.isfinite(r) | (np.abs(r) >= _BIG) | _subnormal(r)
+
+
+def _subnormal(r):
+    """Results below Excel's smallest number (0 there): cell by cell."""
+    return (r != 0) & (np.abs(r) < 2.2250738585072014e-308)
 
 
 def _power(a, b, bad, n):
@@ -275,7 +285,7 @@ def _power(a, b, bad, n):
         r = _map2(operator.pow, a2, b2, n)
     except (OverflowError, ZeroDivisionError, TypeError):
         raise _NotVector() from None
-    return r, "n", _or(bad, _bad_where(~np.isfinite(r) | (np.abs(r) >= _BIG)))
+    return r, "n", _or(bad, _bad_where(_not_a_result(r)))
 
 
 # -------------------------------------------------------------------------------- functions --
@@ -296,7 +306,7 @@ def _unary(fn, domain=None, trig=False, fill=1.0):
                 r = _map1(fn, x2, ctx.n)
             except (ValueError, OverflowError):
                 raise _NotVector() from None
-            return r, "n", _or(bad, _bad_where(~np.isfinite(r) | (np.abs(r) >= _BIG)))
+            return r, "n", _or(bad, _bad_where(_not_a_result(r)))
         return call
     return make
 
@@ -455,7 +465,7 @@ def _mod(comp, args):
         fix = (r != 0) & ((r < 0) != (b2 < 0))
         r = np.where(fix, r + b2, r)
         r = np.where(q == np.floor(q), 0.0, r)
-        return r, "n", _or(bad, _bad_where(~np.isfinite(r) | (np.abs(r) >= _BIG)))
+        return r, "n", _or(bad, _bad_where(_not_a_result(r)))
     return call
 
 
