@@ -271,3 +271,30 @@ def test_new_functions_give_the_values_of_microsofts_examples(tmp_path):
     assert got["H32"] == pytest.approx(2.99322285) and got["H33"] == pytest.approx(1.0)
     assert got["H34"] == 2.0 and got["H35"] == 2.0 and got["H36"] == "x"
     assert got["H37"] == 2.5
+
+
+def test_subtotal_leaves_out_hidden_rows_and_nested_totals_and_refuses_the_ambiguous(tmp_path):
+    # Microsoft support, 'SUBTOTAL function': 101-111 leave out rows hidden by hand; nested
+    # SUBTOTAL results are left out (no double counting); 1-11 keep rows hidden by hand but
+    # leave out rows a filter hid, which the file does not tell apart: refused, not guessed.
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    for r, v in enumerate([1.0, 2.0, 4.0, 8.0], start=1):
+        ws.cell(r, 1, v)
+    ws["A5"] = "=SUBTOTAL(9,A1:A4)"
+    ws.row_dimensions[3].hidden = True
+    ws["B1"] = "=SUBTOTAL(109,A1:A4)"
+    ws["B2"] = "=SUBTOTAL(9,A1:A2)"
+    ws["B3"] = "=_xlfn.AGGREGATE(9,5,A1:A4)"
+    for r, v in enumerate([1.0, 2.0, 4.0], start=10):
+        ws.cell(r, 4, v)
+    ws["D13"] = "=SUBTOTAL(9,D10:D12)"
+    ws["E1"] = "=SUBTOTAL(9,D10:D13)"
+    path = tmp_path / "hidden.xlsx"
+    wb.save(path)
+    values, refusals = Recalculator(path, {}).values_and_refusals()
+    assert values[("Sheet", "B1")] == 11.0                # 1 + 2 + 8: row 3 hidden
+    assert values[("Sheet", "B2")] == 3.0                 # no hidden row in A1:A2
+    assert values[("Sheet", "B3")] == 11.0
+    assert values[("Sheet", "E1")] == 7.0                 # the nested SUBTOTAL left out
+    assert "hidden rows" in refusals[("Sheet", "A5")]

@@ -95,6 +95,7 @@ class SheetCells:
     formulas: dict = field(default_factory=dict)    # formula cells -> formula text
     arrays: dict = field(default_factory=dict)      # array anchor -> (r1, c1, r2, c2)
     cached: set = field(default_factory=set)        # formula cells carrying a cached value
+    hidden_rows: set = field(default_factory=set)   # rows marked hidden (SUBTOTAL 101-111)
     max_row: int = 0
     max_col: int = 0
 
@@ -215,6 +216,8 @@ def read_sheet_cells(data: bytes, where: str, strings=()) -> SheetCells:
         if r in seen_rows:
             raise RecalcError(f"{where}: row {r} is given twice; refusing the part")
         seen_rows.add(r)
+        if row.get("hidden") in ("1", "true"):
+            out.hidden_rows.add(r)
         for c in row:
             if c.tag != cell_tag:
                 if _local(c.tag) == "extLst":

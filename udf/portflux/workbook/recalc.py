@@ -895,7 +895,7 @@ class Recalculator:
             for rc, area in cells.arrays.items():
                 self._claim_area(s, rc, area, values, occupied)
             grid = Grid(s.title, values, occupied)
-            grid.hidden_rows = frozenset(cells.__dict__.get("hidden_rows", ()) or ())
+            grid.hidden_rows = frozenset(cells.hidden_rows)
             self._grids[s.title] = grid
 
     def _claim_area(self, s, rc, area, values, occupied):
