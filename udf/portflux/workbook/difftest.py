@@ -349,6 +349,27 @@ def _fifteenth_digit(ctx) -> bool:
     return False
 
 
+def _fixed_half(ctx) -> bool:
+    """A FIXED whose number lies on a half in Excel's 15-digit view but not in binary
+    (4.975 is 4.97499999... in binary)."""
+    from decimal import ROUND_HALF_UP, Decimal
+
+    subs = ctx.subs()
+    by_node = {id(n): v for n, v, _ in subs}
+    for node, _, _ in subs:
+        if node.op != "call" or node.value != "FIXED" or not node.args:
+            continue
+        x = by_node.get(id(node.args[0]))
+        d = by_node.get(id(node.args[1])) if len(node.args) > 1 else 2.0
+        if type(x) is not float or type(d) is not float or abs(x) > 1e15:
+            continue
+        q = Decimal(1).scaleb(-int(d))
+        if Decimal(f"{x:.15g}").quantize(q, ROUND_HALF_UP) != \
+                Decimal(x).quantize(q, ROUND_HALF_UP):
+            return True
+    return False
+
+
 def _inner(ctx, names, value) -> bool:
     """A sub-formula calling one of ``names`` (or applying the operator) has, in the engine,
     the value Excel documents, whether or not it reaches the result (IFERROR may hide it)."""
@@ -713,6 +734,21 @@ DEPARTURES: tuple = (
         "numbers keep 15 significant digits; the places beyond are zeros",
         "Microsoft support, 'Excel specifications and limits' (number precision: 15 digits)",
         "=FIXED(2^100,0)", "1,267,650,600,228,230,000,000,000,000,000", _beyond_fifteen),
+    Departure(
+        "fixed-rounding",
+        "rounds FIXED on the binary value: FIXED(4.975) is 4.97",
+        "FIXED rounds as ROUND does, halves away from zero on the 15-digit value: 4.98",
+        "Microsoft support, 'FIXED function' (rounds the number to the decimals) and "
+        "'ROUND function'; from memory for the 15-digit view",
+        "=FIXED(19.9/4)", "4.98", _fixed_half),
+    Departure(
+        "negative-zero",
+        "keeps a negative zero (QUOTIENT(-5,8) is -0) that ATAN2 then sees the sign of",
+        "there is no negative zero: QUOTIENT(-5,8) is 0 and ATAN2(-1,0) is pi",
+        "from memory (Excel shows and stores -0 as 0)",
+        "=ATAN2(-1,QUOTIENT(-5,8))", math.pi,
+        lambda c: c.calls("ATAN2") and type(c.ours) is float and type(c.theirs) is float and
+        c.ours == -c.theirs and abs(c.ours) > 3.14),
     Departure(
         "text-order",
         "orders text with ICU collation: space and punctuation before digits",
