@@ -204,6 +204,26 @@ def with_shared_strings(src, dst, text, name):
                                                           f'</t></si></sst>'.encode())])
 
 
+def _in_utf16_with_an_entity(t):
+    """The sheet part re-encoded in UTF-16, with a DOCTYPE declaring an entity that a cell's
+    inline text uses: '<!' is then not a byte sequence of the part, so a check for it on the
+    raw bytes alone would hand the part to an unguarded parser."""
+    src = book(t, {"A1": "x", "B1": "=LEN(A1)"})
+
+    def change(name, data):
+        if name != SHEET1:
+            return data
+        text = data.decode("utf-8").split("?>", 1)[-1]
+        text = ('<?xml version="1.0" encoding="UTF-16"?><!DOCTYPE worksheet '
+                '[<!ENTITY e "entity text">]>' + text)
+        return text.encode("utf-16")
+    return rewrite(src, t / "u16.xlsx", change)
+
+
+CASES["a sheet in UTF-16 declaring an entity"] = (_in_utf16_with_an_entity,
+                                                  ["not encoded in UTF-8", "sheet1.xml"])
+
+
 @pytest.mark.parametrize("case", sorted(CASES))
 def test_what_readers_could_read_differently_is_refused_with_the_part_named(tmp_path, case):
     build, fragments = CASES[case]

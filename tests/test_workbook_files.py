@@ -396,4 +396,4 @@ def test_the_engine_knows_excel_functions_and_registered_ones_and_refuses_others
                                   ("C9", "=cmd|' /C calc'!A0", "cannot be read")):
         bad = build_book(tmp_path / f"bad_{coord}.xlsx", {coord: text})
         with pytest.raises(RecalcError, match=rf"cell {coord}: .*{fragment}"):
-            Recalculator(bad, FUNCS)
+            Recalculator(bad, FUNCS).evaluate()

@@ -84,7 +84,7 @@ def as_ref(node, sheet):
     """A ``("ref", ...)`` node as a :class:`Ref` (None for anything else)."""
     if not node or node[0] != "ref":
         return None
-    _, s, r1, c1, r2, c2, _ = node
+    s, r1, c1, r2, c2 = node[1:6]           # ("ref", sheet, r1, c1, r2, c2, is_cell, ...)
     return Ref(s or sheet, r1, c1, r2 if r2 is not None else r1, c2 if c2 is not None else c1)
 
 

@@ -29,10 +29,14 @@ median of each figure beside its target:
    the same sheet with every ``PFX_`` call replaced by native arithmetic in the same engine.
 
 5. **engine vs LibreOffice** -- native-formula sheets of 10,000 and 50,000 formulas: whole-file
-   recalculation against LibreOffice, linearity, and edit latency (:mod:`portflux.bench_engine`).
+   recalculation and peak memory against LibreOffice (and 100,000 formulas), linearity, and edit
+   latency (:mod:`portflux.bench_engine`).
 6. **LibreOffice add-in** -- edit latency of a 10^4-speed ``PFX_SPEEDTABLE`` block in Calc
    against the same table in native formulas, with where the add-in's time goes
    (:mod:`portflux.bench_addin`).
+7. **differential test, long run** -- 24,000 generated formulas evaluated by the engine and by
+   LibreOffice and judged (:mod:`portflux.workbook.difftest`); target: no disagreement outside
+   the table of LibreOffice's departures from Excel.
 
 ``--quick`` runs everything with tiny sizes and one or two repetitions (CI: the benchmark
 cannot rot). Timings are never asserted anywhere: machines are shared and noisy.
@@ -624,6 +628,32 @@ def bench_engine(quick):
     return E.run(_figure, quick)
 
 
+def bench_difftest(quick):
+    """7: the differential test of the formula engine, a longer run (see
+    :mod:`portflux.workbook.difftest`): formulas, agreement with LibreOffice, LibreOffice's
+    known departures from Excel, refusals and disagreements (target 0)."""
+    from .workbook import difftest
+
+    b = "7 formula engine vs LibreOffice, differential"
+    n = 240 if quick else 24_000
+    if difftest.soffice_path() is None:
+        return [_figure(b, "disagreements outside the departures table", float("nan"), "",
+                        note="n/a: soffice not on PATH")]
+    t0 = time.perf_counter()
+    report = difftest.run(seed=20260, n=n, shrink=0 if quick else 5)
+    took = time.perf_counter() - t0
+    c = report.counts
+    rows = [_figure(b, f"formulas (seed {report.seed})", c["formulas"], ""),
+            _figure(b, "agree", c["agree"], ""),
+            _figure(b, "known departures of LibreOffice", c["known"], ""),
+            _figure(b, "refused by the engine", c["refused"], ""),
+            _figure(b, "disagreements outside the departures table",
+                    c["disagree"] + c["crashed"], "", "0", 0.0,
+                    note="; ".join(o.line()[:160] for o in report.failures()[:3])),
+            _figure(b, "run time (generate, both engines, judge)", took, "s")]
+    return rows
+
+
 # --------------------------------------------------------------------------------------------
 def bench_addin(quick):
     """6: the LibreOffice add-in's edit latency (see :mod:`portflux.bench_addin`)."""
@@ -633,7 +663,7 @@ def bench_addin(quick):
 
 
 BENCHMARKS = (bench_balance, bench_table, bench_import, bench_recalc, bench_engine,
-              bench_addin)
+              bench_addin, bench_difftest)
 
 
 def run(quick=False) -> list[dict]:

@@ -38,7 +38,7 @@ MAX_WORK_CELLS = 25_000_000
 
 
 def _area(ref, sheet, sheets) -> int:
-    _, title, r1, c1, r2, c2, _ = ref
+    title, r1, c1, r2, c2 = ref[1:6]          # ("ref", sheet, r1, c1, r2, c2, is_cell, ...)
     cells = sheets.get((title or sheet).upper()) if (title or sheet) else None
     if cells is None:
         return 0                    # a sheet the workbook lacks: the engine refuses it

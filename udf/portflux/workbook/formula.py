@@ -21,7 +21,8 @@ table references) is a :class:`FormulaSyntaxError`, so the engine refuses it wit
 Nodes (plain tuples, never code)::
 
     ("num", float)  ("str", text)  ("bool", b)  ("err", "#N/A")  ("blank",)  -- missing argument
-    ("ref", sheet or None, r1, c1, r2, c2, is_cell)   rows/cols 1-based; r2/c2 None = to the end
+    ("ref", sheet or None, r1, c1, r2, c2, is_cell, rel)   rows/cols 1-based; r2/c2 None = to
+                                                  the end; rel: bit 1/2 = row 1/2 relative
     ("name", NAME)  ("call", NAME, (args...))  ("neg", x)  ("pct", x)
     ("ops", first, ((op, operand), ...))      -- one precedence level, left to right
     ("array", ((v, ...), ...))                -- constants only
@@ -43,7 +44,7 @@ import re
 from .xlvalues import RecalcError
 
 __all__ = ["FormulaSyntaxError", "MAX_DEPTH", "MAX_LENGTH", "parse", "references", "calls",
-           "column_number", "parse_ref_text"]
+           "column_number", "parse_ref_text", "template_key", "relative"]
 
 #: Deepest nesting of parentheses and function calls read (Excel allows 64 levels).
 MAX_DEPTH = 64
@@ -91,14 +92,20 @@ def column_number(letters: str) -> int:
 
 
 def _area(text: str):
-    """(r1, c1, r2, c2, is_cell) of an area such as ``$B$2:D7``, ``A:C`` or ``3:5``."""
+    """(r1, c1, r2, c2, is_cell, rel) of an area such as ``$B$2:D7``, ``A:C`` or ``3:5``;
+    ``rel`` has bit 1 set when the first row is relative (no ``$``), bit 2 for the second."""
     ends = []
-    for piece in text.split(":"):
+    rel = 0
+    for k, piece in enumerate(text.split(":")):
         m = _PART.fullmatch(piece)
         letters, digits = m.group(1), m.group(2)
+        if digits and not piece[:len(piece) - len(digits)].endswith("$"):
+            rel |= 1 << k
         ends.append((int(digits) if digits else None,
                      column_number(letters) if letters else None))
     (r1, c1), (r2, c2) = ends[0], ends[-1]
+    if ":" not in text:
+        rel |= (rel & 1) << 1
     if r1 is None:                      # whole columns
         r1, r2 = 1, None
     if c1 is None:                      # whole rows
@@ -108,16 +115,17 @@ def _area(text: str):
         raise FormulaSyntaxError(f"reference {text!r} lies outside the sheet")
     if r2 is not None and r2 < r1:
         r1, r2 = r2, r1
+        rel = ((rel & 1) << 1) | ((rel & 2) >> 1)
     if c2 is not None and c2 < c1:
         c1, c2 = c2, c1
-    return r1, c1, r2, c2, ":" not in text
+    return r1, c1, r2, c2, ":" not in text, rel
 
 
 def parse_ref_text(text: str):
     """``("ref", ...)`` node of a reference alone (a defined name's text), or None.
 
     >>> parse_ref_text("Ports!$A$1:$B$2")
-    ('ref', 'Ports', 1, 1, 2, 2, False)
+    ('ref', 'Ports', 1, 1, 2, 2, False, 0)
     >>> parse_ref_text("1+1") is None
     True
     """
@@ -191,7 +199,10 @@ class _Parser:
         while self.peek_op() == "%":
             self.i += 1
             node = ("pct", node)
-        return ("neg", node) if signs % 2 else node
+        if signs % 2:
+            return ("neg", node)
+        # an even number of minus signs still makes a number (--"3" is 3, --TRUE is 1)
+        return ("neg", ("neg", node)) if signs else node
 
     def nested(self):
         self.depth += 1
@@ -293,11 +304,11 @@ def parse(text: str):
         Text outside the grammar, too long or nested too deeply; the message says what.
 
     >>> parse("=SUM(A1:A3, , 2%)")
-    ('call', 'SUM', (('ref', None, 1, 1, 3, 1, False), ('blank',), ('pct', ('num', 2.0))))
+    ('call', 'SUM', (('ref', None, 1, 1, 3, 1, False, 3), ('blank',), ('pct', ('num', 2.0))))
     >>> parse("=-2^2")
     ('ops', ('neg', ('num', 2.0)), (('^', ('num', 2.0)),))
     >>> parse("=A1*2")[1], parse("=$B7*2")[1]      # one shape, each formula's own references
-    (('ref', None, 1, 1, 1, 1, True), ('ref', None, 7, 2, 7, 2, True))
+    (('ref', None, 1, 1, 1, 1, True, 3), ('ref', None, 7, 2, 7, 2, True, 3))
     """
     if len(text) > MAX_LENGTH:
         raise FormulaSyntaxError(f"the formula is {len(text)} characters long, above Excel's "
@@ -373,3 +384,102 @@ def references(node):
 def calls(node):
     """Names of every function a tree calls."""
     return [n[1] for n in _walk(node) if n[0] == "call"]
+
+
+# ------------------------------------------------------------------------- templates --
+# Formulas filled down a column are one formula in relative terms. ``template_key`` finds that
+# formula without tokenizing: the text with its digit runs masked (the skeleton) is read once;
+# each digit run is then a constant, an absolute row or a relative row, and the key holds the
+# constants and absolute rows as they are and the relative rows as offsets from the formula's
+# own row. Two formulas with the same key have the same tree once their relative rows are
+# offsets (``relative``).
+_DIGITS = re.compile(r"[0-9]+")
+_DIGIT_SPLIT = re.compile(r"([0-9]+)")
+_ROLES: dict = {}
+_ROLES_KEPT = 8192
+_UNREAD = object()
+
+
+def _roles(body: str):
+    """For each digit run of ``body``: 0 constant, 1 absolute row, 2 relative row; None when
+    the text is outside the grammar (the caller parses it and reports)."""
+    try:
+        toks = _tokens(body)
+    except FormulaSyntaxError:
+        return None
+    rows = {}
+    for kind, _, m in toks:
+        if kind != "ref":
+            continue
+        start = m.start("area")
+        area = m.group("area")
+        for d in _DIGITS.finditer(area):
+            i = d.start()
+            rows[start + i] = 1 if i and area[i - 1] == "$" else 2
+    return tuple(rows.get(d.start(), 0) for d in _DIGITS.finditer(body))
+
+
+def template_key(text: str, row: int):
+    """The key of ``text`` (a formula in row ``row``) in relative terms, or None when it must
+    be parsed on its own (outside the grammar, or a row number out of the sheet).
+
+    >>> template_key("=A2*$B$1+3", 2) == template_key("=A7*$B$1+3", 7)
+    True
+    >>> template_key("=A2*$B$1+3", 2) == template_key("=A7*$B$2+3", 7)
+    False
+    """
+    body = text[1:] if text.startswith("=") else text
+    pieces = _DIGIT_SPLIT.split(body)
+    skel = "#".join(pieces[0::2])
+    info = _ROLES.get(skel, _UNREAD)
+    if info is _UNREAD:
+        roles = _roles(body)
+        info = None if roles is None else (
+            len(roles), [i for i, r in enumerate(roles) if r == 2],
+            [i for i, r in enumerate(roles) if r == 1])
+        if len(_ROLES) >= _ROLES_KEPT:
+            _ROLES.clear()
+        _ROLES[skel] = info
+    if info is None:
+        return None
+    count, rel, absolute = info
+    nums = pieces[1::2]
+    if len(nums) != count:
+        return None
+    for i in rel:
+        n = nums[i]
+        if len(n) > 7:
+            return None
+        v = int(n)
+        if not 1 <= v <= MAX_ROW:
+            return None
+        nums[i] = v - row
+    for i in absolute:
+        n = nums[i]
+        if len(n) > 7 or not 1 <= int(n) <= MAX_ROW:
+            return None
+    return skel, tuple(nums)
+
+
+def relative(node, row: int):
+    """``node`` with the relative rows of its references as offsets from ``row``.
+
+    >>> relative(parse("=A3+$A$3"), 2)
+    ('ops', ('ref', None, 1, 1, 1, 1, True, 3), (('+', ('ref', None, 3, 1, 3, 1, True, 0)),))
+    """
+    tag = node[0]
+    if tag == "ref":
+        _, sheet, r1, c1, r2, c2, is_cell, rel = node
+        if rel & 1:
+            r1 -= row
+        if rel & 2 and r2 is not None:
+            r2 -= row
+        return ("ref", sheet, r1, c1, r2, c2, is_cell, rel)
+    if tag == "call":
+        return ("call", node[1], tuple(relative(a, row) for a in node[2]))
+    if tag == "ops":
+        return ("ops", relative(node[1], row), tuple((op, relative(x, row))
+                                                     for op, x in node[2]))
+    if tag in ("neg", "pct"):
+        return (tag, relative(node[1], row))
+    return node

@@ -53,6 +53,13 @@ from dataclasses import dataclass, field
 from xml.etree.ElementTree import ParseError
 
 from defusedxml.ElementTree import fromstring as _safe_fromstring
+from xml.etree.ElementTree import XMLParser as _CParser
+
+
+def _c_fromstring(data: bytes):
+    parser = _CParser()
+    parser.feed(data)
+    return parser.close()
 
 from .formula import column_number
 from .xlvalues import RecalcError, error
@@ -150,6 +157,7 @@ class SheetCells:
     formulas: dict = field(default_factory=dict)    # formula cells -> formula text
     arrays: dict = field(default_factory=dict)      # array anchor -> (r1, c1, r2, c2)
     cached: set = field(default_factory=set)        # formula cells carrying a cached value
+    hidden_rows: set = field(default_factory=set)   # rows marked hidden (SUBTOTAL 101-111)
     max_row: int = 0
     max_col: int = 0
     # read with layout=True only (None otherwise): what a renderer needs
@@ -180,8 +188,26 @@ def _local(tag) -> str:
     return tag.rsplit("}", 1)[-1] if isinstance(tag, str) else ""
 
 
+#: An XML declaration naming an encoding (in the first bytes of a part).
+_DECLARED_ENCODING = re.compile(rb'\s*(?:\xef\xbb\xbf)?<\?xml[^>]*?\bencoding\s*=\s*["\']([^"\']*)["\']')
+
+
+def _plainly_without_dtd(data: bytes) -> bool:
+    """True where the bytes are UTF-8 (or ASCII) and hold no ``<!``: then no DOCTYPE, so no
+    entity, can be declared. A part in UTF-16 or a declared 8-bit encoding (EBCDIC spells
+    ``<!`` otherwise) goes to the guarded parser instead."""
+    if b"<!" in data or b"\x00" in data[:4] or data.startswith((b"\xff\xfe", b"\xfe\xff")):
+        return False
+    m = _DECLARED_ENCODING.match(data[:256])
+    return m is None or m.group(1).lower() in (b"utf-8", b"utf8")
+
+
 def _xml(data: bytes, where: str):
     try:
+        if _plainly_without_dtd(data):
+            # the C parser (three times faster than defusedxml's pure-Python one on a large
+            # sheet) then sees only the predefined entities and character references
+            return _c_fromstring(data)
         return _safe_fromstring(data, forbid_dtd=True)
     except ParseError as exc:
         raise RecalcError(f"{where}: not well-formed XML ({exc})") from None
@@ -443,6 +469,8 @@ def read_sheet_cells(data: bytes, where: str, strings=(), layout: bool = False) 
             kept = {k: v for k, v in row.attrib.items() if "{" not in k and k not in ("r", "spans")}
             if kept:
                 row_attrs[r] = kept
+        if row.get("hidden") in ("1", "true"):
+            out.hidden_rows.add(r)
         for c in row:
             if c.tag != cell_tag:
                 if c.tag == ns + "extLst":

@@ -1,35 +1,50 @@
-"""The headless recalculator: formulas compiled from syntax trees, evaluated once in dependency order.
+"""The headless recalculator: formulas compiled once per shape, evaluated in dependency order.
 
-:class:`Recalculator` reads a workbook through :mod:`.package`, parses every formula with
-:mod:`.formula` and turns each syntax tree into nested Python closures over a fixed table of
-operations (:mod:`.xlfunctions` for Excel's functions, the registered worksheet functions for
-ours). Nothing from the file is ever turned into Python source: a sheet title, a defined name or a
-formula is data that selects closures from a fixed table, or is refused.
+:class:`Recalculator` reads a workbook through :mod:`.package` and turns each formula into
+nested Python closures over fixed tables of operations (:mod:`.xlfunctions` for Excel's
+functions, the registered worksheet functions for ours). Nothing from the file is ever turned
+into Python source: a sheet title, a defined name or a formula is data that selects closures
+from a fixed table, or is refused.
 
-* **Order.** Each formula's references give its precedents; the formulas are sorted once
-  (Kahn's algorithm, an explicit queue: a chain of 100,000 dependent cells needs no recursion)
-  and a circular reference is refused naming a cell of the cycle.
-* **One pass.** :meth:`Recalculator.evaluate` computes every formula once, in that order; after
-  :meth:`~Recalculator.set_value` only the dependants of the changed cells are computed again.
+* **One compiled formula per shape.** Formulas filled down a column are one formula in relative
+  terms (:func:`.formula.template_key`); each shape is parsed and compiled once into a
+  *template* that takes the cell's row and column. A cell is then a row in a *block*: a run of
+  cells down one column with the same template (an array formula is a block of its own).
+* **Order.** Blocks read rectangles of cells; the blocks each rectangle meets are its
+  precedents. Blocks are ordered by their strongly connected components (Tarjan's algorithm,
+  iterative); a component of several blocks, or a block reading itself (a running total), is
+  ordered cell by cell (Kahn's algorithm, an explicit queue: a chain of 100,000 cells needs no
+  recursion). A cell in a cycle is refused as a circular reference.
+* **Vectorised runs.** A block of arithmetic and elementwise functions is evaluated for all its
+  rows at once with numpy (:mod:`.xlvector`); rows whose inputs are not all numbers, or whose
+  result is not a finite number, are evaluated cell by cell by the same template, so the values
+  are those of the cell-by-cell evaluation.
+* **After set_value** only the cells reading changed cells are computed again (the rows of a
+  block that read them), in order.
+* **References stay references** (:class:`.xlvalues.Ref`): a whole column is 1,048,576 cells,
+  and only the cells the sheet holds are visited. In an ordinary formula a range given where a
+  value is expected is reduced by implicit intersection; in an array formula it is an array.
 * **Calling convention.** A registered function is called as the spreadsheet bridge calls it: a
   scalar argument as ``float``, ``str``, ``bool`` or ``None`` (blank), a range as a tuple of row
   tuples of those, Excel errors as their text (``"#N/A"``). It returns a scalar or a list of row
   lists; a returned error text (``"#N/A"``) is an error value.
-* **Array formulas** (``<f t="array" ref=...>``, openpyxl ``ArrayFormula``) fill their range as
-  Excel does: a larger result is cropped, one row or column repeats, cells beyond a smaller
-  result show ``#N/A``. An array range that would cover another formula or another array, or
-  cells holding data while the array itself carries no cached result (so the values are the
-  user's, not an earlier recalculation's), is refused.
-* **Refused, never guessed**: a function outside the table (INDIRECT, OFFSET, ... with the
-  cell named), a defined name that is not a plain range or constant, a reference to a sheet the
-  workbook lacks, a formula outside the grammar, a registered function that raises (its message
-  is kept for the cell and raised by :meth:`~Recalculator.evaluate`).
+* **Array formulas** (``<f t="array" ref=...>``) fill their range as Excel does: a larger
+  result is cropped, one row or column repeats, cells beyond a smaller result show ``#N/A``. An
+  array range that would cover another formula or another array, or cells holding data while
+  the array itself carries no cached result, is refused.
+* **Refused, never guessed**, cell by cell: a function outside the table (INDIRECT, OFFSET,
+  ...), a defined name that is not a range or a constant, a reference to a sheet the workbook
+  lacks, a formula outside the grammar, a circular reference, a registered function that
+  raises, a fault of the engine itself. Every refusal is listed at once (:attr:`refusals`);
+  :meth:`Recalculator.evaluate` raises one :class:`RecalcError` naming the first few and the
+  count, and the cells that read a refused cell are refused with it.
 """
 
 from __future__ import annotations
 
 import contextlib
 import gc
+import heapq
 import math
 import numbers
 import os
@@ -37,33 +52,38 @@ from bisect import bisect_left, bisect_right
 from collections import deque
 from typing import Callable, Mapping
 
-from .formula import MAX_COL, MAX_ROW, FormulaSyntaxError, parse, parse_ref_text
+from .formula import (MAX_COL, MAX_ROW, FormulaSyntaxError, parse, parse_ref_text, relative,
+                      template_key)
 from .package import Package, coord_name, read_package, split_coord
-from .xlfunctions import FUNCTIONS, broadcast
-from .xlvalues import (DIV0, NA, NAME, NUM, VALUE, Array, RecalcError, XlError, as_number,
-                       as_text, compare, error, fit)
+from .xlfunctions import FUNCTIONS, NESTED_TOTALS, CellFailure, broadcast
+from .xlvalues import (DIV0, NA, NAME, NUM, VALUE, Array, Grid, RecalcError, Ref, XlError,
+                       as_number, as_text, compare, equal, error, fit)
 from ..excel import ERROR_VALUES
 
-__all__ = ["Recalculator", "check_functions", "collector_paused"]
+__all__ = ["Recalculator", "check_functions", "collector_paused", "refusal_of_call",
+           "MAX_REFUSALS_SHOWN"]
 
-Key = tuple  # (sheet title, "A1")
-_AGGREGATES = {"SUM", "MIN", "MAX", "AVERAGE", "PRODUCT", "SUMSQ", "COUNT", "COUNTA",
-               "SUMPRODUCT", "AND", "OR", "XOR", "ROWS", "COLUMNS"}
-_RANGE_ARGS = {"INDEX": {0}, "MATCH": {1}, "VLOOKUP": {1}, "HLOOKUP": {1}, "COUNTIF": {0},
-               "SUMIF": {0, 2}}
 _RUNTIME_REFERENCES = {"INDIRECT", "OFFSET"}
+_TINY = 2.2250738585072014e-308
 _LOG_LIMIT = 100_000
-#: Largest range a formula may name, and largest array-formula range, in cells (a hostile file
-#: could otherwise ask for all 17 billion cells of a sheet). Whole columns and rows (A:A, 3:3)
-#: are cut to the cells the sheet holds.
-MAX_RANGE_CELLS = 4_000_000
-_FAST_AGGREGATES = {
-    "SUM": lambda xs: math.fsum(xs),
+_CACHED_AGGREGATES = {
+    "SUM": lambda xs: _finite_or_num(math.fsum(xs)),
+    "COUNT": lambda xs: float(len(xs)),
+    "AVERAGE": lambda xs: _finite_or_num(math.fsum(xs) / len(xs)) if xs else DIV0,
     "MIN": lambda xs: min(xs) if xs else 0.0,
     "MAX": lambda xs: max(xs) if xs else 0.0,
-    "AVERAGE": lambda xs: math.fsum(xs) / len(xs) if xs else DIV0,
-    "COUNT": lambda xs: float(len(xs)),
 }
+
+
+def _finite_or_num(x):
+    return x if math.isfinite(x) and abs(x) < 1.7976931348623157e308 else NUM
+#: Largest array-formula range, in cells (a hostile file could otherwise ask for all 17
+#: billion cells of a sheet).
+MAX_RANGE_CELLS = 4_000_000
+#: Refusals named in the message of :meth:`Recalculator.evaluate` (all are counted).
+MAX_REFUSALS_SHOWN = 5
+#: Functions whose result may be a reference (a consumer then reads through it).
+_REF_RESULTS = {"INDEX", "IF", "IFERROR", "IFNA", "CHOOSE", "IFS", "SWITCH", "LET", "XLOOKUP"}
 
 
 @contextlib.contextmanager
@@ -81,23 +101,30 @@ def collector_paused():
         gc.enable()
 
 
-def _check_size(r1, c1, r2, c2):
-    if (r2 - r1 + 1) * (c2 - c1 + 1) > MAX_RANGE_CELLS:
-        raise RecalcError(f"the range {coord_name(r1, c1)}:{coord_name(r2, c2)} covers more "
-                          f"than {MAX_RANGE_CELLS:,} cells; refer to whole columns (A:A) or to "
-                          f"the cells in use")
-
-
-def _key(r: int, c: int) -> int:
-    """A cell's key in a sheet's value store: one int (hashes faster than a tuple)."""
-    return (r << 15) | c
-
-
-class _CellFailure(Exception):
-    """Raised inside a formula's evaluation; the recalculator adds sheet and cell."""
+def _intersect(ref, r, c):
+    """Implicit intersection: the cell of ``ref`` in row ``r`` (a one-column range) or column
+    ``c`` (a one-row range), or ``#VALUE!`` (Microsoft, 'Implicit intersection operator: @')."""
+    if ref.r1 == ref.r2:
+        if ref.c1 == ref.c2:
+            return ref.grid.cells.get((ref.r1 << 15) | ref.c1)
+        if ref.c1 <= c <= ref.c2:
+            return ref.grid.cells.get((ref.r1 << 15) | c)
+        return VALUE
+    if ref.c1 == ref.c2 and ref.r1 <= r <= ref.r2:
+        return ref.grid.cells.get((r << 15) | ref.c1)
+    return VALUE
 
 
 # ------------------------------------------------------------------------------ operators --
+def _cancelled(a, b, r):
+    """Excel's correction of the last addition or subtraction of a formula: a result at or
+    very close to zero from operands equal to 15 digits is zero (Microsoft, 'Floating-point
+    arithmetic may give inaccurate results in Excel', example when a value reaches zero)."""
+    if r != 0.0 and abs(r) <= 1e-13 * max(abs(a), abs(b)) and equal(abs(a), abs(b)):
+        return 0.0
+    return r
+
+
 def _binary(op):
     if op in ("+", "-", "*", "/", "^"):
         def arith(a, b):
@@ -106,6 +133,10 @@ def _binary(op):
             elif type(a) is Array or type(b) is Array:
                 return broadcast(arith, (a, b))
             else:
+                if type(a) is XlError:
+                    return a
+                if type(b) is XlError:
+                    return b
                 a, b = as_number(a), as_number(b)
                 if type(a) is XlError:
                     return a
@@ -130,17 +161,21 @@ def _binary(op):
                         return NUM
             except (OverflowError, ZeroDivisionError):
                 return NUM
-            return r if math.isfinite(r) else NUM
+            if not math.isfinite(r):
+                return NUM
+            return 0.0 if abs(r) < _TINY else r      # below Excel's smallest number: 0
         return arith
     if op == "&":
         def concat(a, b):
             if type(a) is Array or type(b) is Array:
                 return broadcast(concat, (a, b))
-            a, b = as_text(a), as_text(b)
             if type(a) is XlError:
                 return a
             if type(b) is XlError:
                 return b
+            a, b = as_text(a), as_text(b)
+            if len(a) + len(b) > 32767:
+                return VALUE
             return a + b
         return concat
     test = {"=": lambda c: c == 0, "<>": lambda c: c != 0, "<": lambda c: c < 0,
@@ -148,7 +183,9 @@ def _binary(op):
 
     def comparison(a, b):
         if type(a) is float and type(b) is float:
-            return test((a > b) - (a < b))
+            if a == b:
+                return test(0)
+            return test(0 if equal(a, b) else (1 if a > b else -1))
         if type(a) is Array or type(b) is Array:
             return broadcast(comparison, (a, b))
         c = compare(a, b)
@@ -176,9 +213,15 @@ def _percent(v):
     return x if type(x) is XlError else x / 100.0
 
 
+def _plus(v):
+    return v
+
+
 # ------------------------------------------------------------------- the bridge convention --
 def _bridge(v):
     """An engine value as a registered function receives it."""
+    if type(v) is Ref:
+        v = v.array()
     if type(v) is Array:
         return tuple(tuple(str(x) if type(x) is XlError else x for x in row) for row in v)
     if type(v) is XlError:
@@ -194,27 +237,27 @@ def _scalar_result(value, where: str):
     if isinstance(value, numbers.Real):
         value = float(value)
         return value if math.isfinite(value) else NUM
-    raise _CellFailure(f"{where} is {value!r} of type {type(value).__name__}; a worksheet "
-                       f"function returns numbers, text, logicals or None")
+    raise CellFailure(f"{where} is {value!r} of type {type(value).__name__}; a worksheet "
+                      f"function returns numbers, text, logicals or None")
 
 
 def _function_result(name: str, result):
     """A registered function's result as an engine value (checked)."""
     if hasattr(result, "tolist") and hasattr(result, "ndim"):      # numpy arrays and scalars
         if result.ndim not in (0, 2):
-            raise _CellFailure(f"{name} returned a {result.ndim}-D array; return a scalar or "
-                               f"a list of row lists")
+            raise CellFailure(f"{name} returned a {result.ndim}-D array; return a scalar or "
+                              f"a list of row lists")
         result = result.tolist()
     if not isinstance(result, (list, tuple)):
         return _scalar_result(result, f"the result of {name}")
     if not result or not all(isinstance(r, (list, tuple)) for r in result):
-        raise _CellFailure(f"{name} returned a sequence that is not a non-empty list of row "
-                           f"lists; return a scalar or a list of row lists")
+        raise CellFailure(f"{name} returned a sequence that is not a non-empty list of row "
+                          f"lists; return a scalar or a list of row lists")
     width = len(result[0])
     for i, row in enumerate(result):
         if len(row) != width or width == 0:
-            raise _CellFailure(f"{name} returned rows of different lengths (row 1 has {width} "
-                               f"values, row {i + 1} has {len(row)})")
+            raise CellFailure(f"{name} returned rows of different lengths (row 1 has {width} "
+                              f"values, row {i + 1} has {len(row)})")
     return Array(tuple(tuple(_scalar_result(v, f"{name} result row {i + 1}, column {j + 1}")
                              for j, v in enumerate(row)) for i, row in enumerate(result)))
 
@@ -268,22 +311,517 @@ does not evaluate it (refer to the cells directly)
         return (f"the formula calls {up}, which computes a reference at run time; the "
                 f"headless engine does not evaluate it (refer to the cells directly)")
     return (f"the formula calls {up}, which is neither an Excel function the headless "
-            f"engine evaluates nor a registered worksheet function; refusing to evaluate the "
-            f"workbook")
+            f"engine evaluates nor a registered worksheet function")
 
 
-class _Formula:
-    __slots__ = ("sheet", "rc", "coord", "text", "top", "run", "area", "refs", "failure",
-                 "direct_call")
+# ------------------------------------------------------------------------- compilation --
+class _Template:
+    """One compiled formula shape: ``run(r, c)`` evaluates it for the cell in row r, column c
+    (its raw value: a scalar, an Array or a Ref); ``refs`` are the rectangles it reads, as
+    ``(title, r1, c1, r2, c2, rel)`` with relative rows as offsets (bits of ``rel``)."""
 
-    def __init__(self, sheet, rc, text, area):
-        self.sheet, self.rc, self.text, self.area = sheet, rc, text, area
-        self.coord = coord_name(*rc)
+    __slots__ = ("run", "refs", "failure", "direct_call", "array", "vector", "text",
+                 "nested_total", "vector_tried", "tree")
+
+    def __init__(self):
+        self.run = None
         self.refs = []
         self.failure = None
         self.direct_call = None
+        self.array = False
+        self.vector = None
+        self.vector_tried = False
+        self.text = ""
+        self.nested_total = False
+        self.tree = None
 
 
+class _Compiler:
+    """Compiles one template: a syntax tree (relative rows as offsets) into closures."""
+
+    def __init__(self, calc, sheet: str, tpl: _Template):
+        self.calc = calc
+        self.sheet = sheet
+        self.tpl = tpl
+        self.array = tpl.array
+        self.scopes = []          # LET: list of {name: slot}
+
+    def sheet_of(self, title):
+        if title is None:
+            return self.sheet
+        found = self.calc._upper_titles.get(title.upper())
+        if found is None:
+            raise RecalcError(f"the formula refers to sheet {title!r}, which the workbook "
+                              f"does not have")
+        return found
+
+    # -- entry ---------------------------------------------------------------------------
+    def top(self, node):
+        g = self.node(node, top=True)
+        return g
+
+    def value(self, node):
+        """Compile for a value: a reference is intersected (ordinary formula) or read as an
+        array (array formula)."""
+        g = self.node(node)
+        if not self.may_ref(node):
+            return g
+        if self.array:
+            if node[0] == "ref" and node[6]:
+                # a cell reference is a value; a range (even A1:A1) an array
+                return lambda r, c: g(r, c).first()
+
+            def as_array(r, c):
+                v = g(r, c)
+                return v.array() if type(v) is Ref else v
+            return as_array
+
+        def intersected(r, c):
+            v = g(r, c)
+            return _intersect(v, r, c) if type(v) is Ref else v
+        return intersected
+
+    def cls(self, node, k):
+        """Compile argument ``node`` for parameter class ``k``."""
+        if k == "V":
+            return self.value(node)
+        if k == "R":
+            return self.node(node)
+        saved = self.array
+        self.array = True
+        try:
+            g = self.node(node)
+        finally:
+            self.array = saved
+        if k == "X" or not self.may_ref(node):
+            return g
+
+        def forced(r, c):
+            v = g(r, c)
+            return v.array() if type(v) is Ref else v
+        return forced
+
+    def may_ref(self, node) -> bool:
+        tag = node[0]
+        if tag in ("ref", "name"):
+            return True
+        if tag == "call":
+            return node[1] in _REF_RESULTS
+        return False
+
+    # -- nodes ---------------------------------------------------------------------------
+    def node(self, node, top=False):
+        tag = node[0]
+        if tag in ("num", "str", "bool"):
+            v = node[1]
+            return lambda r, c: v
+        if tag == "err":
+            e = error(node[1])
+            return lambda r, c: e
+        if tag == "blank":
+            return lambda r, c: None
+        if tag == "ref":
+            return self.ref(node)
+        if tag == "name":
+            return self.name(node)
+        if tag == "array":
+            const = Array(tuple(tuple(error(v[1]) if type(v) is tuple else v for v in row)
+                                for row in node[1]))
+            return lambda r, c: const
+        if tag == "neg":
+            g = self.value(node[1])
+            return lambda r, c: _negate(g(r, c))
+        if tag == "pct":
+            g = self.value(node[1])
+            return lambda r, c: _percent(g(r, c))
+        if tag == "ops":
+            return self.ops(node, top)
+        if tag == "call":
+            return self.call(node)
+        raise RecalcError(f"internal: unknown syntax node {tag!r}")
+
+    def ops(self, node, top):
+        first = self.value(node[1])
+        rest = [(op, _OPS[op], self.value(n)) for op, n in node[2]]
+        if len(rest) == 1:
+            (name, op1, second), = rest
+            if top and name in ("+", "-"):
+                def last_sum(r, c):
+                    a, b = first(r, c), second(r, c)
+                    v = op1(a, b)
+                    if type(v) is float and type(a) is float and type(b) is float:
+                        return _cancelled(a, b, v)
+                    return v
+                return last_sum
+            return lambda r, c: op1(first(r, c), second(r, c))
+        cancel = top and rest[-1][0] in ("+", "-")
+
+        def chain(r, c):
+            v = first(r, c)
+            for k, (name, op, g) in enumerate(rest):
+                b = g(r, c)
+                a = v
+                v = op(a, b)
+            if cancel and type(v) is float and type(a) is float and type(b) is float:
+                return _cancelled(a, b, v)
+            return v
+        return chain
+
+    def ref(self, node):
+        _, title, r1, c1, r2, c2, is_cell, rel = node
+        title = self.sheet_of(title)
+        grid = self.calc._grids[title]
+        if r2 is None:
+            r2 = MAX_ROW
+        if c2 is None:
+            c2 = MAX_COL
+        self.tpl.refs.append((title, r1, c1, r2, c2, rel))
+        if is_cell:
+            if rel & 1:
+                dr = r1
+                col = c1
+                return lambda r, c: Ref(grid, r + dr, col, r + dr, col)
+            ref = Ref(grid, r1, c1, r1, c1)
+            return lambda r, c: ref
+        if not rel:
+            ref = Ref(grid, r1, c1, r2, c2)
+            return lambda r, c: ref
+        a, b = r1, r2
+        rel1, rel2 = rel & 1, rel & 2
+
+        def moving(r, c):
+            lo = a + r if rel1 else a
+            hi = b + r if rel2 else b
+            if hi < lo:
+                lo, hi = hi, lo
+            return Ref(grid, lo, c1, hi, c2)
+        return moving
+
+    def name(self, node):
+        name = node[1]
+        for scope in reversed(self.scopes):
+            slot = scope.get(name)
+            if slot is not None:
+                return lambda r, c: slot[0]
+        names = self.calc.package.names
+        text = names.get((self.sheet, name), names.get((None, name)))
+        if text is None:
+            return lambda r, c: NAME
+        ref = parse_ref_text(text)
+        if ref is not None:
+            if ref[1] is None:
+                raise RecalcError(f"the defined name {name} ({text[:60]!r}) has no sheet")
+            if ref[7]:
+                raise RecalcError(f"the defined name {name} ({text[:60]!r}) holds a relative "
+                                  f"reference; the engine evaluates absolute ones only")
+            return self.ref(ref)
+        try:
+            tree = parse(text)
+        except FormulaSyntaxError:
+            tree = None
+        if tree is None or not _constant(tree):
+            raise RecalcError(f"the formula uses the defined name {name}, whose definition "
+                              f"{text[:60]!r} is not a range or a constant; the engine does "
+                              f"not evaluate it")
+        g = self.node(tree)
+        value = g(1, 1)
+        return lambda r, c: value
+
+    def call(self, node):
+        _, name, args = node
+        udf = self.calc._udfs.get(name)
+        if udf is not None:
+            return self.udf(udf, args)
+        spec = FUNCTIONS.get(name)
+        if spec is None:
+            raise RecalcError(refusal_of_call(name, ()))
+        if len(args) < spec.min_args or (spec.max_args >= 0 and len(args) > spec.max_args):
+            raise RecalcError(f"{name} takes {spec.min_args} to {spec.max_args} arguments, "
+                              f"the formula gives {len(args)}")
+        if name in NESTED_TOTALS:
+            self.tpl.nested_total = True
+        if name == "LET":
+            return self.let(args)
+        if name in ("ROW", "COLUMN"):
+            return self.row_column(name, args)
+        if name in _CACHED_AGGREGATES and args and all(a[0] == "ref" for a in args):
+            return self.cached_aggregate(name, args)
+        if name == "SWITCH":
+            classes = ["V"] + ["V" if k % 2 == 0 and not (k == len(args) - 2 and
+                                                           len(args) % 2 == 0) else "R"
+                               for k in range(len(args) - 1)]
+        elif name == "IFS":
+            classes = ["V" if k % 2 == 0 else "R" for k in range(len(args))]
+        elif name in ("IF", "CHOOSE", "IFERROR", "IFNA"):
+            classes = ["V"] + ["R"] * (len(args) - 1)
+        else:
+            classes = [spec.cls(k) for k in range(len(args))]
+        call = spec.call
+        if spec.lazy:
+            argf = [self.cls(a, k) for a, k in zip(args, classes)]
+            if len(argf) == 2:
+                g0, g1 = argf
+                return lambda r, c: call(lambda: g0(r, c), lambda: g1(r, c))
+            if len(argf) == 3:
+                g0, g1, g2 = argf
+                return lambda r, c: call(lambda: g0(r, c), lambda: g1(r, c),
+                                         lambda: g2(r, c))
+            return lambda r, c: call(*[_thunk(g, r, c) for g in argf])
+        argf = [self.cls(a, k) for a, k in zip(args, classes)]
+        fixed = tuple(k for k, cl in enumerate(classes) if cl != "V")
+        elem = not fixed
+        if not argf:
+            return lambda r, c: call()
+        if len(argf) == 1 and elem:
+            (g,) = argf
+
+            def one(r, c):
+                v = g(r, c)
+                return broadcast(call, (v,)) if type(v) is Array else call(v)
+            return one
+        if elem:
+            def many(r, c):
+                values = [g(r, c) for g in argf]
+                for v in values:
+                    if type(v) is Array:
+                        return broadcast(call, values)
+                return call(*values)
+            return many
+        vpos = [k for k, cl in enumerate(classes) if cl == "V"]
+
+        def mixed(r, c):
+            values = [g(r, c) for g in argf]
+            for k in vpos:
+                if type(values[k]) is Array:
+                    return broadcast(call, values, fixed)
+            return call(*values)
+        return mixed
+
+    def cached_aggregate(self, name, args):
+        """SUM, COUNT, AVERAGE, MIN or MAX of references only: the cells read are kept (for
+        the last few rectangles) and, after set_value, only the cells written since are read
+        again (edit latency)."""
+        argf = [self.ref(a) for a in args]
+        calc = self.calc
+        general = FUNCTIONS[name].call
+        reduce = _CACHED_AGGREGATES[name]
+        states: dict = {}
+
+        def gather(refs):
+            keys = []
+            for ref in refs:
+                keys.extend((ref.grid, k)
+                            for k in ref.grid.keys_in(ref.r1, ref.c1, ref.r2, ref.c2))
+            vals = [g.cells.get(k) for g, k in keys]
+            return {"epoch": calc._epoch, "seen": len(calc._log), "vals": vals,
+                    "index": {(id(g), k): i for i, (g, k) in enumerate(keys)},
+                    "odd": sum(1 for v in vals if type(v) is not float),
+                    "versions": [(ref.grid, ref.grid.shape_version) for ref in refs]}
+
+        def aggregate(r, c):
+            refs = [g(r, c) for g in argf]
+            rect = tuple((id(x.grid), x.r1, x.c1, x.r2, x.c2) for x in refs)
+            state = states.get(rect)
+            if state is None or state["epoch"] != calc._epoch or any(
+                    g.shape_version != v for g, v in state["versions"]):
+                if len(states) >= 8:
+                    states.clear()
+                state = states[rect] = gather(refs)
+            else:
+                vals, index, log = state["vals"], state["index"], calc._log
+                for i in range(state["seen"], len(log)):
+                    g, k = log[i]
+                    j = index.get((id(g), k))
+                    if j is not None:
+                        old, new = vals[j], g.cells.get(k)
+                        state["odd"] += (type(new) is not float) - (type(old) is not float)
+                        vals[j] = new
+                state["seen"] = len(log)
+            if state["odd"] == 0:
+                return reduce(state["vals"])
+            return general(*refs)
+        return aggregate
+
+    def udf(self, udf, args):
+        shown, func = udf
+        argf = [_first_of(self.node(a)) if a[0] == "ref" and a[6] else self.node(a)
+                for a in args]
+
+        def call_udf(r, c):
+            values = [_bridge(g(r, c)) for g in argf]
+            try:
+                result = func(*values)
+            except Exception as exc:  # noqa: BLE001 - any failure is reported for the cell
+                raise CellFailure(f"{shown} raised {type(exc).__name__}: {exc}") from None
+            return _function_result(shown, result)
+        return call_udf
+
+    def row_column(self, name, args):
+        want_row = name == "ROW"
+        if not args or args[0][0] == "blank":
+            return (lambda r, c: float(r)) if want_row else (lambda r, c: float(c))
+        g = self.node(args[0])
+
+        def rc(r, c):
+            v = g(r, c)
+            if type(v) is not Ref:
+                return VALUE
+            if want_row:
+                if v.rows == 1:
+                    return float(v.r1)
+                return Array(tuple((float(k),) for k in range(v.r1, v.r2 + 1)))
+            if v.cols == 1:
+                return float(v.c1)
+            return Array((tuple(float(k) for k in range(v.c1, v.c2 + 1)),))
+        return rc
+
+    def let(self, args):
+        # Microsoft, 'LET function': names and values in pairs, then the calculation; a name
+        # is seen by the values after it and by the calculation
+        if len(args) % 2 == 0:
+            raise RecalcError("LET needs pairs of a name and a value, then a calculation")
+        scope = {}
+        self.scopes.append(scope)
+        try:
+            steps = []
+            for k in range(0, len(args) - 1, 2):
+                node = args[k]
+                if node[0] != "name":
+                    raise RecalcError("a LET name must be a name, not an expression")
+                name = node[1]
+                if name.startswith("_XLPM."):
+                    name = name[6:]
+                g = self.node(args[k + 1])
+                slot = [None]
+                scope[name] = slot
+                scope["_XLPM." + name] = slot
+                steps.append((slot, g))
+            body = self.node(args[-1])
+        finally:
+            self.scopes.pop()
+
+        def let(r, c):
+            saved = [slot[0] for slot, _ in steps]
+            try:
+                for slot, g in steps:
+                    slot[0] = g(r, c)
+                return body(r, c)
+            finally:
+                for (slot, _), v in zip(steps, saved):
+                    slot[0] = v
+        return let
+
+
+def _first_of(g):
+    """A one-cell reference argument of a registered function: the cell's value."""
+    return lambda r, c: g(r, c).first()
+
+
+def _thunk(g, r, c):
+    return lambda: g(r, c)
+
+
+def _constant(tree) -> bool:
+    """A tree without references, names or calls (a defined name holding a constant)."""
+    stack = [tree]
+    while stack:
+        n = stack.pop()
+        tag = n[0]
+        if tag in ("ref", "name", "call"):
+            return False
+        if tag in ("neg", "pct"):
+            stack.append(n[1])
+        elif tag == "ops":
+            stack.append(n[1])
+            stack.extend(x for _, x in n[2])
+    return True
+
+
+# -------------------------------------------------------------------------------- blocks --
+class _Block:
+    """Cells rows r0..r1 of column ``col`` of ``sheet`` computed by one template (an array
+    formula: its anchor, with ``area`` the range it fills)."""
+
+    __slots__ = ("sheet", "col", "r0", "r1", "tpl", "area", "pos", "failed", "rects")
+
+    def __init__(self, sheet, col, r0, r1, tpl, area=None):
+        self.sheet, self.col, self.r0, self.r1, self.tpl, self.area = sheet, col, r0, r1, tpl, \
+            area
+        self.pos = -1
+        self.failed = None       # {row: reason} of cells refused at run time
+        self.rects = None
+
+    def footprint(self):
+        """(r1, c1, r2, c2) of the cells the block writes."""
+        if self.area is not None:
+            return self.area
+        return self.r0, self.col, self.r1, self.col
+
+    def read_rects(self, r0=None, r1=None):
+        """Union rectangles ``(title, rlo, c1, rhi, c2, ref)`` read by anchors r0..r1."""
+        r0 = self.r0 if r0 is None else r0
+        r1 = self.r1 if r1 is None else r1
+        out = []
+        for ref in self.tpl.refs:
+            title, a, c1, b, c2, rel = ref
+            lo_a = a + r0 if rel & 1 else a
+            hi_a = a + r1 if rel & 1 else a
+            lo_b = b + r0 if rel & 2 else b
+            hi_b = b + r1 if rel & 2 else b
+            out.append((title, max(1, min(lo_a, lo_b)), c1, min(MAX_ROW, max(hi_a, hi_b)), c2,
+                        ref))
+        return out
+
+
+def _anchors_reading(block, ref, row):
+    """The anchors (rows) of ``block`` whose reference ``ref`` covers sheet row ``row``."""
+    _, a, _, b, _, rel = ref
+    lo, hi = block.r0, block.r1
+    if rel & 1 and rel & 2:
+        lo, hi = max(lo, row - max(a, b)), min(hi, row - min(a, b))
+    elif rel & 1:
+        lo, hi = lo, hi        # moving start against a fixed end: keep every anchor (rare)
+    elif rel & 2:
+        lo, hi = lo, hi
+    return (lo, hi) if lo <= hi else None
+
+
+class _Index:
+    """Blocks by sheet and column, to find the blocks a rectangle meets."""
+
+    def __init__(self, blocks):
+        by: dict = {}
+        for b in blocks:
+            r1, c1, r2, c2 = b.footprint()
+            for c in range(c1, c2 + 1):
+                by.setdefault((b.sheet, c), []).append((r1, r2, b))
+        self.cols: dict = {}
+        self.by = {}
+        for (sheet, c), items in by.items():
+            items.sort(key=lambda t: t[0])
+            self.by[(sheet, c)] = ([t[0] for t in items], items)
+            self.cols.setdefault(sheet, []).append(c)
+        for cs in self.cols.values():
+            cs.sort()
+
+    def meeting(self, sheet, r1, c1, r2, c2):
+        cols = self.cols.get(sheet)
+        if not cols:
+            return
+        for c in cols[bisect_left(cols, c1):bisect_right(cols, c2)]:
+            starts, items = self.by[(sheet, c)]
+            k = bisect_right(starts, r2)
+            # blocks starting at or before r2 that end at or after r1; blocks in a column do
+            # not overlap, so step back while they still end at or after r1
+            while k > 0:
+                k -= 1
+                lo, hi, b = items[k]
+                if hi < r1:
+                    break
+                yield b
+
+
+# ------------------------------------------------------------------------ the recalculator --
 class Recalculator:
     """Load a workbook once, then change inputs and recalculate quickly.
 
@@ -335,60 +873,59 @@ class Recalculator:
         self.package = package
         self._sheets = {s.title: s for s in package.sheets}
         self._upper_titles = {t.upper(): t for t in self._sheets}
-        self._stores = {s.title: {_key(r, c): v for (r, c), v in s.cells.values.items()}
-                        for s in package.sheets}
-        self._formulas: list[_Formula] = []
-        self._owner: dict[tuple, int] = {}           # (title, (r, c)) -> formula index
-        self._members: dict[tuple, tuple] = {}       # array member -> (index, i, j)
-        for s in package.sheets:
-            cells = s.cells
-            for rc, text in cells.formulas.items():
-                if (s.title, rc) in self._members:
-                    raise RecalcError(f"sheet {s.title!r}, cell {coord_name(*rc)}: the cell "
-                                      f"lies inside an array formula's range and holds a "
-                                      f"formula of its own; refusing the workbook")
-                area = cells.arrays.get(rc)
-                idx = len(self._formulas)
-                self._formulas.append(_Formula(s.title, rc, text, area))
-                self._owner[(s.title, rc)] = idx
-                if area is not None:
-                    self._claim_area(s, idx, rc, area)
         with collector_paused():
+            self._layout()
             self._compile_all()
-            self._order, self._dependants = self._sort()
-        self._position = {idx: k for k, idx in enumerate(self._order)}
-        self._dirty = set(range(len(self._formulas)))
-        self._log: list = []              # (title, key) of cells written since the last full pass
-        self._logging = False
+            self._order()
+        self._changed: list = []
+        self._full = True
+        self._refused = None
         self._epoch = 0
-        self._results: dict[int, object] = {}
+        self._log: list = []              # (grid, key) written since the last full evaluation
 
     # -- layout --------------------------------------------------------------------------
-    def _claim_area(self, s, idx, rc, area):
+    def _layout(self):
+        self._grids = {}
+        self._array_anchor: dict = {}          # (title, r, c) of array members -> anchor
+        self._members_of: dict = {}
+        for s in self.package.sheets:
+            cells = s.cells
+            values = {(r << 15) | c: v for (r, c), v in cells.values.items()}
+            occupied = list(cells.formulas)
+            for rc, area in cells.arrays.items():
+                self._claim_area(s, rc, area, values, occupied)
+            grid = Grid(s.title, values, occupied)
+            grid.hidden_rows = frozenset(cells.hidden_rows)
+            self._grids[s.title] = grid
+
+    def _claim_area(self, s, rc, area, values, occupied):
         r1, c1, r2, c2 = area
         cells = s.cells
+        where = f"sheet {s.title!r}, cell {coord_name(*rc)}"
         if (r2 - r1 + 1) * (c2 - c1 + 1) > MAX_RANGE_CELLS:
-            raise RecalcError(f"sheet {s.title!r}, cell {coord_name(*rc)}: the array formula's "
-                              f"range covers more than {MAX_RANGE_CELLS:,} cells; refusing it")
+            raise RecalcError(f"{where}: the array formula's range covers more than "
+                              f"{MAX_RANGE_CELLS:,} cells; refusing it")
         anchor_cached = rc in cells.cached
         for r in range(r1, r2 + 1):
             for c in range(c1, c2 + 1):
-                key = (s.title, (r, c))
                 if (r, c) == rc:
-                    self._members[key] = (idx, 0, 0)
                     continue
-                where = f"sheet {s.title!r}, cell {coord_name(*rc)}"
-                if key in self._members or (r, c) in cells.formulas:
+                key = (s.title, r, c)
+                if key in self._array_anchor or (r, c) in cells.formulas:
+                    other = coord_name(r, c)
                     raise RecalcError(f"{where}: the array formula's range overlaps the "
-                                      f"formula in cell {coord_name(r, c)}; refusing the "
-                                      f"workbook")
+                                      f"formula in cell {other}; refusing the workbook"
+                                      if (r, c) in cells.formulas else
+                                      f"{where}: the array formula's range overlaps another "
+                                      f"array formula's at cell {other}; refusing the workbook")
                 if (r, c) in cells.values and not anchor_cached:
                     raise RecalcError(f"{where}: the array formula's range "
                                       f"{coord_name(r1, c1)}:{coord_name(r2, c2)} covers cell "
                                       f"{coord_name(r, c)}, which holds data; refusing to "
                                       f"write over it (move the data or the formula)")
-                self._members[key] = (idx, r - r1, c - c1)
-                self._stores[s.title].pop(_key(r, c), None)
+                self._array_anchor[key] = rc
+                values.pop((r << 15) | c, None)
+                occupied.append((r, c))
 
     @property
     def sheets(self) -> tuple:
@@ -398,357 +935,456 @@ class Recalculator:
     @property
     def formula_cells(self) -> tuple:
         """``(sheet, cell)`` of every formula cell (array anchors, not the rest of a range)."""
-        return tuple((f.sheet, f.coord) for f in self._formulas)
+        return tuple((s.title, coord_name(*rc)) for s in self.package.sheets
+                     for rc in s.cells.formulas)
 
     @property
     def formula_texts(self) -> dict:
         """``{(sheet, cell): formula text}`` of every formula cell (array anchors only)."""
-        return {(f.sheet, f.coord): f.text for f in self._formulas}
+        return {(s.title, coord_name(*rc)): t for s in self.package.sheets
+                for rc, t in s.cells.formulas.items()}
 
     @property
     def array_ranges(self) -> dict:
         """``{(sheet, anchor): "E5:G9"}`` for every array formula."""
-        return {(f.sheet, f.coord): f"{coord_name(f.area[0], f.area[1])}:"
-                                    f"{coord_name(f.area[2], f.area[3])}"
-                for f in self._formulas if f.area is not None}
+        return {(s.title, coord_name(*rc)): f"{coord_name(a[0], a[1])}:{coord_name(a[2], a[3])}"
+                for s in self.package.sheets for rc, a in s.cells.arrays.items()}
 
     def sheet_part(self, sheet: str) -> str:
         """Package part name of a worksheet."""
         return self._sheets[sheet].part
 
     # -- compiling -----------------------------------------------------------------------
-    def _compile_all(self):
-        for f in self._formulas:
-            where = f"sheet {f.sheet!r}, cell {f.coord}"
-            try:
-                node = parse(f.text)
-                f.run = self._compile(node, f, False)
-            except FormulaSyntaxError as exc:
-                raise RecalcError(f"{where}: the formula cannot be read ({exc}); refusing the "
-                                  f"workbook") from None
-            except RecalcError as exc:
-                raise RecalcError(f"{where}: {exc}") from None
-            except RecursionError:
-                raise RecalcError(f"{where}: the formula nests too deeply") from None
-            f.top = node[0]           # the tree itself is not kept: the closures are the formula
-            if node[0] == "call" and node[1] in self._udfs:
-                f.direct_call = self._udfs[node[1]][0]
-
-    def _sheet(self, title, f):
-        if title is None:
-            return f.sheet
-        found = self._upper_titles.get(title.upper())
-        if found is None:
-            raise RecalcError(f"the formula refers to sheet {title!r}, which the workbook "
-                              f"does not have")
-        return found
-
-    def _ref(self, node, f, as_range):
-        _, title, r1, c1, r2, c2, is_cell = node
-        title = self._sheet(title, f)
-        cells = self._sheets[title].cells
-        if r2 is None:
-            r2 = max(r1, min(cells.max_row, MAX_ROW))
-        if c2 is None:
-            c2 = max(c1, min(cells.max_col, MAX_COL))
-        _check_size(r1, c1, r2, c2)
-        f.refs.append((title, r1, c1, r2, c2))
-        get = self._stores[title].get
-        if is_cell and not as_range:
-            key = _key(r1, c1)
-            return lambda: get(key)
-        rows, cols = range(r1, r2 + 1), range(c1, c2 + 1)
-
-        def area():
-            return Array(tuple(tuple(get(_key(r, c)) for c in cols) for r in rows))
-        return area
-
-    def _name(self, node, f, as_range):
-        name = node[1]
-        text = self.package.names.get((f.sheet, name), self.package.names.get((None, name)))
-        if text is None:
-            return lambda: NAME
-        ref = parse_ref_text(text)
-        if ref is not None:
-            if ref[1] is None:
-                raise RecalcError(f"the defined name {name} ({text!r}) has no sheet")
-            return self._ref(ref, f, as_range)
+    def _template(self, title, text, row, array):
+        key = template_key(text, row)
+        k = (title, array, key) if key is not None else (title, array, text, row)
+        tpl = self._templates.get(k)
+        if tpl is not None:
+            return tpl
+        tpl = _Template()
+        tpl.array = array
+        tpl.text = text
+        self._templates[k] = tpl
         try:
-            value = parse(text)
-        except FormulaSyntaxError:
-            value = None
-        if value is not None and value[0] in ("num", "str", "bool"):
-            const = value[1]
-            return lambda: const
-        if value is not None and value[0] == "neg" and value[1][0] == "num":
-            const = -value[1][1]
-            return lambda: const
-        raise RecalcError(f"the formula uses the defined name {name}, whose definition "
-                          f"{text[:60]!r} is not a plain range or constant; the engine does "
-                          f"not evaluate it")
+            tree = relative(parse(text), row)
+            tpl.tree = tree
+            tpl.run = _Compiler(self, title, tpl).top(tree)
+            if tree[0] == "call" and tree[1] in self._udfs:
+                tpl.direct_call = self._udfs[tree[1]][0]
+        except FormulaSyntaxError as exc:
+            tpl.failure = f"the formula cannot be read ({exc})"
+        except RecalcError as exc:
+            tpl.failure = str(exc)
+        except RecursionError:
+            tpl.failure = "the formula nests too deeply"
+        return tpl
 
-    def _compile(self, node, f, as_range):
-        tag = node[0]
-        if tag in ("num", "str", "bool"):
-            v = node[1]
-            return lambda: v
-        if tag == "err":
-            e = error(node[1])
-            return lambda: e
-        if tag == "blank":
-            return lambda: None
-        if tag == "ref":
-            return self._ref(node, f, as_range)
-        if tag == "name":
-            return self._name(node, f, as_range)
-        if tag == "array":
-            const = Array(tuple(tuple(error(v[1]) if type(v) is tuple else v for v in row)
-                                for row in node[1]))
-            return lambda: const
-        if tag == "neg":
-            g = self._compile(node[1], f, False)
-            return lambda: _negate(g())
-        if tag == "pct":
-            g = self._compile(node[1], f, False)
-            return lambda: _percent(g())
-        if tag == "ops":
-            first = self._compile(node[1], f, False)
-            rest = [(_OPS[op], self._compile(n, f, False)) for op, n in node[2]]
-            if len(rest) == 1:
-                (op1, second), = rest
-                return lambda: op1(first(), second())
-
-            def chain():
-                v = first()
-                for op, g in rest:
-                    v = op(v, g())
-                return v
-            return chain
-        if tag == "call":
-            return self._call(node, f)
-        raise RecalcError(f"internal: unknown syntax node {tag!r}")
-
-    def _call(self, node, f):
-        _, name, args = node
-        udf = self._udfs.get(name)
-        if udf is not None:
-            shown, func = udf
-            argf = [self._compile(a, f, False) for a in args]
-
-            def call_udf():
-                values = [_bridge(g()) for g in argf]
-                try:
-                    result = func(*values)
-                except Exception as exc:  # noqa: BLE001 - any failure is reported for the cell
-                    raise _CellFailure(f"{shown} raised {type(exc).__name__}: {exc}") from None
-                return _function_result(shown, result)
-            return call_udf
-        spec = FUNCTIONS.get(name)
-        if spec is None:
-            raise RecalcError(refusal_of_call(name, ()))
-        if len(args) < spec.min_args or (spec.max_args >= 0 and len(args) > spec.max_args):
-            raise RecalcError(f"{name} takes {spec.min_args} to {spec.max_args} arguments, "
-                              f"the formula gives {len(args)}")
-        if name in _FAST_AGGREGATES and args and all(a[0] == "ref" for a in args):
-            return self._fast_aggregate(name, args, f)
-        ranged = _RANGE_ARGS.get(name, ())
-        agg = name in _AGGREGATES
-        argf = [self._compile(a, f, agg or k in ranged) for k, a in enumerate(args)]
-        call = spec.call
-        if spec.kind == "lazy":
-            return lambda: call(*argf)
-        if spec.kind == "range":
-            if not argf:
-                return call
-            if len(argf) == 1:
-                (g,) = argf
-                return lambda: call(g())
-            return lambda: call(*[g() for g in argf])
-
-        if len(argf) == 1:
-            (g,) = argf
-
-            def elem1():
-                v = g()
-                return broadcast(call, (v,)) if type(v) is Array else call(v)
-            return elem1
-
-        def elem():
-            values = [g() for g in argf]
-            for v in values:
-                if type(v) is Array:
-                    return broadcast(call, values)
-            return call(*values)
-        return elem
-
-    def _fast_aggregate(self, name, args, f):
-        """SUM, MIN, MAX, AVERAGE or COUNT of references only: one flat gather of the cells.
-
-        Same rules as the general path (numbers count; text, logicals and blanks in references
-        are skipped; the first error propagates), without building the rows of an array.
-        """
-        getters = []
-        for node in args:
-            _, title, r1, c1, r2, c2, _ = node
-            title = self._sheet(title, f)
-            cells = self._sheets[title].cells
-            r2 = max(r1, min(cells.max_row, MAX_ROW)) if r2 is None else r2
-            c2 = max(c1, min(cells.max_col, MAX_COL)) if c2 is None else c2
-            _check_size(r1, c1, r2, c2)
-            f.refs.append((title, r1, c1, r2, c2))
-            keys = [_key(r, c) for r in range(r1, r2 + 1) for c in range(c1, c2 + 1)]
-            getters.append((title, keys))
-        reduce = _FAST_AGGREGATES[name]
-        stores = self._stores
-        flat = [(stores[title].get, key) for title, keys in getters for key in keys]
-        where = {}                       # (title, key) -> positions in the flat list
-        for j, (title, key) in enumerate((t, k) for t, keys in getters for k in keys):
-            where.setdefault((title, key), []).append(j)
-        state = {"epoch": -1, "seen": 0, "values": None, "odd": 0}
-
-        def gather():
-            values = [get(key) for get, key in flat]
-            state.update(epoch=self._epoch, seen=len(self._log), values=values,
-                         odd=sum(1 for v in values if type(v) is not float))
-            return values
-
-        def aggregate():
-            # Cells written since this aggregate last ran are patched into its cached list
-            # (the write log); a full evaluation or a long log starts it afresh.
-            if state["epoch"] != self._epoch:
-                values = gather()
-            else:
-                values, log = state["values"], self._log
-                for i in range(state["seen"], len(log)):
-                    for j in where.get(log[i], ()):
-                        old, new = values[j], stores[log[i][0]].get(log[i][1])
-                        state["odd"] += (type(new) is not float) - (type(old) is not float)
-                        values[j] = new
-                state["seen"] = len(log)
-            if state["odd"]:
-                nums = [v for v in values if type(v) is float]
-                for v in values:
-                    if type(v) is XlError:
-                        return v
-                return reduce(nums)
-            return reduce(values)
-        return aggregate
+    def _compile_all(self):
+        self._templates: dict = {}
+        blocks = []
+        for s in self.package.sheets:
+            cells = s.cells
+            arrays = cells.arrays
+            by_col: dict = {}
+            for (r, c) in cells.formulas:
+                by_col.setdefault(c, []).append(r)
+            formulas = cells.formulas
+            for c in sorted(by_col):
+                run = None
+                for r in sorted(by_col[c]):
+                    area = arrays.get((r, c))
+                    tpl = self._template(s.title, formulas[(r, c)], r, area is not None)
+                    if area is not None:
+                        blocks.append(_Block(s.title, c, r, r, tpl, area))
+                        run = None
+                        continue
+                    if run is not None and run.tpl is tpl and run.r1 == r - 1:
+                        run.r1 = r
+                        continue
+                    run = _Block(s.title, c, r, r, tpl)
+                    blocks.append(run)
+        self._blocks_built = blocks
+        nested = {}
+        for b in blocks:
+            if b.tpl.nested_total and b.tpl.tree is not None and b.tpl.tree[0] == "call" and \
+                    b.tpl.tree[1] in NESTED_TOTALS:
+                r1, c1, r2, c2 = b.footprint()
+                keys = nested.setdefault(b.sheet, set())
+                keys.update((r << 15) | c for r in range(r1, r2 + 1) for c in range(c1, c2 + 1))
+        for title, grid in self._grids.items():
+            grid.subtotal_keys = frozenset(nested.get(title, ()))
 
     # -- order ---------------------------------------------------------------------------
-    def _sort(self):
-        n = len(self._formulas)
-        by_column: dict[tuple, list] = {}
-        for (title, (r, c)) in list(self._owner) + list(self._members):
-            by_column.setdefault((title, c), []).append(r)
-        for rows in by_column.values():
-            rows.sort()
-        owner = self._owner
-        members = self._members
-        precedents = [set() for _ in range(n)]
-        for idx, f in enumerate(self._formulas):
-            for title, r1, c1, r2, c2 in f.refs:
-                for c in range(c1, c2 + 1):
-                    rows = by_column.get((title, c))
-                    if not rows:
-                        continue
-                    for r in rows[bisect_left(rows, r1):bisect_right(rows, r2)]:
-                        key = (title, (r, c))
-                        src = members[key][0] if key in members else owner[key]
-                        precedents[idx].add(src)
-        dependants = [[] for _ in range(n)]
-        waiting = [0] * n
-        for idx, ps in enumerate(precedents):
-            for p in ps:
-                dependants[p].append(idx)
-            waiting[idx] = len(ps)
-        queue = deque(i for i in range(n) if waiting[i] == 0)
+    def _order(self):
+        blocks = self._blocks_built
+        n = len(blocks)
+        for i, b in enumerate(blocks):
+            b.pos = i
+        index = _Index(blocks)
+        succ = [[] for _ in range(n)]          # precedent -> dependants
+        self_loop = [False] * n
+        for b in blocks:
+            seen = set()
+            for title, lo, c1, hi, c2, _ in b.read_rects():
+                for p in index.meeting(title, lo, c1, hi, c2):
+                    if p is b:
+                        self_loop[b.pos] = True
+                    elif p.pos not in seen:
+                        seen.add(p.pos)
+                        succ[p.pos].append(b.pos)
+        comps = _tarjan(n, succ)
         order = []
+        circular = {}
+        for comp in reversed(comps):
+            if len(comp) == 1 and not self_loop[comp[0]]:
+                order.append(blocks[comp[0]])
+                continue
+            order.extend(self._cell_order([blocks[i] for i in comp], circular))
+        for i, b in enumerate(order):
+            b.pos = i
+        self._blocks = order
+        self._circular = circular
+        self._build_readers()
+
+    def _cell_order(self, comp, circular):
+        """The blocks of a strongly connected component split into one block per cell, in
+        dependency order (Kahn); cells on a cycle are refused."""
+        cells = []
+        for b in comp:
+            if b.area is not None:
+                cells.append(b)
+            else:
+                for r in range(b.r0, b.r1 + 1):
+                    cells.append(_Block(b.sheet, b.col, r, r, b.tpl))
+        for i, cb in enumerate(cells):
+            cb.pos = i
+        index = _Index(cells)
+        waiting = [0] * len(cells)
+        succ = [[] for _ in cells]
+        for cb in cells:
+            seen = set()
+            for title, lo, c1, hi, c2, _ in cb.read_rects():
+                for p in index.meeting(title, lo, c1, hi, c2):
+                    if p.pos not in seen:
+                        seen.add(p.pos)
+                        succ[p.pos].append(cb.pos)
+                        waiting[cb.pos] += 1
+        queue = deque(i for i in range(len(cells)) if waiting[i] == 0)
+        out = []
         while queue:
             i = queue.popleft()
-            order.append(i)
-            for d in dependants[i]:
+            out.append(cells[i])
+            for d in succ[i]:
                 waiting[d] -= 1
                 if waiting[d] == 0:
                     queue.append(d)
-        if len(order) < n:
-            stuck = [i for i in range(n) if waiting[i] > 0]
-            f = self._formulas[stuck[0]]
-            raise RecalcError(f"sheet {f.sheet!r}, cell {f.coord}: circular reference (this "
-                              f"cell and {len(stuck) - 1} other(s) depend on each other); "
-                              f"the headless engine does not iterate")
-        # the inputs each formula reads, for set_value
-        self._readers_cell: dict[tuple, list] = {}
-        self._readers_area: list = []
-        for idx, f in enumerate(self._formulas):
-            for title, r1, c1, r2, c2 in f.refs:
-                if r1 == r2 and c1 == c2:
-                    self._readers_cell.setdefault((title, (r1, c1)), []).append(idx)
+        if len(out) < len(cells):
+            stuck = [cells[i] for i in range(len(cells)) if waiting[i] > 0]
+            names = ", ".join(coord_name(b.r0, b.col) for b in stuck[:3])
+            for b in stuck:
+                circular[(b.sheet, b.r0, b.col)] = (
+                    f"circular reference (this cell and {len(stuck) - 1} other(s) depend on "
+                    f"each other: {names}{', ...' if len(stuck) > 3 else ''}); the headless "
+                    f"engine does not iterate")
+                b.failed = {b.r0: circular[(b.sheet, b.r0, b.col)]}
+                out.append(b)
+        return out
+
+    def _build_readers(self):
+        readers: dict = {}
+        wide: dict = {}
+        for b in self._blocks:
+            for title, lo, c1, hi, c2, ref in b.read_rects():
+                entry = (lo, hi, b, ref)
+                if c2 - c1 >= 64:
+                    wide.setdefault(title, []).append((c1, c2, entry))
                 else:
-                    self._readers_area.append((title, r1, c1, r2, c2, idx))
-        return order, dependants
+                    for c in range(c1, c2 + 1):
+                        readers.setdefault((title, c), []).append(entry)
+        self._readers = readers
+        self._wide = wide
+
+    def _readers_of(self, title, r, c):
+        for lo, hi, b, ref in self._readers.get((title, c), ()):
+            if lo <= r <= hi:
+                yield b, ref
+        for c1, c2, (lo, hi, b, ref) in self._wide.get(title, ()):
+            if c1 <= c <= c2 and lo <= r <= hi:
+                yield b, ref
 
     # -- evaluation ----------------------------------------------------------------------
-    def _run(self, idx):
-        f = self._formulas[idx]
-        store = self._stores[f.sheet]
-        f.failure = None
+    def _finish(self, v, r, c):
+        """A template's raw value as the value of an ordinary formula cell."""
+        t = type(v)
+        if t is Ref:
+            v = _intersect(v, r, c)
+        elif t is Array:
+            v = v[0][0]
+        if v is None or v == 0.0 and type(v) is float:
+            return 0.0                   # a blank shows 0; Excel has no negative zero
+        return v
+
+    def _cell(self, tpl, grid, r, c):
+        """Evaluate one ordinary formula cell; (value, failure or None)."""
         try:
-            value = f.run()
-            if f.area is None and type(value) is Array:
-                if len(value) * len(value[0]) == 1:
-                    value = value[0][0]
-                elif f.direct_call is not None:
-                    raise _CellFailure(f"{f.direct_call} returns several values but the "
-                                       f"formula sits in one cell; store it as an array "
-                                       f"formula over the range it fills")
-                else:
-                    raise _CellFailure(f"the formula returns an array of "
-                                       f"{len(value) * len(value[0])} values but is stored in "
-                                       f"one cell; store it as an array formula over the range "
-                                       f"it fills")
-        except _CellFailure as exc:
-            f.failure = f"sheet {f.sheet!r}, cell {f.coord}: {exc}"
-            value = VALUE
+            v = tpl.run(r, c)
+            if type(v) is Array and tpl.direct_call is not None and len(v) * len(v[0]) > 1:
+                raise CellFailure(f"{tpl.direct_call} returns several values but the formula "
+                                  f"sits in one cell; store it as an array formula over the "
+                                  f"range it fills")
+            return self._finish(v, r, c), None
+        except CellFailure as exc:
+            return VALUE, str(exc)
+        except RecalcError as exc:
+            return VALUE, str(exc)
         except RecursionError:
-            f.failure = f"sheet {f.sheet!r}, cell {f.coord}: the formula nests too deeply"
-            value = VALUE
+            return VALUE, "the formula nests too deeply"
         except MemoryError:
-            f.failure = f"sheet {f.sheet!r}, cell {f.coord}: out of memory evaluating it"
-            value = VALUE
-        if f.area is None:
-            if value is None and f.top in ("ref", "name"):
-                value = 0.0
-            key = _key(*f.rc)
-            store[key] = value
-            if self._logging:
-                self._log.append((f.sheet, key))
-            self._results[idx] = value
-            return
-        r1, c1, r2, c2 = f.area
-        grid = value if type(value) is Array else ((value,),)
+            return VALUE, "out of memory evaluating it"
+        except Exception as exc:  # noqa: BLE001 - an engine fault: refused, named, never a crash
+            return VALUE, (f"internal error of the headless engine evaluating the formula "
+                           f"({type(exc).__name__}: {exc}); please report it")
+
+    def _run_block(self, b, rows=None):
+        """Evaluate block ``b`` (all rows, or the given anchor rows); returns the keys written."""
+        grid = self._grids[b.sheet]
+        cells = grid.cells
+        tpl = b.tpl
+        written = []
+        if tpl.failure is not None:
+            b.failed = {r: tpl.failure for r in range(b.r0, b.r1 + 1)}
+            for r in range(b.r0, b.r1 + 1) if b.area is None else (b.r0,):
+                for k in self._keys_of(b, r):
+                    cells[k] = VALUE
+                    written.append(k)
+            return written
+        if b.area is not None:
+            return self._run_array(b, grid)
+        col = b.col
+        if rows is None:
+            if b.failed and any(r in self._circular_rows(b) for r in b.failed):
+                for r in b.failed:
+                    cells[(r << 15) | col] = VALUE
+                return [(r << 15) | col for r in b.failed]
+            b.failed = None
+            if b.r1 - b.r0 >= 7:
+                done = self._vector_block(b, grid)
+                if done is not None:
+                    return done
+            rows = range(b.r0, b.r1 + 1)
+        failed = b.failed
+        run = self._cell
+        for r in rows:
+            v, why = run(tpl, grid, r, col)
+            k = (r << 15) | col
+            cells[k] = v
+            written.append(k)
+            if why is not None:
+                if failed is None:
+                    failed = b.failed = {}
+                failed[r] = why
+            elif failed:
+                failed.pop(r, None)
+        return written
+
+    def _circular_rows(self, b):
+        return {r for r in b.failed if (b.sheet, r, b.col) in self._circular}
+
+    def _vector_block(self, b, grid):
+        tpl = b.tpl
+        if not tpl.vector_tried:
+            tpl.vector_tried = True
+            from .xlvector import compile_vector
+
+            tpl.vector = compile_vector(tpl.tree, self, b.sheet, tpl,
+                                        _Compiler(self, b.sheet, tpl))
+        if tpl.vector is None:
+            return None
+        got = tpl.vector(b.r0, b.r1, b.col)
+        if got is None:
+            return None
+        values, bad_rows = got
+        col = b.col
+        cells = grid.cells
+        keys = [(r << 15) | col for r in range(b.r0, b.r1 + 1)]
+        cells.update(zip(keys, values))
+        failed = None
+        for r in bad_rows:
+            v, why = self._cell(tpl, grid, r, col)
+            cells[(r << 15) | col] = v
+            if why is not None:
+                if failed is None:
+                    failed = {}
+                failed[r] = why
+        b.failed = failed
+        return keys
+
+    def _keys_of(self, b, r):
+        if b.area is None:
+            return [(r << 15) | b.col]
+        r1, c1, r2, c2 = b.area
+        return [(rr << 15) | cc for rr in range(r1, r2 + 1) for cc in range(c1, c2 + 1)]
+
+    def _run_array(self, b, grid):
+        r1, c1, r2, c2 = b.area
+        cells = grid.cells
+        why = None
+        try:
+            v = b.tpl.run(b.r0, b.col)
+            if type(v) is Ref:
+                v = v.array()
+            grid_v = v if type(v) is Array else Array(((v,),))
+        except (CellFailure, RecalcError) as exc:
+            why, grid_v = str(exc), Array(((VALUE,),))
+        except RecursionError:
+            why, grid_v = "the formula nests too deeply", Array(((VALUE,),))
+        except MemoryError:
+            why, grid_v = "out of memory evaluating it", Array(((VALUE,),))
+        except Exception as exc:  # noqa: BLE001 - an engine fault: refused, named
+            why, grid_v = (f"internal error of the headless engine evaluating the formula "
+                           f"({type(exc).__name__}: {exc}); please report it"), \
+                Array(((VALUE,),))
+        b.failed = {b.r0: why} if why else None
+        written = []
         for r in range(r1, r2 + 1):
             for c in range(c1, c2 + 1):
-                key = _key(r, c)
-                store[key] = fit(grid, r - r1, c - c1)
-                if self._logging:
-                    self._log.append((f.sheet, key))
-        self._results[idx] = grid
+                v = fit(grid_v, r - r1, c - c1)
+                k = (r << 15) | c
+                cells[k] = 0.0 if v is None or (type(v) is float and v == 0.0) else v
+                written.append(k)
+        return written
 
     def _update(self):
-        if not self._dirty:
-            return
-        if len(self._dirty) == len(self._formulas) or len(self._log) > _LOG_LIMIT:
-            todo = self._order
-            self._epoch += 1              # every cached aggregate gathers afresh
+        if self._full or self._changed:
+            self._refused = None
+        if self._full:
+            self._epoch += 1
             self._log.clear()
-            self._logging = False
-        else:
-            todo = sorted(self._dirty, key=self._position.__getitem__)
-            self._logging = True
+            with collector_paused():
+                for b in self._blocks:
+                    self._run_block(b)
+            self._full = False
+            self._changed.clear()
+            return
+        if not self._changed:
+            return
         with collector_paused():
-            for idx in todo:
-                self._run(idx)
-        self._dirty.clear()
+            self._propagate()
+
+    def _propagate(self):
+        """Recompute the rows of blocks that read changed cells, in order, until nothing
+        changes."""
+        pending: dict = {}                   # block pos -> set of anchor rows, or None = all
+        heap: list = []
+
+        def touch(title, r, c):
+            for b, ref in self._readers_of(title, r, c):
+                span = _anchors_reading(b, ref, r) if b.area is None else (b.r0, b.r0)
+                if span is None:
+                    continue
+                lo, hi = span
+                cur = pending.get(b.pos, False)
+                if cur is False:
+                    heapq.heappush(heap, b.pos)
+                    cur = pending[b.pos] = set()
+                if cur is None:
+                    continue
+                if hi - lo > 64:
+                    pending[b.pos] = None
+                else:
+                    cur.update(range(lo, hi + 1))
+        for title, r, c in self._changed:
+            touch(title, r, c)
+        self._changed.clear()
+        blocks = self._blocks
+        while heap:
+            pos = heapq.heappop(heap)
+            rows = pending.pop(pos)
+            b = blocks[pos]
+            grid = self._grids[b.sheet]
+            cells = grid.cells
+            if b.area is not None:
+                keys = self._keys_of(b, b.r0)
+                before = [cells.get(k) for k in keys]
+                self._run_block(b)
+            else:
+                if rows is None:
+                    keys = [(r << 15) | b.col for r in range(b.r0, b.r1 + 1)]
+                    before = [cells.get(k) for k in keys]
+                    self._run_block(b)
+                else:
+                    rows = sorted(rows)
+                    keys = [(r << 15) | b.col for r in rows]
+                    before = [cells.get(k) for k in keys]
+                    self._run_block(b, rows)
+            log = self._log
+            if len(log) > _LOG_LIMIT:
+                self._epoch += 1              # cached aggregates read afresh
+                log.clear()
+            log.extend((grid, k) for k in keys)
+            for k, old in zip(keys, before):
+                new = cells.get(k)
+                if not (type(new) is type(old) and new == old):
+                    touch(b.sheet, k >> 15, k & 0x7FFF)
+
+    # -- results -------------------------------------------------------------------------
+    def _refusal_map(self) -> dict:
+        """``{(sheet, (r, c)): reason}`` of every refused cell, with the cells that read a
+        refused cell (transitively)."""
+        if self._refused is not None:
+            return self._refused
+        self._refused = out = {}
+        queue = deque()
+        for b in self._blocks:
+            if b.failed:
+                for r, why in b.failed.items():
+                    key = (b.sheet, (r, b.col))
+                    if key not in out:
+                        out[key] = why
+                        queue.append((b.sheet, r, b.col, why))
+        while queue:
+            title, rr, cc, _ = queue.popleft()
+            if True:
+                r, c = rr, cc
+                for b, ref in self._readers_of(title, rr, cc):
+                    span = _anchors_reading(b, ref, rr) if b.area is None else (b.r0, b.r0)
+                    if span is None:
+                        continue
+                    for ar in range(span[0], span[1] + 1):
+                        key = (b.sheet, (ar, b.col))
+                        if key in out:
+                            continue
+                        why = (f"it reads sheet {title!r}, cell {coord_name(r, c)}, which is "
+                               f"refused")
+                        out[key] = why
+                        queue.append((b.sheet, ar, b.col, why))
+                        if b.area is not None:
+                            a1, ac1, a2, ac2 = b.area
+                            for mr in range(a1, a2 + 1):
+                                for mc in range(ac1, ac2 + 1):
+                                    if (mr, mc) != (ar, b.col):
+                                        queue.append((b.sheet, mr, mc, why))
+        return out
+
+    @property
+    def refusals(self) -> dict:
+        """``{(sheet, cell): reason}`` of every formula cell the engine refuses (evaluated
+        first if needed), in workbook order."""
+        self._update()
+        got = self._refusal_map()
+        order = {t: i for i, t in enumerate(self._sheets)}
+        return {(s, coord_name(*rc)): why for (s, rc), why in
+                sorted(got.items(), key=lambda kv: (order[kv[0][0]], kv[0][1]))}
+
+    def _message(self, refusals) -> str:
+        items = list(refusals.items())
+        shown = "; ".join(f"sheet {s!r}, cell {c}: {why}"
+                          for (s, c), why in items[:MAX_REFUSALS_SHOWN])
+        if len(items) == 1:
+            return shown
+        more = len(items) - MAX_REFUSALS_SHOWN
+        return (f"{len(items)} formula cells are refused: {shown}"
+                + (f"; and {more} more" if more > 0 else ""))
 
     def _plain(self, v):
         return str(v) if type(v) is XlError else v
@@ -762,27 +1398,39 @@ class Recalculator:
         Raises
         ------
         RecalcError
-            The first formula (in workbook order) that failed, with its sheet and cell.
+            When any formula cell is refused: every refusal is counted, the first
+            :data:`MAX_REFUSALS_SHOWN` are named with sheet, cell and reason.
         """
-        self._update()
-        for f in self._formulas:
-            if f.failure:
-                raise RecalcError(f.failure)
-        with collector_paused():
-            return self._values()
+        values, refusals = self.values_and_refusals()
+        if refusals:
+            raise RecalcError(self._message(refusals))
+        return values
 
-    def _values(self):
-        out = {}
-        for f in self._formulas:
-            store = self._stores[f.sheet]
-            if f.area is None:
-                out[(f.sheet, f.coord)] = self._plain(store[_key(*f.rc)])
-                continue
-            r1, c1, r2, c2 = f.area
-            for r in range(r1, r2 + 1):
-                for c in range(c1, c2 + 1):
-                    out[(f.sheet, coord_name(r, c))] = self._plain(store[_key(r, c)])
-        return out
+    def values_and_refusals(self) -> tuple[dict, dict]:
+        """``(values, refusals)``: the values of every formula cell that is not refused, and
+        ``{(sheet, cell): reason}`` of those that are (see :attr:`refusals`)."""
+        self._update()
+        refused = self.refusals
+        with collector_paused():
+            values = {}
+            letters = {}
+            for s in self.package.sheets:
+                title = s.title
+                get = self._grids[title].cells.get
+                arrays = s.cells.arrays
+                for rc in s.cells.formulas:
+                    area = arrays.get(rc)
+                    if refused and (title, coord_name(*rc)) in refused:
+                        continue
+                    r1, c1, r2, c2 = area if area is not None else (rc[0], rc[1], rc[0], rc[1])
+                    for r in range(r1, r2 + 1):
+                        for c in range(c1, c2 + 1):
+                            col = letters.get(c)
+                            if col is None:
+                                col = letters[c] = coord_name(1, c)[:-1]
+                            v = get((r << 15) | c)
+                            values[(title, f"{col}{r}")] = str(v) if type(v) is XlError else v
+        return values, refused
 
     def _check_sheet(self, sheet):
         if sheet not in self._sheets:
@@ -796,6 +1444,10 @@ class Recalculator:
         except ValueError:
             raise RecalcError(f"{cell!r} is not a cell coordinate like 'B7'") from None
 
+    def _is_formula(self, sheet, rc):
+        s = self._sheets[sheet]
+        return rc in s.cells.formulas or (sheet, rc[0], rc[1]) in self._array_anchor
+
     def set_value(self, sheet: str, cell: str, value) -> None:
         """Change one input cell; its dependants are recomputed by the next read.
 
@@ -805,7 +1457,7 @@ class Recalculator:
         self._check_sheet(sheet)
         rc = self._coord(cell)
         coord = coord_name(*rc)
-        if (sheet, rc) in self._owner or (sheet, rc) in self._members:
+        if self._is_formula(sheet, rc):
             raise RecalcError(f"sheet {sheet!r}, cell {coord} holds a formula; set_value "
                               f"changes input cells only")
         if isinstance(value, bool) or type(value).__name__ == "bool_":
@@ -820,32 +1472,101 @@ class Recalculator:
         elif value is not None:
             raise RecalcError(f"sheet {sheet!r}, cell {coord}: value {value!r} of type "
                               f"{type(value).__name__} is not a number, text, logical or None")
-        store = self._stores[sheet]
+        grid = self._grids[sheet]
+        k = (rc[0] << 15) | rc[1]
         if value is None:
-            store.pop(_key(*rc), None)
+            grid.cells.pop(k, None)
         else:
-            store[_key(*rc)] = value
-        self._log.append((sheet, _key(*rc)))
-        start = list(self._readers_cell.get((sheet, rc), ()))
-        r, c = rc
-        start += [idx for title, r1, c1, r2, c2, idx in self._readers_area
-                  if title == sheet and r1 <= r <= r2 and c1 <= c <= c2]
-        stack = start
-        dirty = self._dirty
-        while stack:
-            idx = stack.pop()
-            if idx in dirty:
-                continue
-            dirty.add(idx)
-            stack.extend(self._dependants[idx])
+            if k not in grid.cells:
+                grid.occupy(rc[0], rc[1])
+            grid.cells[k] = value
+        self._changed.append((sheet, rc[0], rc[1]))
+        self._log.append((grid, k))
+
+    def evaluate_formula(self, sheet: str, cell: str, text: str, array: bool = False):
+        """The value formula ``text`` would have in ``cell`` of ``sheet`` (the workbook is
+        not changed): a reference is read as the formula's position reads it, a blank stays
+        None, an array stays an array. Raises :class:`RecalcError` for a formula the engine
+        refuses."""
+        self._check_sheet(sheet)
+        r, c = self._coord(cell)
+        self._update()
+        tpl = _Template()
+        tpl.array = array
+        try:
+            tree = relative(parse(text), r)
+        except FormulaSyntaxError as exc:
+            raise RecalcError(f"the formula cannot be read ({exc})") from None
+        run = _Compiler(self, sheet, tpl).top(tree)
+        try:
+            v = run(r, c)
+        except CellFailure as exc:
+            raise RecalcError(str(exc)) from None
+        if type(v) is Ref:
+            if v.r1 == v.r2 and v.c1 == v.c2:
+                v = v.first()
+            else:
+                v = v.array() if array else _intersect(v, r, c)
+        return self._plain(v) if type(v) is not Array else v
 
     def value(self, sheet: str, cell: str):
         """Current value of one cell (formula, array member or input)."""
         self._check_sheet(sheet)
         rc = self._coord(cell)
         self._update()
-        hit = self._members.get((sheet, rc))
-        idx = hit[0] if hit else self._owner.get((sheet, rc))
-        if idx is not None and self._formulas[idx].failure:
-            raise RecalcError(self._formulas[idx].failure)
-        return self._plain(self._stores[sheet].get(_key(*rc)))
+        anchor = self._array_anchor.get((sheet, rc[0], rc[1]))
+        if anchor is not None or rc in self._sheets[sheet].cells.formulas:
+            refused = self._refusal_map()
+            key = (sheet, anchor or rc)
+            if key in refused:
+                raise RecalcError(f"sheet {sheet!r}, cell {coord_name(*(anchor or rc))}: "
+                                  f"{refused[key]}")
+        return self._plain(self._grids[sheet].cells.get((rc[0] << 15) | rc[1]))
+
+
+def _tarjan(n, succ):
+    """Strongly connected components (lists of node numbers), in reverse topological order;
+    iterative."""
+    index = [-1] * n
+    low = [0] * n
+    on = [False] * n
+    stack = []
+    comps = []
+    counter = 0
+    for root in range(n):
+        if index[root] != -1:
+            continue
+        work = [(root, 0)]
+        index[root] = low[root] = counter
+        counter += 1
+        stack.append(root)
+        on[root] = True
+        while work:
+            v, i = work[-1]
+            edges = succ[v]
+            if i < len(edges):
+                work[-1] = (v, i + 1)
+                w = edges[i]
+                if index[w] == -1:
+                    index[w] = low[w] = counter
+                    counter += 1
+                    stack.append(w)
+                    on[w] = True
+                    work.append((w, 0))
+                elif on[w]:
+                    low[v] = min(low[v], index[w])
+                continue
+            work.pop()
+            if work:
+                u = work[-1][0]
+                low[u] = min(low[u], low[v])
+            if low[v] == index[v]:
+                comp = []
+                while True:
+                    w = stack.pop()
+                    on[w] = False
+                    comp.append(w)
+                    if w == v:
+                        break
+                comps.append(comp)
+    return comps

@@ -104,10 +104,18 @@ def _child(body: bytes, p: bytes, tag: bytes) -> bytes:
 
 def _cell_xml(p: bytes, attrs: bytes, body: bytes, value: Scalar,
               freeze: bool = False) -> bytes:
-    formula = b"" if freeze else _child(body, p, b"f")
-    ext = _child(body, p, b"extLst")
+    if freeze:
+        formula = b""
+    elif not p and body.startswith(b"<f>") and b"<f" not in body[3:]:
+        end = body.find(b"</f>")          # the common case: one plain <f> first
+        formula = body[:end + 4] if end > 0 else _child(body, p, b"f")
+    else:
+        formula = _child(body, p, b"f")
+    ext = _child(body, p, b"extLst") if b"extLst" in body else b""
     t, payload = _value_xml(p, value, bool(formula))
-    attrs = _T_ATTR_RE.sub(b"", attrs).rstrip(b"/").rstrip()
+    if b"t=" in attrs:
+        attrs = _T_ATTR_RE.sub(b"", attrs)
+    attrs = attrs.rstrip(b"/").rstrip()
     if t is not None:
         attrs += b' t="%s"' % t
     content = formula + payload + ext
@@ -143,7 +151,78 @@ def patch_sheet_xml(xml: bytes, values: Mapping[str, Scalar],
     Only ``<c>`` elements of those cells change (their ``t`` attribute and
     ``<v>``/``<is>`` child); missing cells and rows are inserted in order.
     With ``freeze`` their formulas are dropped: the cells keep only values.
+
+    Cells already in the part are rewritten in one pass over its cells; only the cells it
+    lacks (members of an array range written for the first time) go through the row by row
+    insertion.
     """
+    sd = _SHEETDATA_RE.search(xml)
+    if sd is None:
+        raise RecalcError(f"{where}: the sheet has no <sheetData>")
+    body = sd.group("body") or b""
+    if b"<![CDATA[" in body:
+        raise RecalcError(f"{where}: CDATA in cell data is not supported")
+    wanted = {c.encode("ascii"): v for c, v in values.items()}
+    pieces = _cells_in_order(body, wanted, freeze)
+    if pieces is None:
+        pieces = []
+        find_r = _R_ATTR_RE.search
+        for cm in _CELL_RE.finditer(body):
+            attrs = cm.group("attrs")
+            rm = find_r(attrs)
+            if rm is None:
+                continue                     # the row by row pass reports it
+            coord = rm.group(1)
+            if coord in wanted:
+                v = wanted.pop(coord)
+                pieces.append((0, cm.start(), cm.end(),
+                               _cell_xml(cm.group("p"), attrs, cm.group("body") or b"", v,
+                                         freeze)))
+    start = sd.start("body") if sd.group("body") is not None else None
+    if start is not None and pieces:
+        xml = xml[:start] + _splice(body, pieces) + xml[sd.end("body"):]
+    if not wanted:
+        return _extend_dimension(xml, values)
+    rest = {c.decode("ascii"): v for c, v in wanted.items()}
+    return _extend_dimension(_patch_rows(xml, rest, where, freeze), values)
+
+
+def _cells_in_order(body: bytes, wanted: dict, freeze: bool):
+    """The cells to rewrite found by their address, in document order (the engine hands
+    them row by row): each ``r="C7"`` is looked up from where the previous cell ended and the
+    element around it matched; the cells found are removed from ``wanted``. None when the
+    order or the elements do not fit (the caller then visits every cell)."""
+    pieces = []
+    found = []
+    pos = 0
+    misses = 0
+    for coord, v in wanted.items():
+        i = body.find(b' r="' + coord + b'"', pos)
+        if i < 0:
+            misses += 1
+            if misses > 64:
+                return None
+            continue
+        start = body.rfind(b"<", pos, i)
+        m = _CELL_RE.match(body, start) if start >= 0 else None
+        if m is None or m.end() <= i:
+            return None
+        rm = _R_ATTR_RE.search(m.group("attrs"))
+        if rm is None or rm.group(1) != coord or rm.start() + m.start("attrs") != i:
+            return None
+        pieces.append((0, m.start(), m.end(),
+                       _cell_xml(m.group("p"), m.group("attrs"), m.group("body") or b"", v,
+                                 freeze)))
+        found.append(coord)
+        pos = m.end()
+    for coord in found:
+        del wanted[coord]
+    return pieces
+
+
+def _patch_rows(xml: bytes, values: Mapping[str, Scalar], where: str,
+                freeze: bool = False) -> bytes:
+    """Row by row: write ``values`` into their cells, inserting missing cells and rows."""
     sd = _SHEETDATA_RE.search(xml)
     if sd is None:
         raise RecalcError(f"{where}: the sheet has no <sheetData>")
@@ -205,8 +284,7 @@ def patch_sheet_xml(xml: bytes, values: Mapping[str, Scalar],
         rows.sort(key=lambda x: x[0])
         new_body = b"".join(x[3] for x in rows)
     new_sd = b"<%ssheetData>%s</%ssheetData>" % (p, new_body, p)
-    xml = xml[:sd.start()] + new_sd + xml[sd.end():]
-    return _extend_dimension(xml, values)
+    return xml[:sd.start()] + new_sd + xml[sd.end():]
 
 
 def keep_cached_values_on_load(xml: bytes) -> bytes:
@@ -239,10 +317,21 @@ def _extend_dimension(xml: bytes, coords: Iterable[str]) -> bytes:
         (min_row, min_col), (max_row, max_col) = split_coord(a), split_coord(b or a)
     except ValueError:
         return xml
+    columns: dict = {}
     for coord in coords:
-        r, c = _split_coord(coord)
-        min_row, max_row = min(min_row, r), max(max_row, r)
-        min_col, max_col = min(min_col, c), max(max_col, c)
+        letters = coord.rstrip("0123456789")
+        c = columns.get(letters)
+        if c is None:
+            c = columns[letters] = _split_coord(letters + "1")[1]
+        r = int(coord[len(letters):])
+        if r < min_row:
+            min_row = r
+        elif r > max_row:
+            max_row = r
+        if c < min_col:
+            min_col = c
+        elif c > max_col:
+            max_col = c
     new = f"{coord_name(min_row, min_col)}:{coord_name(max_row, max_col)}".encode()
     return xml[:m.start(2)] + new + xml[m.end(2):]
 
