@@ -137,3 +137,23 @@ def test_the_docs_build_with_warnings_as_errors(tmp_path):
     code, err = _sphinx(tmp_path)
     assert code == 0, err
     assert not re.search(r"WARNING|ERROR", err), err
+
+
+def test_developers_quotes_the_layers_of_the_import_test():
+    sys.path.insert(0, str(ROOT / "tests"))
+    import test_imports
+
+    text = (ROOT / "DEVELOPERS.md").read_text(encoding="utf-8")
+    block = text.split("## Layer rules", 1)[1].split("```python", 1)[1].split("```", 1)[0]
+    quoted = {}
+    exec(block, {}, quoted)
+    assert quoted["LAYERS"] == test_imports.LAYERS
+
+
+def test_every_file_the_contributor_guide_names_exists():
+    text = (ROOT / "DEVELOPERS.md").read_text(encoding="utf-8")
+    named = set(re.findall(r"`((?:udf|tests|docs|examples|workbook_templates|tools)/[\w./*-]+)`",
+                           text))
+    assert len(named) > 20
+    missing = [p for p in sorted(named) if not list(ROOT.glob(p.rstrip("/")))]
+    assert not missing
