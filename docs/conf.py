@@ -47,5 +47,5 @@ html_theme = "alabaster"
 html_static_path = ["_static"]
 html_title = f"portflux {release}"
 html_theme_options = {"description": "control-volume balances in a spreadsheet",
-                      "fixed_sidebar": True, "page_width": "1100px", "sidebar_width": "230px"}
+                      "fixed_sidebar": True, "page_width": "1240px", "sidebar_width": "230px"}
 nitpicky = False

@@ -9,6 +9,7 @@ Sphinx (https://www.sphinx-doc.org, ``-W`` turns every warning into an error).
 from __future__ import annotations
 
 import importlib.util
+import math
 import os
 import pathlib
 import re
@@ -157,3 +158,26 @@ def test_every_file_the_contributor_guide_names_exists():
     assert len(named) > 20
     missing = [p for p in sorted(named) if not list(ROOT.glob(p.rstrip("/")))]
     assert not missing
+
+
+def test_committed_pictures_were_rendered_from_the_committed_template():
+    sys.path.insert(0, str(DOCS))
+    import pictures
+
+    recorded = (DOCS / "_static" / "pictures" / "SOURCE.sha256").read_text().split()[0]
+    assert recorded == pictures.template_sha256(), (
+        "the template changed: run python docs/pictures.py and commit the pictures")
+    for _, name in pictures.PAGES:
+        data = (DOCS / "_static" / "pictures" / name).read_bytes()
+        assert data[:8] == b"\x89PNG\r\n\x1a\n" and len(data) > 20_000, name
+
+
+def test_velocity_diagram_is_the_kernels_triangle():
+    # the exit of README's vane: w = 60 ft/s at 150 deg relative to a CV at 20 ft/s, so
+    # V = w + V_cv = (20 - 60 cos 30, 60 sin 30) = (-31.96, 30) ft/s (Galilean addition)
+    t = G.velocity_triangle()
+    assert t["V_cv"] == pytest.approx((20.0, 0.0), abs=1e-9)
+    assert t["w"] == pytest.approx((60 * math.cos(math.radians(150)), 30.0), abs=1e-9)
+    assert t["V"] == pytest.approx((20 - 60 * math.cos(math.radians(30)), 30.0), abs=1e-9)
+    svg = G.velocity_svg()
+    assert "w = 60.0 ft/s" in svg and "V_cv = 20.0 ft/s" in svg and "V = 43.8 ft/s" in svg

@@ -14,6 +14,7 @@ generator and its check without the docs extra installed.
 from __future__ import annotations
 
 import inspect
+import math
 import os
 import re
 
@@ -130,10 +131,69 @@ def settings_page() -> str:
         schema.markdown_settings(units.QUANTITIES), ""])
 
 
+#: The vane of README's Python example (invented): 0.05 ft^2 water jet at 80 ft/s, vane running
+#: away at 20 ft/s, turning the relative flow through 150 degrees.
+VANE = dict(rows=[{"port": "jet", "role": "in", "area": 0.05, "density": 1.94, "vx": 80.0},
+                  {"port": "exit", "role": "out", "frame": "rel", "area": 0.05, "density": 1.94,
+                   "speed": 60.0, "angle": 150.0}],
+            cv=(20.0, 0.0, 0.0),
+            units={"area": "ft^2", "density": "slug/ft^3", "vx": "ft/s", "speed": "ft/s"})
+
+
+def velocity_triangle(case=VANE) -> dict:
+    """The exit's velocity triangle of ``case`` as the kernel computes it, in ft/s:
+    ``{"V_cv": (x, y), "w": (x, y), "V": (x, y)}`` with V = w + V_cv."""
+    import portflux as pf
+
+    r = pf.solve(case["rows"], cv_velocity=list(case["cv"]), cv_unit="ft/s", units=case["units"])
+    ft = 0.3048
+    w = [float(x) / ft for x in r.w[-1][:2]]
+    cv = [float(x) / ft for x in r.balance.v_cv[:2]]
+    return {"V_cv": tuple(cv), "w": tuple(w), "V": (w[0] + cv[0], w[1] + cv[1])}
+
+
+def velocity_svg(case=VANE) -> str:
+    """An SVG of the exit's velocity triangle: V_cv from the origin, w from its tip, V = w + V_cv
+    from the origin (arrows to scale, lengths labelled in ft/s)."""
+    t = velocity_triangle(case)
+    scale, ox, oy = 4.0, 260.0, 200.0
+
+    def xy(p):
+        return ox + scale * p[0], oy - scale * p[1]
+
+    def arrow(a, b, colour, label, side):
+        (x1, y1), (x2, y2) = xy(a), xy(b)
+        mag = math.hypot(b[0] - a[0], b[1] - a[1])
+        n = math.hypot(x2 - x1, y2 - y1) or 1.0            # label beside the arrow's middle
+        mx = (x1 + x2) / 2 + side * 18 * (y2 - y1) / n
+        my = (y1 + y2) / 2 - side * 18 * (x2 - x1) / n + 5
+        return (f'<line x1="{x1:.1f}" y1="{y1:.1f}" x2="{x2:.1f}" y2="{y2:.1f}" '
+                f'stroke="{colour}" stroke-width="3" marker-end="url(#head-{colour[1:]})"/>'
+                f'<text x="{mx:.1f}" y="{my:.1f}" fill="{colour}" font-size="15" '
+                f'text-anchor="middle">{label} = {mag:.1f} ft/s</text>')
+
+    colours = ("#1f5fa8", "#b3262e", "#2b7a2b")
+    marks = "".join(
+        f'<marker id="head-{c[1:]}" markerWidth="12" markerHeight="10" refX="11" refY="5" '
+        f'markerUnits="userSpaceOnUse" orient="auto"><path d="M0,0 L12,5 L0,10 z" '
+        f'fill="{c}"/></marker>' for c in colours)
+    zero = (0.0, 0.0)
+    body = (arrow(zero, t["V_cv"], colours[0], "V_cv", -1)
+            + arrow(t["V_cv"], t["V"], colours[1], "w", -1.4)
+            + arrow(zero, t["V"], colours[2], "V", 3.2))
+    return ('<svg xmlns="http://www.w3.org/2000/svg" width="400" height="260" '
+            'viewBox="0 0 400 260" font-family="sans-serif">'
+            f'<defs>{marks}</defs><rect width="400" height="260" fill="white"/>'
+            f'<line x1="20" y1="{oy}" x2="380" y2="{oy}" stroke="#999" stroke-dasharray="4 4"/>'
+            f'<text x="375" y="{oy + 16}" font-size="13" fill="#555" text-anchor="end">+x</text>'
+            f'{body}<text x="20" y="24" font-size="14">exit of the vane: V = w + V_cv '
+            '(generated from the kernel)</text></svg>\n')
+
+
 def pages(cells=None) -> dict:
     """``{file name: text}`` of every generated page."""
     return {"functions.rst": functions_page(cells), "columns.md": columns_page(),
-            "settings.md": settings_page()}
+            "settings.md": settings_page(), "velocity.svg": velocity_svg()}
 
 
 def write(out=None, cells=None) -> list:
