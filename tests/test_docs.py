@@ -106,6 +106,16 @@ def test_escape_bars_keeps_examples_and_literal_blocks():
                                     "1 | 0", "", "Block::", "", "    |a| = b", r"after \|x\|"]
 
 
+def test_examples_after_the_parameters_get_their_own_section():
+    lines = ["Summary.", "", "Parameters", "----------", "ports : range", "    Port table.",
+             "", "A jet on a vane:", "", ">>> 1 + 1", "2", "", "Reference: a book."]
+    assert G.examples_section(lines) == lines[:7] + ["Examples", "--------", ""] + lines[7:]
+    # a docstring that already has its section, or no parameters, stays as it is
+    assert G.examples_section(lines[:7] + ["Examples", "--------"] + lines[9:]) == \
+        lines[:7] + ["Examples", "--------"] + lines[9:]
+    assert G.examples_section(["Summary.", "", ">>> 1", "1"]) == ["Summary.", "", ">>> 1", "1"]
+
+
 def _sphinx(tmp_path, builder="dummy", keep_going=True):
     import contextlib
     import io

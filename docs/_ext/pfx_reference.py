@@ -244,8 +244,39 @@ def escape_bars(lines: list) -> list:
     return out
 
 
+def _is_header(lines, i) -> bool:
+    return (i + 1 < len(lines) and lines[i].strip() != "" and len(lines[i + 1].strip()) >= 3
+            and set(lines[i + 1].strip()) == {"-"})
+
+
+def examples_section(lines: list) -> list:
+    """Docstring lines with an ``Examples`` header put before the examples that follow a
+    ``Parameters`` section directly (the docstrings let the example and its lead-in sentence
+    follow the parameters, which numpydoc would read as more parameters)."""
+    heads = [i for i in range(len(lines)) if _is_header(lines, i)]
+    params = [i for i in heads if lines[i].strip() == "Parameters"]
+    if not params:
+        return lines
+    p = params[0]
+    first = next((i for i in range(p + 2, len(lines)) if lines[i].lstrip().startswith(">>>")),
+                 None)
+    if first is None or any(p < h < first for h in heads):
+        return lines
+    at = first
+    k = first - 1
+    while k > p + 1 and not lines[k].strip():
+        k -= 1
+    block_end = k
+    while k > p + 1 and lines[k].strip() and not lines[k][:1].isspace():
+        k -= 1
+    lead = lines[k + 1:block_end + 1]
+    if lead and not lines[k].strip() and not re.match(r"^\*{0,2}\w[\w, *]* :", lead[0]):
+        at = k + 1
+    return lines[:at] + ["Examples", "--------", ""] + lines[at:]
+
+
 def _escape_docstring(app, what, name, obj, options, lines):
-    lines[:] = escape_bars(lines)
+    lines[:] = examples_section(escape_bars(lines))
 
 
 def setup(app):
