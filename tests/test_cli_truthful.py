@@ -1,5 +1,6 @@
 """The command line tells the truth: exit codes, messages with their cells, no tracebacks, no
-leftovers, the user's file names and permissions (README, "Exit codes of the command line").
+leftovers, the user's file names and permissions (docs/reference/cli.md, "Exit codes of the
+command line").
 
 Workbooks are built in the tests with openpyxl; port data are invented.
 """

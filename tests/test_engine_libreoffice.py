@@ -169,7 +169,8 @@ def test_libreoffice_shows_cached_results_of_standard_formulas(rendered):
     "result as cell value') and recalculates them; a function it does not "
     "know gives #NAME? (without the portflux add-in installed).  Seen with "
     "LibreOffice 7.4.7 and 25.2.3.  Strict: a version that keeps them makes this "
-    "pass and README's note on opening recalculated files must change."))
+    "pass and the note on opening recalculated files (docs/getting-started/template.md) must "
+    "change."))
 def test_libreoffice_shows_cached_results_of_array_formulas(rendered):
     _, sheets = rendered
     for i, row in enumerate(FLUX):

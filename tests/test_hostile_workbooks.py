@@ -5,7 +5,7 @@ the file; the worksheet functions bound what a bridge hands them.
 
 Every workbook is built in the test (``hostile_books``). Each test fails on the code before
 this round (the refusal did not exist, the wrong value was read, or the child outlived the
-command); the expected messages and values are portflux's own rules (DEVELOPERS.md, "Hostile
+command); the expected messages and values are portflux's own rules (docs/security.md, "Hostile
 workbooks"), the xlsx grammar from ECMA-376 Part 1 (from memory: 18.17.7 ST_Xstring escapes,
 the numbers of <v> as xsd:double, booleans 0/1).
 """
@@ -32,7 +32,7 @@ from portflux.workbook import worksheet_functions
 from portflux.workbook.engine import RecalcError, Recalculator, recalc_file
 
 FUNCS = worksheet_functions()
-#: The documented bounds (DEVELOPERS.md, "Hostile workbooks"): written out, so that this file
+#: The documented bounds (docs/security.md, "Hostile workbooks"): written out, so that this file
 #: also runs (and fails) against the code before them.
 MAX_ARRAY_CELLS, MAX_WORK_CELLS = 250_000, 25_000_000
 

@@ -1,10 +1,8 @@
 """The package's imports run one way: no circle, no upward import, no private name across modules.
 
-The layers (DEVELOPERS.md, "Architecture"; common practice, no source: a layered design whose
-dependencies point one way)::
-
-    core  <-  (units, schema, excel, cautions)  <-  builder  <-  (api, cells)  <-  (workbook, addins)
-          <-  (cli, bench, __main__)
+The layers (DEVELOPERS.md, "Layer rules"; common practice, no source: a layered design whose
+dependencies point one way) are :data:`LAYERS` below, the one statement of their order
+(DEVELOPERS.md quotes it; ``tests/test_docs.py`` holds the quotation to it).
 
 Every ``import`` in every module is read with :mod:`ast` (function-level imports included: a lazy
 import still makes a dependency), resolved to a module of the package, and checked.

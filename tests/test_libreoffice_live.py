@@ -232,7 +232,8 @@ def test_function_wizard_marks_the_required_and_the_optional_arguments(office):
 
 
 def test_a_failing_array_formula_repeats_its_message_in_every_cell_as_readme_says(doc):
-    # README: an array formula over a fixed range repeats a message in every cell
+    # the documentation (docs/guide/worksheet.md, formerly README): an array formula over a
+    # fixed range repeats a message in every cell
     sheet = doc.Sheets.getByIndex(0)
     table = BAD[0][1]
     sheet.getCellRangeByPosition(0, 0, 4, 2).setDataArray(calc_rows(table))
@@ -242,6 +243,6 @@ def test_a_failing_array_formula_repeats_its_message_in_every_cell_as_readme_say
     got = [sheet.getCellRangeByName(c).getString() for c in ("H3", "J3", "H4", "J4")]
     assert got == [want] * 4
     import os
-    readme = open(os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))),
-                               "README.md"), encoding="utf-8").read()
-    assert "repeats it in every cell" in readme
+    guide = open(os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))),
+                              "docs", "guide", "worksheet.md"), encoding="utf-8").read()
+    assert "repeats it in every cell" in guide

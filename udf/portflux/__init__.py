@@ -1,9 +1,8 @@
 """portflux: steady mass and momentum balances of control volumes moving at constant velocity.
 
-Layers (one direction of dependency)::
-
-    core  <-  units  <-  problem  <-  (api, cells)  <-  workbook  <-  cli
-    (numpy, SI)  (pint)  (rows -> compiled model)  (Python API, worksheet functions)
+One direction of dependency, from the numpy kernel (``core``) up to the command line
+(``cli``): the order is stated once, in ``LAYERS`` of ``tests/test_imports.py`` (quoted in
+DEVELOPERS.md, "Layer rules").
 
 The Python API for scripts and notebooks lives in :mod:`portflux.api` and is re-exported here
 lazily, so that ``import portflux.cells`` (what Excel waits for on its first call) stays cheap.

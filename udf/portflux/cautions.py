@@ -1,4 +1,4 @@
-"""The safety caution every output of portflux carries (README, template, demo, PFX_ABOUT)."""
+"""The safety caution every output of portflux carries (README, docs, template, demo, PFX_ABOUT)."""
 
 CAUTION_LINES = (
     "Forces from these formulas feed the design of supports and restraints.",

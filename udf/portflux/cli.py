@@ -272,10 +272,11 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
-#: Exit codes (README, "Exit codes of the command line").
+#: Exit codes (docs/reference/cli.md, "Exit codes of the command line").
 EXIT_OK, EXIT_FINDINGS, EXIT_REFUSED, EXIT_BUG = 0, 1, 2, 3
 #: Where an internal fault should be reported.
-BUG_REPORT = "the portflux issue tracker (README, 'Exit codes of the command line')"
+BUG_REPORT = ("the portflux issue tracker (documentation, reference: 'Exit codes of the command "
+              "line')")
 
 
 class _QuietInternals:
@@ -300,7 +301,7 @@ class _QuietInternals:
 
 
 def main(argv=None) -> int:
-    """Run the command line; returns the exit code (see README)."""
+    """Run the command line; returns the exit code (docs/reference/cli.md)."""
     from .core import PortfluxError
     from .workbook.output import (WRITE_REFUSED, OutputError, Terminated, explain,
                                   signals_raise)

@@ -14,8 +14,8 @@ or shows an input is derived from these declarations:
 * :mod:`portflux.cells` resolves headers and settings names, and answers PFX_COLUMNS and
   PFX_SETTINGS from here;
 * the template's port table (:func:`sheet_columns`, :func:`sheet_units`) and the tables of
-  README (:func:`markdown_columns`, :func:`markdown_settings`; ``tests/test_schema.py`` holds
-  README to them).
+  the documentation (:func:`markdown_columns`, :func:`markdown_settings`, written into the
+  docs at each build by ``docs/_ext/pfx_reference.py``; ``tests/test_docs.py``).
 
 A new column is three files: its declaration here (with ``ports=`` naming the
 :class:`~portflux.core.Ports` field it feeds), the field in ``core/ports.py`` and its use in
@@ -478,14 +478,14 @@ def keyword_of(setting_key: str) -> str:
 
 
 # --------------------------------------------------------------------------------------------
-# documentation tables (README holds them; tests/test_schema.py compares)
+# documentation tables (generated into the docs at build time: docs/_ext/pfx_reference.py)
 # --------------------------------------------------------------------------------------------
 def _cell(text) -> str:
     return str(text).replace("|", "\\|")
 
 
 def markdown_columns(quantities) -> str:
-    """README's table of the port-table columns (from :data:`COLUMNS`)."""
+    """The documentation's table of the port-table columns (from :data:`COLUMNS`)."""
     lines = ["| column | aliases | quantity | default unit | US unit | meaning |",
              "|---|---|---|---|---|---|"]
     for c in COLUMNS.values():
@@ -510,7 +510,7 @@ def _default_text(s: Setting, quantities) -> str:
 
 
 def markdown_settings(quantities) -> str:
-    """README's table of the settings (from :data:`SETTINGS`; a vector's components share a
+    """The documentation's table of the settings (from :data:`SETTINGS`; a vector's components share a
     row)."""
     lines = ["| name | unit kind | default | Python keyword | meaning |", "|---|---|---|---|---|"]
     done = set()
@@ -532,31 +532,3 @@ def markdown_settings(quantities) -> str:
         text = VECTOR_HELP[s.vector[0]] if s.vector else s.help
         lines.append(f"| {names} | {kind} | {default} | {api} | {_cell(text)} |")
     return "\n".join(lines)
-
-
-
-def with_tables(text: str, quantities) -> str:
-    """``text`` (README) with its two tables replaced by :func:`markdown_columns` and
-    :func:`markdown_settings` (each found by its header row, ended by a blank line)."""
-    for head, table in (("| column | aliases | quantity |", markdown_columns(quantities)),
-                        ("| name | unit kind | default |", markdown_settings(quantities))):
-        a = text.index(head)
-        b = text.index("\n\n", a)
-        text = text[:a] + table + text[b:]
-    return text
-
-
-if __name__ == "__main__":     # python -m portflux.schema README.md: regenerate its tables
-    import os
-    import sys
-    import tempfile
-
-    from . import units
-
-    path = sys.argv[1]
-    with open(path, encoding="utf-8") as f:
-        new = with_tables(f.read(), units.QUANTITIES)
-    fd, tmp = tempfile.mkstemp(dir=os.path.dirname(os.path.abspath(path)), suffix=".md")
-    with os.fdopen(fd, "w", encoding="utf-8") as f:
-        f.write(new)
-    os.replace(tmp, path)

@@ -40,7 +40,8 @@ from ..excel import bounded_message
 
 CATEGORY = "portflux"
 
-#: Help text of every argument (the Excel function dialog shows it; README lists it).
+#: Help text of every argument (the Excel function dialog shows it; the generated reference of
+#: the documentation lists it: docs/_ext/pfx_reference.py).
 ARG_DOCS = {
     "ports": "Port table: row 1 column names, row 2 units (blank = default unit), one port per "
              "row below. Blank rows/columns after the table are ignored.",
