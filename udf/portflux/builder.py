@@ -1146,7 +1146,8 @@ def history_options(settings: Settings, door: str = "sheet") -> dict:
 
     for key in HISTORY_NEEDS:
         if getattr(s, key) is None:
-            raise missing(key, f"a speed history needs {S.SETTINGS[key].help.split(': ', 1)[1]}")
+            what = S.SETTINGS[key].help.split(": ", 1)[1].split(", ")[0]
+            raise missing(key, f"a speed history needs {key} ({what})")
     if s.brake_force > 0 and s.brake_time is None and s.brake_distance is None:
         raise missing("brake_time", "a brake force needs the time (brake_time) or the distance "
                                     "(brake_distance) at which the brake starts")
