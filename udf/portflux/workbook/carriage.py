@@ -112,6 +112,6 @@ def draw_carriage(wb, lay, cv_sheet, ports_ref, cv_settings_ref, cv_settings_row
     chart("Load on the body |F| against time", 9, "force on body |F| [N]",
           cell(9, top + 15, absolute=False))
     print_setup(ws, rng(1, 1, ncols + 5, end), landscape=True, title_rows=f"{t}:{t}",
-                fit_height=0)
+                fit_height=2)
     return dict(settings=S, direction=D, units=Un, summary=cell(SUMMARY_LEFT, top, CARRIAGE),
                 table=cell(1, t, CARRIAGE), first_carriage_row=first, table_top=t)
