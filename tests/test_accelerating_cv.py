@@ -114,3 +114,22 @@ def test_a_bernoulli_height_in_an_accelerating_cv_is_refused():
     Model(p, c)                                          # steady: fine
     with pytest.raises(OutsideScopeError, match="heights are taken along gravity"):
         Model(p, c, cv_acceleration=[1.0, 0, 0])
+
+
+def test_every_speed_driver_of_the_api_takes_the_acceleration():
+    # speed tables and envelopes compile the same model: their force on the body shifts by
+    # -m a wherever the jet reaches the body (White sec. 3.4, from memory).
+    rows = [{"port": "jet", "role": "in", "area": AREA, "density": RHO, "speed": V, "ry": 0.2},
+            {"port": "out", "role": "out", "closure": "free", "angle": 150.0, "area": AREA,
+             "density": RHO, "ry": 0.2}]
+    kw = dict(fluid_mass=2.0, fluid_centroid=(0.0, 0.25, 0.0))
+    a = (1.5, 0.0, 0.0)
+    t0 = pf.speed_table(rows, [0.0, 10.0], moments=True, **kw)
+    t1 = pf.speed_table(rows, [0.0, 10.0], moments=True, cv_acceleration=a, **kw)
+    np.testing.assert_allclose(t1.force_on_body - t0.force_on_body, [[-3.0, 0, 0]] * 2,
+                               atol=1e-9)
+    np.testing.assert_allclose(t1.moment_on_body - t0.moment_on_body,   # r_G x (-m a)
+                               [[0.0, 0.0, 0.75]] * 2, atol=1e-9)
+    e0 = pf.envelope(rows, (0.0, 20.0), **kw)
+    e1 = pf.envelope(rows, (0.0, 20.0), cv_acceleration=a, **kw)
+    assert e1.value[0] == pytest.approx(e0.value[0] - 3.0, rel=1e-9)   # worst F_x at U = 0
