@@ -213,3 +213,13 @@ def test_the_direction_of_motion_may_be_any():
     a = pf.speed_history(rows, direction=d, carriage_mass=M, duration=3.0)
     b = pf.speed_history(_rows(), carriage_mass=M, duration=3.0)
     np.testing.assert_allclose(a.speed, b.speed, rtol=1e-9)
+
+
+def test_a_lower_target_reached_by_braking_is_not_refused():
+    # from 20 m/s the jet alone keeps the speed above 10 m/s; the brake brings it below
+    h = pf.speed_history(_rows(), carriage_mass=M, duration=30.0, start_speed=20.0,
+                         target_speed=10.0, brake_force=2000.0, brake_time=1.0)
+    assert h.target_reached and h.target_time > 1.0
+    with pytest.raises(InputError, match="never reached: the speed tends to 25 m/s"):
+        pf.speed_history(_rows(), carriage_mass=M, duration=30.0, start_speed=20.0,
+                         target_speed=10.0)

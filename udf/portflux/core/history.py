@@ -568,6 +568,8 @@ def check_target(h: SpeedHistory, shown=None):
     if not np.isfinite(ut) or h.target_reached:
         return
     rising = ut > h.speed[0]
+    if not rising and np.isfinite(h.brake_time):
+        return                                  # the brake may bring it there: a result
     if (rising and term <= ut) or (not rising and term >= ut):
         tends = "grows without bound" if math.isinf(term) else f"tends to {shown(term)}"
         raise InputError(f"target speed {shown(ut)} is never reached: the speed {tends}, where "
