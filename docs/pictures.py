@@ -24,9 +24,10 @@ HERE = os.path.dirname(os.path.abspath(__file__))
 ROOT = os.path.dirname(HERE)
 OUT = os.path.join(HERE, "_static", "pictures")
 TEMPLATE = os.path.join(ROOT, "workbook_templates", "portflux_template.xlsx")
-#: The printed pages in order (each sheet prints on one page) and the picture of each.
+#: The sheets pictured (the first printed page of each) and the picture of each.
 PAGES = (("Report", "report.png"), ("About", "about.png"), ("Control volume", "control-volume.png"),
-         ("Speed sweep", "speed-sweep.png"), ("Check cases", "check-cases.png"))
+         ("Speed sweep", "speed-sweep.png"), ("Carriage", "carriage.png"),
+         ("Check cases", "check-cases.png"))
 DPI = {"report.png": 90, "control-volume.png": 110, "check-cases.png": 80}
 
 
@@ -57,12 +58,14 @@ def render(out=OUT) -> list:
                         "--convert-to", "pdf", "--outdir", tmp, values], check=True,
                        stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, timeout=300)
         pdf = os.path.join(tmp, "values.pdf")
-        for page, (sheet, name) in enumerate(PAGES, start=1):
-            text = subprocess.run(["pdftotext", "-f", str(page), "-l", str(page), pdf, "-"],
-                                  check=True, capture_output=True, text=True).stdout
-            header = [line.strip() for line in text.splitlines()[:4]]
-            if sheet not in header:                     # the page header names the sheet
-                raise SystemExit(f"pictures: page {page} is not the sheet {sheet!r}")
+        text = subprocess.run(["pdftotext", pdf, "-"], check=True, capture_output=True,
+                              text=True).stdout
+        headers = [[line.strip() for line in p.splitlines()[:4]] for p in text.split("\f")]
+        for sheet, name in PAGES:
+            # the first page whose header names the sheet (a sheet may print on several pages)
+            page = next((i for i, h in enumerate(headers, start=1) if sheet in h), None)
+            if page is None:
+                raise SystemExit(f"pictures: no printed page of the sheet {sheet!r}")
             stem = os.path.join(tmp, f"page{page}")
             subprocess.run(["pdftoppm", "-r", str(DPI.get(name, 70)), "-f", str(page), "-l",
                             str(page), "-png", "-singlefile", pdf, stem], check=True)

@@ -223,9 +223,11 @@ def test_true_and_one_do_not_share_a_cache_entry():
         ports, ((1.0, 0.0, 0.0),), "jet")
 
 
-def test_an_accelerating_control_volume_is_refused_with_the_reason():
-    # Design note: accelerating CVs are outside the steady inertial form; say so in an error.
-    out = C.PFX_BODYFORCE((HEAD, UNITS, JET), 10.0, None, None, (("az", 1.5, "ft/s^2"),))
-    assert out.startswith("settings row 1, az: an accelerating control volume is outside")
-    assert isinstance(C.PFX_BODYFORCE((HEAD, UNITS, JET), 10.0, None, None,
-                                      (("az", 0.0, "ft/s^2"),)), list)
+def test_a_cv_acceleration_without_its_unit_is_refused_at_its_row():
+    # No unit, no value: an acceleration typed without a unit names its row; with its unit
+    # and no fluid inside it changes nothing (the apparent force is -fluid_mass x a).
+    out = C.PFX_BODYFORCE((HEAD, UNITS, JET), 10.0, None, None, (("az", 1.5, None),))
+    assert isinstance(out, str) and out.startswith("settings row 1, az:") and "unit" in out
+    assert C.PFX_BODYFORCE((HEAD, UNITS, JET), 10.0, None, None,
+                           (("az", 1.5, "ft/s^2"),)) == C.PFX_BODYFORCE((HEAD, UNITS, JET),
+                                                                         10.0)

@@ -51,7 +51,7 @@ def test_every_registered_worksheet_function_has_its_generated_entry():
     for name in C.PUBLIC:
         f = getattr(C, name)
         assert f".. _{name.lower()}:" in page and f"autofunction:: portflux.cells.{name}" in page
-        assert C.help_text(f) in page                         # what it returns, from its docstring
+        assert G._rst_text(C.help_text(f)) in page            # what it returns, from its docstring
         for arg in list(f.__code__.co_varnames[:f.__code__.co_argcount]):
             assert G._rst_text(" ".join(C.ARG_DOCS[arg].split())) in page, (name, arg)
 
@@ -80,6 +80,15 @@ def test_a_new_documented_function_gets_its_entry_with_no_edit_of_the_generator(
     page = G.functions_page()
     assert ".. _pfx_newone:" in page and "``=PFX_NEWONE(ports, cv_velocity, [units])``" in page
     assert "**Returns** (spills): n x 1." in page
+
+
+def test_a_help_text_with_magnitude_bars_is_escaped_in_its_entry():
+    # "|F|" in a function's first paragraph (the dialog help) would be read by reStructuredText
+    # as a substitution reference and fail the -W build (found merging PFX_SPEEDHISTORY)
+    entry = G.function_entry("PFX_SPEEDHISTORY")
+    help_ = C.help_text(C.PFX_SPEEDHISTORY)
+    assert "|F|" in help_
+    assert r"\|F\|" in entry and "|F|" not in entry.replace(r"\|F\|", "")
 
 
 def test_column_and_setting_tables_are_generated_from_the_schema_and_shown_by_the_guide():

@@ -20,10 +20,10 @@ from portflux.addins.libreoffice.registry import functions
 
 pytestmark = needs_libreoffice
 
-# Where the inputs go on the sheet: ports A1:H6, settings I1:K4, speeds M1:M5, CV velocity
+# Where the inputs go on the sheet: ports A1:H6, settings I1:K8, speeds M1:M5, CV velocity
 # O1:R1. Each argument is a formula operand and the value Calc hands the add-in (a range as
 # rows with None for blanks, TRUE as 1.0).
-RANGES = {"ports": "$A$1:$H$6", "settings": "$I$1:$K$4", "speeds": "$M$1:$M$5",
+RANGES = {"ports": "$A$1:$H$6", "settings": "$I$1:$K$8", "speeds": "$M$1:$M$5",
           "cv_velocity": "$O$1:$R$1"}
 COMMON = {"labels": ("TRUE()", 1.0), "tolerance": ("0.002", 0.002), "kind": ('"jet"', "jet"),
           "direction": ("0", 0.0), "low": ("0", 0.0), "high": ("40", 40.0),
@@ -39,7 +39,9 @@ SCENARIOS = {
                ("exit", "out", 2.0, 998.0, None, 150.0, "free", 0.35),
                (None,) * 8, (None,) * 8),
         settings=(("fluid_mass", 0.5, "kg"), ("gz", -9.81, "m/s^2"), ("cg_y", 0.3, "m"),
-                  ("wheel_radius", 0.5, "m")),
+                  ("wheel_radius", 0.5, "m"), ("carriage_mass", 40.0, "kg"),
+                  ("duration", 3.0, "s"), ("target_speed", 20.0, "m/s"),
+                  ("history_rows", 11, None)),
         speeds=(("m/s",), (0.0,), (None,), (10.0,), (50.0,)),
         cv=((10.0, 0.0, 0.0, "m/s"),),
         scalars={"port": ('"exit"', "exit"), "units": ('"SI; force=kN"', "SI; force=kN"),
@@ -54,7 +56,9 @@ SCENARIOS = {
                ("back", "out", None, 1.94, None, 240.0, "solve", None),
                (None,) * 8),
         settings=(("slip_angle", 60.0, "deg"), ("fluid_mass", 0.0, "slug"),
-                  ("wheel_radius", 1.5, "ft"), (None, None, None)),
+                  ("wheel_radius", 1.5, "ft"), ("carriage_mass", 3.0, "slug"),
+                  ("duration", 2.0, "s"), ("resistance_constant", 2.0, "lbf"),
+                  (None, None, None), (None, None, None)),
         speeds=(("ft/s",), (0.0,), (5.0,), (None,), (20.0,)),
         cv=((5.0, 0.0, 0.0, "ft/s"),),
         scalars={"port": ("2", 2.0), "units": ('"US"', "US"), "axis": ('"x"', "x"),

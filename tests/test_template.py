@@ -61,7 +61,8 @@ def test_committed_template_matches_what_the_generator_makes(tmp_path):
 
 def test_template_has_our_sheets_and_no_macros():
     wb = openpyxl.load_workbook(COMMITTED)
-    assert wb.sheetnames == [REPORT, T.ABOUT, T.CV, T.SWEEP, T.CHECKS, T.RAW]
+    assert wb.sheetnames == [REPORT, T.ABOUT, T.CV, T.SWEEP, T.carriage.CARRIAGE, T.CHECKS,
+                             T.RAW]
     assert wb[T.RAW].sheet_state == "hidden"
     assert not getattr(wb, "vba_archive", None)
     about = " ".join(str(c.value) for row in wb[T.ABOUT].iter_rows() for c in row if c.value)
@@ -198,7 +199,7 @@ def test_values_only_copy_keeps_values_and_charts_but_no_formulas(tmp_path):
     import zipfile
 
     with zipfile.ZipFile(out) as z:
-        assert sum(n.startswith("xl/charts/chart") for n in z.namelist()) == 6
+        assert sum(n.startswith("xl/charts/chart") for n in z.namelist()) == 8
     c, r, n, _ = T.SUMMARY_AT
     vals = dict(r for r in wb[T.CV].iter_rows(min_row=r, max_row=r + n - 1, max_col=2,
                                               values_only=True))

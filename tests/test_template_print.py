@@ -29,7 +29,7 @@ needs_lo = pytest.mark.skipif(SOFFICE is None or PDFTOTEXT is None,
                                      "needed to render the template to PDF; not on PATH")
 
 #: Pages each sheet may take (the hidden raw sheet does not print).
-PAGES = {REPORT: 1, T.ABOUT: 1, T.CV: 1, T.SWEEP: 1, T.CHECKS: 1}
+PAGES = {REPORT: 1, T.ABOUT: 1, T.CV: 1, T.SWEEP: 1, T.CHECKS: 1, T.carriage.CARRIAGE: 2}
 
 
 def _render(xlsx, tmp_path):

@@ -71,6 +71,9 @@ TEN_WRONG = ((("port", "role", "frame", "area", "density", "vx", "nx"),
                      for k in range(1, 6)))
 
 
+CARRIAGE = tuple(T.carriage.CARRIAGE_SETTINGS)
+
+
 def _shape(result):
     if isinstance(result, list):
         return len(result), max(len(r) for r in result)
@@ -154,6 +157,11 @@ def _linear(i):
                           cells.PFX_RESULTANT(P, cv, "moment", U, S)],
         "PFX_ENVELOPE": [cells.PFX_ENVELOPE(P, lo, hi, 0.0, U, S),
                          cells.PFX_ENVELOPE(P, hi, lo, 0.0, U, S)],
+        # the 'Carriage' sheet: the body's settings, then the carriage's rows
+        "PFX_SPEEDHISTORY": [cells.PFX_SPEEDHISTORY(P, S + CARRIAGE, 0.0, U),
+                             cells.PFX_SPEEDHISTORY(TEN, S + CARRIAGE, 0.0, U)],
+        "PFX_HISTORYSUMMARY": [cells.PFX_HISTORYSUMMARY(P, S + CARRIAGE, 0.0, U),
+                               cells.PFX_HISTORYSUMMARY(P, S, 0.0, U)],
     }
 
 

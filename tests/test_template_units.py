@@ -134,7 +134,7 @@ class Groups:
             if s is not None and str(s) not in seen_settings:
                 seen_settings.add(str(s))
                 self._settings(s, sets)
-                if user:
+                if user and s.sheet == CV:       # not the Carriage sheet's mirror of it
                     self.settings = s
             sp = c.ref("speeds")
             if sp is not None and sp.sheet == CHECKS and str(sp) not in seen_cv:

@@ -89,6 +89,22 @@ def _covers(outer: Ref, inner: Ref):
             and outer.r2 >= inner.r2 and outer.c2 >= inner.c2)
 
 
+def _mirrors(wb, given: Ref, inner: Ref):
+    """``given`` (a settings range on another sheet, the 'Carriage' sheet's) reads every
+    cell of the table's settings ``inner`` below its header through its formulas."""
+    import re
+
+    ws, read = wb[given.sheet], set()
+    for r in range(given.r1, given.r2 + 1):
+        for c in range(given.c1, given.c2 + 1):
+            v = ws.cell(row=r, column=c).value
+            if isinstance(v, str) and v.startswith("="):
+                for sheet, col, row in re.findall(r"'?([^'!=(,]+)'?!\$?([A-Z]+)\$?(\d+)", v):
+                    read.add((sheet, openpyxl.utils.column_index_from_string(col), int(row)))
+    return all((inner.sheet, c, r) in read for r in range(inner.r1 + 1, inner.r2 + 1)
+               for c in range(inner.c1, inner.c2 + 1))
+
+
 def wiring_faults(path):
     """Every call that misses a unit cell or the settings range its inputs can need."""
     wb = openpyxl.load_workbook(path)
@@ -124,7 +140,7 @@ def wiring_faults(path):
             given = call.ref("settings")
             if given is None:
                 say(f"no settings range (the table's settings are {settings})")
-            elif not _covers(given, settings):
+            elif not _covers(given, settings) and not _mirrors(wb, given, settings):
                 say(f"settings {given} do not cover the table's settings {settings}")
         if "units" in params and ports.sheet == USER_SHEET and call.ref("units") is None:
             say("no output-units cell")

@@ -74,7 +74,7 @@ def function_entry(name, cells=None) -> str:
     help_ = cells.help_text(f)
     shape = SHAPE.search(help_)
     lines = [f".. _{name.lower()}:", "", name, "-" * len(name), "",
-             f"``{_call(name, f)}``", "", help_, ""]
+             f"``{_call(name, f)}``", "", _rst_text(help_), ""]
     if shape:
         lines += [f"**Returns** (spills): {shape.group(1)}.", ""]
     params = inspect.signature(f).parameters.values()

@@ -14,7 +14,8 @@ __version__ = "0.1.0"
 #: The Python API re-exported from :mod:`portflux.api` (and :mod:`portflux.core` result types).
 _API = ("solve", "speed_table", "best_speed", "speed_at_force", "envelope", "problem", "ureg",
         "ControlVolumeResult", "SpeedTableResult", "EnvelopeResult", "BestSpeedResult",
-        "ForceSpeedResult", "Resultant", "format_report", "jet_speed")
+        "ForceSpeedResult", "Resultant", "format_report", "jet_speed", "speed_history",
+        "SpeedHistoryResult")
 _CORE = ("Balance", "BestSpeed", "Envelope", "ForceSpeed", "InputError", "Model", "OutsideScopeError",
          "Ports", "SpeedTable")
 

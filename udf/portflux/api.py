@@ -47,12 +47,14 @@ from .core import resultant as _resultant
 from .core import best_speed as _core_best_speed
 from .core import speed_at_force as _core_speed_at_force
 from .core import speed_table as _core_speed_table
+from .core.history import SpeedHistory, check_target
+from .core.history import speed_history as _core_speed_history
 from .core.model import JET_NA
 
 __all__ = ["BestSpeedResult", "ControlVolumeResult", "EnvelopeResult", "ForceSpeedResult",
            "Resultant", "SpeedTableResult", "best_speed", "cv_velocity_si", "envelope",
            "format_report", "jet_speed", "problem", "solve", "speed_at_force", "speed_table",
-           "ureg"]
+           "ureg", "SpeedHistoryResult", "speed_history"]
 
 
 def ureg():
@@ -154,7 +156,13 @@ _DEFAULTS = {"fluid_mass": 0.0, "gravity": tuple(S.SETTINGS[k].default for k in
              "tolerance": S.SETTINGS["tolerance"].default, "intercept": "single",
              "slip_angles": (), "slip_directions": (), "wheel_radius": None,
              "cv_acceleration": (0.0, 0.0, 0.0), "reference": (0.0, 0.0, 0.0),
-             "fluid_centroid": None, "dynamic_factor": 1.0, "load_factor": 1.0}
+             "fluid_centroid": None, "dynamic_factor": 1.0, "load_factor": 1.0,
+             # the speed history of a carriage
+             "carriage_mass": None, "start_speed": 0.0, "duration": None, "target_speed": None,
+             "resistance_constant": 0.0, "resistance_linear": 0.0, "resistance_quadratic": 0.0,
+             "brake_force": 0.0, "brake_time": None, "brake_distance": None,
+             "history_rows": 101, "integration_tolerance": 1e-8, "step_budget": 20000,
+             "time_budget": 10.0}
 
 API_ROTATION_HINT = ("give wheel_radius= (with radius_unit=), the radius at the jet's centre "
                      "line, so that the peripheral speed is U = omega r")
@@ -1136,3 +1144,106 @@ def format_report(b: Balance, us: U.UnitSystem, *, wheel_radius=None,
     if warns:
         lines += [""] + [f"warning: {w}" for w in warns]
     return "\n".join(lines)
+
+
+# --------------------------------------------------------------------------------------------
+# the speed history of a jet-driven carriage
+# --------------------------------------------------------------------------------------------
+#: Quantity kind of each column of a speed history.
+HISTORY_KINDS = {"time": "time", "speed": "velocity", "distance": "length",
+                 "acceleration": "acceleration", "force_along": "force", "force_on_body": "force",
+                 "force_magnitude": "force", "moment_on_body": "moment",
+                 "moment_magnitude": "moment"}
+
+
+@dataclass(frozen=True, eq=False)
+class SpeedHistoryResult:
+    """A speed history (SI arrays of :class:`~portflux.core.history.SpeedHistory`: time [s],
+    speed [m/s], distance [m], acceleration [m/s^2], force_on_body [N], moment_on_body [N m],
+    and the summary) with :meth:`columns` in an output unit system."""
+
+    history: SpeedHistory
+
+    def __getattr__(self, name):
+        if name.startswith("_") or name == "history":
+            raise AttributeError(name)
+        return getattr(self.history, name)
+
+    def columns(self, units=None) -> dict:
+        """The table as 1-D arrays in the output system ``units`` ("SI", "US", ...): time,
+        speed, distance, acceleration, force along, force on body x y z and magnitude, moment
+        on body x y z and magnitude (NaN where there are no moments)."""
+        us, h = U.UnitSystem(units), self.history
+        F = h.force_on_body
+        M = h.moment_on_body if h.moment_on_body is not None else np.full(F.shape, np.nan)
+        raw = {"time": h.time, "speed": h.speed, "distance": h.distance,
+               "acceleration": h.acceleration, "force_along": h.force_along}
+        for c, x in enumerate("xyz"):
+            raw[f"force_on_body_{x}"] = F[:, c]
+        raw["force_magnitude"] = np.linalg.norm(F, axis=1)
+        for c, x in enumerate("xyz"):
+            raw[f"moment_on_body_{x}"] = M[:, c]
+        raw["moment_magnitude"] = np.linalg.norm(M, axis=1)
+        kind = {k: HISTORY_KINDS.get(k, HISTORY_KINDS.get(k[:-2])) for k in raw}
+        return {k: us.out(a, kind[k]) for k, a in raw.items()}
+
+    def to_frame(self, units=None):
+        """:meth:`columns` as a ``pandas.DataFrame`` (pandas installed)."""
+        return _frame(self.columns(units))
+
+
+@_document
+def speed_history(ports, *, direction=(1.0, 0.0, 0.0), units=None,
+                  **settings) -> SpeedHistoryResult:
+    """Speed, distance and loads against time of a carriage driven by the port table's jet.
+
+    .. math::
+
+        (M + c\\,m_f) \\frac{dU}{dt} = \\vec F_{body}(U \\hat d) \\cdot \\hat d
+        + M \\vec g \\cdot \\hat d - (r_0 + r_1 U + r_2 U^2) - B, \\qquad
+        \\frac{dx}{dt} = U
+
+    integrated by the Dormand-Prince 5(4) pair with error control (see
+    :mod:`portflux.core.history`); the fluid inside the CV (``fluid_mass``) is accelerated
+    with the carriage (c = 1 while the jet reaches the body).
+
+    Parameters
+    ----------
+    ports : list of dict or dict of lists
+        Port rows of the body on the carriage (see :func:`solve`).
+    direction : array_like (3,)
+        Direction of motion d [-] (any length).
+    units : None, str or dict
+        Units of the port rows (see :func:`problem`).
+    {SETTINGS}
+
+    Returns
+    -------
+    SpeedHistoryResult
+
+    Examples
+    --------
+    A 25 m/s water jet of 10 cm^2 on a 180-degree vane on a 50 kg carriage, from rest, with a
+    rolling resistance of 20 N (invented numbers):
+
+    >>> rows = [{"role": "in", "area": 1e-3, "density": 1000.0, "speed": 25.0},
+    ...         {"role": "out", "closure": "free", "angle": 180.0, "area": 1e-3,
+    ...          "density": 1000.0}]
+    >>> h = speed_history(rows, carriage_mass=50.0, duration=10.0, target_speed=15.0,
+    ...                   resistance_constant=20.0)
+    >>> round(h.peak_force, 3), h.peak_force_time          # 2 rho A V^2 at the start
+    (1250.0, 0.0)
+    >>> round(h.target_time, 4), round(h.terminal_speed, 4)  # 2 rho A (V - U)^2 = 20 N there
+    (1.5833, 21.8377)
+
+    Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory);
+    Newton's second law for the carriage.
+    """
+    pb = problem(ports, units=units, **settings)
+    opts = B.history_options(pb.settings, door="api")
+    unit = settings.get("velocity_unit", "m/s")
+    f = U.factor(unit, "velocity")
+    shown = lambda u: f"{u / f:.6g} {unit}"            # noqa: E731
+    h = _core_speed_history(pb.model, direction=direction, shown=shown, **opts)
+    check_target(h, shown)
+    return SpeedHistoryResult(h)

@@ -288,7 +288,22 @@ class Settings:
     #: radius at which the jet meets a wheel [m] (None: not a wheel); with it, speeds may be
     #: typed as rotational speeds (rpm, rad/s, rev/s): peripheral speed U = omega r
     wheel_radius: float | None = None
-    cv_acceleration: tuple = (0.0, 0.0, 0.0)   #: CV acceleration [m/s^2]; only 0 is solved
+    cv_acceleration: tuple = (0.0, 0.0, 0.0)   #: CV acceleration [m/s^2] (0: steady)
+    # -- the speed history of a carriage (core.history) -----------------------------------------
+    carriage_mass: float | None = None   #: carriage with the body, without the fluid [kg]
+    start_speed: float = 0.0             #: speed at t = 0 [m/s]
+    duration: float | None = None        #: length of the run [s]
+    target_speed: float | None = None    #: speed whose first time and distance are asked [m/s]
+    resistance_constant: float = 0.0     #: r0 [N]
+    resistance_linear: float = 0.0       #: r1 [N s/m]
+    resistance_quadratic: float = 0.0    #: r2 [N s^2/m^2]
+    brake_force: float = 0.0             #: brake force [N]
+    brake_time: float | None = None      #: brake starts at [s]
+    brake_distance: float | None = None  #: brake starts after [m]
+    history_rows: float = 101.0          #: rows of the table [-]
+    integration_tolerance: float = 1e-8  #: relative tolerance [-]
+    step_budget: float = 20_000.0        #: most steps [-]
+    time_budget: float = 10.0            #: most computing time [s]
 
 
 def _typed(value, unit) -> str:
@@ -1101,3 +1116,44 @@ def _nozzle_area(t: _Table):
         raise t.bad("a contraction coefficient needs the nozzle's area or diameter; give one",
                     i, "contraction_coef")
     return area if np.isnan(cc).all() else np.where(np.isnan(cc), area, cc * area)
+
+
+# --------------------------------------------------------------------------------------------
+# the speed history of a carriage: its settings handed to core.history
+# --------------------------------------------------------------------------------------------
+#: Settings a speed history cannot run without.
+HISTORY_NEEDS = ("carriage_mass", "duration")
+
+
+def history_options(settings: Settings, door: str = "sheet") -> dict:
+    """The keyword arguments of :func:`portflux.core.history.speed_history` from the settings
+    (SI), the required ones checked; messages in the words of ``door`` ("sheet" or "api").
+
+    >>> history_options(settings_of([("carriage_mass", 80.0), ("duration", 5.0)]))["mass"]
+    80.0
+
+    Reference: common practice, no source (input rules of this package).
+    """
+    s = settings
+
+    def missing(key, what):
+        if door == "api":
+            unit = S.SETTINGS[key].api_unit
+            return InputError(f"{what}; give {key}=" + (f" (with {unit}=)" if unit else ""),
+                              argument=key)
+        return InputError(f"{what}; add the settings row {key} | value | unit",
+                          argument="settings", field=key)
+
+    for key in HISTORY_NEEDS:
+        if getattr(s, key) is None:
+            what = S.SETTINGS[key].help.split(": ", 1)[1].split(", ")[0]
+            raise missing(key, f"a speed history needs {key} ({what})")
+    if s.brake_force > 0 and s.brake_time is None and s.brake_distance is None:
+        raise missing("brake_time", "a brake force needs the time (brake_time) or the distance "
+                                    "(brake_distance) at which the brake starts")
+    return dict(mass=s.carriage_mass, duration=s.duration, start_speed=s.start_speed,
+                resistance=(s.resistance_constant, s.resistance_linear, s.resistance_quadratic),
+                brake_force=s.brake_force, brake_time=s.brake_time,
+                brake_distance=s.brake_distance, target_speed=s.target_speed,
+                points=s.history_rows, rtol=s.integration_tolerance, max_steps=s.step_budget,
+                max_seconds=s.time_budget)

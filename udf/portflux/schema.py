@@ -288,12 +288,6 @@ POSITION_COLUMNS = VECTORS["position"]
 #: temperatures in degC); in a settings range, the row ``units | SI`` says it for the range.
 SI_WORD = "si"
 
-#: An accelerating control volume is outside the steady inertial form (the check of ax, ay, az).
-STEADY = Bound(0.0, 0.0, text="an accelerating control volume is outside the steady inertial "
-                              "form portflux solves; give a constant CV velocity "
-                              "(acceleration 0)")
-
-
 def _vector(keys, kind, helps, defaults, group, api, api_unit, unit_default, check=None):
     """The three settings of one vector group (gx, gy, gz -> gravity)."""
     return tuple(Setting(k, kind, h, d, check, vector=(group, i), field=group, api=api,
@@ -332,10 +326,11 @@ SETTINGS = {s.key: s for s in (
             field="wheel_radius", api="wheel_radius", api_unit="radius_unit",
             api_unit_default="m"),
     *_vector(("ax", "ay", "az"), "acceleration",
-             ("CV acceleration x component: must be 0 (an accelerating CV is outside the "
-              "steady inertial form)", "CV acceleration y component: must be 0",
-              "CV acceleration z component: must be 0"), (0.0, 0.0, 0.0), "cv_acceleration",
-             "cv_acceleration", "acceleration_unit", "m/s^2", STEADY),
+             ("CV acceleration x component (a translation, no rotation), default 0: the fluid "
+              "inside carries -fluid_mass x a beside its weight",
+              "CV acceleration y component, default 0", "CV acceleration z component, default 0"),
+             (0.0, 0.0, 0.0), "cv_acceleration", "cv_acceleration", "acceleration_unit",
+             "m/s^2"),
     *_vector(("ref_x", "ref_y", "ref_z"), "length",
              ("x of the reference point (the support) about which moments are taken, in the "
               "axes of the port positions rx, ry, rz; default 0",
@@ -358,7 +353,65 @@ SETTINGS = {s.key: s for s in (
             field="load_factor", api="load_factor"),
     Setting("units", None, "SI: every blank unit cell of this settings range means the "
                            "setting's default unit (SI; angles in degrees); without it a "
-                           "dimensional value needs its unit typed", choices=("si",)),
+                           "dimensional value needs its unit typed", choices=("si",)),    # -- the speed history of a carriage (PFX_SPEEDHISTORY, PFX_HISTORYSUMMARY, api) --------
+    Setting("carriage_mass", "mass", "speed history: mass of the carriage with the body on it, "
+                                     "without the fluid inside the CV (that is fluid_mass), "
+                                     "> 0", None,
+            Bound(0.0, low_open=True, note="the mass the jet accelerates"),
+            field="carriage_mass", api="carriage_mass", api_unit="mass_unit",
+            api_unit_default="kg"),
+    Setting("start_speed", "velocity", "speed history: carriage speed at t = 0 along the "
+                                       "direction of motion, >= 0; default 0 (from rest)", 0.0,
+            Bound(0.0, hint="the history follows motion along the direction; reverse the "
+                            "direction for the other way"),
+            field="start_speed", api="start_speed", api_unit="velocity_unit",
+            api_unit_default="m/s"),
+    Setting("duration", "time", "speed history: length of the run, > 0", None, POSITIVE,
+            field="duration", api="duration", api_unit="time_unit", api_unit_default="s"),
+    Setting("target_speed", "velocity", "speed history: speed whose first time and distance "
+                                        "are reported (optional)", None, NON_NEGATIVE,
+            field="target_speed", api="target_speed", api_unit="velocity_unit",
+            api_unit_default="m/s"),
+    Setting("resistance_constant", "force", "speed history: constant resistance r0 (rolling "
+                                            "friction), >= 0; default 0", 0.0, NON_NEGATIVE,
+            field="resistance_constant", api="resistance_constant",
+            api_unit="resistance_constant_unit", api_unit_default="N"),
+    Setting("resistance_linear", "linear_resistance", "speed history: resistance r1 U "
+                                                      "proportional to the speed, >= 0; "
+                                                      "default 0", 0.0, NON_NEGATIVE,
+            field="resistance_linear", api="resistance_linear",
+            api_unit="resistance_linear_unit", api_unit_default="N*s/m"),
+    Setting("resistance_quadratic", "quadratic_resistance", "speed history: resistance r2 U^2 "
+                                                            "(air drag 1/2 rho Cd A), >= 0; "
+                                                            "default 0", 0.0, NON_NEGATIVE,
+            field="resistance_quadratic", api="resistance_quadratic",
+            api_unit="resistance_quadratic_unit", api_unit_default="N*s^2/m^2"),
+    Setting("brake_force", "force", "speed history: brake force opposing the motion from "
+                                    "brake_time or brake_distance on, >= 0; default 0", 0.0,
+            NON_NEGATIVE, field="brake_force", api="brake_force", api_unit="brake_force_unit",
+            api_unit_default="N"),
+    Setting("brake_time", "time", "speed history: time at which the brake starts (or "
+                                  "brake_distance)", None, NON_NEGATIVE, field="brake_time",
+            api="brake_time", api_unit="time_unit", api_unit_default="s"),
+    Setting("brake_distance", "length", "speed history: distance after which the brake starts "
+                                        "(or brake_time)", None, NON_NEGATIVE,
+            field="brake_distance", api="brake_distance", api_unit="length_unit",
+            api_unit_default="m"),
+    Setting("history_rows", "ratio", "speed history: rows of the table at uniform times, 2 to "
+                                     "10000; default 101", 101.0,
+            Bound(2.0, 10_000.0, hint="a whole number of rows"), field="history_rows",
+            api="history_rows"),
+    Setting("integration_tolerance", "ratio", "speed history: relative tolerance of the "
+                                              "integration; default 1e-8", 1e-8,
+            Bound(1e-13, 1e-2, hint="1e-8 is the default"), field="integration_tolerance",
+            api="integration_tolerance"),
+    Setting("step_budget", "ratio", "speed history: most integration steps (accepted and "
+                                    "rejected); default 20000", 20_000.0,
+            Bound(1.0, 1e7, hint="a whole number of steps"), field="step_budget",
+            api="step_budget"),
+    Setting("time_budget", "time", "speed history: most computing time of one integration; "
+                                   "default 10 s", 10.0, Bound(0.0, 600.0, low_open=True),
+            field="time_budget", api="time_budget", api_unit="time_unit", api_unit_default="s"),
 )}
 
 #: What each vector group of settings is (its components' help texts are per component).
@@ -366,8 +419,9 @@ VECTOR_HELP = {
     "gravity": "gravity vector g, default (0, 0, -9.80665) m/s^2",
     "slip": "further no-force directions as 3-D vectors (any length; blank components 0), "
             "e.g. the tangent of a plate tilted out of the x-y plane",
-    "cv_acceleration": "CV acceleration: must be 0 (an accelerating CV is outside the steady "
-                       "inertial form)",
+    "cv_acceleration": "CV acceleration a (a translation, no rotation), default 0 (steady): the "
+                       "fluid inside carries the apparent force -fluid_mass x a beside its "
+                       "weight, and its moment from the fluid's centroid",
     "reference": "reference point O (the support) about which moments are taken, in the axes "
                  "of the port positions rx, ry, rz; default the origin",
     "fluid_centroid": "centroid of the fluid inside the CV, where its weight acts; needed for "

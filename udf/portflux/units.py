@@ -74,6 +74,12 @@ QUANTITIES = {q.name: q for q in (
     Quantity("temperature", "[temperature]", "K", "degC", "degF", "degC, K, degF"),
     Quantity("angular_speed", "1 / [time]", "rad/s", "rpm", "rpm", "rpm, rad/s, rev/s, rps"),
     Quantity("ratio", "", "", "", "", "blank (dimensionless)"),
+    # the speed history of a carriage: durations, and resistances proportional to U and U^2
+    Quantity("time", "[time]", "s", "s", "s", "s, min, h"),
+    Quantity("linear_resistance", "[mass] / [time]", "N*s/m", "N*s/m", "lbf*s/ft",
+             "N*s/m, kN*s/m, lbf*s/ft"),
+    Quantity("quadratic_resistance", "[mass] / [length]", "N*s^2/m^2", "N*s^2/m^2",
+             "lbf*s^2/ft^2", "N*s^2/m^2, lbf*s^2/ft^2"),
 )}
 
 _ANGLE_UNITS = {"radian", "degree", "arcminute", "arcsecond", "turn", "gradian"}
@@ -393,6 +399,8 @@ _KIND_DIMS = {
     "pressure": _dim(-1, 1, -2), "mass_flow": _dim(0, 1, -1), "volume_flow": _dim(3, 0, -1),
     "force": _dim(1, 1, -2), "power": _dim(2, 1, -3), "mass": _dim(mass=1), "length": _dim(1),
     "acceleration": _dim(1, 0, -2), "ratio": _dim(), "moment": _dim(2, 1, -2),
+    "time": _dim(time=1), "linear_resistance": _dim(0, 1, -1),
+    "quadratic_resistance": _dim(-1, 1),
 }
 
 

@@ -30,6 +30,7 @@ import xlwings as xw
 
 from . import _checksum as H
 from . import _functions as F
+from . import _history as HI
 from . import _speeds as S
 from ._bounds import entry as _entry
 from ._grid import CellError
@@ -191,7 +192,7 @@ def PFX_SETTINGS():
     >>> [r[0] for r in PFX_SETTINGS()[1:]]
     ['fluid_mass', 'gx', 'gy', 'gz', 'tolerance', 'intercept', 'slip_angle', 'slip_x', \
 'slip_y', 'slip_z', 'wheel_radius', 'ax', 'ay', 'az', 'ref_x', 'ref_y', 'ref_z', 'cg_x', \
-'cg_y', 'cg_z', 'dynamic_factor', 'load_factor', 'units']
+'cg_y', 'cg_z', 'dynamic_factor', 'load_factor', 'units', 'carriage_mass', 'start_speed', 'duration', 'target_speed', 'resistance_constant', 'resistance_linear', 'resistance_quadratic', 'brake_force', 'brake_time', 'brake_distance', 'history_rows', 'integration_tolerance', 'step_budget', 'time_budget']
 
     No equation: a listing of the settings names.
 
@@ -836,6 +837,92 @@ def PFX_CHECKSUM(ports, cv_velocity, units=None, settings=None, inputs=None):
     Reference: NIST FIPS 180-4, Secure Hash Standard (2015), SHA-256, through Python's hashlib.
     """
     return _guarded("PFX_CHECKSUM", H.checksum, ports, cv_velocity, units, settings, inputs)
+
+
+# --------------------------------------------------------------------------------------------
+# the speed history of a jet-driven carriage (cells/_history.py)
+# --------------------------------------------------------------------------------------------
+_CARRIAGE = (("port", "role", "area", "density", "speed", "angle", "closure"),
+             (None, None, "cm^2", "kg/m^3", "m/s", None, None),
+             ("jet", "in", 10.0, 1000.0, 25.0, 0.0, None),
+             ("exit", "out", 10.0, 1000.0, None, 180.0, "free"))
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "settings", "direction", "units")
+def PFX_SPEEDHISTORY(ports, settings, direction=None, units=None):
+    """Speed history of a carriage driven by the port table's jet (rows+1 x 13): time, speed,
+    distance, acceleration, force on the body along the motion, x y z and |F|, moment on the
+    body x y z and |M|, at uniform times.
+
+    The settings give the carriage: carriage_mass and duration (needed), start_speed,
+    resistance_constant / _linear / _quadratic, brake_force with brake_time or brake_distance,
+    history_rows, integration_tolerance, step_budget, time_budget. The fluid inside the CV
+    (fluid_mass) is accelerated with the carriage. Moments need rx, ry, rz.
+
+    Parameters
+    ----------
+    ports : range
+        Port table of the body on the carriage.
+    settings : range
+        Settings rows with the carriage [mass, time, velocity, force].
+    direction : number or range, optional
+        Angle [deg] or 3 components; default +x.
+    units : str, optional
+        Output units [time, velocity, length, acceleration, force, moment].
+
+    A 10 cm^2, 25 m/s water jet on a 180-degree vane on a 50 kg carriage from rest:
+    U(t) = V - V / (1 + k V t), k = rho A (1 - cos 180) / M = 0.04 1/m, so U(4 s) = 20 m/s:
+
+    >>> s = (("carriage_mass", 50.0, "kg"), ("duration", 4.0, "s"), ("history_rows", 3, None))
+    >>> [round(r[1], 6) for r in PFX_SPEEDHISTORY(_CARRIAGE, s)[1:]]
+    [0.0, 16.666667, 20.0]
+
+    Equation: (M + m_f) dU/dt = F_body(U) . d + M g . d - (r0 + r1 U + r2 U^2) - B, dx/dt = U.
+
+    Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory);
+    Dormand-Prince 5(4), Hairer, Norsett & Wanner, *Solving Ordinary Differential Equations
+    I*, sec. II.5 (from memory).
+    """
+    return _guarded("PFX_SPEEDHISTORY", HI.historytable, ports, settings, direction, units)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "settings", "direction", "units")
+def PFX_HISTORYSUMMARY(ports, settings, direction=None, units=None):
+    """Summary of a carriage's speed history (13 x 3, label | value | unit): end of the run,
+    time and distance to the target speed, the speed it tends to, the brake's start, the
+    largest force and moment on the body and when, the final speed and distance, the steps.
+
+    A target speed beyond the speed the motion tends to is refused with that speed.
+
+    Parameters
+    ----------
+    ports : range
+        Port table of the body on the carriage.
+    settings : range
+        Settings rows with the carriage (see PFX_SPEEDHISTORY) and target_speed [velocity].
+    direction : number or range, optional
+        Angle [deg] or 3 components; default +x.
+    units : str, optional
+        Output units [time, velocity, length, force, moment].
+
+    The carriage of PFX_SPEEDHISTORY reaches 20 m/s at t = 1 / (k V) (V / (V - U) - 1) = 4 s:
+
+    >>> s = (("carriage_mass", 50.0, "kg"), ("duration", 10.0, "s"),
+    ...      ("target_speed", 20.0, "m/s"))
+    >>> out = PFX_HISTORYSUMMARY(_CARRIAGE, s)
+    >>> out[1][0], round(out[1][1], 6), out[1][2]
+    ('time to the target speed', 4.0, 's')
+
+    Equation: as PFX_SPEEDHISTORY; the target's time and distance are located by re-stepping
+    the integration to the crossing.
+
+    Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
+    """
+    return _guarded("PFX_HISTORYSUMMARY", HI.historysummary, ports, settings, direction, units)
 
 
 PUBLIC = tuple(sorted(n for n in dir() if n.startswith("PFX_")))

@@ -10,6 +10,7 @@ from .balance import absolute_velocity, balance, balance_closed, closure_velocit
 from .closures import BERNOULLI, FREE, GIVEN, LOSS, SOLVE, Closures
 from .errors import InputError, OutsideScopeError, PortfluxError
 from .geometry import STANDARD_GRAVITY, direction, polar_velocity, resultant
+from .history import SpeedHistory, speed_history
 from .model import (DEFAULT_IMBALANCE_TOL, SINGLE, TRAIN, Balance, ClosedBalance, Model,
                     in_contact)
 from .ports import IN, OUT, UNKNOWN, Ports, role_code
@@ -28,4 +29,6 @@ __all__ = [
     "BestSpeed", "ForceSpeed", "SpeedTable", "best_speed", "speed_at_force", "speed_table",
     # support loads
     "ENVELOPE_ROWS", "Envelope", "envelope", "resultant",
+    # the speed history of a carriage (an accelerating CV)
+    "SpeedHistory", "speed_history",
 ]

@@ -81,7 +81,8 @@ def absolute_velocity(w, v_cv):
 
 def balance(ports: Ports, v_cv, *, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_GRAVITY),
             tol=DEFAULT_IMBALANCE_TOL, intercept=SINGLE, cv_acceleration=None) -> Balance:
-    """Mass and momentum balance of a CV moving at constant velocity.
+    """Mass and momentum balance of a CV moving at constant velocity (or translating with an
+    acceleration, quasi-steady).
 
     .. math::
 
@@ -108,8 +109,10 @@ def balance(ports: Ports, v_cv, *, fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_
         "train": a vane train (bucket wheel) intercepts the nozzle's full absolute flow
         rho A (V.n); all flows are scaled by that ratio, relative velocities are unchanged.
     cv_acceleration : array_like (3,), optional
-        CV acceleration [m/s^2]: must be zero or absent (accelerating CVs are outside the
-        steady inertial form).
+        CV acceleration a_cv [m/s^2] (a translation, no rotation); default 0, the steady
+        form. The fluid inside carries -fluid_mass a_cv beside its weight (m g becomes
+        m (g - a_cv) above).
+
     Returns
     -------
     Balance

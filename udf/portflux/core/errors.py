@@ -49,4 +49,5 @@ class InputError(PortfluxError):
 
 
 class OutsideScopeError(PortfluxError):
-    """A request the steady inertial control-volume form cannot answer (e.g. an accelerating CV)."""
+    """A request the control-volume form cannot answer (e.g. a Bernoulli height in an
+    accelerating CV)."""

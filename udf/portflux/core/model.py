@@ -17,18 +17,24 @@ computed). Balances of one CV velocity, stacks of velocities, speed tables and t
 finders are all drivers of this one evaluation (:mod:`portflux.core.balance`,
 :mod:`portflux.core.sweep`).
 
-Physics (Reynolds transport theorem for a CV translating at constant velocity, steady in the CV
+Physics (Reynolds transport theorem for a CV translating at velocity V_cv, steady in the CV
 frame; F. M. White, *Fluid Mechanics*, sec. 3.4, from memory)::
 
     mdot_i = rho_i (w_i . n_i) A_i                          + out of the CV
-    R      = sum_i beta_i mdot_i w_i + sum_i p_i A_i n_i - m g   support force on the fluid
+    R      = sum_i beta_i mdot_i w_i + sum_i p_i A_i n_i - m (g - a_cv)   support force
     F_body = -R,   P = F_body . V_cv
+
+A CV that translates with an acceleration a_cv (no rotation of its frame) adds the apparent
+force -m a_cv of the fluid inside to its weight (White, sec. 3.4, the non-inertial CV; Fox &
+McDonald, *Introduction to Fluid Mechanics*, momentum equation for a CV with rectilinear
+acceleration; both from memory); the ports are quasi-steady (the flows of the current V_cv)
+and a_cv = 0 is the steady form exactly.
 
 and, with port positions r_i and the fluid's centroid r_G measured from a reference point O on
 the body (the support), the steady moment of momentum in the frame moving with the CV (White,
 *Fluid Mechanics*, sec. 3.5, from memory)::
 
-    M_R + sum_i r_i x (-p_i A_i n_i) + r_G x (m g) = sum_i r_i x (beta_i mdot_i w_i)
+    M_R + sum_i r_i x (-p_i A_i n_i) + r_G x m (g - a_cv) = sum_i r_i x (beta_i mdot_i w_i)
     M_body = -M_R                                           moment about O
 
 Adding a per-port quantity (e.g. a position r_i for moments) means one more coefficient row in
@@ -85,11 +91,8 @@ TABLE = frozenset((FORCES, POWER, JET))
 
 
 def _options(intercept, tol, fluid_mass, gravity, cv_acceleration):
-    """The options of a :class:`Model` checked: (fluid mass [kg], gravity (3,) [m/s^2])."""
-    if cv_acceleration is not None and np.any(np.asarray(cv_acceleration, float) != 0.0):
-        raise OutsideScopeError(
-            "cv_acceleration: an accelerating control volume is outside the steady "
-            "inertial form; give a constant CV velocity (acceleration 0)")
+    """The options of a :class:`Model` checked: (fluid mass [kg], gravity (3,) [m/s^2], CV
+    acceleration (3,) [m/s^2])."""
     if intercept not in (SINGLE, TRAIN):
         raise InputError(f"must be 'single' or 'train' (got {intercept!r})",
                          argument="intercept")
@@ -101,7 +104,10 @@ def _options(intercept, tol, fluid_mass, gravity, cv_acceleration):
     g = np.asarray(gravity, dtype=float)
     if g.shape != (3,) or not np.all(np.isfinite(g)):
         raise InputError("must be 3 finite components", argument="gravity")
-    return fluid_mass, g
+    a = np.zeros(3) if cv_acceleration is None else np.asarray(cv_acceleration, dtype=float)
+    if a.shape != (3,) or not np.all(np.isfinite(a)):
+        raise InputError("must be 3 finite components", argument="cv_acceleration")
+    return fluid_mass, g, a + 0.0
 
 
 def cv_velocities(v_cv) -> np.ndarray:
@@ -162,7 +168,8 @@ class Balance:
     imbalance : (...) sum of mass flows [kg/s]; imbalance_rel: imbalance / inflow [-]
     balanced : (...) |imbalance_rel| <= tol
     momentum_flux : (..., n, 3) beta mdot w per port [N]
-    pressure_force : (n, 3) -p A n on the fluid [N]; weight: (..., 3) of the fluid [N]
+    pressure_force : (n, 3) -p A n on the fluid [N]; weight: (..., 3) body force on the fluid,
+        its weight and the apparent force of the CV's acceleration, m (g - a_cv) [N]
     support_force : (..., 3) force of the solid on the fluid, R [N]
     force_on_body : (..., 3) force of the fluid on the body, -R [N]
     support_moment : (..., 3) moment of the solid on the fluid about the reference point,
@@ -352,7 +359,10 @@ class Model:
     tol : float
         Relative mass-imbalance tolerance [-]; default 1e-3.
     cv_acceleration : array_like (3,), optional
-        Must be zero or absent [m/s^2]: accelerating CVs are outside the steady inertial form.
+        Acceleration of the CV [m/s^2], a translation without rotation; default 0 (steady).
+        The fluid inside then carries the apparent force -m a_cv beside its weight (the body
+        force m (g - a_cv), :meth:`body_force`) and its moment about O from the fluid's
+        centroid; the ports are quasi-steady (the flows of the current CV velocity).
     reference : array_like (3,)
         Reference point O about which moments are taken (the support) [m], in the axes of the
         port positions; default the origin.
@@ -390,16 +400,18 @@ class Model:
                  fluid_mass=0.0, gravity=(0.0, 0.0, -STANDARD_GRAVITY),
                  tol=DEFAULT_IMBALANCE_TOL, cv_acceleration=None, reference=(0.0, 0.0, 0.0),
                  fluid_centroid=None, remedies=None, notes=()):
-        fluid_mass, g = _options(intercept, tol, fluid_mass, gravity, cv_acceleration)
+        fluid_mass, g, acc = _options(intercept, tol, fluid_mass, gravity, cv_acceleration)
+        self.fluid_mass, self.gravity, self.cv_acceleration = fluid_mass, g, acc
         n = ports.n
         self.ports, self.closures, self.n = ports, closures, n
         self.intercept, self.tol, self.train = intercept, float(tol), intercept == TRAIN
         self._compile_roles(ports, closures)
-        self._compile_rows(ports, fluid_mass, g)
+        self._compile_rows(ports)
         # -- closures: q_j = sqrt(a_j |w_src|^2 + c_j) along E_j --------------------------------
         self.flow = np.zeros(n, bool)
         if closures is not None:
             self._compile_closures(ports, closures, float(np.linalg.norm(g)))
+            self._bernoulli_steady(acc)
         self.flow_rows = np.flatnonzero(self.flow)
         self.aN = self.a[:, None] * self.N
         # rows whose flow may be negative: declared inlets (outside a train, never positive)
@@ -444,7 +456,7 @@ class Model:
         self.closed = closed
         self.cl = np.flatnonzero(closed)
 
-    def _compile_rows(self, ports, fluid_mass, g):
+    def _compile_rows(self, ports):
         """The coefficient rows: w = W0 - a V + q E, rho A, beta, pressure and weight."""
         closed = self.closed
         self.a = np.where(~ports.relative & ~closed, 1.0, 0.0)
@@ -462,7 +474,70 @@ class Model:
         area0 = np.where(np.isnan(ports.area), 0.0, ports.area)
         self.pressure_force = -(ports.p_gauge * area0)[:, None] * self.N      # on the fluid
         self.p_total = self.pressure_force.sum(axis=0)
-        self.weight = fluid_mass * g
+        self.weight = self.body_force(self.cv_acceleration)
+
+    def body_force(self, cv_acceleration):
+        """The body force on the fluid inside the CV in the frame moving with it [N]: its
+        weight and the apparent force of the CV's acceleration, m (g - a_cv).
+
+        .. math:: \\vec W = m (\\vec g - \\vec a_{cv})
+
+        Parameters
+        ----------
+        cv_acceleration : array_like (3,) or (k, 3)
+            Acceleration of the CV, a translation without rotation [m/s^2].
+
+        Examples
+        --------
+        >>> p = Ports.build(area=[1e-3], density=1000.0, velocity=[[10.0, 0, 0]], role=["in"])
+        >>> Model(p, fluid_mass=2.0).body_force([3.0, 0, 0]).round(5).tolist()
+        [-6.0, 0.0, -19.6133]
+
+        Reference: momentum balance of a CV translating with acceleration a (no rotation):
+        sum F - m a = d/dt(momentum in the CV frame) + net relative momentum outflow; White,
+        *Fluid Mechanics*, sec. 3.4 (non-inertial CV), from memory.
+        """
+        return self.fluid_mass * (self.gravity - np.asarray(cv_acceleration, dtype=float))
+
+    def body_force_moment(self, force):
+        """Moment of a body force on the fluid about the reference point [N m]: r_G x W with
+        the fluid's centroid r_G measured from O (zero where no centroid is given: then no
+        force acts or moments are refused, :attr:`moment_need`).
+
+        Parameters
+        ----------
+        force : array_like (3,) or (k, 3)
+            Body force on the fluid, :meth:`body_force` [N].
+
+        Examples
+        --------
+        >>> p = Ports.build(area=[1e-3], density=1000.0, velocity=[[10.0, 0, 0]], role=["in"],
+        ...                 position=[[0.0, 0, 0]])
+        >>> m = Model(p, fluid_mass=1.0, fluid_centroid=[0.0, 0.5, 0.0], gravity=[0, 0, -10.0])
+        >>> m.body_force_moment(m.weight).tolist()                  # (0, 0.5, 0) x (0, 0, -10)
+        [-5.0, 0.0, 0.0]
+
+        Reference: moment of a force about a point, r x F (common practice, no source).
+        """
+        f = np.asarray(force, dtype=float)
+        if self._centroid is None:
+            if np.any(f != 0.0):
+                raise InputError("moments need the centroid of the fluid inside the CV, where "
+                                 "its weight and apparent force act: " + self._remedies.get(
+                                     "fluid_centroid", "give fluid_centroid="),
+                                 argument="ports")
+            return np.zeros(f.shape)
+        return np.cross(self._centroid - self.reference, f)
+
+    def _bernoulli_steady(self, acc):
+        """A Bernoulli closure with a height difference reads the heights along gravity; in an
+        accelerating CV the apparent gravity g - a would set them: refused, not guessed."""
+        if acc.any() and self.bernoulli and np.any(self.ports.height[self.cl]
+                                                   != self.ports.height[self.src]):
+            raise OutsideScopeError(
+                "a Bernoulli closure with a height difference in an accelerating control "
+                "volume: the heights are taken along gravity, while the fluid feels g - a; "
+                "give the outlet speed (or closure free/loss), or acceleration 0")
 
     # -- compiled on first use (the groups that need them) ------------------------------------
     @cached_property
@@ -511,7 +586,7 @@ class Model:
                         remedies.get("fluid_centroid", "give fluid_centroid= (or a fluid "
                                                        "mass of 0)"))
         self.moment_need = "moments need " + "; and ".join(need) if need else ""
-        self._centroid = g
+        self._centroid, self._remedies = g, remedies
 
     @cached_property
     def _levers(self):
@@ -522,7 +597,7 @@ class Model:
         RxE = np.cross(R, self.E) if self.cl.size else np.zeros((self.n, 3))
         m_loads = np.cross(R, self.pressure_force).sum(axis=0)
         if self._centroid is not None:
-            m_loads = m_loads + np.cross(self._centroid - self.reference, self.weight)
+            m_loads = m_loads + self.body_force_moment(self.weight)
         return R, np.cross(R, self.W0), RxE, m_loads
 
     def require_moments(self):

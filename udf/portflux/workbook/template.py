@@ -49,7 +49,7 @@ from .. import __version__
 from .. import schema as S, units as U
 from ..cautions import CAUTION_LINES
 from ..units import UnitSystem
-from . import cases, cases_closures
+from . import carriage, cases, cases_closures, cases_history
 from .drawing import (BIG_FONT, BOLD, COUNT, INPUT_FILL, ITALIC, NUMBER, OUTPUT_FILL,
                       PANEL_FILL, RATIO, RED_BOLD, SMALL, TITLE_FONT, array, axes_visible,
                       cell, count_when, cv_row, end_of_range, formula, port_table,
@@ -83,6 +83,8 @@ LARGEST = {
     "PFX_SUPPORTMOMENT": (1, 3),
     "PFX_RESULTANT": (1, 3),
     "PFX_ENVELOPE": (13, 4),
+    "PFX_SPEEDHISTORY": (carriage.HISTORY_ROWS + 1, 13),
+    "PFX_HISTORYSUMMARY": (13, 3),
 }
 
 # Where shown blocks sit: (column, row, rows, columns). cli.py and the tests read these.
@@ -340,6 +342,7 @@ class Layout:
     used_columns: tuple = ()      # raw cells: the k-th port column in use (0: none)
     port_mirror: tuple = ()       # raw rows: the port table's rows, blanks as empty texts
     triangle: dict = field(default_factory=dict)         # the velocity triangle's cells
+    carriage: dict = field(default_factory=dict)         # the 'Carriage' sheet's cells
 
 
 def _input_check(ws, lay, nports_cols):
@@ -934,7 +937,8 @@ def _on(sheet, text):
 
 def _checks(wb, lay):
     ws = wb.create_sheet(CHECKS)
-    found = cases.write_cases(ws, cases.PARTS + cases_closures.PARTS + cases.LOAD_PARTS)
+    found = cases.write_cases(ws, cases.PARTS + cases_closures.PARTS + cases.LOAD_PARTS
+                              + cases_history.PARTS)
     last = cases.INDEX_TOP + len(found)
     print_setup(ws, rng(1, 1, len(cases.INDEX_HEADER), last), landscape=True,
                 title_rows=f"{cases.INDEX_TOP}:{cases.INDEX_TOP}", fit_height=1)
@@ -994,6 +998,8 @@ def _assemble(lay: Layout, units=None, speed_unit=None) -> Workbook:
     lay.raw = RawSheet(raw_ws)
     _control_volume(wb, lay)
     _speed_sweep(wb, lay)
+    lay.carriage = carriage.draw_carriage(wb, lay, CV, lay.ports.ref, (1, SETTINGS_TOP),
+                                          SETTINGS_ROWS)
     _results_panel(wb[CV], lay)
     _used_columns(lay.raw, lay)
     found = _checks(wb, lay)
