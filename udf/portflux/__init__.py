@@ -15,7 +15,9 @@ __version__ = "0.1.0"
 #: The Python API re-exported from :mod:`portflux.api` (and :mod:`portflux.core` result types).
 _API = ("solve", "speed_table", "best_speed", "speed_at_force", "envelope", "problem", "ureg",
         "ControlVolumeResult", "SpeedTableResult", "EnvelopeResult", "BestSpeedResult",
-        "ForceSpeedResult", "Resultant", "format_report", "jet_speed")
+        "ForceSpeedResult", "Resultant", "format_report", "jet_speed",
+        "load_uncertainty", "velocity_traverse", "profile_beta", "UncertaintyResult",
+        "TraverseResult")
 _CORE = ("Balance", "BestSpeed", "Envelope", "ForceSpeed", "InputError", "Model", "OutsideScopeError",
          "Ports", "SpeedTable")
 

@@ -197,6 +197,8 @@ class PortTable:
     headers: dict = field(default_factory=dict)  #: column key -> header text as typed
     #: plausibility warnings: (port index, column key, text), the value shown in SI
     notes: tuple = ()
+    #: the numeric columns as read, SI (NaN blank): the inputs an uncertainty perturbs
+    columns: dict = field(default_factory=dict)
 
     @property
     def n(self) -> int:
@@ -958,7 +960,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
                      source=tuple(t.words("source")), share=share,
                      units={k: t.units.get(k) for k in t.cells},
                      flow_by_closure=np.zeros(t.n, dtype=bool) if flow_set is None else flow_set,
-                     headers=t.headers, notes=_notes(t, density, velocity))
+                     headers=t.headers, notes=_notes(t, density, velocity), columns=dict(t.si))
 
 
 def _words_of(t: _Table) -> tuple:
