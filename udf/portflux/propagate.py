@@ -28,18 +28,11 @@ from .core import samples as K
 from .core import uncertainty as G
 from .core.errors import InputError
 
-#: Port columns whose uncertainty is propagated, and the settings.
-VELOCITY_COLUMNS = ("speed", "angle", "tilt", "vx", "vy", "vz", "supply_pressure",
-                    "velocity_coef")
-PORT_COLUMNS = VELOCITY_COLUMNS + ("area", "diameter", "contraction_coef", "density",
-                                   "mass_flow", "volume_flow", "beta", "p_gauge", "height",
-                                   "loss", "rx", "ry", "rz")
-SETTING_KEYS = ("fluid_mass", "gx", "gy", "gz", "ref_x", "ref_y", "ref_z", "cg_x", "cg_y",
-                "cg_z", "wheel_radius", "dynamic_factor", "load_factor")
-#: Blank cells that mean a value (the schema's blank rule) for an uncertain input.
-_BLANK_IS = {"angle": 0.0, "tilt": 0.0, "vx": 0.0, "vy": 0.0, "vz": 0.0, "p_gauge": 0.0,
-             "height": 0.0, "rx": 0.0, "ry": 0.0, "rz": 0.0, "beta": 1.0,
-             "velocity_coef": 1.0, "contraction_coef": 1.0}
+#: Port columns and settings whose uncertainty is propagated (declared in the schema).
+VELOCITY_COLUMNS = S.UNCERTAIN_COLUMNS[:8]
+PORT_COLUMNS = S.UNCERTAIN_COLUMNS
+SETTING_KEYS = S.UNCERTAIN_SETTINGS
+_BLANK_IS = S.UNCERTAIN_BLANK
 #: The outputs: name, quantity kind (units.QUANTITIES), group (needs moments / a wheel).
 FORCE_NAMES = ("force on body x", "force on body y", "force on body z", "force on body |F|",
                "support force x", "support force y", "support force z")
@@ -241,7 +234,7 @@ def model_of(pb: B.Problem, inputs, motion: Motion):
 
 
 def _port_fields(pb, by_port, X, n_s) -> dict:
-    """The port fields (n, S) / (n, 3, S) of the ports that carry uncertain inputs."""
+    """The port fields (n, S) / (3, n, S) of the ports that carry uncertain inputs."""
     ports, cols, fields = pb.ports, pb.table.columns, {}
     if not by_port:
         return fields
@@ -263,7 +256,7 @@ def _port_fields(pb, by_port, X, n_s) -> dict:
         ks = set(keys)
         if ks & set(VELOCITY_COLUMNS) or ("density" in ks and "supply_pressure" in cols
                                           and not np.isnan(cols["supply_pressure"][i])):
-            field("velocity", ports.velocity)[i] = _row_velocity(pb, i, get).T
+            field("velocity", ports.velocity.T)[:, i] = _row_velocity(pb, i, get).T
         for key in ("density", "beta", "p_gauge", "height", "loss"):
             if key in ks:
                 base = np.nan_to_num(pb.table.loss) if key == "loss" else getattr(ports, key)
@@ -272,7 +265,7 @@ def _port_fields(pb, by_port, X, n_s) -> dict:
         _flow_field(pb, i, keys, X, field, get)
         for c, key in enumerate(("rx", "ry", "rz")):
             if key in ks:
-                field("position", ports.position)[i, c] = X[keys[key]]
+                field("position", ports.position.T)[c, i] = X[keys[key]]
     return fields
 
 

@@ -4,7 +4,8 @@ propagation of uncertainty (:mod:`portflux.core.uncertainty`).
 
 :meth:`Model.evaluate_columns` varies only the CV velocity: its coefficient rows are compiled
 once per port. Here every port field may differ per sample, so each row carries a sample axis
-last: (n, S) per port, (n, 3, S) per port vector, (3, S) per vector setting. The rules are the
+last: (n, S) per port, (3, n, S) per port vector (components first), (3, S) per vector
+setting. The rules are the
 model's, in the same order (White, *Fluid Mechanics*, sec. 3.4-3.5, from memory)::
 
     w_i = W0_i - a_i V + q_i E_i,  q_i = sqrt(qa_i |w_src|^2 + qc_i)      closed outlets
@@ -28,7 +29,7 @@ from .closures import BERNOULLI
 from .errors import OutsideScopeError
 from .model import Model
 
-#: Port fields a sample may vary ((n, S) scalars, (n, 3, S) vectors), as in
+#: Port fields a sample may vary ((n, S) scalars, (3, n, S) vectors), as in
 #: :class:`~portflux.core.ports.Ports`, plus ``loss`` (a closed outlet's loss fraction).
 PORT_FIELDS = ("area", "density", "mass_flow", "beta", "p_gauge", "height", "loss")
 PORT_VECTORS = ("velocity", "position")
@@ -46,58 +47,64 @@ def check_supported(model: Model):
                                 "not propagated yet: give the outlets' areas or shares")
 
 
-def _port(model, fields, key, S):
+def _port(model, fields, key):
+    """A port field: (n, S) or, for a vector, (3, n, S) (the model's value: a sample axis of 1)."""
     a = fields.get(key)
     if a is not None:
-        return np.asarray(a, dtype=float)
-    base = model.ports.velocity if key == "velocity" else (
-        model.ports.position if key == "position" else getattr(model.ports, key))
-    return np.asarray(base, dtype=float)[..., None]
+        return a
+    if key in PORT_VECTORS:
+        return getattr(model.ports, key).T[:, :, None]
+    return getattr(model.ports, key)[:, None]
+
+
+def _dot(a, b):
+    """a . b of (3, ...) arrays."""
+    return a[0] * b[0] + a[1] * b[1] + a[2] * b[2]
 
 
 def _unit(v):
-    s = np.sqrt(np.einsum("ids,ids->is", v, v))
+    s = np.sqrt(_dot(v, v))
     with np.errstate(divide="ignore", invalid="ignore"):
-        return v / s[:, None, :], s
+        return v / s, s
 
 
 def rows(model: Model, fields: dict, S: int) -> dict:
     """The model's coefficient rows at S samples of the port fields and settings ``fields``
-    (keys of :data:`PORT_FIELDS`, :data:`PORT_VECTORS`, :data:`SETTING_FIELDS`; a field not
-    given keeps the model's value): W0, N, E, rho A, given flows, beta, pressure force, qa,
-    qc, weight, lever data."""
+    (keys of :data:`PORT_FIELDS` (n, S), :data:`PORT_VECTORS` (3, n, S),
+    :data:`SETTING_FIELDS` (S,) or (3, S); a field not given keeps the model's value; with
+    ``gravity`` or ``fluid_mass`` give both): W0, N, E (3, n, S), rho A, given flows, beta,
+    p A (n, S), qa, qc, weight and the lever data."""
     check_supported(model)
     p = model.ports
-    vel = _port(model, fields, "velocity", S)
+    vel = _port(model, fields, "velocity")
     closed, cl = model.closed, model.cl
-    N = np.broadcast_to(model.N[..., None], (model.n, 3, S))
+    N = model.N.T[:, :, None]
     if p.role_normal is not None and p.role_normal.any() and "velocity" in fields:
         unit, _ = _unit(vel)
         rn = p.role_normal
-        N = np.array(N)
-        N[rn] = p.role[rn, None, None] * unit[rn]
-    area = _port(model, fields, "area", S)
-    density = _port(model, fields, "density", S)
+        N = np.repeat(N, S, axis=2)
+        N[:, rn] = p.role[None, rn, None] * unit[:, rn]
+    area = _port(model, fields, "area")
+    density = _port(model, fields, "density")
     with np.errstate(invalid="ignore"):
         rho_a = np.where(np.isnan(density * area), 0.0, density * area)
-    mflow = _port(model, fields, "mass_flow", S)
+    mflow = _port(model, fields, "mass_flow")
     if model.discharge.any():
         d = model.discharge
-        vn = np.einsum("ids,ids->is", vel[d] if vel.shape[2] > 1 else vel[d], N[d])
-        rho_a = np.broadcast_to(rho_a, (model.n, S)).copy()
-        rho_a[d] = np.abs(mflow[d]) / -vn
-    out = {"W0": np.where(closed[:, None, None], 0.0, vel), "N": N, "rho_a": rho_a,
+        vn = _dot(np.broadcast_to(vel, (3, model.n, S))[:, d],
+                  np.broadcast_to(N, (3, model.n, S))[:, d])
+        rho_a = np.array(np.broadcast_to(rho_a, (model.n, S)))
+        rho_a[d] = np.abs(np.broadcast_to(mflow, (model.n, S))[d]) / -vn
+    out = {"W0": np.where(closed[None, :, None], 0.0, vel), "N": N, "rho_a": rho_a,
            "m_given": np.where(model.given[:, None], mflow, 0.0),
-           "beta": _port(model, fields, "beta", S)}
-    area0 = np.where(np.isnan(area), 0.0, area)
-    out["pA"] = _port(model, fields, "p_gauge", S) * area0
+           "beta": _port(model, fields, "beta")}
+    out["pA"] = _port(model, fields, "p_gauge") * np.where(np.isnan(area), 0.0, area)
     if cl.size:
         c = model.closures
-        unit, s = _unit(vel[cl])
-        E = np.where((s > 0)[:, None, :], unit, N[cl])
-        out["E"] = E
+        unit, s = _unit(vel[:, cl])
+        out["E"] = np.where(s > 0, unit, N[:, cl])    # along the velocity, else the normal
         loss = fields.get("loss")
-        lo = c.loss[cl, None] if loss is None else np.asarray(loss, dtype=float)[cl]
+        lo = c.loss[cl, None] if loss is None else loss[cl]
         rules = np.array([c.rule[j] for j in cl])
         out["qa"] = np.where((rules == "loss")[:, None], (1.0 - np.nan_to_num(lo)) ** 2, 1.0)
         out["qc"] = _bernoulli(model, fields, rules, density, S)
@@ -106,9 +113,8 @@ def rows(model: Model, fields: dict, S: int) -> dict:
         out["weight"] = np.asarray(fields["fluid_mass"], dtype=float).reshape(1, -1) * g
     else:
         out["weight"] = model.weight[:, None]
-    if "position" in fields or "reference" in fields or "fluid_centroid" in fields or \
-            not model.moment_need:
-        out["position"] = _port(model, fields, "position", S)
+    if not model.moment_need:
+        out["position"] = _port(model, fields, "position")
         out["reference"] = np.asarray(fields.get("reference", model.reference),
                                       dtype=float).reshape(3, -1)
         cg = fields.get("fluid_centroid")        # the caller passes the settings' centroid
@@ -125,8 +131,8 @@ def _bernoulli(model, fields, rules, density, S):
     if not set(fields) & {"p_gauge", "height", "density", "gravity"}:
         return model.qc[:, None]
     qc = np.zeros((cl.size, S))
-    p = _port(model, fields, "p_gauge", S)
-    z = _port(model, fields, "height", S)
+    p = _port(model, fields, "p_gauge")
+    z = _port(model, fields, "height")
     g = np.asarray(fields["gravity"], dtype=float).reshape(3, -1)     # given with the others
     gmag = np.sqrt((g * g).sum(axis=0))
     dens = np.broadcast_to(density, (model.n, S))
@@ -158,23 +164,20 @@ def evaluate_samples(model: Model, r: dict, VT, moments=False) -> dict:
     VT = np.asarray(VT, dtype=float)
     S = VT.shape[1]
     n, cl = model.n, model.cl
-    a = model.a[:, None, None]
-    w = r["W0"] - a * VT[None]                                   # (n, 3, S)
-    w = np.array(np.broadcast_to(w, (n, 3, S)))
+    w = r["W0"] - model.a[None, :, None] * VT[:, None, :]            # (3, n, S)
     bad = np.zeros(S, bool)
     if cl.size:
-        ws = w[model.src]
-        rad = r["qa"] * np.einsum("ids,ids->is", ws, ws)
+        ws = w[:, model.src]
+        rad = r["qa"] * _dot(ws, ws)
         if (r["qc"] != 0.0).any():
             lin = rad.copy()
             rad = rad + r["qc"]
             rad = np.where(np.abs(rad) <= 1e-12 * (lin + np.abs(r["qc"])), 0.0, rad)
         bad_k = rad < 0.0
-        w[cl] = np.sqrt(np.maximum(rad, 0.0))[:, None, :] * r["E"]
+        w[:, cl] = np.sqrt(np.maximum(rad, 0.0))[None] * r["E"]
     N = r["N"]
-    wn = np.einsum("ids,ids->is", w, np.broadcast_to(N, (n, 3, S)))
+    wn = _dot(w, N)                                                   # (n, S)
     mdot = r["rho_a"] * wn
-    mdot = np.array(np.broadcast_to(mdot, (n, S)))
     if model.given.any():
         mdot[model.given] = np.broadcast_to(r["m_given"], (n, S))[model.given]
     if model.flow_rows.size:
@@ -183,13 +186,13 @@ def evaluate_samples(model: Model, r: dict, VT, moments=False) -> dict:
     outrun = is_in & (wn > 0.0)
     pace = is_in & (wn == 0.0)
     if pace.any():
-        pace &= np.einsum("ids,ds->is", np.broadcast_to(N, (n, 3, S)) * a, VT) != 0.0
+        pace &= (model.a[:, None] * _dot(np.broadcast_to(N, (3, n, S)), VT[:, None, :])) != 0.0
         outrun = outrun | pace
     mdot[outrun] = 0.0
     if model.train:
         k = model.k
         with np.errstate(divide="ignore", invalid="ignore"):
-            vn = np.einsum("ds,ds->s", np.broadcast_to(N[k], (3, S)), VT)
+            vn = _dot(np.broadcast_to(N[:, k], (3, S)), VT)
             scale = np.where(wn[k] < 0, (wn[k] + vn) / wn[k], 0.0)
         mdot *= scale
     inflow = -mdot[model.in_rows].sum(axis=0) - np.minimum(mdot[model.neg_rows], 0.0).sum(axis=0)
@@ -201,33 +204,33 @@ def evaluate_samples(model: Model, r: dict, VT, moments=False) -> dict:
     else:
         all_out = np.zeros(S, bool)
     no_contact = all_out | ((inflow == 0.0) & some_out)
-    mdot[:, no_contact] = 0.0
-    inflow[no_contact] = 0.0
+    if no_contact.any():
+        mdot[:, no_contact] = 0.0
+        inflow[no_contact] = 0.0
     contact = ~no_contact
     if cl.size:
         bad = (bad_k & contact).any(axis=0)
     if model.flow_rows.size:                       # shares, then continuity for one unknown
-        m_share = model.share[:, None] * inflow
-        mdot[model.shr] = m_share
+        mdot[model.shr] = model.share[:, None] * inflow
         if model.unk.size:
             rest = mdot.sum(axis=0) - mdot[model.unk].sum(axis=0)
             mdot[model.unk] = np.where(bad | no_contact, 0.0, -rest)[None]
     kb = r["beta"] * mdot
-    kw = kb[:, None, :] * w                                      # (n, 3, S) momentum fluxes
-    pf = -r["pA"][:, None, :] * N                                # pressure force on the fluid
-    support = kw.sum(axis=0) - (pf.sum(axis=0) + r["weight"]) * contact
+    kw = kb[None] * w                                            # (3, n, S) momentum fluxes
+    pf = -r["pA"][None] * N                                      # pressure force on the fluid
+    loads = pf.sum(axis=1) + r["weight"]
+    support = kw.sum(axis=1) - loads * contact
     body = -support
     out = {"support_force": support + 0.0, "force_on_body": body + 0.0,
-           "power": (body * VT).sum(axis=0) + 0.0, "contact": contact, "valid": ~bad}
+           "power": _dot(body, VT) + 0.0, "contact": contact, "valid": ~bad}
     if moments:
         model.require_moments()
-        R = np.broadcast_to(r["position"], (n, 3, S)) - r["reference"][None]
-        mom = _cross(np.moveaxis(R, 1, 0), np.moveaxis(kw, 1, 0)).sum(axis=1)
-        loads = _cross(np.moveaxis(R, 1, 0), np.moveaxis(np.broadcast_to(pf, (n, 3, S)), 1,
-                                                            0)).sum(axis=1)
+        R = r["position"] - r["reference"][:, None, :]
+        mom = _cross(R, kw).sum(axis=1)
+        m_loads = _cross(R, pf).sum(axis=1)
         if r["centroid"] is not None:
-            loads = loads + _cross(r["centroid"] - r["reference"], r["weight"])
-        mom = mom - loads * contact
+            m_loads = m_loads + _cross(r["centroid"] - r["reference"], r["weight"])
+        mom = mom - m_loads * contact
         out["support_moment"] = mom + 0.0
         out["moment_on_body"] = -mom + 0.0
     if bad.any():
