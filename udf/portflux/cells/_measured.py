@@ -64,11 +64,11 @@ def _traverse_points(raw):
         raise CellError("traverse: expected 2 columns (position, velocity); cells are filled "
                         "in column 3 or beyond")
     units = []
-    for j, kind, word in ((0, "length", "position"), (1, "velocity", "velocity")):
+    for j, kind, word in ((0, "length", "positions"), (1, "velocity", "velocities")):
         u = grid[1][j]
         where = f"traverse row 2, column {j + 1}"
         if is_blank(u):
-            raise CellError(f"{where}: the unit cell is blank; type the unit of the {word}s "
+            raise CellError(f"{where}: the unit cell is blank; type the unit of the {word} "
                             f"({U.quantity(kind).examples})")
         if not isinstance(u, str) or error_value(u):
             raise CellError(f"{where}: expected a unit (text), got {describe(u)}")
