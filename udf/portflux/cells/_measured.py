@@ -119,10 +119,10 @@ def traverse(raw, shape=None, size=None, size_unit=None, width=None, units=None)
         arg = "traverse" if e.argument in (None, "traverse") else e.argument
         raise CellError(f"{arg}: {e.message}") from None
     note = "; ".join(t.warnings) or "ok"
-    return [["beta", t.beta, "-"],
-            ["mean velocity", float(us.out(t.mean_velocity, "velocity")),
+    return [["beta", _cell(t.beta), "-"],
+            ["mean velocity", _cell(us.out(t.mean_velocity, "velocity")),
              us.label("velocity")],
-            ["flow", float(us.out(t.flow, "volume_flow")), us.label("volume_flow")],
+            ["flow", _cell(us.out(t.flow, "volume_flow")), us.label("volume_flow")],
             ["warnings", note, ""]]
 
 

@@ -280,6 +280,9 @@ def traverse(position, velocity, *, shape="round", size=None, width=None) -> Tra
     if not q != 0.0:
         raise InputError("the net flow of the traverse is zero: no mean velocity", argument=where)
     mean = q / area
+    if not all(math.isfinite(x) for x in (area, q, m, mean, m / (area * mean * mean))):
+        raise InputError("the integral overflows (a size or a velocity far too large); check "
+                         "the values and their units", argument=where)
     return Traverse(float(mean), float(m / (area * mean * mean)), float(q), float(area),
                     tuple(warnings))
 

@@ -1,0 +1,82 @@
+"""Reference cases of the measured inputs (drawing only): named profiles, a traverse, and the
+uncertainty of the moving-vane force against its hand propagation."""
+
+from __future__ import annotations
+
+from openpyxl.utils.cell import column_index_from_string, coordinate_from_string
+
+from .cases import TRADE, WHITE, Sheet, cos_deg
+from .drawing import rng
+
+GUM = "JCGM 100:2008 (GUM), sec. 5.1.2, eq. (10), partial derivatives by hand; " + WHITE
+PROFILES = ("F. M. White, Fluid Mechanics, sec. 3.4 and 6.6: laminar beta 4/3, power law "
+            "beta = (n+1)(2n+1)^2/(4n^2(n+2)) (from memory)")
+
+
+def _row_of(value_cell):
+    """The name | value | unit range of an ``extra`` row of a block, from its value cell."""
+    col, row = coordinate_from_string(value_cell.replace("$", ""))
+    c = column_index_from_string(col)
+    return rng(c - 1, row, c + 1, row)
+
+
+def _profile_cases(s: Sheet):
+    # a linear (cone) traverse u = U (1 - r/R): exact for the piecewise-linear rule; by hand
+    # V = 2U int (1 - s) s ds = U/3, int u^2 dA / A = 2U^2 int (1 - s)^2 s ds = U^2/6, beta 3/2
+    cols = ("r", "u")
+    t, _, _, _, c = s.block("R. velocity profiles and a traverse", cols, ("mm", "m/s"),
+                            ((0.0, 4.5), (20.0, 3.0), (40.0, 1.5), (60.0, 0.0)),
+                            (0.0, 0.0, 0.0), "m/s",
+                            extra=(("profile", "laminar"), ("n", 7.0)))
+    T = t.ref
+    R, U0 = t.at(3, "r"), t.at(0, "u")
+    s.add("laminar profile: beta = 4/3", "PFX_PROFILE", f"=INDEX(PFX_PROFILE({c['profile']}),1,1)",
+          "=4/3", 1e-12, PROFILES)
+    s.add("power law 1/n: beta = (n+1)(2n+1)^2/(4n^2(n+2))", "PFX_PROFILE",
+          f'=INDEX(PFX_PROFILE("power "&{c["n"]}),1,1)',
+          f"=({c['n']}+1)*(2*{c['n']}+1)^2/(4*{c['n']}^2*({c['n']}+2))", 1e-12, PROFILES)
+    s.add("cone traverse u = U (1 - r/R): beta = 3/2", "PFX_TRAVERSE",
+          f"=INDEX(PFX_TRAVERSE({T}),1,2)", "=3/2", 1e-12,
+          "hand integral of the cone profile (" + TRADE + "); " + WHITE)
+    s.add("cone traverse: mean velocity U/3", "PFX_TRAVERSE", f"=INDEX(PFX_TRAVERSE({T}),2,2)",
+          f"={U0}/3", 1e-12, "hand integral of the cone profile (" + TRADE + ")")
+    s.add("cone traverse: flow pi R^2 U/3", "PFX_TRAVERSE",
+          f'=INDEX(PFX_TRAVERSE({T},,,,,"SI; volume_flow=L/s"),3,2)',
+          f"=PI()*({R}/1000)^2*{U0}/3*1000", 1e-12,
+          "hand integral of the cone profile (" + TRADE + ")")
+
+
+def _uncertainty_cases(s: Sheet):
+    # a jet on a frictionless vane (exit flow from continuity), the jet's speed measured to
+    # u_V and the vane's speed to u_U: dF/dV = -dF/dU = 2 rho A (V - U)(1 - cos th)
+    cols = ("port", "role", "frame", "area", "density", "speed", "angle", "closure", "u_speed")
+    t, cv, U, _, c = s.block(
+        "S. uncertainty of the vane force (GUM against the hand propagation)", cols,
+        (None, None, None, "m^2", "kg/m^3", "m/s", "deg", None, "m/s"),
+        (("jet", "in", "abs", 0.002, 998.0, 30.0, 0.0, None, 0.3),
+         ("exit", "out", "rel", None, 998.0, None, 150.0, "free", None)),
+        (10.0, 0.0, 0.0), "m/s", extra=(("cv_x", 0.1, "m/s"),))
+    rho, A, V, th = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"), t.at(1, "angle")
+    uV = t.at(0, "u_speed")
+    table = _row_of(c["cv_x"])            # the uncertainties range: cv_x | u | unit
+    P = t.ref
+    dF = f"(2*{rho}*{A}*({V}-{U})*(1-{cos_deg(th)}))"
+    uU = c["cv_x"]
+    s.add("GUM: u(F_x) from u(V) and u(U), by hand", "PFX_LOADUNCERTAINTY",
+          f"=INDEX(PFX_LOADUNCERTAINTY({P},{cv},,,{table},1000,0),2,3)",
+          f"=SQRT(({dF}*{uV})^2+({dF}*{uU})^2)", 1e-7, GUM)
+    s.add("Monte Carlo u(F_x) agrees with the GUM (3 %, 10^4 trials)", "PFX_LOADUNCERTAINTY",
+          f"=INDEX(PFX_LOADUNCERTAINTY({P},{cv},,,{table},10000,0),2,6)",
+          f"=SQRT(({dF}*{uV})^2+({dF}*{uU})^2)", 0.03,
+          "JCGM 101:2008, sec. 7 and 8; " + GUM)
+    s.add("budget: contribution of the jet speed |dF/dV| u(V)", "PFX_UNCERTAINTYBUDGET",
+          f"=INDEX(PFX_UNCERTAINTYBUDGET({P},{cv},,,{table}),2,2)", f"={dF}*{uV}", 1e-7, GUM)
+    s.add("report line: F_x +- 2 u(F_x) (k = 2), two significant figures of U",
+          "PFX_UNCERTAINTYLINE", f"=PFX_UNCERTAINTYLINE({P},{cv},,,{table})",
+          f'="force on body x "&TEXT({rho}*{A}*({V}-{U})^2*(1-{cos_deg(th)}),"#,##0")&" '
+          f'\u00b1 "&TEXT(2*SQRT(({dF}*{uV})^2+({dF}*{uU})^2),"#,##0")&" N (k = 2)"', None,
+          "JCGM 100:2008, sec. 7.2.6 (two significant figures); " + GUM)
+
+
+#: The parts of this module, in sheet order (after the support-load cases).
+PARTS = (_profile_cases, _uncertainty_cases)
