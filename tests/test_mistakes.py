@@ -271,6 +271,7 @@ EXPECTED = {
     "template O. reducing bend: anchor moment about a chosen point": "none",
     "template P. held two-arm sprinkler": "none",
     "template Q. vane with its mount below the jet line; envelope": "none",
+    "template S. uncertainty of the vane force (GUM against the hand propagation)": "none",
     "example carriage_vane.xlsx": "none",
     "example bucket_wheel.xlsx": "none",
     "example waterjet_craft.xlsx": "none",

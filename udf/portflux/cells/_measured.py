@@ -157,6 +157,20 @@ def _factor(kind, unit, where):
         raise CellError(f"{where}, unit: {e.message}; or % for a relative uncertainty") from None
 
 
+def _cv_factor(cv, unit, radius, where):
+    """Typed CV unit per unit of the uncertainty: m/s and rpm mix through the wheel radius
+    (U = omega r), as the CV velocity's own unit does."""
+    if is_blank(unit):
+        raise CellError(f"{where}, unit: the unit cell is blank; type the uncertainty's unit "
+                        f"(m/s, ft/s, km/h; rpm with wheel_radius) or % for a relative one")
+    if not isinstance(unit, str):
+        raise CellError(f"{where}, unit: expected a unit (text), got {describe(unit)}")
+    try:
+        return B.speed_factor(unit.strip(), radius)[0] / B.speed_factor(cv.unit, radius)[0]
+    except InputError as e:
+        raise CellError(f"{where}, unit: {e.message}") from None
+
+
 def _table_rows(raw):
     """(row, name, u, unit) of an ``uncertainties`` range (a header row input | u | unit may
     lead)."""
@@ -208,11 +222,7 @@ def _inputs(pb, cv, raw_table, motion):
         low = name.lower()
         if low in S.CV_UNCERTAINTY:
             c = S.CV_UNCERTAINTY.index(low)
-            if rel:
-                f = 1.0
-            else:
-                kind = B.speed_kind(cv.unit)
-                f = _factor(kind, unit, where) / U.factor(cv.unit, kind)
+            f = 1.0 if rel else _cv_factor(cv, unit, pb.settings.wheel_radius, where)
             out.append(P.cv_input(c, motion.typed[c], x, rel, f, f"cv_velocity {'xyz'[c]}"))
             continue
         if "." in name:

@@ -11,9 +11,10 @@ from .drawing import BOLD, INPUT_FILL, ITALIC, SMALL, cell, formula, put, q, rng
 
 #: Rows of the input range (header, then the inputs; the spare ones blank).
 INPUT_ROWS = 8
-#: Largest answers as the template calls them (rows, columns): 26 loads with moments and a
-#: wheel, plus the header; a budget of the input rows and u_ columns of up to 15 inputs.
-LARGEST = {"PFX_LOADUNCERTAINTY": (27, 10), "PFX_UNCERTAINTYBUDGET": (16, 4)}
+#: Largest answers as the template calls them (rows, columns): 24 loads with moments and a
+#: wheel, plus the header; the budget of the 7 input rows, plus its header (u_ columns typed
+#: in the port table add inputs: the budget then shows its largest 7).
+LARGEST = {"PFX_LOADUNCERTAINTY": (25, 10), "PFX_UNCERTAINTYBUDGET": (INPUT_ROWS, 4)}
 #: The template's own measured inputs, for its two ports (flow meter 1 %, area from a bore
 #: measured to 0.5 %, density 0.2 %, the vane's exit angle 0.5 deg, the carriage's speed
 #: 0.1 m/s; invented).
