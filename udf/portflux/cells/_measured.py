@@ -85,21 +85,27 @@ def _traverse_points(raw):
     return pos * units[0], vel * units[1]
 
 
+def _converted(unit, where, blank, convert):
+    """``convert(unit text)`` of a unit cell, the cell named in every message: ``blank`` is
+    the message of a blank cell."""
+    if is_blank(unit):
+        raise CellError(f"{where}: {blank}")
+    if not isinstance(unit, str):
+        raise CellError(f"{where}: expected a unit (text), got {describe(unit)}")
+    try:
+        return convert(unit.strip())
+    except InputError as e:
+        raise CellError(f"{where}: {e.message}") from None
+
+
 def _length(raw, raw_unit, where):
     v = one_cell(raw, where)
     if is_blank(v):
         return None
     x = number(v, where)
-    u = one_cell(raw_unit, "size_unit")
-    if is_blank(u):
-        raise CellError(f"size_unit: is blank beside the {where} {x:g}; type its unit (m, mm, "
-                        f"in, ft)")
-    if not isinstance(u, str):
-        raise CellError(f"size_unit: expected a unit (text), got {describe(u)}")
-    try:
-        return x * U.factor(u.strip(), "length")
-    except InputError as e:
-        raise CellError(f"size_unit: {e.message}") from None
+    return x * _converted(one_cell(raw_unit, "size_unit"), "size_unit",
+                          f"is blank beside the {where} {x:g}; type its unit (m, mm, in, ft)",
+                          lambda u: U.factor(u, "length"))
 
 
 def traverse(raw, shape=None, size=None, size_unit=None, width=None, units=None):
@@ -146,29 +152,18 @@ def _port_of(pb, text, where):
 def _factor(kind, unit, where):
     if kind in (None, "ratio") and is_blank(unit):
         return 1.0
-    if is_blank(unit):
-        raise CellError(f"{where}, unit: the unit cell is blank; type the uncertainty's unit "
-                        f"({U.quantity(kind).examples}) or % for a relative one")
-    if not isinstance(unit, str):
-        raise CellError(f"{where}, unit: expected a unit (text), got {describe(unit)}")
-    try:
-        return U.factor(unit.strip(), kind)
-    except InputError as e:
-        raise CellError(f"{where}, unit: {e.message}; or % for a relative uncertainty") from None
+    return _converted(unit, f"{where}, unit", f"the unit cell is blank; type the uncertainty's "
+                      f"unit ({U.quantity(kind).examples}) or % for a relative one",
+                      lambda u: U.factor(u, kind))
 
 
 def _cv_factor(cv, unit, radius, where):
     """Typed CV unit per unit of the uncertainty: m/s and rpm mix through the wheel radius
     (U = omega r), as the CV velocity's own unit does."""
-    if is_blank(unit):
-        raise CellError(f"{where}, unit: the unit cell is blank; type the uncertainty's unit "
-                        f"(m/s, ft/s, km/h; rpm with wheel_radius) or % for a relative one")
-    if not isinstance(unit, str):
-        raise CellError(f"{where}, unit: expected a unit (text), got {describe(unit)}")
-    try:
-        return B.speed_factor(unit.strip(), radius)[0] / B.speed_factor(cv.unit, radius)[0]
-    except InputError as e:
-        raise CellError(f"{where}, unit: {e.message}") from None
+    return _converted(unit, f"{where}, unit", "the unit cell is blank; type the uncertainty's "
+                      "unit (m/s, ft/s, km/h; rpm with wheel_radius) or % for a relative one",
+                      lambda u: B.speed_factor(u, radius)[0] / B.speed_factor(cv.unit,
+                                                                              radius)[0])
 
 
 def _table_rows(raw):
