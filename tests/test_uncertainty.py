@@ -238,3 +238,9 @@ def test_uncertainty_of_an_absent_setting_is_refused():
     with pytest.raises(InputError, match="wheel_radius is not given"):
         api.load_uncertainty(vane(u_speed=0.1), U_CV, uncertainty={"wheel_radius": 0.01},
                              monte_carlo=False)
+
+
+def test_u_keys_do_not_change_the_other_api_functions():
+    # the same rule as the sheet: a u_<column> is read by load_uncertainty only
+    plain = api.solve(vane(), U_CV).force_on_body
+    assert np.array_equal(api.solve(vane(u_speed=0.3), U_CV).force_on_body, plain)

@@ -135,6 +135,8 @@ def _table_units(units, cols) -> tuple[dict, bool]:
 
 def _read_table(ports, units) -> B.PortTable:
     cols = _columns(ports)
+    if any(S.uncertainty_of(k) is not None for k in cols):   # u_<column>: load_uncertainty's
+        cols = {k: v for k, v in cols.items() if S.uncertainty_of(k) is None}
     try:
         umap, si = _table_units(units, cols)
         return B.build(cols, umap, si=si)
