@@ -52,16 +52,17 @@ def _uncertainty_cases(s: Sheet):
     cols = ("port", "role", "frame", "area", "density", "speed", "angle", "closure", "u_speed")
     t, cv, U, _, c = s.block(
         "S. uncertainty of the vane force (GUM against the hand propagation)", cols,
-        (None, None, None, "m^2", "kg/m^3", "m/s", "deg", None, "m/s"),
-        (("jet", "in", "abs", 0.002, 998.0, 30.0, 0.0, None, 0.3),
+        (None, None, None, "m^2", "kg/m^3", "m/s", "deg", None, "%"),
+        (("jet", "in", "abs", 0.002, 998.0, 30.0, 0.0, None, 1.0),
          ("exit", "out", "rel", None, 998.0, None, 150.0, "free", None)),
-        (10.0, 0.0, 0.0), "m/s", extra=(("cv_x", 0.1, "m/s"),))
+        (10.0, 0.0, 0.0), "m/s", extra=(("cv_x", 1.0, "%"),))
     rho, A, V, th = t.at(0, "density"), t.at(0, "area"), t.at(0, "speed"), t.at(1, "angle")
-    uV = t.at(0, "u_speed")
+    # relative uncertainties (%): the same inputs whatever units the speeds are typed in
+    uV = f"({V}*{t.at(0, 'u_speed')}/100)"
     table = _row_of(c["cv_x"])            # the uncertainties range: cv_x | u | unit
     P = t.ref
     dF = f"(2*{rho}*{A}*({V}-{U})*(1-{cos_deg(th)}))"
-    uU = c["cv_x"]
+    uU = f"({U}*{c['cv_x']}/100)"
     s.add("GUM: u(F_x) from u(V) and u(U), by hand", "PFX_LOADUNCERTAINTY",
           f"=INDEX(PFX_LOADUNCERTAINTY({P},{cv},,,{table},1000,0),2,3)",
           f"=SQRT(({dF}*{uV})^2+({dF}*{uU})^2)", 1e-7, GUM)
@@ -71,11 +72,14 @@ def _uncertainty_cases(s: Sheet):
           "JCGM 101:2008, sec. 7 and 8; " + GUM)
     s.add("budget: contribution of the jet speed |dF/dV| u(V)", "PFX_UNCERTAINTYBUDGET",
           f"=INDEX(PFX_UNCERTAINTYBUDGET({P},{cv},,,{table}),2,2)", f"={dF}*{uV}", 1e-7, GUM)
-    s.add("report line: F_x +- 2 u(F_x) (k = 2), two significant figures of U",
+    # the line's wording and rounding, on the force and the GUM uncertainty the functions give
+    # (both in N whatever units the block's inputs are typed in)
+    force = f"INDEX(PFX_BODYFORCE({P},{cv}),1,1)"
+    u_f = f"INDEX(PFX_LOADUNCERTAINTY({P},{cv},,,{table},1000,0),2,3)"
+    s.add("report line: F_x +- 2 u(F_x) (k = 2), rounded to two significant figures of U",
           "PFX_UNCERTAINTYLINE", f"=PFX_UNCERTAINTYLINE({P},{cv},,,{table})",
-          f'="force on body x "&TEXT({rho}*{A}*({V}-{U})^2*(1-{cos_deg(th)}),"#,##0")&" '
-          f'\u00b1 "&TEXT(2*SQRT(({dF}*{uV})^2+({dF}*{uU})^2),"#,##0")&" N (k = 2)"', None,
-          "JCGM 100:2008, sec. 7.2.6 (two significant figures); " + GUM)
+          f'="force on body x "&TEXT({force},"#,##0")&" \u00b1 "&TEXT(2*{u_f},"#,##0")'
+          f'&" N (k = 2)"', None, "JCGM 100:2008, sec. 7.2.6 (two significant figures)")
 
 
 #: The parts of this module, in sheet order (after the support-load cases).
