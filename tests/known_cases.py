@@ -30,6 +30,8 @@ def reference_cases() -> list:
     original = cases.Sheet.block
 
     def record(self, title, columns, units, rows, cv, cv_unit, settings=None, extra=None):
+        if columns == ("r", "u"):           # a velocity traverse (PFX_TRAVERSE), not ports
+            return original(self, title, columns, units, rows, cv, cv_unit, settings, extra)
         seen.append((f"template {title}", (tuple(columns), tuple(units)) + tuple(map(tuple, rows)),
                      tuple(cv) + (cv_unit,), _settings_grid(settings)))
         return original(self, title, columns, units, rows, cv, cv_unit, settings, extra)

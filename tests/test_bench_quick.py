@@ -23,6 +23,7 @@ EXPECTED = {
                  "import numpy", "import portflux.cells"],
     "4 recalc": ["cold", "warm (CV speed changed)", "native formulas: warm",
                  "PFX_ formulas: warm"],
+    "7 Monte Carlo uncertainty": ["bare numpy", "load_uncertainty", "ratio portflux / bare"],
 }
 
 

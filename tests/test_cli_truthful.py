@@ -208,7 +208,7 @@ def test_check_names_the_users_file_not_a_temporary_copy(tmp_path, capsys):
 
 def test_check_of_the_shipped_template_passes(capsys):
     code, out, err = run(["check"], capsys)
-    assert code == 0 and "reference cases: 65 PASS, 0 FAIL" in out
+    assert code == 0 and "reference cases: 73 PASS, 0 FAIL" in out
 
 
 def test_check_without_a_shipped_template_builds_one_and_names_no_temporary_file(
@@ -217,7 +217,7 @@ def test_check_without_a_shipped_template_builds_one_and_names_no_temporary_file
 
     monkeypatch.setattr(T, "shipped_template", lambda: None)
     code, out, err = run(["check"], capsys)
-    assert code == 0 and "reference cases: 65 PASS, 0 FAIL" in out
+    assert code == 0 and "reference cases: 73 PASS, 0 FAIL" in out
     assert err.splitlines() == ["checking the built-in template ..."]
 
 

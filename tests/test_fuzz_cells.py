@@ -197,6 +197,28 @@ class Draw:
             return self.pick([None, "force", "moment", "Moment"]) if valid else self.cell()
         if name == "tolerance":
             return self.pick([None, 0.01, 0.0, 1.0]) if valid else self.cell()
+        # measured inputs (issue 22); trials kept small so a fuzz call stays quick
+        if name == "trials":
+            return self.pick([None, 100.0, 500.0, 100.5, -3.0]) if valid else self.cell()
+        if name in ("seed", "coverage"):
+            return self.pick([None, 0.0, 1.0, 2.0, 7.0, -1.0]) if valid else self.cell()
+        if name == "uncertainties":
+            return self.pick([None, (("cv_x", 0.1, "m/s"),), (("jet.area", 1.0, "%"),),
+                              (("gz", 0.01, "m/s^2"), ("cv_y", 0.1, None))]) \
+                if valid else self.grid(3, 3)
+        if name == "load":
+            return self.pick([None, "force on body x", "power", "moment on body z"]) \
+                if valid else self.cell()
+        if name == "traverse":
+            return self.pick([(("r", "u"), ("mm", "m/s"), (0.0, 2.0), (10.0, 1.5),
+                               (20.0, 0.0)), (("y", "u"), ("in", "ft/s"), (0.0, 0.0),
+                                              (1.0, 3.0), (2.0, 0.0))]) \
+                if valid else self.grid(5, 2)
+        if name in ("shape", "profile"):
+            return self.pick([None, "round", "rectangular", "laminar", "power 7"]) \
+                if valid else self.cell()
+        if name in ("size", "width", "size_unit"):
+            return self.pick([None, 25.0, "mm", 0.05, "m"]) if valid else self.cell()
         return self.grid(5, 5) if self.rng.random() < 0.5 else self.number()
 
 

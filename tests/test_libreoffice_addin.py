@@ -116,7 +116,13 @@ def _args(name, ports, settings, speeds):
              "labels": True, "settings": settings, "tolerance": 0.001, "axis": "x",
              "kind": "jet", "speeds": speeds, "direction": 0.0, "low": 0.0, "high": 40.0,
              "value": 100.0, "component": "along", "quantity": "moment", "inputs": settings,
-             "moments": True}
+             "moments": True,
+             # measured inputs (issue 22)
+             "uncertainties": (("jet.speed", 1.0, "%"), ("", "", ""), ("cv_x", 0.1, "m/s")),
+             "trials": 200, "seed": 1, "load": "force on body x", "coverage": 2.0,
+             "profile": "laminar", "shape": "round", "size": 50.0, "size_unit": "mm",
+             "width": "", "traverse": (("r", "u"), ("mm", "m/s"), (0.0, 2.0), (25.0, 1.5),
+                                       (50.0, 0.0), ("", ""))}
     return [given[a] for a in p]
 
 

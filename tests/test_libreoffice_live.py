@@ -24,11 +24,19 @@ pytestmark = needs_libreoffice
 # O1:R1. Each argument is a formula operand and the value Calc hands the add-in (a range as
 # rows with None for blanks, TRUE as 1.0).
 RANGES = {"ports": "$A$1:$H$6", "settings": "$I$1:$K$8", "speeds": "$M$1:$M$5",
-          "cv_velocity": "$O$1:$R$1"}
+          "cv_velocity": "$O$1:$R$1", "uncertainties": "$T$1:$V$2", "traverse": "$X$1:$Y$5"}
+#: The measured inputs' ranges (the same in both scenarios: port 1's speed and the CV speed
+#: in %) and a traverse.
+MEASURED = {"uncertainties": (("1.speed", 1.0, "%"), ("cv_x", 1.0, "%")),
+            "traverse": (("r", "u"), ("mm", "m/s"), (0.0, 2.0), (25.0, 1.5), (50.0, 0.0))}
 COMMON = {"labels": ("TRUE()", 1.0), "tolerance": ("0.002", 0.002), "kind": ('"jet"', "jet"),
           "direction": ("0", 0.0), "low": ("0", 0.0), "high": ("40", 40.0),
           "component": ('"along"', "along"), "quantity": ('"moment"', "moment"),
-          "moments": ("FALSE()", 0.0)}
+          "moments": ("FALSE()", 0.0),
+          "trials": ("200", 200.0), "seed": ("1", 1.0), "load": ('"force on body x"',
+          "force on body x"), "coverage": ("2", 2.0), "profile": ('"laminar"', "laminar"),
+          "shape": ('"round"', "round"), "size": ("50", 50.0), "size_unit": ('"mm"', "mm"),
+          "width": ("1", 1.0)}
 
 SCENARIOS = {
     # Invented vane: 2 cm^2 water jet at 40 m/s turned through 150 degrees, SI, kN out.
@@ -71,10 +79,14 @@ def _args(sc):
     for key, table in (("ports", sc["ports"]), ("settings", sc["settings"]),
                        ("speeds", sc["speeds"]), ("cv_velocity", sc["cv"])):
         args[key] = (RANGES[key], table)
+    for key, table in MEASURED.items():
+        args[key] = (RANGES[key], table)
     args["inputs"] = (RANGES["speeds"], sc["speeds"])      # PFX_CHECKSUM's further range
     return args
 
 
+#: The functions that refuse to propagate uncertainties through a split of solved outlets.
+NOT_PROPAGATED = ("PFX_LOADUNCERTAINTY", "PFX_UNCERTAINTYBUDGET", "PFX_UNCERTAINTYLINE")
 OUT_ROW = 10          # blocks are written from this row down, one below another
 
 
@@ -94,7 +106,8 @@ def doc(office):
 
 def _inputs(sheet, sc):
     for key, table in (("ports", sc["ports"]), ("settings", sc["settings"]),
-                       ("speeds", sc["speeds"]), ("cv_velocity", sc["cv"])):
+                       ("speeds", sc["speeds"]), ("cv_velocity", sc["cv"]),
+                       *MEASURED.items()):
         sheet.getCellRangeByName(RANGES[key].replace("$", "")).setDataArray(calc_rows(table))
 
 
@@ -136,8 +149,13 @@ def test_each_function_as_array_and_single_cell_formula_matches_python(doc, name
     for k in sorted({n, required} if alone else {n}, reverse=True):
         formula, values = _formula(name, k, args)
         want = adapter.to_calc(getattr(C, name)(*values))
-        assert not (len(want) == 1 and isinstance(want[0][0], str)
-                    and want[0][0].startswith(("ports", "portflux", "settings"))), want
+        if scenario == "plate, US" and name in NOT_PROPAGATED:
+            # the plate's split of two solved outlets is outside what the uncertainty of loads
+            # propagates (docs/design/measured-inputs.md): Calc must show the same message
+            assert "split of several solved outlets" in want[0][0], want
+        else:
+            assert not (len(want) == 1 and isinstance(want[0][0], str)
+                        and want[0][0].startswith(("ports", "portflux", "settings"))), want
         nr, nc = len(want), len(want[0])
         sheet.getCellRangeByPosition(0, row, nc - 1, row + nr - 1).setArrayFormula(formula)
         sheet.getCellByPosition(20, row).setFormula(formula)        # single cell, column U

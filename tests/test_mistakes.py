@@ -272,6 +272,7 @@ EXPECTED = {
     "template P. held two-arm sprinkler": "none",
     "template Q. vane with its mount below the jet line; envelope": "none",
     "template R. vane on a carriage from rest: speed history": "none",
+    "template T. uncertainty of the vane force (GUM against the hand propagation)": "none",
     "example carriage_vane.xlsx": "none",
     "example bucket_wheel.xlsx": "none",
     "example waterjet_craft.xlsx": "none",

@@ -22,7 +22,9 @@ def test_the_surface_is_the_api_and_the_result_types():
         "jet_speed", "ControlVolumeResult", "SpeedTableResult", "format_report", "Balance",
         "BestSpeed", "ForceSpeed", "InputError", "Model", "OutsideScopeError", "Ports",
         "SpeedTable", "envelope", "Envelope", "EnvelopeResult", "BestSpeedResult",
-        "ForceSpeedResult", "Resultant", "speed_history", "SpeedHistoryResult"}
+        "ForceSpeedResult", "Resultant", "speed_history", "SpeedHistoryResult",
+        "load_uncertainty", "velocity_traverse", "profile_beta", "UncertaintyResult",
+        "TraverseResult"}
     assert "PortRow" not in portflux.__all__
     assert not hasattr(portflux, "PortRow")
 

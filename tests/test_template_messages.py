@@ -119,6 +119,10 @@ def test_a_nozzle_from_supply_pressure_recalculates_cleanly(tmp_path):
     edits = {(T.CV, _at("speed", 0)): None, (T.CV, _at("area", 0)): None,
              (T.CV, _at("supply_pressure", 0)): 300.0, (T.CV, _at("diameter", 0)): 60.0,
              (T.CV, _at("velocity_coef", 0)): 0.97}
+    # the measured inputs follow: the supply pressure and the bore instead of speed and area
+    first = T.layout().uncertainty["first"]
+    edits[(T.CV, f"A{first}")] = "nozzle jet.supply_pressure"
+    edits[(T.CV, f"A{first + 1}")] = "nozzle jet.diameter"
     code, wb = _recalc(tmp_path, edits, "nozzle.xlsx")
     assert code == 0
     v = C.PFX_ABSVEL((("port", "role", "frame", "supply_pressure", "diameter", "density",

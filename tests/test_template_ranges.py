@@ -72,6 +72,10 @@ TEN_WRONG = ((("port", "role", "frame", "area", "density", "vx", "nx"),
 
 
 CARRIAGE = tuple(T.carriage.CARRIAGE_SETTINGS)
+#: Seven measured inputs of the template's two ports (the uncertainty block's rows).
+UNC7 = (("nozzle jet.speed", 1.0, "%"), ("nozzle jet.area", 0.5, "%"),
+        ("nozzle jet.density", 0.2, "%"), ("vane exit.angle", 0.5, "deg"),
+        ("cv_x", 0.1, "m/s"), ("gz", 0.01, "m/s^2"), ("nozzle jet.ry", 1.0, "mm"))
 
 
 def _shape(result):
@@ -119,6 +123,9 @@ def _rpm_and_nozzles(i):
         "PFX_RESULTANT": [cells.PFX_RESULTANT(P, cv, "moment", U, S)],
         "PFX_ENVELOPE": [cells.PFX_ENVELOPE(P, lo, hi, 0.0, U, S),
                          cells.PFX_ENVELOPE(N, i["low"], i["high"], 0.0, U, i["S"])],
+        # a wheel in rpm: the shaft torque's row too
+        "PFX_LOADUNCERTAINTY": [cells.PFX_LOADUNCERTAINTY(P, cv, U, S, UNC7, 1000, 0)],
+        "PFX_UNCERTAINTYBUDGET": [cells.PFX_UNCERTAINTYBUDGET(P, cv, U, S, UNC7)],
     }
 
 
@@ -150,6 +157,9 @@ def _linear(i):
                              cells.PFX_SPEEDATFORCE(P, (5e6, "N"), lo, hi, "along", 0.0, U, S),
                              cells.PFX_SPEEDATFORCE(P, (1.0, "N"), lo, hi, "along", 0.0, U,
                                                     S)],
+        "PFX_LOADUNCERTAINTY": [cells.PFX_LOADUNCERTAINTY(P, cv, U, S, UNC7, 1000, 0),
+                                cells.PFX_LOADUNCERTAINTY(TEN, cv, U, None, UNC7[4:5], 1000)],
+        "PFX_UNCERTAINTYBUDGET": [cells.PFX_UNCERTAINTYBUDGET(P, cv, U, S, UNC7)],
         # a table without positions answers with one message (1 x 1)
         "PFX_MOMENT": [cells.PFX_MOMENT(P, cv, None, U, S), cells.PFX_MOMENT(TEN, cv, None, U)],
         "PFX_SUPPORTMOMENT": [cells.PFX_SUPPORTMOMENT(P, cv, None, U, S)],

@@ -80,6 +80,12 @@ def sheet_args(xl, sc, shapes=None):
             "speeds": xl.put(PLACES["speeds"], sc["speeds"]),
             "cv_velocity": xl.put(PLACES["cv_velocity"], [sc["cv"]])}
     args["inputs"] = args["speeds"]             # PFX_CHECKSUM's further range of inputs
+    # measured inputs (issue 22): an uncertainties range, a traverse and their scalars
+    args["uncertainties"] = xl.put("A30", [("jet.speed", 1.0, "%"), ("cv_x", 1.0, "%")])
+    args["traverse"] = xl.put("E30", [("r", "u"), ("mm", "m/s"), (0.0, 2.0), (25.0, 1.5),
+                                     (50.0, 0.0)])
+    args.update(trials=200.0, seed=1.0, load="force on body x", coverage=2.0,
+                profile="laminar", shape="round", size=50.0, size_unit="mm", width=1.0)
     args.update(sc["scalars"])
     args.update(shapes or {})
     return args
@@ -116,7 +122,8 @@ def is_message(value):
     return isinstance(value, str) and value.split(" ")[0].rstrip(",:") in {
         "ports", "settings", "speeds", "cv_velocity", "units", "low", "high", "value", "port",
         "axis", "labels", "tolerance", "kind", "direction", "component", "quantity",
-        "inputs", "moments", "portflux"}
+        "inputs", "moments", "portflux", "uncertainties", "traverse", "trials", "seed",
+        "load", "coverage", "profile", "shape", "size", "size_unit", "width"}
 
 
 # --------------------------------------------------------------------------------------------
@@ -150,7 +157,16 @@ def test_results_reach_excel_in_the_shapes_xlwings_squeezes(xl):
 def test_every_function_through_calludf_equals_the_direct_call(xl, name, scenario):
     got, want = through_excel(xl, name, sheet_args(xl, SCENARIOS[scenario]))
     assert got == want
+    if (name, scenario) in OUTSIDE_KERNEL:  # a limit of the batched kernel, said in the cell
+        assert want.startswith("ports: the uncertainty of loads is propagated where"), want
+        return
     assert not is_message(want), want       # the scenario exercises the function, not a refusal
+
+
+#: The plate's two solved outlets under a no-force direction: a split the batched kernel of
+#: the uncertainty functions does not propagate (DEVELOPERS.md, measured inputs).
+OUTSIDE_KERNEL = {(n, "plate, US") for n in ("PFX_LOADUNCERTAINTY", "PFX_UNCERTAINTYBUDGET",
+                                              "PFX_UNCERTAINTYLINE")}
 
 
 WITH_OPTIONALS = [n for n in C.PUBLIC
@@ -164,7 +180,10 @@ def test_omitted_optional_arguments_take_the_python_defaults(xl, name):
     args = sheet_args(xl, sc, {"value": 200.0})          # in N: the units are omitted too
     got, want = through_excel(xl, name, args, omit=optional)
     assert got == want
-    if name != "PFX_SHAFTTORQUE":             # needs the wheel_radius setting
+    if name in ("PFX_LOADUNCERTAINTY", "PFX_UNCERTAINTYBUDGET", "PFX_UNCERTAINTYLINE"):
+        # without the uncertainties range (and no u_ columns) there is nothing to propagate
+        assert want.startswith("uncertainties: no uncertainty given"), want
+    elif name != "PFX_SHAFTTORQUE":             # needs the wheel_radius setting
         assert not is_message(want), want
 
 

@@ -15,7 +15,8 @@ __version__ = "0.1.0"
 _API = ("solve", "speed_table", "best_speed", "speed_at_force", "envelope", "problem", "ureg",
         "ControlVolumeResult", "SpeedTableResult", "EnvelopeResult", "BestSpeedResult",
         "ForceSpeedResult", "Resultant", "format_report", "jet_speed", "speed_history",
-        "SpeedHistoryResult")
+        "SpeedHistoryResult", "load_uncertainty", "velocity_traverse", "profile_beta",
+        "UncertaintyResult", "TraverseResult")
 _CORE = ("Balance", "BestSpeed", "Envelope", "ForceSpeed", "InputError", "Model", "OutsideScopeError",
          "Ports", "SpeedTable")
 

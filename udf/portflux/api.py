@@ -38,6 +38,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from . import builder as B
+from . import propagate as _propagate
 from . import schema as S
 from . import units as U
 from .core import (ENVELOPE_ROWS, Balance, BestSpeed, Envelope, ForceSpeed, InputError,
@@ -49,6 +50,7 @@ from .core import speed_at_force as _core_speed_at_force
 from .core import speed_table as _core_speed_table
 from .core.history import SpeedHistory, check_target
 from .core.history import speed_history as _core_speed_history
+from .core import profiles as _profiles
 from .core.model import JET_NA
 
 __all__ = ["BestSpeedResult", "ControlVolumeResult", "EnvelopeResult", "ForceSpeedResult",
@@ -135,6 +137,8 @@ def _table_units(units, cols) -> tuple[dict, bool]:
 
 def _read_table(ports, units) -> B.PortTable:
     cols = _columns(ports)
+    if any(S.uncertainty_of(k) is not None for k in cols):   # u_<column>: load_uncertainty's
+        cols = {k: v for k, v in cols.items() if S.uncertainty_of(k) is None}
     try:
         umap, si = _table_units(units, cols)
         return B.build(cols, umap, si=si)
@@ -1247,3 +1251,303 @@ def speed_history(ports, *, direction=(1.0, 0.0, 0.0), units=None,
     h = _core_speed_history(pb.model, direction=direction, shown=shown, **opts)
     check_target(h, shown)
     return SpeedHistoryResult(h)
+
+
+# --------------------------------------------------------------------------------------------
+# measured inputs: velocity profiles and the uncertainty of the loads (issue 22)
+# --------------------------------------------------------------------------------------------
+__all__ += ["TraverseResult", "UncertaintyResult", "load_uncertainty", "profile_beta",
+            "velocity_traverse"]
+
+
+def profile_beta(profile) -> tuple:
+    """Momentum-flux factor beta and mean / maximum velocity of a named profile.
+
+    .. math:: \\beta_{power} = \\frac{(n+1)(2n+1)^2}{4 n^2 (n+2)}, \\qquad
+              \\frac{V}{U} = \\frac{2 n^2}{(n+1)(2n+1)}
+
+    Parameters
+    ----------
+    profile : str
+        ``uniform``, ``laminar``, ``turbulent`` (power law n = 7) or ``power <n>``.
+
+    Returns
+    -------
+    (float, float)
+        beta [-] and mean / maximum velocity [-].
+
+    Examples
+    --------
+    >>> [round(x, 4) for x in profile_beta("turbulent")]
+    [1.0204, 0.8167]
+
+    Reference: White, *Fluid Mechanics*, sec. 3.4 and 6.6 (from memory); derivations in
+    :mod:`portflux.core.profiles`.
+    """
+    try:
+        p = _profiles.named_profile(profile)
+    except InputError as e:
+        raise InputError(e.message, argument="profile") from None
+    return p.beta, p.mean_ratio
+
+
+@dataclass(frozen=True)
+class TraverseResult:
+    """A traverse's mean velocity, beta and flow in the units it was typed in."""
+
+    mean_velocity: float       #: [velocity_unit]
+    beta: float                #: [-]
+    flow: float                #: volume flow [flow_unit]
+    area: float                #: the area integrated [m^2]
+    velocity_unit: str
+    flow_unit: str
+    warnings: tuple = ()
+
+
+def velocity_traverse(position, velocity, *, shape="round", size=None, width=None,
+                      length_unit="m", velocity_unit="m/s", flow_unit="m^3/s") -> TraverseResult:
+    """Mean velocity, momentum-flux factor beta and volume flow of a measured traverse.
+
+    .. math:: Q = \\int u\\,dA, \\quad V = Q/A, \\quad \\beta = \\frac{1}{A V^2}\\int u^2 dA
+
+    The rule (linear velocity between points, each annulus or strip integrated exactly; the
+    centre and wall points) is :func:`portflux.core.profiles.traverse`'s.
+
+    Parameters
+    ----------
+    position : array_like (k,)
+        Radius from the centre (round) or height from one wall (rectangular), increasing
+        [length_unit].
+    velocity : array_like (k,)
+        Axial velocity at each position [velocity_unit].
+    shape : {"round", "rectangular"}
+        The port's shape.
+    size : float, optional
+        Radius (round) or height (rectangular) of the port [length_unit]; default the last
+        position.
+    width : float, optional
+        Width of a rectangular port [length_unit]; default 1 m.
+    length_unit, velocity_unit, flow_unit : str
+        Units of the positions, the velocities and the flow returned.
+
+    Returns
+    -------
+    TraverseResult
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> r = np.linspace(0.0, 50.0, 41)
+    >>> t = velocity_traverse(r, 2.0 * (1 - (r / 50.0) ** 2), length_unit="mm",
+    ...                       flow_unit="L/s")
+    >>> round(t.mean_velocity, 3), round(t.beta, 3), round(t.flow, 3)    # laminar: 1, 4/3
+    (1.0, 1.333, 7.852)
+
+    Reference: White, *Fluid Mechanics*, sec. 3.4 (from memory).
+    """
+    try:
+        fl, fv, fq = (U.factor(u, k) for u, k in ((length_unit, "length"),
+                                                   (velocity_unit, "velocity"),
+                                                   (flow_unit, "volume_flow")))
+    except InputError as e:
+        raise InputError(e.message, argument="units") from None
+    pos = np.asarray(position, dtype=float) * fl
+    vel = np.asarray(velocity, dtype=float) * fv
+    t = _profiles.traverse(pos, vel, shape=shape, size=None if size is None else size * fl,
+                           width=None if width is None else width * fl)
+    return TraverseResult(t.mean_velocity / fv, t.beta, t.flow / fq, t.area, velocity_unit,
+                          flow_unit, t.warnings)
+
+
+def _relative_of(u):
+    """(number, relative?) of an uncertainty given as a number or a text "1 %"."""
+    if isinstance(u, str):
+        text = u.strip()
+        if text.endswith("%"):
+            try:
+                return float(text[:-1]), True
+            except ValueError:
+                pass
+        raise InputError(f"expected a number or a percentage such as '1 %' (got "
+                         f"{B.describe(u)})", argument="uncertainty")
+    return _number(u, "uncertainty"), False
+
+
+def _port_uncertainties(ports):
+    """(rows without their u_ keys, [(port index, column, u)])."""
+    cols = _columns(ports)
+    plain, found = {}, []
+    for key, values in cols.items():
+        if str(key).lower().startswith("u_"):
+            col = B.resolve_header(str(key)[2:])
+            for i, u in enumerate(values):
+                if u is not None and u != "":
+                    found.append((i, col, u))
+        else:
+            plain[key] = values
+    return plain, found
+
+
+class UncertaintyResult:
+    """GUM and Monte Carlo uncertainty of a problem's loads (SI inside, answers in units)."""
+
+    def __init__(self, propagation, units=None):
+        self.propagation = propagation
+        self._units = units
+
+    @property
+    def names(self) -> tuple:
+        """The outputs' names."""
+        return tuple(n for n, _ in self.propagation.names)
+
+    def values(self, units=None) -> dict:
+        """name -> dict(value, u, mc_mean, mc_u, low, high, validated, unit) in ``units``."""
+        us = U.UnitSystem(self._units if units is None else units)
+        p, out = self.propagation, {}
+        for t, (name, kind) in enumerate(p.names):
+            conv = lambda x: float(us.out(x, kind))          # noqa: E731  (linear kinds)
+            row = dict(value=conv(p.gum.value[t]), u=conv(p.gum.u[t]), unit=us.label(kind))
+            if p.mc is not None:
+                row.update(mc_mean=conv(p.mc.mean[t]), mc_u=conv(p.mc.u[t]),
+                           low=conv(p.mc.low[t]), high=conv(p.mc.high[t]),
+                           validated=bool(p.validated[t]))
+            out[name] = row
+        return out
+
+    def line(self, name="force on body x", units=None, k=2.0) -> str:
+        """"force on body x 2,953 +- 61 N (k = 2)": the GUM estimate and U = k u."""
+        v = self.values(units)[name]
+        return _propagate.line(name, v["value"], v["u"], v["unit"], k)
+
+    def budget(self, name="force on body x", units=None) -> list:
+        """(input, sensitivity [SI], contribution |c u| [output unit]) largest first."""
+        us = U.UnitSystem(self._units if units is None else units)
+        kind = dict(self.propagation.names)[name]
+        return [(label, c, float(us.out(x, kind)))
+                for label, c, x in self.propagation.budget(name)]
+
+    def report(self, units=None) -> str:
+        """One line per output, then the budget of the force on the body x."""
+        lines = [self.line(n, units) for n in self.names]
+        lines += ["", "budget of force on body x (largest first):"]
+        lines += [f"  {label:40s} {x:.4g}" for label, _, x in self.budget(units=units)]
+        return "\n".join(lines)
+
+
+def _uncertain_inputs(pb, found, uncertainty, cv_uncertainty, cv_typed, cv_unit, settings):
+    inputs = []
+    names = pb.table.names
+    for i, col, u in found:
+        x, rel = _relative_of(u)
+        kind = S.COLUMNS[col].kind if col in S.COLUMNS else None
+        fac = U.factor(pb.table.units.get(col), kind) if kind not in (None, "ratio") else 1.0
+        inputs.append(_propagate.port_input(pb, i, col, x, rel, fac,
+                                            f"port {names[i]}, {col}"))
+    for key, u in (uncertainty or {}).items():
+        if isinstance(key, tuple):
+            label, col = key
+            if label not in names:
+                raise InputError(f"no port labelled {label!r}; ports: {', '.join(names)}",
+                                 argument="uncertainty")
+            col = B.resolve_header(col)
+            x, rel = _relative_of(u)
+            kind = S.COLUMNS[col].kind
+            fac = U.factor(pb.table.units.get(col), kind) if kind not in (None, "ratio") \
+                else 1.0
+            inputs.append(_propagate.port_input(pb, names.index(label), col, x, rel, fac,
+                                                f"port {label}, {col}"))
+            continue
+        keys = _KEYWORDS[key][0] if key in _KEYWORDS else (key,)
+        values = [u] if len(keys) == 1 else list(u)
+        for k, uu in zip(keys, values):
+            if k not in S.SETTINGS:
+                raise InputError(f"unknown input; give a settings keyword or setting name, "
+                                 f"or (port label, column)", argument=f"uncertainty {key!r}")
+            x, rel = _relative_of(uu)
+            kind = S.SETTINGS[k].kind
+            unit_kw = _KEYWORDS[S.keyword_of(k)][1]
+            unit = settings.get(unit_kw, _UNIT_KEYWORDS[unit_kw][0]) if unit_kw else None
+            fac = U.factor(unit, kind) if kind not in (None, "ratio") else 1.0
+            try:
+                inputs.append(_propagate.setting_input(pb, k, x, rel, fac, f"setting {k}"))
+            except InputError as e:
+                raise InputError(e.message, argument=f"uncertainty {key!r}") from None
+    if cv_uncertainty is not None:
+        comps = np.atleast_1d(np.asarray(cv_uncertainty, dtype=object))
+        if comps.size == 1:
+            comps = np.array([comps[0], 0.0, 0.0], dtype=object)
+        for c, uu in enumerate(comps):
+            x, rel = _relative_of(uu)
+            if x or rel:
+                inputs.append(_propagate.cv_input(c, cv_typed[c], x, rel, 1.0,
+                                                  f"cv_velocity {'xyz'[c]}"))
+    return inputs
+
+
+@_document
+def load_uncertainty(ports, cv_velocity, *, uncertainty=None, cv_uncertainty=None,
+                     units=None, cv_unit="m/s", trials=100_000, seed=None, monte_carlo=True,
+                     **settings) -> UncertaintyResult:
+    """Standard uncertainty of the loads (force and moment on the body, support loads, power,
+    shaft torque, factored loads) from the standard uncertainties of the inputs.
+
+    .. math:: u_c^2(y) = \\sum_i \\left(\\frac{\\partial f}{\\partial x_i}\\right)^2 u^2(x_i)
+
+    First order per the GUM, with a numerical Jacobian in one batched call of the kernel, and
+    Monte Carlo per JCGM 101 through the same kernel; inputs uncorrelated. The factored loads
+    are the loads at this CV velocity times dynamic_factor x load_factor.
+
+    Parameters
+    ----------
+    ports : list of dict or dict of lists
+        Port rows as in :func:`solve`; a key ``u_<column>`` gives that column's standard
+        uncertainty in the column's unit, or relative as a text "1 %".
+    cv_velocity : float or array_like (3,)
+        CV velocity [cv_unit].
+    uncertainty : dict, optional
+        More uncertainties: (port label, column) -> u, and settings keyword or setting name
+        -> u in its unit keyword's unit (a vector keyword: three components), or "x %".
+    cv_uncertainty : float, str or array_like (3,), optional
+        Standard uncertainty of the CV velocity [cv_unit] (a float: of its x component).
+    units : None, str or dict
+        Units of the port rows (see :func:`problem`) and of the answers.
+    cv_unit : str
+        Unit of ``cv_velocity``.
+    trials : int
+        Monte Carlo trials M [-] (default 10^5).
+    seed : int, optional
+        Seed of the Monte Carlo generator [-] (the same seed, the same result).
+    monte_carlo : bool
+        False: the GUM result only.
+    {SETTINGS}
+
+    Returns
+    -------
+    UncertaintyResult
+
+    Examples
+    --------
+    A jet on a vane turning it through 150 degrees, the jet's speed known to 1 %:
+
+    >>> r = load_uncertainty(
+    ...     [{"role": "in", "area": 2e-3, "density": 998.0, "speed": 30.0, "u_speed": "1 %"},
+    ...      {"role": "out", "frame": "rel", "area": 2e-3, "density": 998.0, "speed": 20.0,
+    ...       "angle": 150.0}], 10.0, seed=1)
+    >>> r.line("force on body x")    # rho A (V-U)^2 (1 - cos 150): 2 rho A (V-U) V u_V
+    'force on body x 1,490 ± 48 N (k = 2)'
+
+    Reference: JCGM 100:2008 (GUM), sec. 5.1.2; JCGM 101:2008, sec. 7 and 8.
+    """
+    plain, found = _port_uncertainties(ports)
+    pb = problem(plain, units=units, **settings)
+    v = np.asarray(cv_velocity, dtype=float)
+    typed = np.array([float(v), 0.0, 0.0]) if v.ndim == 0 else v.reshape(3)
+    try:
+        motion = _propagate.motion_of(typed, cv_unit, pb.settings.wheel_radius)
+    except InputError as e:
+        raise InputError(e.message, argument="cv_unit") from None
+    inputs = _uncertain_inputs(pb, found, uncertainty, cv_uncertainty, typed, cv_unit,
+                               settings)
+    return UncertaintyResult(_propagate.propagate(pb, inputs, motion, trials=trials,
+                                                  seed=seed, monte_carlo=monte_carlo),
+                             units)

@@ -197,6 +197,11 @@ class PortTable:
     headers: dict = field(default_factory=dict)  #: column key -> header text as typed
     #: plausibility warnings: (port index, column key, text), the value shown in SI
     notes: tuple = ()
+    #: the numeric columns as read, SI (NaN blank): the inputs an uncertainty perturbs
+    columns: dict = field(default_factory=dict)
+    #: standard uncertainties of the ``u_<column>`` columns: (port, column key, value,
+    #: relative, header as typed); value SI, or percent where relative
+    uncertainties: tuple = ()
 
     @property
     def n(self) -> int:
@@ -949,6 +954,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
     >>> t.closure, t.ports.velocity[1].round(4).tolist()
     (('given', 'solve', 'solve'), [0.766, 0.6428, 0.0])
     """
+    table, units, u_columns = split_uncertainties(table, units)
     t = _read(table, units, headers, si)
     names, roles, frame_words, frames, kinds = _words_of(t)
     _check_bounds(t)
@@ -963,7 +969,7 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
     flow_set = (np.array([c == "solve" for c in kinds], dtype=bool) | ~np.isnan(share)
                 | (closed & np.isnan(area) & np.isnan(mass_flow)) if closures else None)
     try:
-        ports = Ports.build(**_plain(t), area=area, density=density, velocity=velocity,
+        ports = Ports.build(**_profiled(t), area=area, density=density, velocity=velocity,
                             relative=frames, normal=nvec, role=roles, mass_flow=mass_flow,
                             names=names, flow_by_closure=flow_set,
                             position=_vector(t, "position", optional=True))
@@ -973,7 +979,8 @@ def build(table: dict, units: dict | None = None, *, closures: bool = True,
                      source=tuple(t.words("source")), share=share,
                      units={k: t.units.get(k) for k in t.cells},
                      flow_by_closure=np.zeros(t.n, dtype=bool) if flow_set is None else flow_set,
-                     headers=t.headers, notes=_notes(t, density, velocity))
+                     headers=t.headers, notes=_notes(t, density, velocity), columns=dict(t.si),
+                     uncertainties=uncertainties_of(u_columns, t.n, si))
 
 
 def _words_of(t: _Table) -> tuple:
@@ -1157,3 +1164,84 @@ def history_options(settings: Settings, door: str = "sheet") -> dict:
                 brake_distance=s.brake_distance, target_speed=s.target_speed,
                 points=s.history_rows, rtol=s.integration_tolerance, max_steps=s.step_budget,
                 max_seconds=s.time_budget)
+
+
+# --------------------------------------------------------------------------------------------
+# measured inputs (issue 22): named velocity profiles, u_<column> uncertainty columns
+# --------------------------------------------------------------------------------------------
+def _profiled(t: _Table) -> dict:
+    """:func:`_plain` with beta from the ``profile`` column where a profile is named."""
+    plain = _plain(t)
+    if "profile" not in t.cells:
+        return plain
+    from .core.profiles import named_profile
+    beta = plain["beta"].copy()
+    for i, word in enumerate(t.words("profile")):
+        if not word:
+            continue
+        if not np.isnan(beta[i]):
+            raise InputError("give beta or a profile, not both (the profile gives beta)",
+                             port=i, field="profile")
+        try:
+            beta[i] = named_profile(word).beta
+        except InputError as e:
+            raise InputError(e.message, port=i, field="profile") from None
+    plain["beta"] = beta
+    return plain
+
+
+def split_uncertainties(table: dict, units: dict | None):
+    """(the table without its ``u_<column>`` columns, their units removed too, and those
+    columns as (header, column text, values, unit))."""
+    found = [(k, S.uncertainty_of(k)) for k in table]
+    found = [(k, c) for k, c in found if c is not None]
+    if not found:
+        return table, units, ()
+    units = units or {}
+    cols = tuple((k, c, table[k], units.get(k)) for k, c in found)
+    drop = {k for k, _ in found}
+    return ({k: v for k, v in table.items() if k not in drop},
+            {k: u for k, u in units.items() if k not in drop}, cols)
+
+
+def uncertainties_of(columns, n: int, si: bool) -> tuple:
+    """The standard uncertainties of ``u_<column>`` columns (:func:`split_uncertainties`):
+    (port, column key, value, relative, header), value in SI or, relative (unit ``%``), in
+    percent. A blank unit cell beside a value is refused unless SI is stated (then the
+    column's default unit); angles blank: degrees, as their columns."""
+    out = []
+    for header, col, values, unit in columns:
+        try:
+            key = resolve_header(col)
+        except InputError as e:
+            raise InputError(e.message, field=str(header)) from None
+        c = COLUMNS[key]
+        if key not in S.UNCERTAIN_COLUMNS:
+            why = "a text column has no uncertainty" if c.kind is None else \
+                f"the uncertainty of {key} is not propagated"
+            raise InputError(f"{why}; uncertainties apply to {', '.join(S.UNCERTAIN_COLUMNS)}",
+                             field=str(header))
+        if len(values) != n:
+            raise InputError("every column needs one value per port", field=str(header))
+        rows = [(i, v) for i, v in enumerate(values) if not is_blank(v)]
+        relative = isinstance(unit, str) and unit.strip() == S.RELATIVE_UNIT
+        factor = 1.0
+        if not relative and c.kind != "ratio":
+            if is_blank(unit) and rows and not si and c.needs_unit:
+                raise InputError(f"the unit cell is blank beside a value (ports row "
+                                 f"{rows[0][0] + 3}); type the uncertainty's unit ("
+                                 f"{U.quantity(c.kind).examples}) or % for a relative one",
+                                 field=f"{header} unit")
+            try:
+                factor = U.factor(None if is_blank(unit) else unit, c.kind)
+            except InputError as e:
+                raise InputError(f"{e.message}; or % for a relative uncertainty",
+                                 field=f"{header} unit") from None
+        for i, v in rows:
+            x = number(v, i, str(header))
+            if x < 0:
+                raise InputError(f"a standard uncertainty must be >= 0 (got {x:g}"
+                                 f"{' %' if relative else ''}); give its size", port=i,
+                                 field=str(header))
+            out.append((i, key, x if relative else x * factor, relative, str(header)))
+    return tuple(out)

@@ -266,10 +266,14 @@ COLUMNS = {c.key: c for c in (
                                        "(default 101.325 kPa + p_gauge)",
            ("absolute_pressure",), check=POSITIVE, sheet=32, sheet_group="fluid",
            sheet_unit="kPa"),
+    Column("profile", None, "named velocity profile giving beta instead of typing it: "
+                            "uniform (1), laminar (4/3), turbulent (power law n = 7, 1.0204) "
+                            "or power <n>; the port's speed is its mean velocity",
+           sheet=33, sheet_group="measured"),
 )}
 
 #: Blocks of the template's port table, in the order they are drawn.
-SHEET_GROUPS = ("ports", "closure", "position", "flow", "nozzle", "fluid")
+SHEET_GROUPS = ("ports", "closure", "position", "flow", "nozzle", "fluid", "measured")
 #: The blocks the template shows today (the nozzle and fluid blocks are drawn by the template
 #: issue; their columns are declared and ordered here already).
 TEMPLATE_GROUPS = ("ports", "closure", "position", "nozzle", "fluid")
@@ -438,6 +442,45 @@ SETTING_VECTORS = {g: tuple(keys) for g, keys in SETTING_VECTORS.items()}
 UNITS_SETTING = "units"
 
 
+# --------------------------------------------------------------------------------------------
+# measured inputs: standard uncertainties (issue 22)
+# --------------------------------------------------------------------------------------------
+#: A port-table header ``u_<column>`` holds that column's standard uncertainty, in the unit of
+#: its own unit cell (a unit of the column's kind, or ``%``: relative to the value).
+UNCERTAINTY_PREFIX = "u_"
+#: The unit word of a relative uncertainty (of the value's magnitude).
+RELATIVE_UNIT = "%"
+#: Port columns whose uncertainty is propagated to the loads.
+UNCERTAIN_COLUMNS = ("speed", "angle", "tilt", "vx", "vy", "vz", "supply_pressure",
+                     "velocity_coef", "area", "diameter", "contraction_coef", "density",
+                     "mass_flow", "volume_flow", "beta", "p_gauge", "height", "loss", "rx",
+                     "ry", "rz")
+#: Settings whose uncertainty is propagated.
+UNCERTAIN_SETTINGS = ("fluid_mass", "gx", "gy", "gz", "ref_x", "ref_y", "ref_z", "cg_x",
+                      "cg_y", "cg_z", "wheel_radius", "dynamic_factor", "load_factor")
+#: Names of the CV velocity's components in an uncertainty table (in the CV velocity's unit).
+CV_UNCERTAINTY = ("cv_x", "cv_y", "cv_z")
+#: Blank cells that mean a value for an uncertain port input (the blank rule of its column).
+UNCERTAIN_BLANK = {"angle": 0.0, "tilt": 0.0, "vx": 0.0, "vy": 0.0, "vz": 0.0, "p_gauge": 0.0,
+                   "height": 0.0, "rx": 0.0, "ry": 0.0, "rz": 0.0, "beta": 1.0,
+                   "velocity_coef": 1.0, "contraction_coef": 1.0}
+
+
+def uncertainty_of(header):
+    """The column a ``u_<column>`` header gives the uncertainty of (its text after the
+    prefix, as typed), or None for any other header.
+
+    >>> uncertainty_of("u_speed"), uncertainty_of("U_Area"), uncertainty_of("speed")
+    ('speed', 'Area', None)
+    """
+    if type(header) is not str:
+        return None
+    h = header.strip()
+    if h[:len(UNCERTAINTY_PREFIX)].lower() == UNCERTAINTY_PREFIX and len(h) > 2:
+        return h[len(UNCERTAINTY_PREFIX):].strip()
+    return None
+
+
 def _norm(name) -> str:
     return str(name).strip().lower().replace(" ", "").replace("_", "").replace("-", "")
 
@@ -463,7 +506,7 @@ def sheet_columns(groups=TEMPLATE_GROUPS) -> tuple:
     >>> sheet_columns()[:6]
     ('port', 'role', 'frame', 'area', 'density', 'speed')
     >>> sheet_columns(SHEET_GROUPS)[-3:]
-    ('fluid', 'temperature', 'abs_pressure')
+    ('temperature', 'abs_pressure', 'profile')
     """
     cols = [c for c in COLUMNS.values() if c.sheet is not None and c.sheet_group in groups]
     return tuple(c.key for c in sorted(cols, key=lambda c: c.sheet))

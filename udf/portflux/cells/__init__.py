@@ -32,6 +32,7 @@ from . import _checksum as H
 from . import _functions as F
 from . import _history as HI
 from . import _speeds as S
+from . import _measured as M
 from ._bounds import entry as _entry
 from ._grid import CellError
 from ._inputs import clear_caches
@@ -923,6 +924,148 @@ def PFX_HISTORYSUMMARY(ports, settings, direction=None, units=None):
     Reference: moving-vane momentum balance, White, *Fluid Mechanics*, sec. 3.4 (from memory).
     """
     return _guarded("PFX_HISTORYSUMMARY", HI.historysummary, ports, settings, direction, units)
+
+
+# --------------------------------------------------------------------------------------------
+# measured inputs: velocity traverses, named profiles, uncertainty of the loads (issue 22)
+# --------------------------------------------------------------------------------------------
+ARG_DOCS.update({
+    "traverse": "Traverse range of 2 columns: row 1 names (e.g. r, u), row 2 units (e.g. mm, "
+                "m/s), then one row per point: radius from the centre (round) or height from "
+                "one wall (rectangular), and the velocity there.",
+    "shape": "round (default: positions are radii) or rectangular (heights across the port).",
+    "size": "Radius (round) or height (rectangular) of the port, in size_unit; blank: the last "
+            "position is the wall.",
+    "size_unit": "Length unit of size and width (m, mm, in, ft); required with either.",
+    "width": "Width of a rectangular port, in size_unit; blank: flow per 1 m of width.",
+    "profile": "Named velocity profile: uniform, laminar, turbulent (power law n = 7) or "
+               "power <n>.",
+    "uncertainties": "Optional rows input | u | unit: a setting (gz, fluid_mass, ...), cv_x, "
+                     "cv_y, cv_z, or <port>.<column>; unit of the input's kind or % "
+                     "(relative). The port table may also carry u_<column> columns.",
+    "trials": "Monte Carlo trials (default 100000, at most 1000000).",
+    "seed": "Seed of the Monte Carlo generator, a whole number (default 0: the same numbers "
+            "at every recalculation).",
+    "load": "Which load: force on body x (default), moment on body z, power, ... (the "
+              "first column of PFX_LOADUNCERTAINTY).",
+    "coverage": "Coverage factor k of the expanded uncertainty U = k u (default 2).",
+})
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("profile")
+def PFX_PROFILE(profile):
+    """Momentum-flux factor beta and mean / maximum velocity of a named velocity profile
+    (2 x 1: beta, V/U).
+
+    beta = (n+1)(2n+1)^2 / (4 n^2 (n+2)) and V/U = 2 n^2 / ((n+1)(2n+1)) for the power law
+    u = U (1 - r/R)^(1/n); laminar 4/3 and 1/2; uniform 1 and 1.
+
+    >>> PFX_PROFILE("laminar")
+    [[1.3333333333333333], [0.5]]
+
+    Source: White, *Fluid Mechanics*, sec. 3.4 and 6.6 (from memory); derivations in
+    portflux.core.profiles.
+    """
+    return _guarded("PFX_PROFILE", M.profile, profile)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("traverse", "shape", "size", "size_unit", "width", "units")
+def PFX_TRAVERSE(traverse, shape=None, size=None, size_unit=None, width=None, units=None):
+    """Momentum-flux factor beta, mean velocity and volume flow of a measured velocity
+    traverse (4 x 3: label, value, unit; the last row warnings or ok).
+
+    Q = integral of u dA, V = Q / A, beta = integral of u^2 dA / (A V^2), dA = 2 pi r dr
+    (round) or b dy (rectangular); the velocity is linear between points and each annulus is
+    integrated exactly; a round traverse is extended to the centre with its first velocity,
+    and to the wall (size) with 0.
+
+    >>> r = [i * 2.5 for i in range(21)]                     # laminar, 21 radii: beta -> 4/3
+    >>> t = (("r", "u"), ("mm", "m/s")) + tuple((x, 2.0 * (1 - (x / 50) ** 2)) for x in r)
+    >>> b = PFX_TRAVERSE(t)
+    >>> round(b[0][1], 3), round(b[1][1], 3), b[3][1]
+    (1.334, 0.999, 'ok')
+
+    Source: White, *Fluid Mechanics*, sec. 3.4 (from memory); the rule: common practice, no
+    source.
+    """
+    return _guarded("PFX_TRAVERSE", M.traverse, traverse, shape, size, size_unit, width, units)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "units", "settings", "uncertainties", "trials", "seed")
+def PFX_LOADUNCERTAINTY(ports, cv_velocity, units=None, settings=None, uncertainties=None,
+                        trials=None, seed=None):
+    """Uncertainty of every load (force and moment on the body, support loads, power, torque,
+    factored loads): GUM first order and Monte Carlo, one row per output (10 columns).
+
+    u_c(y)^2 = sum (c_i u(x_i))^2 with c_i = dy/dx_i (central differences, one batched call
+    of the model); Monte Carlo: Gaussian inputs, mean, standard deviation and the 2.5 % and
+    97.5 % quantiles; "GUM valid" compares the intervals (JCGM 101, sec. 8, one digit).
+
+    >>> t = (("port", "role", "frame", "area", "density", "speed", "angle", "u_speed"),
+    ...      (None, None, None, "m^2", "kg/m^3", "m/s", "deg", "%"),
+    ...      ("jet", "in", "abs", 0.002, 998.0, 30.0, 0.0, 1.0),
+    ...      ("exit", "out", "rel", 0.002, 998.0, 20.0, 150.0, None))
+    >>> b = PFX_LOADUNCERTAINTY(t, 10.0, None, None, None, 1000)
+    >>> b[1][0], round(b[1][2], 2)                # 2 rho A (V - U) u_V
+    ('force on body x', 23.95)
+
+    Source: JCGM 100:2008 (GUM), sec. 5.1.2; JCGM 101:2008, sec. 7 and 8.
+    """
+    return _guarded("PFX_LOADUNCERTAINTY", M.load_uncertainty, ports, cv_velocity, units,
+                    settings, uncertainties, trials, seed)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "units", "settings", "uncertainties", "load")
+def PFX_UNCERTAINTYBUDGET(ports, cv_velocity, units=None, settings=None, uncertainties=None,
+                          load=None):
+    """Uncertainty budget of one load: each input's contribution |c_i u(x_i)| and its share
+    of u_c^2, largest first (input, contribution, share [%], unit).
+
+    Contribution = |dy/dx_i| u(x_i) (first order, central differences in one batched call).
+
+    >>> t = (("port", "role", "frame", "area", "density", "speed", "angle", "u_speed"),
+    ...      (None, None, None, "m^2", "kg/m^3", "m/s", "deg", "m/s"),
+    ...      ("jet", "in", "abs", 0.002, 998.0, 30.0, 0.0, 0.3),
+    ...      ("exit", "out", "rel", 0.002, 998.0, 20.0, 150.0, None))
+    >>> PFX_UNCERTAINTYBUDGET(t, 10.0)[1][0]
+    'ports row 3 (jet), speed'
+
+    Source: JCGM 100:2008 (GUM), sec. 5.1.3 (sensitivity coefficients).
+    """
+    return _guarded("PFX_UNCERTAINTYBUDGET", M.uncertainty_budget, ports, cv_velocity, units,
+                    settings, uncertainties, load)
+
+
+@_excel_help
+@xw.func(category=CATEGORY)
+@_documented("ports", "cv_velocity", "units", "settings", "uncertainties", "load",
+             "coverage")
+def PFX_UNCERTAINTYLINE(ports, cv_velocity, units=None, settings=None, uncertainties=None,
+                        load=None, coverage=None):
+    """One load with its expanded uncertainty as text: "force on body x 2,953 +- 61 N
+    (k = 2)", both rounded to the uncertainty's two significant figures.
+
+    U = k u_c(y) with u_c from the law of propagation of uncertainty (first order).
+
+    >>> t = (("port", "role", "frame", "area", "density", "speed", "angle", "u_speed"),
+    ...      (None, None, None, "m^2", "kg/m^3", "m/s", "deg", "m/s"),
+    ...      ("jet", "in", "abs", 0.002, 998.0, 30.0, 0.0, 0.3),
+    ...      ("exit", "out", "rel", 0.002, 998.0, 20.0, 150.0, None))
+    >>> PFX_UNCERTAINTYLINE(t, 10.0)
+    'force on body x 1,490 ± 48 N (k = 2)'
+
+    Source: JCGM 100:2008 (GUM), sec. 6.2 and 7.2.6.
+    """
+    return _guarded("PFX_UNCERTAINTYLINE", M.uncertainty_line, ports, cv_velocity, units,
+                    settings, uncertainties, load, coverage)
 
 
 PUBLIC = tuple(sorted(n for n in dir() if n.startswith("PFX_")))

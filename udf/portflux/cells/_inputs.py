@@ -98,6 +98,13 @@ def _header(head) -> tuple[dict, dict, tuple]:
             blank.append(j)
             continue
         _text_cell(h, where, "a column name (text)")
+        if S.uncertainty_of(h) is not None:          # u_<column>: read by the builder
+            key = h.strip()
+            if key in cols:
+                raise CellError(f"ports row 1: columns {cols[key] + 1} and {j + 1} are both "
+                                f"{key!r}; keep one")
+            cols[key], typed[key] = j, key
+            continue
         try:
             key = B.resolve_header(h)
         except InputError as e:
@@ -120,6 +127,9 @@ def _unit_row(unit_row, cols, typed) -> tuple[dict, bool]:
             continue
         _text_cell(u, where, "a unit (text) or a blank cell")
         word = u.strip()
+        if key not in S.COLUMNS:                      # a u_<column> column's unit or %
+            units[key] = word
+            continue
         if word.lower() == S.SI_WORD:
             if S.COLUMNS[key].kind is None:
                 si = True
@@ -170,7 +180,7 @@ def _place(e: InputError, typed: dict) -> str:
 
 def _missing_unit(e, typed) -> str:
     q = U.quantity(e.kind)
-    text_cols = [typed[k] for k in typed if S.COLUMNS[k].kind is None]
+    text_cols = [typed[k] for k in typed if k in S.COLUMNS and S.COLUMNS[k].kind is None]
     under = f"under {text_cols[0]}" if text_cols else "of a text column (port, role, ...)"
     return (f"ports row 2, {typed.get(e.key, e.key)}: the unit cell is blank beside a value "
             f"(ports row {e.port + FIRST_PORT_ROW}); type its unit ({_a(e.kind)}, e.g. "

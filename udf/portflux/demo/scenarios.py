@@ -25,6 +25,8 @@ class Scenario:
     #: the first outlet)
     note: str = ""
     report: dict = field(default_factory=dict)     #: Report title block: project, case, ...
+    #: measured inputs: rows (input, standard uncertainty, unit or %) of the uncertainty block
+    uncertainties: tuple = ()
 
 
 def carriage_vane():
@@ -50,6 +52,9 @@ def carriage_vane():
                   "gz": (-32.174049, "ft/s^2"), "cg_x": (0.0, "ft"), "cg_y": (1.6, "ft")},
         sweep=dict(low=0.0, high=110.0, unit="ft/s", direction=0.0, force=500.0, units="US"),
         triangle_port=2,
+        uncertainties=(("nozzle jet.speed", 1.0, "%"), ("nozzle jet.area", 0.5, "%"),
+                       ("vane exit.angle", 0.5, "deg"), ("cv_x", 0.3, "ft/s"),
+                       ("fluid_mass", 0.004, "slug")),
         note="Invented scenario for the demo: a 2.5 in jet at 110 ft/s, carriage at 30 ft/s, "
              "135 degree frictionless vane throwing 10 degrees up. Check all results against "
              "your own codes before use.")

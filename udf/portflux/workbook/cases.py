@@ -25,7 +25,7 @@ INDEX_TOP = 4
 #: Output and expected values: six decimals (the comparison itself uses full precision).
 CHECK_FORMAT = "#,##0.000000;-#,##0.000000"
 INDEX_HEADER = ("case", "function", "output", "expected", "tolerance", "result", "source")
-BLOCKS_TOP = 72
+BLOCKS_TOP = 84
 BLOCK_WIDTH = 10
 
 WHITE = "F. M. White, Fluid Mechanics, sec. 3.4, moving-vane analysis (from memory)"

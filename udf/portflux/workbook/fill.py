@@ -86,6 +86,7 @@ def apply(wb, sc: Scenario, lay) -> None:
             vref, uref = (cell(c, T.SETTINGS_TOP + r) for c in (2, 3))
         ws[_cell_name(vref)] = value
         ws[_cell_name(uref)] = unit
+    _uncertainties(ws, sc, lay)
     sw = wb[T.SWEEP]
     for name, value in sc.sweep.items():
         if name not in lay.sweep_cells or name not in T.SWEEP_INPUTS:
@@ -102,3 +103,20 @@ def apply(wb, sc: Scenario, lay) -> None:
         ws["A1"] = sc.title
     if sc.note:
         ws.cell(row=T.NOTE_ROW, column=1).value = sc.note
+
+
+def _uncertainties(ws, sc: Scenario, lay) -> None:
+    """The scenario's measured inputs (rows input | u | unit) in the uncertainty block; the
+    template's own are for its own ports, so a scenario without any leaves the block blank
+    ("not asked")."""
+    u = lay.uncertainty
+    if not u:
+        return
+    given = tuple(sc.uncertainties or ())
+    if len(given) > u["rows"]:
+        raise InputError(f"the template holds {u['rows']} uncertainty rows; the scenario has "
+                         f"{len(given)}", argument="uncertainties")
+    for i in range(u["rows"]):
+        row = given[i] if i < len(given) else (None, None, None)
+        for j, v in enumerate(row):
+            ws.cell(row=u["first"] + i, column=1 + j).value = v

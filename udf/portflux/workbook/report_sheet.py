@@ -277,6 +277,12 @@ def draw_report(ws, lay, cv_sheet, sweep_sheet, checks_sheet, index_top, ncases,
     cells = _title_block(ws, lay, cv_sheet)
     r = _inputs(ws, lay, cv_sheet, sweep_sheet, 8, max_ports)
     r = _results(ws, lay, cv_sheet, sweep_sheet, r)
+    if lay.uncertainty:                  # the uncertainty of the force (measured inputs)
+        put(ws, 1, r - 1, "uncertainty", font=BOLD)
+        line = C(lay.uncertainty["line"])
+        formula(ws, 2, r - 1, f'=IF({line}="","",{line})', font=BOLD)
+        _merge(ws, r - 1, 2, NCOL)
+        r += 1
     r = _envelope(ws, lay, sweep_sheet, r)
     p = lay.panel
     put(ws, 1, r, "status", font=BOLD)

@@ -50,6 +50,7 @@ from .. import schema as S, units as U
 from ..cautions import CAUTION_LINES
 from ..units import UnitSystem
 from . import carriage, cases, cases_closures, cases_history
+from . import cases_measured, uncertainty_block
 from .drawing import (BIG_FONT, BOLD, COUNT, INPUT_FILL, ITALIC, NUMBER, OUTPUT_FILL,
                       PANEL_FILL, RATIO, RED_BOLD, SMALL, TITLE_FONT, array, axes_visible,
                       cell, count_when, cv_row, end_of_range, formula, port_table,
@@ -86,6 +87,7 @@ LARGEST = {
     "PFX_SPEEDHISTORY": (carriage.HISTORY_ROWS + 1, 13),
     "PFX_HISTORYSUMMARY": (13, 3),
 }
+LARGEST.update(uncertainty_block.LARGEST)
 
 # Where shown blocks sit: (column, row, rows, columns). cli.py and the tests read these.
 SUMMARY_AT = (1, 50, 35, 2)        #: summary block (label | value) on 'Control volume'
@@ -343,6 +345,7 @@ class Layout:
     port_mirror: tuple = ()       # raw rows: the port table's rows, blanks as empty texts
     triangle: dict = field(default_factory=dict)         # the velocity triangle's cells
     carriage: dict = field(default_factory=dict)         # the 'Carriage' sheet's cells
+    uncertainty: dict = field(default_factory=dict)      # the uncertainty block's cells
 
 
 def _input_check(ws, lay, nports_cols):
@@ -536,6 +539,7 @@ def _control_volume(wb, lay: Layout):
     last = rw + 1 + WARNING_ROWS
     lay.panel["warnings"] = tuple(cell(1, rw + 2 + i) for i in range(WARNING_ROWS))
     last = _support_loads(ws, lay, raw, args, Uq, Sq, last + 2)
+    last = uncertainty_block.draw(ws, lay, raw, args, Uq, Sq, last + 2)
 
     _velocity_triangle(ws, 17, top - 1, top, lay)
     print_setup(ws, rng(1, 1, PORT_LEFT + ncol - 1, last), landscape=True, title_rows="1:3",
@@ -938,7 +942,7 @@ def _on(sheet, text):
 def _checks(wb, lay):
     ws = wb.create_sheet(CHECKS)
     found = cases.write_cases(ws, cases.PARTS + cases_closures.PARTS + cases.LOAD_PARTS
-                              + cases_history.PARTS)
+                              + cases_history.PARTS + cases_measured.PARTS)
     last = cases.INDEX_TOP + len(found)
     print_setup(ws, rng(1, 1, len(cases.INDEX_HEADER), last), landscape=True,
                 title_rows=f"{cases.INDEX_TOP}:{cases.INDEX_TOP}", fit_height=1)
