@@ -18,11 +18,10 @@ import pytest
 ROOT = Path(__file__).resolve().parents[1] / "udf" / "portflux"
 
 #: Layer of each top-level part of the package (lower may not import higher).
-LAYERS = {"core": 0, "units": 1, "schema": 1, "excel": 1, "cautions": 1, "fluids": 1, "builder": 2, "propagate": 2,
-          "api": 3, "cells": 3, "workbook": 4, "addins": 4, "demo": 4,
+LAYERS = {"core": 0, "units": 1, "schema": 1, "excel": 1, "cautions": 1, "fluids": 1, "builder": 2,
+          "propagate": 2, "api": 3, "cells": 3, "workbook": 4, "addins": 4, "demo": 4,
           "cli": 5, "bench": 5, "bench_engine": 5, "bench_addin": 5,
           "__main__": 5}
-
 
 
 def module_name(path: Path) -> str:

@@ -31,6 +31,7 @@ import pytest
 
 from portflux import cells
 from portflux.workbook import worksheet_functions
+from portflux.workbook.cases import BLOCKS_TOP
 from portflux.workbook.recalc import Recalculator
 from workbook_wiring import (UREG, Ref, array_members, formula_cells, is_number, is_text,
                              pfx_calls, shown_grids, unit_of_text)
@@ -313,7 +314,7 @@ def _compared_cells(grids, computed):
                 continue
             v = g.get(r, c)
             ident = (sheet,) + g.label(r, c)
-            if sheet == CHECKS and r < 70:       # an index row: named by its case
+            if sheet == CHECKS and r < BLOCKS_TOP:   # an index row: named by its case
                 ident = (sheet, str(g.get(r, 1)).lower(), "output")
             if "checksum" in ident[1]:
                 continue           # it is meant to change with every input
@@ -333,7 +334,7 @@ def _check_output(g, r, c):
     head = g.get(4, c)
     if isinstance(head, str) and head.strip().lower() == "output" and r > 4:
         return True
-    return r > 70 and g.get(r, c) is not None and not isinstance(g.get(r, c), str)
+    return r >= BLOCKS_TOP and g.get(r, c) is not None and not isinstance(g.get(r, c), str)
 
 
 def _si(value, unit, radius):

@@ -32,7 +32,7 @@ from ..excel import is_blank
 FIRST_PORT_ROW = 3
 #: Header of the answer of PFX_LOADUNCERTAINTY.
 BLOCK_HEADER = ["output", "value", "u (GUM)", "U (k = 2)", "MC mean", "MC u", "95 % low",
-                "95 % high", "GUM valid", "unit"]
+                "95 % high", "unit", "GUM valid"]
 #: Most trials a cell may ask for (bounds time and memory: about 5 s here).
 MAX_TRIALS = 1_000_000
 
@@ -305,7 +305,7 @@ def load_uncertainty(ports, cv_velocity, units=None, settings=None, uncertaintie
         conv = lambda x: _cell(us.out(x, kind))                   # noqa: E731
         out.append([name, conv(p.gum.value[t]), conv(p.gum.u[t]), conv(2 * p.gum.u[t]),
                     conv(p.mc.mean[t]), conv(p.mc.u[t]), conv(p.mc.low[t]),
-                    conv(p.mc.high[t]), "yes" if p.validated[t] else "no", us.label(kind)])
+                    conv(p.mc.high[t]), us.label(kind), "yes" if p.validated[t] else "no"])
     return out
 
 
