@@ -377,7 +377,9 @@ def write_cases(ws, parts=PARTS):
         out, exp = cell(3, r, absolute=False), cell(4, r, absolute=False)
         if c.tolerance is None:
             put(ws, 5, r, "text")
-            verdict = f'=IF({out}={exp},"PASS","FAIL")'
+            # EXACT, not "=": exact (case too) in every application; LibreOffice 25.2 gave
+            # FALSE for "=" between two equal texts holding "\u00b1" where EXACT gave TRUE
+            verdict = f'=IF(EXACT({out},{exp}),"PASS","FAIL")'
         else:
             put(ws, 5, r, c.tolerance, fill=INPUT_FILL)
             tol = cell(5, r, absolute=False)
