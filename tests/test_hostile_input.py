@@ -236,3 +236,101 @@ def test_hostile_values_in_the_new_port_columns_are_answered_quickly(col, value)
         assert time.perf_counter() - t0 < BOUND_S
         text = out if isinstance(out, str) else " ".join(str(c) for r in out for c in r)
         assert "internal error" not in text and len(text) < 20_000
+
+
+# ---- measured inputs (traverses, profiles, uncertainties) and the carriage's speed history ----
+
+def _measured_payloads(marker):
+    return [f"__import__('pathlib').Path('{marker}').touch()",
+            f"m*__import__('os').system('touch {marker}')",
+            "[open('marker','w')]", "=WEBSERVICE(\"http://127.0.0.1:9/x\")"]
+
+
+def test_no_payload_in_a_traverse_profile_or_uncertainty_cell_runs(tmp_path, monkeypatch):
+    # Every new text a cell hands these functions: input names and unit cells of the
+    # uncertainties range, the traverse's names and units, a profile name, the load's name, a
+    # speed-history setting. If any were evaluated, the marker would appear.
+    monkeypatch.chdir(tmp_path)
+    marker = tmp_path / "marker"
+    vane = (HEAD + ("u_vx",), UNITS + ("%",), JET + (1.0,), EXIT + (None,))
+    for p in _measured_payloads(marker):
+        outs = [C.PFX_LOADUNCERTAINTY(GOOD, 0.0, None, None, ((p, 1.0, "%"),), 200),
+                C.PFX_LOADUNCERTAINTY(GOOD, 0.0, None, None, (("jet.vx", 1.0, p),), 200),
+                C.PFX_UNCERTAINTYBUDGET(vane, 0.0, None, None, None, p),
+                C.PFX_UNCERTAINTYLINE(vane, 0.0, p),
+                C.PFX_TRAVERSE(((p, "u"), ("mm", "m/s"), (0.0, 2.0), (25.0, 1.0), (50.0, 0.0))),
+                C.PFX_TRAVERSE((("r", "u"), (p, "m/s"), (0.0, 2.0), (25.0, 1.0), (50.0, 0.0))),
+                C.PFX_TRAVERSE((("r", "u"), ("mm", "m/s"), (0.0, 2.0), (50.0, 0.0)), p),
+                C.PFX_PROFILE(p), C.PFX_PROFILE("power " + p),
+                C.PFX_SPEEDHISTORY(CLOSED, (("carriage_mass", 50.0, p), ("duration", 1.0, "s"))),
+                C.PFX_HISTORYSUMMARY(CLOSED, ((p, 1.0, "s"),))]
+        for out in outs:
+            text = out if isinstance(out, str) else " ".join(str(c) for r in out for c in r)
+            assert "internal error" not in text and len(text) < 20_000, text[:200]
+    assert not marker.exists()
+
+
+def test_a_monte_carlo_too_large_for_a_cell_is_refused_before_it_runs(monkeypatch):
+    # 2,000 ports x 10^5 trials would take about 20 s and, in one kernel call, 36 GB; the cell
+    # answers with the work it would be and what to do, and the kernel is never asked.
+    from portflux.core import uncertainty as G
+
+    def never(*a, **k):
+        raise AssertionError("the propagation ran")
+    monkeypatch.setattr(G, "monte_carlo", never)
+    monkeypatch.setattr(G, "gum", never)
+    many = (HEAD + ("u_vx",), UNITS + ("%",), JET + (1.0,)) + tuple(
+        (f"o{i}", "out", 0.05 / 2000, 1.94, 80.0, None) for i in range(2000))
+    out = C.PFX_LOADUNCERTAINTY(many, 0.0)
+    assert isinstance(out, str) and "above the 3,000,000 a cell answers" in out, out
+    assert "give trials of at most 1,496" in out and len(out) <= MAX_MESSAGE
+    # the GUM alone (no trials): 2,001 ports each with an uncertain speed are 4,001 points each
+    every = (HEAD + ("u_vx",), UNITS + ("%",), JET + (1.0,)) + tuple(
+        (f"o{i}", "out", 0.05 / 2000, 1.94, 80.0, 1.0) for i in range(2000))
+    out = C.PFX_UNCERTAINTYBUDGET(every, 0.0)
+    assert isinstance(out, str) and "(0 trials + 4,003 GUM points)" in out, out
+
+
+def test_the_memory_of_a_large_propagation_is_chunked_by_ports():
+    # the Python API has no work bound: its kernel calls are cut so that ports x points stays
+    # within MAX_PORT_POINTS (one call held 1.8 GB for 100 ports x 10^5 trials before)
+    import portflux as pf
+    from portflux import propagate as P
+
+    rows = [{"port": "jet", "role": "in", "area": 0.05, "density": 1.94, "vx": 80.0,
+             "u_vx": "1 %"}] + [{"port": f"o{i}", "role": "out", "area": 0.05 / 300,
+                                 "density": 1.94, "vx": 80.0} for i in range(300)]
+    seen = []
+    real = P.model_of
+
+    def spy(pb, inputs, motion):
+        f = real(pb, inputs, motion)
+
+        def g(X):
+            seen.append(X.shape[1] * pb.ports.area.size)
+            return f(X)
+        return g
+    P.model_of = spy
+    try:
+        r = pf.load_uncertainty(rows, 0.0, units="US", trials=20_000, seed=1)
+    finally:
+        P.model_of = real
+    assert max(seen) <= P.MAX_PORT_POINTS and len(seen) > 2, seen
+    assert r.values()["force on body x"]["u"] > 0
+
+
+def test_a_workbooks_time_budget_cannot_hold_a_cell_past_a_second(monkeypatch):
+    # a time_budget of 600 s typed in a workbook: the cell hands the integrator its own second
+    # (the integrator's stop at its budget is tested in test_history.py), and the API keeps 600
+    from portflux.cells import _history as H
+
+    asked = []
+    real = H.speed_history
+
+    def spy(*a, **k):
+        asked.append(k["max_seconds"])
+        return real(*a, **k)
+    monkeypatch.setattr(H, "speed_history", spy)
+    settings = (("carriage_mass", 50.0, "kg"), ("duration", 5.0, "s"), ("time_budget", 600, "s"))
+    out = C.PFX_SPEEDHISTORY(CLOSED, settings)
+    assert not isinstance(out, str) and asked == [H.CELL_SECONDS] and H.CELL_SECONDS == 1.0

@@ -352,6 +352,18 @@ class Propagation:
 NDIG = 1
 
 
+#: Most ports x points of one call of the batched kernel: about 180 bytes per port and point
+#: were measured over all of a call's arrays (1.8 GB for 100 ports x 10^5 trials in one call),
+#: so a call stays near 190 MB however many ports the table has.
+MAX_PORT_POINTS = 2 ** 20
+
+
+def chunk_for(pb: B.Problem) -> int:
+    """Points per kernel call for ``pb``: :data:`portflux.core.uncertainty.CHUNK`, fewer where
+    the table has so many ports that ports x points would pass :data:`MAX_PORT_POINTS`."""
+    return max(1, min(G.CHUNK, MAX_PORT_POINTS // max(1, pb.ports.area.size)))
+
+
 def propagate(pb: B.Problem, inputs, motion: Motion, *, trials=G.TRIALS, seed=None,
               monte_carlo=True, ndig=NDIG) -> Propagation:
     """GUM (always) and Monte Carlo (``monte_carlo``) propagation of ``inputs``; the GUM
@@ -362,8 +374,9 @@ def propagate(pb: B.Problem, inputs, motion: Motion, *, trials=G.TRIALS, seed=No
     f = model_of(pb, inputs, motion)
     x = np.array([i.value for i in inputs])
     u = np.array([i.u for i in inputs])
-    g = G.gum(f, x, u)
-    mc = G.monte_carlo(f, x, u, trials, seed) if monte_carlo else None
+    chunk = chunk_for(pb)
+    g = G.gum(f, x, u, chunk)
+    mc = G.monte_carlo(f, x, u, trials, seed, chunk) if monte_carlo else None
     ok = G.validate(g, mc, ndig) if mc is not None else None
     return Propagation(outputs(pb, motion), tuple(inputs), g, mc, ok)
 

@@ -56,6 +56,10 @@ def _message(e: InputError, pb) -> str:
     return render(e, pb.table)
 
 
+#: Most computing time one cell's integration may take [s], below any larger time_budget.
+CELL_SECONDS = 1.0
+
+
 @memory_lru(32)
 def _history(pkey, skey, dkey, vkey):
     """(True, (problem, history)) or (False, message) of one carriage run (cached)."""
@@ -66,6 +70,9 @@ def _history(pkey, skey, dkey, vkey):
         shown = lambda u: f"{us.out(u, 'velocity'):.6g} {us.label('velocity')}"   # noqa: E731
         try:
             opts = B.history_options(pb.settings, door="sheet")
+            # a cell answers in about a second whatever the workbook sets (the API keeps the
+            # setting's own budget)
+            opts["max_seconds"] = min(opts["max_seconds"], CELL_SECONDS)
             return True, (pb, speed_history(pb.model, direction=d, shown=shown, **opts), shown)
         except InputError as e:
             raise CellError(_message(e, pb)) from None

@@ -76,7 +76,16 @@ class GumResult:
         return [(int(j), float(self.sensitivity[output, j]), float(c[j])) for j in order]
 
 
-def gum(f, x, u) -> GumResult:
+def _evaluated(f, X, chunk):
+    """``f(X)`` (k, S) -> (q, S), in column blocks of at most ``chunk`` points (one call when
+    they fit: the memory of the model's sample arrays grows with points x ports)."""
+    if X.shape[1] <= chunk:
+        return np.asarray(f(X), dtype=float)
+    return np.concatenate([np.asarray(f(X[:, i:i + chunk]), dtype=float)
+                           for i in range(0, X.shape[1], chunk)], axis=1)
+
+
+def gum(f, x, u, chunk=CHUNK) -> GumResult:
     """Law of propagation of uncertainty, first order, with a numerical Jacobian.
 
     .. math::
@@ -92,6 +101,8 @@ def gum(f, x, u) -> GumResult:
         Estimates of the inputs [their units].
     u : array_like (k,)
         Their standard uncertainties [the same units]; 0: the input is exact.
+    chunk : int, optional
+        Most points per call of ``f`` (all 2k + 1 in one call when they fit).
 
     Returns
     -------
@@ -114,7 +125,7 @@ def gum(f, x, u) -> GumResult:
     idx = np.arange(k)
     X[idx, 1 + idx] += h
     X[idx, 1 + k + idx] -= h
-    Y = np.asarray(f(X), dtype=float)
+    Y = _evaluated(f, X, chunk)
     y0 = Y[:, 0]
     with np.errstate(divide="ignore", invalid="ignore"):
         c = np.where(h > 0, (Y[:, 1:1 + k] - Y[:, 1 + k:]) / (2.0 * np.where(h > 0, h, 1.0)),
@@ -143,7 +154,7 @@ def draws(x, u, count, rng):
     return z
 
 
-def monte_carlo(f, x, u, trials=TRIALS, seed=None) -> MonteCarloResult:
+def monte_carlo(f, x, u, trials=TRIALS, seed=None, chunk=CHUNK) -> MonteCarloResult:
     """Monte Carlo propagation of Gaussian inputs through ``f``.
 
     .. math::
@@ -164,6 +175,9 @@ def monte_carlo(f, x, u, trials=TRIALS, seed=None) -> MonteCarloResult:
         Number of trials M (>= 100).
     seed : int, optional
         Seed of the generator (numpy's PCG64): the same seed gives the same result.
+    chunk : int, optional
+        Trials drawn and evaluated per call of ``f`` (one generator per chunk, so a seed gives
+        the same numbers for the same chunk).
 
     Returns
     -------
@@ -181,11 +195,12 @@ def monte_carlo(f, x, u, trials=TRIALS, seed=None) -> MonteCarloResult:
     trials = int(trials)
     if trials < 100:
         raise InputError(f"needs at least 100 trials (got {trials})", argument="trials")
-    starts = range(0, trials, CHUNK)      # one generator per chunk, spawned from the seed
+    chunk = max(1, int(chunk))
+    starts = range(0, trials, chunk)      # one generator per chunk, spawned from the seed
     streams = np.random.SeedSequence(seed).spawn(len(starts))
     parts = []
     for start, stream in zip(starts, streams):
-        X = draws(x, u, min(CHUNK, trials - start), np.random.Generator(np.random.PCG64(stream)))
+        X = draws(x, u, min(chunk, trials - start), np.random.Generator(np.random.PCG64(stream)))
         parts.append(np.asarray(f(X), dtype=float))
     Y = parts[0] if len(parts) == 1 else np.concatenate(parts, axis=1)
     low, high = np.quantile(Y, [0.025, 0.975], axis=1)
